@@ -1,0 +1,5 @@
+//! Host-side converter for Kinglet: import a trained dense classifier and its input scaler,
+//! quantise it to int8, pack it into the runtime's binary format, and report on it.
+#![deny(missing_docs)]
+
+pub mod graph;

@@ -1,0 +1,4 @@
+//! The `kinglet` command-line tool.
+fn main() {
+    println!("kinglet");
+}
