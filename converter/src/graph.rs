@@ -59,3 +59,61 @@ pub struct FloatModel {
     /// Class labels, one per class (empty when the source has none).
     pub labels: Vec<String>,
 }
+
+impl Scaler {
+    /// Applies the scaler to one raw row, in f32 as the runtime does: `(x - offset) * scale`.
+    pub fn apply(&self, raw: &[f32]) -> Vec<f32> {
+        raw.iter()
+            .enumerate()
+            .map(|(i, &x)| {
+                let off = self.offset.get(i).or(self.offset.first()).copied().unwrap_or(0.0);
+                let sc = self.scale.get(i).or(self.scale.first()).copied().unwrap_or(1.0);
+                (x - off) * sc
+            })
+            .collect()
+    }
+}
+
+impl FloatModel {
+    /// Number of classes the model tells apart (2 for a single sigmoid output).
+    pub fn classes(&self) -> usize {
+        match (self.output, self.layers.last()) {
+            (OutputKind::Sigmoid, _) => 2,
+            (_, Some(l)) => l.outputs,
+            (_, None) => 0,
+        }
+    }
+
+    /// Straightforward f64-accumulating forward pass of the imported model, used to check
+    /// importers against reference evaluators. Returns the output scores (after softmax or
+    /// sigmoid, if the model has one). Panics never; a width mismatch yields fewer outputs.
+    pub fn forward_reference(&self, raw: &[f32]) -> Vec<f64> {
+        let mut x: Vec<f64> = match &self.scaler {
+            Some(s) => s.apply(raw).into_iter().map(f64::from).collect(),
+            None => raw.iter().map(|&v| f64::from(v)).collect(),
+        };
+        for layer in &self.layers {
+            let mut y = Vec::with_capacity(layer.outputs);
+            for o in 0..layer.outputs {
+                let row = layer.weights.get(o * layer.inputs..(o + 1) * layer.inputs).unwrap_or(&[]);
+                let dot: f64 = row.iter().zip(&x).map(|(&w, &v)| f64::from(w) * v).sum();
+                let v = dot + f64::from(layer.bias.get(o).copied().unwrap_or(0.0));
+                y.push(match layer.activation {
+                    Activation::Relu => v.max(0.0),
+                    Activation::Linear => v,
+                });
+            }
+            x = y;
+        }
+        match self.output {
+            OutputKind::Softmax => {
+                let m = x.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+                let e: Vec<f64> = x.iter().map(|v| (v - m).exp()).collect();
+                let s: f64 = e.iter().sum();
+                e.into_iter().map(|v| v / s).collect()
+            }
+            OutputKind::Sigmoid => x.into_iter().map(|v| 1.0 / (1.0 + (-v).exp())).collect(),
+            OutputKind::Logits => x,
+        }
+    }
+}

@@ -3,3 +3,6 @@
 #![deny(missing_docs)]
 
 pub mod graph;
+pub mod import;
+pub mod dataset;
+pub mod scaler_file;

@@ -1,0 +1,1 @@
+//! Datasets for calibration and comparison: CSV and NPY loading (in progress).

@@ -1,0 +1,1 @@
+//! ONNX import (in progress).

@@ -1,0 +1,1 @@
+//! The plain JSON model description (in progress).

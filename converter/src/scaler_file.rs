@@ -1,0 +1,1 @@
+//! Separately saved input scalers (in progress).
