@@ -20,6 +20,7 @@ from pathlib import Path
 
 import numpy as np
 
+sys.dont_write_bytecode = True  # keep the source tree free of __pycache__
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 import requant_ref  # noqa: E402
 
