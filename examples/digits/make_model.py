@@ -75,8 +75,8 @@ def main(argv: list[str]) -> int:
         options={id(clf): {"zipmap": False}},
         target_opset={"": 17, "ai.onnx.ml": 3},
     )
-    model_bytes = onx.SerializeToString()
-    (out / "model.onnx").write_bytes(model_bytes)
+    onx.graph.name = "digits_mlp"  # skl2onnx names the graph with a random UUID; fix it for reproducible bytes
+    (out / "model.onnx").write_bytes(onx.SerializeToString())
 
     # Cross-check: the onnx package's reference evaluator on the exported graph reproduces predict_proba.
     try:

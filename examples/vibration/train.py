@@ -100,6 +100,7 @@ def main(argv: list[str]) -> int:
         options={id(clf): {"zipmap": False}},
         target_opset={"": 17, "ai.onnx.ml": 3},
     )
+    onx.graph.name = "vibration_mlp"  # skl2onnx names the graph with a random UUID; fix it for reproducible bytes
     (out / "model.onnx").write_bytes(onx.SerializeToString())
 
     # Cross-check with the onnx package's reference evaluator (float32 graph vs float64 scikit-learn).

@@ -101,6 +101,8 @@ def compare_onnx(a: Path, b: Path) -> str | None:
     if ma.ir_version != mb.ir_version:
         return f"ir_version differs: {ma.ir_version} vs {mb.ir_version}"
     ga, gb = ma.graph, mb.graph
+    if ga.name != gb.name:
+        return f"graph name differs: {ga.name!r} vs {gb.name!r}"
     for kind in ("input", "output"):
         la = [_value_info(v) for v in getattr(ga, kind)]
         lb = [_value_info(v) for v in getattr(gb, kind)]
