@@ -1,5 +1,17 @@
-//! wire types
+//! The blob's body: the layer table and quantisation parameters, serialised with postcard.
+//!
+//! Every tensor is a borrowed byte slice into the blob (zero-copy) holding little-endian
+//! elements. `FORMAT.md` §3 describes each field; [`crate::validate`] enforces §5.
 use serde::{Deserialize, Serialize};
+
+/// Most dense layers a blob may hold (bounds the layer table, a `heapless::Vec`).
+pub const MAX_LAYERS: usize = 8;
+
+/// Widest tensor (inputs or outputs of a layer) a blob may declare.
+pub const MAX_WIDTH: u32 = 16_384;
+
+/// Largest right shift (for the integer input path's per-feature fixed point).
+pub const MAX_INPUT_SHIFT: u8 = 62;
 
 /// Activation applied to a dense layer's output (fused into requantisation).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -21,4 +33,133 @@ pub enum OutputKind {
     Softmax,
     /// One output through the logistic function: a binary classifier.
     Sigmoid,
+}
+
+/// Numeric precision of the whole model.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Precision {
+    /// int8 weights and activations, int32 accumulators, integer-only requantisation.
+    Int8,
+    /// f32 weights and activations.
+    F32,
+}
+
+impl Precision {
+    /// Bytes per activation element.
+    pub const fn activation_bytes(self) -> usize {
+        match self {
+            Precision::Int8 => 1,
+            Precision::F32 => 4,
+        }
+    }
+}
+
+/// Order of the weight matrix in `LayerDesc::weights`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum WeightLayout {
+    /// `[outputs][inputs]`, row by row: element `o * inputs + i`.
+    OutputMajor,
+}
+
+/// The saved input scaler: `y[i] = (x[i] - offset[i]) * scale[i]` in f32.
+///
+/// Both tensors hold `n` little-endian `f32`, with `n` = 1 (one map for every feature) or the
+/// model's input width.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct ScalerDesc<'a> {
+    /// Subtracted from each raw feature.
+    #[serde(borrow)]
+    pub offset: &'a [u8],
+    /// Multiplied after the subtraction.
+    #[serde(borrow)]
+    pub scale: &'a [u8],
+}
+
+/// Quantisation of the scaled input to int8 (int8 models only).
+///
+/// Float inputs: `q = saturate(round_half_even(y / scale) + zero_point)`, as ONNX
+/// `QuantizeLinear`. Integer inputs (`i16`, `u8`) skip the float scaler and use the per-feature
+/// fixed-point map `q = saturate((x * int_mult + int_add + 2^(s-1)) >> s)` with `s = int_shift`,
+/// which the converter derives from the same scaler and quantisation.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct InputQuantDesc<'a> {
+    /// Scale of the quantised input tensor.
+    pub scale: f32,
+    /// Zero point of the quantised input tensor.
+    pub zero_point: i8,
+    /// `n` little-endian `i32` multipliers (n = 1 or the input width).
+    #[serde(borrow)]
+    pub int_mult: &'a [u8],
+    /// `n` little-endian `i64` addends (already holding the zero point and rounding base).
+    #[serde(borrow)]
+    pub int_add: &'a [u8],
+    /// `n` right shifts, each at most [`MAX_INPUT_SHIFT`].
+    #[serde(borrow)]
+    pub int_shift: &'a [u8],
+}
+
+/// Quantisation parameters of one int8 dense layer.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct LayerQuantDesc<'a> {
+    /// `outputs` little-endian `f32`: the symmetric per-channel weight scales (for reports and
+    /// dequantisation; not used by inference).
+    #[serde(borrow)]
+    pub weight_scale: &'a [u8],
+    /// `outputs` little-endian `i32` fixed-point multipliers in `[2^30, 2^31 - 1]`.
+    #[serde(borrow)]
+    pub multiplier: &'a [u8],
+    /// `outputs` signed right shifts in `[-31, 31]` (negative: saturating left shift).
+    #[serde(borrow)]
+    pub shift: &'a [u8],
+    /// Scale of the layer's int8 output.
+    pub output_scale: f32,
+    /// Zero point of the layer's int8 output.
+    pub output_zero_point: i8,
+}
+
+/// One dense layer.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct LayerDesc<'a> {
+    /// Input width.
+    pub inputs: u32,
+    /// Output width.
+    pub outputs: u32,
+    /// Activation fused after the layer.
+    pub activation: Activation,
+    /// Order of `weights`.
+    pub layout: WeightLayout,
+    /// `inputs * outputs` weights: `i8` for int8 models, little-endian `f32` for f32 models.
+    #[serde(borrow)]
+    pub weights: &'a [u8],
+    /// `outputs` biases: little-endian `i32` (input zero point folded in) or `f32`.
+    #[serde(borrow)]
+    pub bias: &'a [u8],
+    /// Present exactly when the model is int8.
+    #[serde(borrow)]
+    pub quant: Option<LayerQuantDesc<'a>>,
+}
+
+/// The whole body of a blob.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ModelDesc<'a> {
+    /// Width of the raw input vector.
+    pub input_len: u32,
+    /// Precision of every layer.
+    pub precision: Precision,
+    /// The saved input scaler, if any.
+    #[serde(borrow)]
+    pub scaler: Option<ScalerDesc<'a>>,
+    /// Input quantisation: present exactly when the model is int8.
+    #[serde(borrow)]
+    pub input_quant: Option<InputQuantDesc<'a>>,
+    /// The dense layers in order.
+    #[serde(borrow)]
+    pub layers: heapless::Vec<LayerDesc<'a>, MAX_LAYERS>,
+    /// What turns the last layer's outputs into scores.
+    pub output: OutputKind,
+    /// Class labels separated by `'\n'`; empty when the model has none.
+    #[serde(borrow)]
+    pub labels: &'a str,
 }

@@ -1,5 +1,64 @@
-//! Kinglet runtime (work in progress).
+//! # kinglet-runtime
+//!
+//! Allocation-free inference for small dense classifiers on microcontrollers.
+//!
+//! A model is a *blob* (see `FORMAT.md` in the repository) that the firmware keeps in flash and
+//! reads in place. [`Model::parse`] checks everything once — header, checksum, every length,
+//! every shape, every quantisation parameter, and that no int8 accumulator can overflow — and
+//! returns a validated [`Model`]. After that, inference cannot panic or read out of bounds.
+//!
+//! Inference works in a caller-owned *arena* whose exact size the blob states in its header, so
+//! a firmware can size a `static` at build time with the `const fn` [`arena_bytes`]:
+//!
+//! ```
+//! # fn demo(blob: &[u8]) -> Result<(), kinglet_runtime::Error> {
+//! use kinglet_runtime::{Input, Model};
+//! let model = Model::parse(blob)?;
+//! let mut arena = [0u8; 256];
+//! let mut scores = [0f32; 10];
+//! let features = [0.5f32; 4];
+//! let prediction = model.infer(Input::F32(&features), &mut arena, &mut scores)?;
+//! # let _ = prediction;
+//! # Ok(())
+//! # }
+//! ```
+//!
+//! The steps a sample goes through each have a module: [`scale`] (the saved input scaler and
+//! input quantisation), [`dense`] (int8 and f32 kernels), [`requant`] (integer-only
+//! requantisation after Jacob et al., 2018), [`output`] (softmax, sigmoid, argmax) and
+//! [`arena`] (buffer planning).
 #![cfg_attr(not(test), no_std)]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
+#![cfg_attr(
+    not(test),
+    deny(
+        clippy::unwrap_used,
+        clippy::expect_used,
+        clippy::panic,
+        clippy::indexing_slicing
+    )
+)]
+
+pub mod arena;
+pub mod dense;
+#[cfg(any(test, feature = "encode"))]
+pub mod encode;
+mod error;
 pub mod format;
+pub mod header;
+mod le;
+mod model;
+pub mod output;
+pub mod requant;
+pub mod scale;
+mod stage;
+#[cfg(test)]
+mod testutil;
+mod validate;
+
+pub use error::{Error, FormatError, RunError, TensorKind};
+pub use format::{Activation, OutputKind, Precision};
+pub use header::{arena_bytes, blob_len, CHECKSUM, FORMAT_VERSION, HEADER_LEN, MAGIC};
+pub use model::{Input, LayerView, Model, Prediction};
+pub use stage::{Activations, Stage};

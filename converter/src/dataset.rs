@@ -1,1 +1,0 @@
-//! Datasets for calibration and comparison: CSV and NPY loading (in progress).

@@ -1,1 +1,0 @@
-//! The plain JSON model description (in progress).

@@ -1,0 +1,534 @@
+//! The validated model and the forward pass.
+use crate::arena::ArenaPlan;
+use crate::dense::{dense_f32, dense_i8, DenseI8};
+use crate::error::{FormatError, RunError};
+use crate::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision};
+use crate::header::{Header, HEADER_LEN};
+use crate::output::{argmax, sigmoid, softmax};
+use crate::requant::activation_range;
+use crate::scale::{integer_params, quantize_integer, quantize_linear, Scaler};
+use crate::stage::{Activations, Stage};
+use crate::{le, validate};
+
+/// Raw input values, in the units the model's scaler expects.
+#[derive(Debug, Clone, Copy)]
+pub enum Input<'a> {
+    /// Float features (scaled by the saved scaler, then quantised for int8 models).
+    F32(&'a [f32]),
+    /// Signed 16-bit counts, such as accelerometer samples. On int8 models this path uses
+    /// integer arithmetic only.
+    I16(&'a [i16]),
+    /// Unsigned bytes, such as pixels. On int8 models this path uses integer arithmetic only.
+    U8(&'a [u8]),
+}
+
+impl Input<'_> {
+    fn len(&self) -> usize {
+        match self {
+            Input::F32(v) => v.len(),
+            Input::I16(v) => v.len(),
+            Input::U8(v) => v.len(),
+        }
+    }
+}
+
+/// The result of one inference.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Prediction {
+    /// Index of the predicted class (ties resolve to the lowest index).
+    pub class: usize,
+    /// The predicted class's score (its probability for softmax and sigmoid outputs).
+    pub score: f32,
+}
+
+/// A read-only view of one layer, for reports.
+#[derive(Debug, Clone, Copy)]
+pub struct LayerView<'a> {
+    /// The layer as stored.
+    pub desc: &'a LayerDesc<'a>,
+}
+
+impl LayerView<'_> {
+    /// Trainable parameters: `inputs · outputs + outputs`.
+    pub fn parameters(&self) -> usize {
+        let (i, o) = (self.desc.inputs as usize, self.desc.outputs as usize);
+        i * o + o
+    }
+
+    /// Bytes this layer's tensors occupy in the blob.
+    pub fn tensor_bytes(&self) -> usize {
+        let q = self.desc.quant.map_or(0, |q| {
+            q.weight_scale.len() + q.multiplier.len() + q.shift.len()
+        });
+        self.desc.weights.len() + self.desc.bias.len() + q
+    }
+
+    /// Multiply-accumulates per inference.
+    pub fn macs(&self) -> usize {
+        self.desc.inputs as usize * self.desc.outputs as usize
+    }
+}
+
+/// A parsed and fully validated model, borrowing the blob.
+#[derive(Debug, Clone)]
+pub struct Model<'a> {
+    desc: ModelDesc<'a>,
+    plan: ArenaPlan,
+    blob_len: usize,
+}
+
+impl<'a> Model<'a> {
+    /// Parses and validates `blob` (exactly one blob, see [`crate::blob_len`]).
+    ///
+    /// Every rule of `FORMAT.md` §5 is checked here, once.
+    pub fn parse(blob: &'a [u8]) -> Result<Self, FormatError> {
+        let header = Header::read(blob)?;
+        let body = blob.get(HEADER_LEN..).unwrap_or(&[]);
+        let (desc, rest) =
+            postcard::take_from_bytes::<ModelDesc<'a>>(body).map_err(|_| FormatError::Malformed)?;
+        if !rest.is_empty() {
+            return Err(FormatError::TrailingBytes);
+        }
+        let plan = validate::check(&desc)?;
+        let computed = u32::try_from(plan.total()).unwrap_or(u32::MAX);
+        if computed != header.arena_bytes {
+            return Err(FormatError::ArenaMismatch {
+                header: header.arena_bytes,
+                computed,
+            });
+        }
+        Ok(Model {
+            desc,
+            plan,
+            blob_len: blob.len(),
+        })
+    }
+
+    /// The decoded layer table.
+    pub fn desc(&self) -> &ModelDesc<'a> {
+        &self.desc
+    }
+
+    /// Arena bytes [`Model::infer`] needs (the same number as [`crate::arena_bytes`]).
+    pub fn arena_bytes(&self) -> usize {
+        self.plan.total()
+    }
+
+    /// How the arena is split.
+    pub fn arena_plan(&self) -> ArenaPlan {
+        self.plan
+    }
+
+    /// Bytes of the blob (its flash footprint).
+    pub fn blob_bytes(&self) -> usize {
+        self.blob_len
+    }
+
+    /// Input width.
+    pub fn input_len(&self) -> usize {
+        self.desc.input_len as usize
+    }
+
+    /// Number of scores [`Model::infer`] writes: the last layer's width.
+    pub fn output_len(&self) -> usize {
+        self.desc.layers.last().map_or(0, |l| l.outputs as usize)
+    }
+
+    /// Number of classes (2 for a sigmoid output).
+    pub fn classes(&self) -> usize {
+        match self.desc.output {
+            OutputKind::Sigmoid => 2,
+            _ => self.output_len(),
+        }
+    }
+
+    /// Precision of the model.
+    pub fn precision(&self) -> Precision {
+        self.desc.precision
+    }
+
+    /// The layers, in order.
+    pub fn layers(&self) -> impl Iterator<Item = LayerView<'_>> {
+        self.desc.layers.iter().map(|desc| LayerView { desc })
+    }
+
+    /// Class labels, in class order (empty if the blob has none).
+    pub fn labels(&self) -> impl Iterator<Item = &'a str> {
+        let labels = self.desc.labels;
+        labels.split('\n').filter(move |_| !labels.is_empty())
+    }
+
+    /// The label of class `i`, if the blob has labels.
+    pub fn label(&self, i: usize) -> Option<&'a str> {
+        self.labels().nth(i)
+    }
+
+    /// Runs one inference. `arena` needs [`Model::arena_bytes`] bytes, `scores` at least
+    /// [`Model::output_len`] elements; on error the contents of both are unspecified.
+    ///
+    /// Float inputs must be finite. Integer inputs are always accepted.
+    pub fn infer(
+        &self,
+        input: Input<'_>,
+        arena: &mut [u8],
+        scores: &mut [f32],
+    ) -> Result<Prediction, RunError> {
+        self.infer_traced(input, arena, scores, &mut |_| {})
+    }
+
+    /// [`Model::infer`], calling `trace` with the input tensor and each layer's output.
+    pub fn infer_traced<F: FnMut(&Stage<'_>)>(
+        &self,
+        input: Input<'_>,
+        arena: &mut [u8],
+        scores: &mut [f32],
+        trace: &mut F,
+    ) -> Result<Prediction, RunError> {
+        let n = self.input_len();
+        if input.len() != n {
+            return Err(RunError::InputLength {
+                expected: n as u32,
+                got: input.len() as u32,
+            });
+        }
+        let out_len = self.output_len();
+        if scores.len() < out_len {
+            return Err(RunError::ScoresTooSmall {
+                needed: out_len as u32,
+                got: scores.len() as u32,
+            });
+        }
+        let too_small = RunError::ArenaTooSmall {
+            needed: self.plan.total() as u32,
+            got: u32::try_from(arena.len()).unwrap_or(u32::MAX),
+        };
+        if arena.len() < self.plan.total() {
+            return Err(too_small);
+        }
+        let (ping, pong) = arena
+            .split_at_mut_checked(self.plan.ping)
+            .ok_or(too_small)?;
+        let scores = scores.get_mut(..out_len).ok_or(too_small)?;
+        let elem = self.desc.precision.activation_bytes();
+        let first = ping.get_mut(..n * elem).ok_or(too_small)?;
+        let mut quant = self.load_input(input, first)?;
+        trace(&Stage {
+            index: 0,
+            values: view(quant, first),
+        });
+
+        for (k, layer) in self.desc.layers.iter().enumerate() {
+            let (src, dst): (&[u8], &mut [u8]) = if k.is_multiple_of(2) {
+                (&*ping, &mut *pong)
+            } else {
+                (&*pong, &mut *ping)
+            };
+            let src = src.get(..layer.inputs as usize * elem).ok_or(too_small)?;
+            let dst = dst
+                .get_mut(..layer.outputs as usize * elem)
+                .ok_or(too_small)?;
+            quant = run_layer(layer, src, dst);
+            trace(&Stage {
+                index: k + 1,
+                values: view(quant, dst),
+            });
+        }
+
+        // Dequantise (or copy) the last tensor into the scores.
+        let last = if self.desc.layers.len().is_multiple_of(2) {
+            &*ping
+        } else {
+            &*pong
+        };
+        let values = view(quant, last);
+        for (i, s) in scores.iter_mut().enumerate() {
+            *s = values.real(i).unwrap_or(0.0);
+        }
+        if self.desc.precision == Precision::F32 && !scores.iter().all(|s| s.is_finite()) {
+            return Err(RunError::NonFiniteOutput);
+        }
+        match self.desc.output {
+            OutputKind::Softmax => softmax(scores),
+            OutputKind::Sigmoid => {
+                for s in scores.iter_mut() {
+                    *s = sigmoid(*s);
+                }
+            }
+            OutputKind::Logits => {}
+        }
+        if self.desc.output == OutputKind::Sigmoid {
+            let p = scores.first().copied().unwrap_or(0.0);
+            return Ok(if p > 0.5 {
+                Prediction { class: 1, score: p }
+            } else {
+                Prediction {
+                    class: 0,
+                    score: 1.0 - p,
+                }
+            });
+        }
+        let (class, score) = argmax(scores).unwrap_or((0, 0.0));
+        Ok(Prediction { class, score })
+    }
+
+    /// Scales (and for int8, quantises) the raw input into `dst`.
+    fn load_input(&self, input: Input<'_>, dst: &mut [u8]) -> Result<Quant, RunError> {
+        let scaler = Scaler::new(self.desc.scaler);
+        if let Input::F32(v) = input {
+            if let Some(i) = v.iter().position(|x| !x.is_finite()) {
+                return Err(RunError::NonFiniteInput { index: i as u32 });
+            }
+        }
+        match (&self.desc.input_quant, self.desc.precision) {
+            (Some(q), Precision::Int8) => {
+                let integer = |i: usize, x: i32| {
+                    let (m, a, s) = integer_params(q, i);
+                    quantize_integer(x, m, a, s) as u8
+                };
+                match input {
+                    Input::F32(v) => {
+                        for (i, (d, &x)) in dst.iter_mut().zip(v).enumerate() {
+                            *d = quantize_linear(scaler.apply(i, x), q.scale, q.zero_point) as u8;
+                        }
+                    }
+                    Input::I16(v) => {
+                        for (i, (d, &x)) in dst.iter_mut().zip(v).enumerate() {
+                            *d = integer(i, i32::from(x));
+                        }
+                    }
+                    Input::U8(v) => {
+                        for (i, (d, &x)) in dst.iter_mut().zip(v).enumerate() {
+                            *d = integer(i, i32::from(x));
+                        }
+                    }
+                }
+                Ok(Some((q.scale, q.zero_point)))
+            }
+            _ => {
+                for i in 0..input.len() {
+                    let x = match input {
+                        Input::F32(v) => v.get(i).copied().unwrap_or(0.0),
+                        Input::I16(v) => v.get(i).map_or(0.0, |&x| f32::from(x)),
+                        Input::U8(v) => v.get(i).map_or(0.0, |&x| f32::from(x)),
+                    };
+                    le::put_f32(dst, i, scaler.apply(i, x));
+                }
+                Ok(None)
+            }
+        }
+    }
+}
+
+/// Scale and zero point of an int8 tensor; `None` for f32.
+type Quant = Option<(f32, i8)>;
+
+/// A view of `data` with the quantisation `q`.
+fn view(q: Quant, data: &[u8]) -> Activations<'_> {
+    match q {
+        Some((scale, zero_point)) => Activations::Int8 {
+            data,
+            scale,
+            zero_point,
+        },
+        None => Activations::F32 { data },
+    }
+}
+
+/// Runs one layer from `src` into `dst`; returns the output's quantisation.
+fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
+    match &layer.quant {
+        Some(q) => {
+            let (act_min, act_max) = activation_range(layer.activation, q.output_zero_point);
+            let p = DenseI8 {
+                inputs: layer.inputs as usize,
+                weights: layer.weights,
+                bias: layer.bias,
+                multiplier: q.multiplier,
+                shift: q.shift,
+                zero_point: q.output_zero_point,
+                act_min,
+                act_max,
+            };
+            dense_i8(&p, src, dst);
+            Some((q.output_scale, q.output_zero_point))
+        }
+        None => {
+            let relu = layer.activation == Activation::Relu;
+            dense_f32(
+                layer.inputs as usize,
+                layer.weights,
+                layer.bias,
+                relu,
+                src,
+                dst,
+            );
+            None
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::testutil::{tiny_f32, tiny_int8};
+
+    fn trace_int8(model: &Model<'_>, input: Input<'_>) -> (Prediction, Vec<Vec<i8>>) {
+        let mut arena = vec![0u8; model.arena_bytes()];
+        let mut scores = vec![0f32; model.output_len()];
+        let mut stages = Vec::new();
+        let p = model
+            .infer_traced(input, &mut arena, &mut scores, &mut |s: &Stage<'_>| {
+                stages.push(
+                    (0..s.values.len())
+                        .filter_map(|i| s.values.int8(i))
+                        .collect(),
+                );
+            })
+            .unwrap();
+        (p, stages)
+    }
+
+    #[test]
+    fn int8_forward_pass_hand_worked() {
+        let owned = tiny_int8();
+        let blob = owned.blob();
+        let m = Model::parse(&blob).unwrap();
+        assert_eq!(m.arena_bytes(), 7); // ping: max(3, 2), pong: 4
+        assert_eq!(crate::arena_bytes(&blob), 7);
+        assert_eq!(m.labels().collect::<Vec<_>>(), ["off", "on"]);
+        assert_eq!(m.label(1), Some("on"));
+        assert_eq!(m.classes(), 2);
+        // See FORMAT.md §6 for this worked example, step by step.
+        let (p, stages) = trace_int8(&m, Input::F32(&[1.0, 2.0, 3.0]));
+        assert_eq!(
+            stages,
+            vec![vec![-10, 0, 10], vec![3, -5, -5, 100], vec![-30, 33]]
+        );
+        assert_eq!(p.class, 1);
+        // softmax([-3.2, 3.1])[1] = 1 / (1 + e^-6.3)
+        assert!((p.score - 1.0 / (1.0 + (-6.3f32).exp())).abs() < 1e-6);
+        // The integer-only paths give the same tensors for the same raw values.
+        assert_eq!(trace_int8(&m, Input::I16(&[1, 2, 3])).1, stages);
+        assert_eq!(trace_int8(&m, Input::U8(&[1, 2, 3])).1, stages);
+    }
+
+    #[test]
+    fn f32_sigmoid_forward_pass_hand_worked() {
+        let blob = tiny_f32().blob();
+        let m = Model::parse(&blob).unwrap();
+        assert_eq!(m.arena_bytes(), 2 * 4 + 3 * 4);
+        let mut arena = vec![0u8; m.arena_bytes()];
+        let mut scores = [0f32; 1];
+        // hidden = relu([-1, 1.6, 0.2]) = [0, 1.6, 0.2]; out = 3.2 - 0.2 - 0.5 = 2.5
+        let p = m
+            .infer(Input::F32(&[1.0, 2.0]), &mut arena, &mut scores)
+            .unwrap();
+        assert_eq!(p.class, 1);
+        assert!((scores[0] - 0.924_141_8).abs() < 1e-6);
+        // hidden = relu([2, -0.9, -1.8]) = [2, 0, 0]; out = 1.5 → class 1, p = sigmoid(1.5)
+        let p = m
+            .infer(Input::I16(&[0, -2]), &mut arena, &mut scores)
+            .unwrap();
+        assert!((p.score - 0.817_574_5).abs() < 1e-6);
+        // out = -0.5 - 0.2·... : x = [0, 0] → hidden [0, 0.1, 0.2], out = 0.2 - 0.2 - 0.5 = -0.5
+        let p = m
+            .infer(Input::U8(&[0, 0]), &mut arena, &mut scores)
+            .unwrap();
+        assert_eq!(p.class, 0);
+        assert!((p.score - (1.0 - 0.377_540_7)).abs() < 1e-6);
+        assert_eq!(m.labels().count(), 0);
+    }
+
+    #[test]
+    fn run_errors_are_typed() {
+        let blob = tiny_int8().blob();
+        let m = Model::parse(&blob).unwrap();
+        let mut arena = [0u8; 7];
+        let mut scores = [0f32; 2];
+        assert_eq!(
+            m.infer(Input::F32(&[1.0]), &mut arena, &mut scores),
+            Err(RunError::InputLength {
+                expected: 3,
+                got: 1
+            })
+        );
+        assert_eq!(
+            m.infer(Input::F32(&[1.0; 3]), &mut arena[..6], &mut scores),
+            Err(RunError::ArenaTooSmall { needed: 7, got: 6 })
+        );
+        assert_eq!(
+            m.infer(Input::F32(&[1.0; 3]), &mut arena, &mut scores[..1]),
+            Err(RunError::ScoresTooSmall { needed: 2, got: 1 })
+        );
+        assert_eq!(
+            m.infer(Input::F32(&[1.0, f32::NAN, 0.0]), &mut arena, &mut scores),
+            Err(RunError::NonFiniteInput { index: 1 })
+        );
+        assert_eq!(
+            m.infer(
+                Input::F32(&[f32::NEG_INFINITY, 0.0, 0.0]),
+                &mut arena,
+                &mut scores
+            ),
+            Err(RunError::NonFiniteInput { index: 0 })
+        );
+        // A bigger arena than needed is fine; extreme integer inputs saturate.
+        let mut big = [0u8; 64];
+        assert!(m
+            .infer(Input::I16(&[i16::MIN, i16::MAX, 0]), &mut big, &mut scores)
+            .is_ok());
+        let f = tiny_f32().blob();
+        let mf = Model::parse(&f).unwrap();
+        let mut a = vec![0u8; mf.arena_bytes()];
+        assert_eq!(
+            mf.infer(Input::F32(&[3e38, 3e38]), &mut a, &mut scores),
+            Err(RunError::NonFiniteOutput)
+        );
+    }
+
+    #[test]
+    fn every_single_byte_corruption_is_rejected() {
+        for owned in [tiny_int8(), tiny_f32()] {
+            let blob = owned.blob();
+            for i in 0..blob.len() {
+                for mask in [0x01u8, 0x10, 0x80, 0xFF] {
+                    let mut bad = blob.clone();
+                    bad[i] ^= mask;
+                    assert!(
+                        Model::parse(&bad).is_err(),
+                        "flip {mask:#04x} at byte {i} accepted"
+                    );
+                }
+            }
+            for n in 0..blob.len() {
+                assert!(
+                    Model::parse(&blob[..n]).is_err(),
+                    "truncation to {n} accepted"
+                );
+            }
+            let mut longer = blob.clone();
+            longer.push(0);
+            assert!(matches!(
+                Model::parse(&longer),
+                Err(FormatError::LengthMismatch { .. })
+            ));
+        }
+    }
+
+    #[test]
+    fn layer_views_count_parameters() {
+        let blob = tiny_int8().blob();
+        let m = Model::parse(&blob).unwrap();
+        let v: Vec<_> = m
+            .layers()
+            .map(|l| (l.parameters(), l.macs(), l.tensor_bytes()))
+            .collect();
+        // 3·4 + 4 = 16 and 4·2 + 2 = 10 (in·out + out)
+        assert_eq!(
+            v,
+            vec![(16, 12, 12 + 16 + 16 + 16 + 4), (10, 8, 8 + 8 + 8 + 8 + 2)]
+        );
+        assert_eq!(m.blob_bytes(), blob.len());
+    }
+}

@@ -1,0 +1,81 @@
+//! The last step: scores from the last layer's outputs — softmax, sigmoid — and argmax.
+
+/// Softmax in place, max-subtracted for range (`exp` from libm). An empty slice is left as is.
+pub fn softmax(scores: &mut [f32]) {
+    let max = scores.iter().copied().fold(f32::NEG_INFINITY, f32::max);
+    let mut sum = 0.0f32;
+    for s in scores.iter_mut() {
+        *s = libm::expf(*s - max);
+        sum += *s;
+    }
+    if sum > 0.0 {
+        let inv = 1.0 / sum;
+        for s in scores.iter_mut() {
+            *s *= inv;
+        }
+    }
+}
+
+/// The logistic function `1 / (1 + e^-x)`.
+pub fn sigmoid(x: f32) -> f32 {
+    1.0 / (1.0 + libm::expf(-x))
+}
+
+/// Index and value of the largest score. Ties resolve to the lowest index; NaN never wins.
+/// Returns `None` for an empty slice.
+pub fn argmax(scores: &[f32]) -> Option<(usize, f32)> {
+    let mut best: Option<(usize, f32)> = None;
+    for (i, &s) in scores.iter().enumerate() {
+        let better = match best {
+            None => !s.is_nan(),
+            Some((_, b)) => s > b,
+        };
+        if better {
+            best = Some((i, s));
+        }
+    }
+    best
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn softmax_of_equal_logits_is_uniform() {
+        let mut s = [3.0f32; 4];
+        softmax(&mut s);
+        assert_eq!(s, [0.25; 4]);
+    }
+
+    #[test]
+    fn softmax_sums_to_one_and_survives_large_logits() {
+        let mut s = [1000.0f32, 0.0, -1000.0];
+        softmax(&mut s);
+        assert_eq!(s[0], 1.0);
+        assert_eq!(s[2], 0.0);
+        let mut t = [0.1f32, 0.2, 0.3, 5.0, -2.0];
+        softmax(&mut t);
+        let sum: f32 = t.iter().sum();
+        assert!((sum - 1.0).abs() < 1e-6);
+        // Hand-worked: softmax([0, ln 3]) = [1/4, 3/4].
+        let mut u = [0.0f32, 3.0f32.ln()];
+        softmax(&mut u);
+        assert!((u[0] - 0.25).abs() < 1e-7 && (u[1] - 0.75).abs() < 1e-7);
+    }
+
+    #[test]
+    fn argmax_ties_resolve_to_lowest_index() {
+        assert_eq!(argmax(&[0.1, 0.4, 0.4, 0.1]), Some((1, 0.4)));
+        assert_eq!(argmax(&[f32::NAN, 0.2, 0.1]), Some((1, 0.2)));
+        assert_eq!(argmax(&[]), None);
+        assert_eq!(argmax(&[f32::NAN]), None);
+    }
+
+    #[test]
+    fn sigmoid_hand_worked() {
+        assert_eq!(sigmoid(0.0), 0.5);
+        assert!((sigmoid(2.0f32) - 0.880_797_1).abs() < 1e-6);
+        assert_eq!(sigmoid(-200.0), 0.0);
+    }
+}

@@ -1,0 +1,481 @@
+//! Every check a reader must make on a decoded layer table (`FORMAT.md` §5), done once.
+//! After [`check`] succeeds, inference cannot index out of bounds or overflow.
+use crate::arena::ArenaPlan;
+use crate::error::{FormatError, TensorKind};
+use crate::format::{
+    InputQuantDesc, LayerDesc, ModelDesc, OutputKind, Precision, MAX_INPUT_SHIFT, MAX_WIDTH,
+};
+use crate::le;
+
+/// Largest addend of the integer input path (keeps its 64-bit sum from overflowing).
+const MAX_INPUT_ADD: i64 = 1 << 62;
+
+fn width(v: u32, layer: Option<u8>) -> Result<usize, FormatError> {
+    if v == 0 {
+        return Err(FormatError::ZeroSized { layer });
+    }
+    if v > MAX_WIDTH {
+        return Err(FormatError::TooWide { layer });
+    }
+    Ok(v as usize)
+}
+
+fn expect_len(
+    bytes: &[u8],
+    len: usize,
+    layer: Option<u8>,
+    tensor: TensorKind,
+) -> Result<(), FormatError> {
+    if bytes.len() == len {
+        Ok(())
+    } else {
+        Err(FormatError::TensorLength { layer, tensor })
+    }
+}
+
+fn finite(bytes: &[u8], layer: Option<u8>, tensor: TensorKind) -> Result<(), FormatError> {
+    if le::f32s(bytes).all(f32::is_finite) {
+        Ok(())
+    } else {
+        Err(FormatError::NonFinite { layer, tensor })
+    }
+}
+
+fn good_scale(s: f32, layer: Option<u8>) -> Result<(), FormatError> {
+    if s.is_finite() && s > 0.0 {
+        Ok(())
+    } else {
+        Err(FormatError::BadScale { layer })
+    }
+}
+
+fn check_input_quant(q: &InputQuantDesc<'_>, input_len: usize) -> Result<(), FormatError> {
+    good_scale(q.scale, None)?;
+    let n = q.int_shift.len();
+    if n != 1 && n != input_len {
+        return Err(FormatError::TensorLength {
+            layer: None,
+            tensor: TensorKind::IntegerInput,
+        });
+    }
+    expect_len(q.int_mult, 4 * n, None, TensorKind::IntegerInput)?;
+    expect_len(q.int_add, 8 * n, None, TensorKind::IntegerInput)?;
+    for (i, (&s, add)) in q.int_shift.iter().zip(le::i64s(q.int_add)).enumerate() {
+        if s > MAX_INPUT_SHIFT || !(-MAX_INPUT_ADD..=MAX_INPUT_ADD).contains(&add) {
+            return Err(FormatError::ShiftOutOfRange {
+                layer: None,
+                channel: i as u32,
+            });
+        }
+    }
+    Ok(())
+}
+
+fn check_layer(
+    l: &LayerDesc<'_>,
+    k: u8,
+    prev: usize,
+    precision: Precision,
+) -> Result<usize, FormatError> {
+    let at = Some(k);
+    let inputs = width(l.inputs, at)?;
+    let outputs = width(l.outputs, at)?;
+    if inputs != prev {
+        return Err(FormatError::ShapeMismatch { layer: k });
+    }
+    let weights = inputs * outputs * precision.activation_bytes();
+    expect_len(l.weights, weights, at, TensorKind::Weights)?;
+    expect_len(l.bias, 4 * outputs, at, TensorKind::Bias)?;
+    match (precision, &l.quant) {
+        (Precision::F32, None) => {
+            finite(l.weights, at, TensorKind::Weights)?;
+            finite(l.bias, at, TensorKind::Bias)?;
+        }
+        (Precision::Int8, Some(q)) => {
+            expect_len(q.weight_scale, 4 * outputs, at, TensorKind::WeightScale)?;
+            expect_len(q.multiplier, 4 * outputs, at, TensorKind::Multiplier)?;
+            expect_len(q.shift, outputs, at, TensorKind::Shift)?;
+            finite(q.weight_scale, at, TensorKind::WeightScale)?;
+            good_scale(q.output_scale, at)?;
+            for (c, m) in le::i32s(q.multiplier).enumerate() {
+                if m < (1 << 30) {
+                    return Err(FormatError::MultiplierOutOfRange {
+                        layer: k,
+                        channel: c as u32,
+                    });
+                }
+            }
+            for (c, &s) in q.shift.iter().enumerate() {
+                if !(-31..=31).contains(&(s as i8)) {
+                    return Err(FormatError::ShiftOutOfRange {
+                        layer: Some(k),
+                        channel: c as u32,
+                    });
+                }
+            }
+            // |bias| + 128 · Σ|w| bounds the accumulator for every int8 input.
+            let rows = l.weights.chunks_exact(inputs);
+            for (c, (row, b)) in rows.zip(le::i32s(l.bias)).enumerate() {
+                let sum: i64 = row
+                    .iter()
+                    .map(|&w| i64::from((w as i8).unsigned_abs()))
+                    .sum();
+                if i64::from(b).abs() + 128 * sum > i64::from(i32::MAX) {
+                    return Err(FormatError::AccumulatorOverflow {
+                        layer: k,
+                        channel: c as u32,
+                    });
+                }
+            }
+        }
+        _ => return Err(FormatError::PrecisionMismatch { layer: at }),
+    }
+    Ok(outputs)
+}
+
+/// Checks a decoded layer table; returns the arena plan it needs.
+pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ArenaPlan, FormatError> {
+    let input_len = width(d.input_len, None)?;
+    if let Some(s) = &d.scaler {
+        let n = s.offset.len() / 4;
+        if !s.offset.len().is_multiple_of(4) || (n != 1 && n != input_len) {
+            return Err(FormatError::TensorLength {
+                layer: None,
+                tensor: TensorKind::ScalerOffset,
+            });
+        }
+        expect_len(s.scale, s.offset.len(), None, TensorKind::ScalerScale)?;
+        finite(s.offset, None, TensorKind::ScalerOffset)?;
+        finite(s.scale, None, TensorKind::ScalerScale)?;
+    }
+    match (d.precision, &d.input_quant) {
+        (Precision::Int8, Some(q)) => check_input_quant(q, input_len)?,
+        (Precision::F32, None) => {}
+        _ => return Err(FormatError::PrecisionMismatch { layer: None }),
+    }
+    if d.layers.is_empty() {
+        return Err(FormatError::NoLayers);
+    }
+    let mut prev = input_len;
+    for (k, l) in d.layers.iter().enumerate() {
+        prev = check_layer(l, k as u8, prev, d.precision)?;
+    }
+    if d.output == OutputKind::Sigmoid && prev != 1 {
+        return Err(FormatError::SigmoidWidth);
+    }
+    if !d.labels.is_empty() {
+        let classes = if d.output == OutputKind::Sigmoid {
+            2
+        } else {
+            prev
+        };
+        let found = d.labels.split('\n').count();
+        if found != classes {
+            return Err(FormatError::LabelCount {
+                expected: classes as u32,
+                found: found as u32,
+            });
+        }
+    }
+    Ok(ArenaPlan::new(
+        input_len,
+        d.layers.iter().map(|l| l.outputs as usize),
+        d.precision.activation_bytes(),
+    ))
+}
+
+#[cfg(test)]
+mod tests {
+    use crate::error::{FormatError as E, TensorKind as T};
+    use crate::format::{Activation, OutputKind, Precision};
+    use crate::testutil::{f32s, i32s, raw_blob, tiny_f32, tiny_int8, OwnedLayer, OwnedModel};
+    use crate::Model;
+
+    /// Parses `m` encoded without the encoder's checks, with the arena field it needs (or 0
+    /// when the plan cannot be computed).
+    fn parse(m: &OwnedModel) -> Result<(), E> {
+        let d = m.desc();
+        let arena = super::check(&d).map_or(0, |p| p.total() as u32);
+        let blob = raw_blob(&d, arena);
+        Model::parse(&blob).map(|_| ())
+    }
+
+    fn with(f: impl FnOnce(&mut OwnedModel)) -> Result<(), E> {
+        let mut m = tiny_int8();
+        f(&mut m);
+        parse(&m)
+    }
+
+    #[test]
+    fn valid_models_pass() {
+        assert_eq!(parse(&tiny_int8()), Ok(()));
+        assert_eq!(parse(&tiny_f32()), Ok(()));
+    }
+
+    #[test]
+    fn rejects_shape_faults() {
+        assert_eq!(with(|m| m.layers.clear()), Err(E::NoLayers));
+        assert_eq!(with(|m| m.input_len = 0), Err(E::ZeroSized { layer: None }));
+        assert_eq!(
+            with(|m| m.input_len = 20_000),
+            Err(E::TooWide { layer: None })
+        );
+        assert_eq!(
+            with(|m| m.layers[1].outputs = 0),
+            Err(E::ZeroSized { layer: Some(1) })
+        );
+        assert_eq!(
+            with(|m| m.layers[1].inputs = 5),
+            Err(E::ShapeMismatch { layer: 1 })
+        );
+        assert_eq!(
+            with(|m| m.layers[0].weights.pop().map(drop).unwrap_or(())),
+            Err(E::TensorLength {
+                layer: Some(0),
+                tensor: T::Weights
+            })
+        );
+        assert_eq!(
+            with(|m| m.layers[1].bias.extend([0; 4])),
+            Err(E::TensorLength {
+                layer: Some(1),
+                tensor: T::Bias
+            })
+        );
+        // Nine layers: the table holds eight. A mirror of ModelDesc with an unbounded Vec has the
+        // same wire layout.
+        #[derive(serde::Serialize)]
+        struct Wide<'a> {
+            input_len: u32,
+            precision: Precision,
+            scaler: Option<crate::format::ScalerDesc<'a>>,
+            input_quant: Option<crate::format::InputQuantDesc<'a>>,
+            layers: &'a [crate::format::LayerDesc<'a>],
+            output: OutputKind,
+            labels: &'a str,
+        }
+        let mut m = tiny_int8();
+        let l = m.layers[1].clone();
+        m.layers.truncate(1);
+        for _ in 0..8 {
+            m.layers.push(OwnedLayer {
+                inputs: 4,
+                outputs: 4,
+                weights: vec![1; 16],
+                bias: vec![0; 16],
+                ..l.clone()
+            });
+            let q = m.layers.last_mut().unwrap().quant.as_mut().unwrap();
+            q.weight_scale = f32s(&[0.01; 4]);
+            q.multiplier = i32s(&[1 << 30; 4]);
+            q.shift = vec![1; 4];
+        }
+        m.labels = String::new();
+        let eight = m.desc(); // heapless keeps the first eight
+        assert_eq!(eight.layers.len(), 8);
+        let mut all: Vec<_> = eight.layers.iter().copied().collect();
+        all.push(all[7]);
+        let wide = Wide {
+            input_len: 3,
+            precision: Precision::Int8,
+            scaler: eight.scaler,
+            input_quant: eight.input_quant,
+            layers: &all,
+            output: OutputKind::Softmax,
+            labels: "",
+        };
+        let mut buf = vec![0u8; 4096];
+        let n = ::postcard::to_slice(&wide, &mut buf).unwrap().len();
+        let mut blob = vec![0u8; 20];
+        blob.extend_from_slice(&buf[..n]);
+        let h = crate::header::Header {
+            version: 1,
+            flags: 0,
+            total_len: blob.len() as u32,
+            crc: 0,
+            arena_bytes: 8,
+        };
+        blob[..20].copy_from_slice(&h.to_bytes());
+        let crc = crate::CHECKSUM.checksum(&blob[16..]);
+        blob[12..16].copy_from_slice(&crc.to_le_bytes());
+        let nine = Model::parse(&blob).map(|_| ());
+        assert_eq!(nine, Err(E::Malformed), "more layers than the table holds");
+    }
+
+    #[test]
+    fn rejects_quantisation_faults() {
+        assert_eq!(
+            with(|m| m.layers[0].quant.as_mut().unwrap().shift[2] = 32),
+            Err(E::ShiftOutOfRange {
+                layer: Some(0),
+                channel: 2
+            })
+        );
+        assert_eq!(
+            with(|m| m.layers[0].quant.as_mut().unwrap().shift[1] = (-32i8) as u8),
+            Err(E::ShiftOutOfRange {
+                layer: Some(0),
+                channel: 1
+            })
+        );
+        assert_eq!(
+            with(|m| m.layers[1].quant.as_mut().unwrap().multiplier =
+                i32s(&[1 << 30, (1 << 30) - 1])),
+            Err(E::MultiplierOutOfRange {
+                layer: 1,
+                channel: 1
+            })
+        );
+        assert_eq!(
+            with(|m| m.layers[1].quant.as_mut().unwrap().multiplier = i32s(&[-5, 1 << 30])),
+            Err(E::MultiplierOutOfRange {
+                layer: 1,
+                channel: 0
+            })
+        );
+        assert_eq!(
+            with(|m| m.layers[0].quant.as_mut().unwrap().output_scale = 0.0),
+            Err(E::BadScale { layer: Some(0) })
+        );
+        assert_eq!(
+            with(|m| m.input_quant.as_mut().unwrap().scale = f32::NAN),
+            Err(E::BadScale { layer: None })
+        );
+        assert_eq!(
+            with(|m| m.input_quant.as_mut().unwrap().int_shift = vec![63]),
+            Err(E::ShiftOutOfRange {
+                layer: None,
+                channel: 0
+            })
+        );
+        assert_eq!(
+            with(|m| m.input_quant.as_mut().unwrap().int_shift = vec![1, 2]),
+            Err(E::TensorLength {
+                layer: None,
+                tensor: T::IntegerInput
+            })
+        );
+        assert_eq!(
+            with(|m| m.layers[0]
+                .quant
+                .as_mut()
+                .unwrap()
+                .shift
+                .pop()
+                .map(drop)
+                .unwrap_or(())),
+            Err(E::TensorLength {
+                layer: Some(0),
+                tensor: T::Shift
+            })
+        );
+        assert_eq!(
+            with(|m| m.layers[0].quant.as_mut().unwrap().weight_scale =
+                f32s(&[0.1, f32::NAN, 0.1, 0.1])),
+            Err(E::NonFinite {
+                layer: Some(0),
+                tensor: T::WeightScale
+            })
+        );
+        assert_eq!(
+            with(|m| m.layers[1].quant = None),
+            Err(E::PrecisionMismatch { layer: Some(1) })
+        );
+        assert_eq!(
+            with(|m| m.input_quant = None),
+            Err(E::PrecisionMismatch { layer: None })
+        );
+        assert_eq!(
+            with(|m| m.precision = Precision::F32),
+            Err(E::PrecisionMismatch { layer: None })
+        );
+        // |bias| + 128 · Σ|w| must fit in i32.
+        assert_eq!(
+            with(|m| m.layers[0].bias = i32s(&[10, i32::MAX - 1919, 30, 400])),
+            Err(E::AccumulatorOverflow {
+                layer: 0,
+                channel: 1
+            })
+        );
+    }
+
+    #[test]
+    fn rejects_scaler_output_and_label_faults() {
+        assert_eq!(
+            with(|m| m.scaler = Some((f32s(&[1.0, 2.0]), f32s(&[1.0, 2.0])))),
+            Err(E::TensorLength {
+                layer: None,
+                tensor: T::ScalerOffset
+            })
+        );
+        assert_eq!(
+            with(|m| m.scaler = Some((f32s(&[1.0]), f32s(&[1.0, 2.0, 3.0])))),
+            Err(E::TensorLength {
+                layer: None,
+                tensor: T::ScalerScale
+            })
+        );
+        assert_eq!(
+            with(|m| m.scaler = Some((f32s(&[f32::INFINITY]), f32s(&[1.0])))),
+            Err(E::NonFinite {
+                layer: None,
+                tensor: T::ScalerOffset
+            })
+        );
+        assert_eq!(
+            with(|m| m.output = OutputKind::Sigmoid),
+            Err(E::SigmoidWidth)
+        );
+        assert_eq!(
+            with(|m| m.labels = "a\nb\nc".into()),
+            Err(E::LabelCount {
+                expected: 2,
+                found: 3
+            })
+        );
+        let mut f = tiny_f32();
+        f.layers[0].weights = f32s(&[1.0, f32::NAN, 0.5, 0.5, -2.0, 1.0]);
+        assert_eq!(
+            parse(&f),
+            Err(E::NonFinite {
+                layer: Some(0),
+                tensor: T::Weights
+            })
+        );
+        let mut f = tiny_f32();
+        f.labels = "healthy\nfaulty".into();
+        assert_eq!(parse(&f), Ok(()), "a sigmoid model has two classes");
+        f.layers[1].activation = Activation::Relu;
+        assert_eq!(parse(&f), Ok(()));
+    }
+
+    #[test]
+    fn rejects_arena_trailing_and_garbage() {
+        let m = tiny_int8();
+        let d = m.desc();
+        assert_eq!(
+            Model::parse(&raw_blob(&d, 8)).map(|_| ()),
+            Err(E::ArenaMismatch {
+                header: 8,
+                computed: 7
+            })
+        );
+        // A valid table followed by one more byte (with a matching header and checksum).
+        let mut blob = raw_blob(&d, 7);
+        blob.push(0);
+        let len = blob.len() as u32;
+        blob[8..12].copy_from_slice(&len.to_le_bytes());
+        let crc = crate::CHECKSUM.checksum(&blob[16..]);
+        blob[12..16].copy_from_slice(&crc.to_le_bytes());
+        assert_eq!(Model::parse(&blob).map(|_| ()), Err(E::TrailingBytes));
+        // A body that is not a layer table at all.
+        let mut junk = raw_blob(&d, 7);
+        junk.truncate(20);
+        junk.extend([0xFF; 12]);
+        let len = junk.len() as u32;
+        junk[8..12].copy_from_slice(&len.to_le_bytes());
+        let crc = crate::CHECKSUM.checksum(&junk[16..]);
+        junk[12..16].copy_from_slice(&crc.to_le_bytes());
+        assert_eq!(Model::parse(&junk).map(|_| ()), Err(E::Malformed));
+    }
+}
