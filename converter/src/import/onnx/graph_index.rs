@@ -1,0 +1,402 @@
+//! An index over a `GraphProto`: who produces and who consumes each value, which values are
+//! constants (initializers and `Constant` nodes), and structural checks done once up front:
+//! one data input, every value defined once, every input defined, no cycle (Kahn's algorithm,
+//! bounded by the node count), every node reachable from the data input.
+
+use std::collections::{HashMap, HashSet, VecDeque};
+
+use super::attr;
+use super::error::OnnxImportError;
+use super::node::{Domain, Node};
+use super::proto::{GraphProto, TensorProto, ValueInfoProto};
+use super::tensor::{decode, Tensor, TensorData};
+
+/// Where a constant value comes from.
+#[derive(Debug, Clone, Copy)]
+enum ConstSource<'g> {
+    Initializer(&'g TensorProto),
+    ConstantNode(Node<'g>),
+}
+
+/// Lookup tables over one graph.
+#[derive(Debug)]
+pub struct GraphIndex<'g> {
+    /// All nodes, in file order.
+    pub nodes: Vec<Node<'g>>,
+    /// The one graph input that is not an initializer.
+    pub input: &'g ValueInfoProto,
+    /// Its name.
+    pub input_name: &'g str,
+    /// Graph output names, in order.
+    pub outputs: Vec<&'g str>,
+    consumers: HashMap<&'g str, Vec<usize>>,
+    constants: HashMap<&'g str, ConstSource<'g>>,
+}
+
+/// True for a `Constant` node of the default domain.
+pub fn is_constant_node(n: &Node<'_>) -> bool {
+    n.domain() == Domain::Onnx && n.op() == "Constant"
+}
+
+impl<'g> GraphIndex<'g> {
+    /// Builds the index and runs the structural checks.
+    pub fn build(graph: &'g GraphProto) -> Result<Self, OnnxImportError> {
+        if graph.node.is_empty() {
+            return Err(OnnxImportError::EmptyGraph);
+        }
+        let nodes: Vec<Node<'g>> = graph
+            .node
+            .iter()
+            .enumerate()
+            .map(|(index, proto)| Node { proto, index })
+            .collect();
+
+        // Definitions: initializers, the data input, node outputs.
+        let mut defined: HashMap<&'g str, String> = HashMap::new();
+        let mut constants = HashMap::new();
+        for t in &graph.initializer {
+            let name = t.name.as_deref().unwrap_or("");
+            if defined
+                .insert(name, format!("initializer '{name}'"))
+                .is_some()
+            {
+                return Err(OnnxImportError::DuplicateValue {
+                    value: name.into(),
+                    first: format!("initializer '{name}'"),
+                    second: format!("initializer '{name}'"),
+                });
+            }
+            constants.insert(name, ConstSource::Initializer(t));
+        }
+        let data_inputs: Vec<&ValueInfoProto> = graph
+            .input
+            .iter()
+            .filter(|v| !constants.contains_key(v.name.as_deref().unwrap_or("")))
+            .collect();
+        let input = match data_inputs.as_slice() {
+            [one] => *one,
+            _ => {
+                return Err(OnnxImportError::Inputs {
+                    names: data_inputs
+                        .iter()
+                        .map(|v| format!("'{}'", v.name.as_deref().unwrap_or("")))
+                        .collect(),
+                })
+            }
+        };
+        let input_name = input.name.as_deref().unwrap_or("");
+        defined.insert(input_name, format!("graph input '{input_name}'"));
+
+        let mut producer: HashMap<&'g str, usize> = HashMap::new();
+        for n in &nodes {
+            for out in n.outputs().iter().filter(|o| !o.is_empty()) {
+                if let Some(first) = defined.get(out.as_str()) {
+                    return Err(OnnxImportError::DuplicateValue {
+                        value: out.clone(),
+                        first: first.clone(),
+                        second: format!("node {}", n.node_ref()),
+                    });
+                }
+                defined.insert(out, format!("node {}", n.node_ref()));
+                producer.insert(out, n.index);
+                if is_constant_node(n) {
+                    constants.insert(out, ConstSource::ConstantNode(*n));
+                }
+            }
+        }
+
+        // Uses: every input must be defined; each node is listed once per distinct input.
+        let mut consumers: HashMap<&'g str, Vec<usize>> = HashMap::new();
+        let mut indegree = vec![0usize; nodes.len()];
+        let mut successors: Vec<Vec<usize>> = vec![Vec::new(); nodes.len()];
+        for n in &nodes {
+            let mut seen = HashSet::new();
+            for inp in n.inputs().iter().filter(|i| !i.is_empty()) {
+                if !seen.insert(inp.as_str()) {
+                    continue;
+                }
+                if !defined.contains_key(inp.as_str()) {
+                    return Err(OnnxImportError::UndefinedValue {
+                        node: n.node_ref(),
+                        value: inp.clone(),
+                    });
+                }
+                consumers.entry(inp).or_default().push(n.index);
+                if let Some(&p) = producer.get(inp.as_str()) {
+                    if let (Some(d), Some(s)) = (indegree.get_mut(n.index), successors.get_mut(p)) {
+                        *d += 1;
+                        s.push(n.index);
+                    }
+                }
+            }
+        }
+
+        // Kahn's algorithm: each node is taken from the queue at most once, so this loop runs
+        // at most `nodes.len()` times.
+        let mut queue: VecDeque<usize> = indegree
+            .iter()
+            .enumerate()
+            .filter(|(_, &d)| d == 0)
+            .map(|(i, _)| i)
+            .collect();
+        let mut done = vec![false; nodes.len()];
+        while let Some(i) = queue.pop_front() {
+            if let Some(d) = done.get_mut(i) {
+                *d = true;
+            }
+            for &s in successors.get(i).map(Vec::as_slice).unwrap_or(&[]) {
+                if let Some(d) = indegree.get_mut(s) {
+                    *d = d.saturating_sub(1);
+                    if *d == 0 {
+                        queue.push_back(s);
+                    }
+                }
+            }
+        }
+        if let Some(n) = nodes
+            .iter()
+            .find(|n| !done.get(n.index).copied().unwrap_or(false))
+        {
+            return Err(OnnxImportError::Cycle { node: n.node_ref() });
+        }
+
+        // Reachability from the data input (each node visited once).
+        let mut reached = vec![false; nodes.len()];
+        let mut frontier = vec![input_name];
+        while let Some(v) = frontier.pop() {
+            for &c in consumers.get(v).map(Vec::as_slice).unwrap_or(&[]) {
+                if let Some(r) = reached.get_mut(c) {
+                    if !*r {
+                        *r = true;
+                        if let Some(n) = nodes.get(c) {
+                            frontier.extend(
+                                n.outputs()
+                                    .iter()
+                                    .filter(|o| !o.is_empty())
+                                    .map(String::as_str),
+                            );
+                        }
+                    }
+                }
+            }
+        }
+        if let Some(n) = nodes
+            .iter()
+            .find(|n| !is_constant_node(n) && !reached.get(n.index).copied().unwrap_or(false))
+        {
+            return Err(OnnxImportError::Disconnected {
+                node: n.node_ref(),
+                detail: format!("it does not depend on graph input '{input_name}'"),
+            });
+        }
+
+        let outputs: Vec<&'g str> = graph
+            .output
+            .iter()
+            .map(|o| o.name.as_deref().unwrap_or(""))
+            .collect();
+        if outputs.is_empty() {
+            return Err(OnnxImportError::Output {
+                detail: "the graph declares no outputs".into(),
+            });
+        }
+        for o in &outputs {
+            if !producer.contains_key(o) {
+                return Err(OnnxImportError::Output {
+                    detail: format!("graph output '{o}' is not produced by any node; supported: outputs computed by the graph"),
+                });
+            }
+        }
+
+        Ok(GraphIndex {
+            nodes,
+            input,
+            input_name,
+            outputs,
+            consumers,
+            constants,
+        })
+    }
+
+    /// Indices of the nodes that read `value`.
+    pub fn consumers(&self, value: &str) -> &[usize] {
+        self.consumers.get(value).map(Vec::as_slice).unwrap_or(&[])
+    }
+
+    /// The node at an index.
+    pub fn node(&self, index: usize) -> Option<Node<'g>> {
+        self.nodes.get(index).copied()
+    }
+
+    /// True when `value` is a graph output.
+    pub fn is_graph_output(&self, value: &str) -> bool {
+        self.outputs.contains(&value)
+    }
+
+    /// True when `value` is read by a node or is a graph output.
+    pub fn is_used(&self, value: &str) -> bool {
+        !self.consumers(value).is_empty() || self.is_graph_output(value)
+    }
+
+    /// Decodes a constant value; `None` when `value` is not a constant.
+    pub fn constant(&self, value: &str) -> Option<Result<Tensor, String>> {
+        Some(match self.constants.get(value)? {
+            ConstSource::Initializer(t) => decode(t),
+            ConstSource::ConstantNode(n) => constant_node_value(n, value),
+        })
+    }
+}
+
+/// The value of a `Constant` node, from whichever `value*` attribute it has.
+fn constant_node_value(n: &Node<'_>, out: &str) -> Result<Tensor, String> {
+    let named = |dims: Vec<usize>, data| Tensor {
+        name: out.to_string(),
+        dims,
+        data,
+    };
+    let p = n.proto;
+    if let Some(mut t) = attr::tensor(p, "value")? {
+        if t.name.is_empty() {
+            t.name = out.to_string();
+        }
+        return Ok(t);
+    }
+    if let Some(v) = attr::float(p, "value_float")? {
+        return Ok(named(vec![], TensorData::Float(vec![v])));
+    }
+    if let Some(v) = attr::floats(p, "value_floats")? {
+        return Ok(named(vec![v.len()], TensorData::Float(v)));
+    }
+    if let Some(v) = attr::int(p, "value_int")? {
+        return Ok(named(vec![], TensorData::Int(vec![v])));
+    }
+    if let Some(v) = attr::ints(p, "value_ints")? {
+        return Ok(named(vec![v.len()], TensorData::Int(v)));
+    }
+    if let Some(v) = attr::strings(p, "value_strings")?.or(attr::strings(p, "value_string")?) {
+        let dims = if attr::find(p, "value_string").is_some() {
+            vec![]
+        } else {
+            vec![v.len()]
+        };
+        return Ok(named(dims, TensorData::Str(v)));
+    }
+    Err(format!(
+        "Constant node {} has no supported value attribute; supported: value, value_float(s), value_int(s), value_string(s)",
+        n.node_ref()
+    ))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::test_graph::*;
+    use super::*;
+
+    fn relu_chain() -> GraphProto {
+        graph(
+            vec![
+                node("a", "Relu", &["x"], &["y"]),
+                node("b", "Relu", &["y"], &["z"]),
+            ],
+            vec![floats("w", &[1], &[1.0])],
+            vec![value("x", &[0, 2]), value("w", &[1])],
+            &["z"],
+        )
+    }
+
+    #[test]
+    fn indexes_consumers_and_skips_initializers_listed_as_inputs() {
+        let g = relu_chain();
+        let ix = GraphIndex::build(&g).unwrap();
+        assert_eq!(ix.input_name, "x");
+        assert_eq!(ix.consumers("x"), &[0]);
+        assert_eq!(ix.consumers("y"), &[1]);
+        assert!(ix.consumers("z").is_empty());
+        assert!(ix.is_graph_output("z") && ix.is_used("z") && !ix.is_used("nothing"));
+        assert!(ix.constant("w").is_some_and(|t| t.is_ok()));
+        assert!(ix.constant("y").is_none());
+    }
+
+    #[test]
+    fn constant_node_values() {
+        let mut c = node("c", "Constant", &[], &["k"]);
+        c.attribute.push(attr_floats("value_floats", &[1.0, 2.0]));
+        let mut g = relu_chain();
+        g.node.insert(0, c);
+        let ix = GraphIndex::build(&g).unwrap();
+        let t = ix.constant("k").unwrap().unwrap();
+        assert_eq!(
+            (t.dims.clone(), t.finite_floats().unwrap().to_vec()),
+            (vec![2], vec![1.0, 2.0])
+        );
+    }
+
+    #[test]
+    fn cycle_is_found_without_looping() {
+        let g = graph(
+            vec![
+                node("a", "Relu", &["x", "q"], &["p"]),
+                node("b", "Relu", &["p"], &["q"]),
+            ],
+            vec![],
+            vec![value("x", &[0, 2])],
+            &["q"],
+        );
+        let e = GraphIndex::build(&g).unwrap_err();
+        assert!(matches!(e, OnnxImportError::Cycle { .. }), "{e}");
+        assert!(
+            e.to_string().contains("cycle through node 'a' (op Relu"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn structural_errors() {
+        let mut g = relu_chain();
+        g.input.push(value("x2", &[0, 2]));
+        assert!(
+            matches!(GraphIndex::build(&g), Err(OnnxImportError::Inputs { names }) if names.len() == 2)
+        );
+
+        let mut g = relu_chain();
+        g.node.push(node("dup", "Relu", &["x"], &["y"]));
+        let e = GraphIndex::build(&g).unwrap_err();
+        assert!(
+            matches!(e, OnnxImportError::DuplicateValue { .. }) && e.to_string().contains("'dup'"),
+            "{e}"
+        );
+
+        let mut g = relu_chain();
+        g.node.push(node("u", "Relu", &["ghost"], &["u1"]));
+        let e = GraphIndex::build(&g).unwrap_err();
+        assert!(
+            matches!(e, OnnxImportError::UndefinedValue { .. })
+                && e.to_string().contains("'ghost'"),
+            "{e}"
+        );
+
+        let mut g = relu_chain();
+        g.node.push(node("island", "Relu", &["w"], &["i1"]));
+        let e = GraphIndex::build(&g).unwrap_err();
+        assert!(
+            matches!(e, OnnxImportError::Disconnected { .. }) && e.to_string().contains("'island'"),
+            "{e}"
+        );
+
+        let mut g = relu_chain();
+        g.output.push(ValueInfoProto {
+            name: Some("nowhere".into()),
+            r#type: None,
+        });
+        assert!(matches!(
+            GraphIndex::build(&g),
+            Err(OnnxImportError::Output { .. })
+        ));
+
+        let g = graph(vec![], vec![], vec![value("x", &[0, 2])], &["x"]);
+        assert!(matches!(
+            GraphIndex::build(&g),
+            Err(OnnxImportError::EmptyGraph)
+        ));
+    }
+}
