@@ -6,3 +6,7 @@ pub mod graph;
 pub mod import;
 pub mod dataset;
 pub mod scaler_file;
+pub mod pack;
+pub mod quantise;
+pub mod atomic;
+pub mod report;

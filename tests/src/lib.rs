@@ -1,1 +1,37 @@
-//! Shared helpers for the end-to-end tests.
+//! Shared helpers for the end-to-end tests: paths to the repository's examples and fixtures,
+//! and running packed models through the runtime.
+use kinglet_runtime::{Input, Model};
+use std::path::PathBuf;
+
+/// The repository root.
+pub fn repo() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("..")
+}
+
+/// A path under the repository root.
+pub fn path(rel: &str) -> PathBuf {
+    repo().join(rel)
+}
+
+/// Runs one row through a model; returns the predicted class and the scores.
+pub fn run(model: &Model<'_>, row: &[f32]) -> (usize, Vec<f32>) {
+    let mut arena = vec![0u8; model.arena_bytes()];
+    let mut scores = vec![0f32; model.output_len()];
+    let p = model
+        .infer(Input::F32(row), &mut arena, &mut scores)
+        .unwrap_or_else(|e| panic!("inference failed: {e}"));
+    (p.class, scores)
+}
+
+/// Reads a headered CSV of floats into rows.
+pub fn read_float_csv(rel: &str) -> Vec<Vec<f64>> {
+    let mut r = csv::Reader::from_path(path(rel)).unwrap_or_else(|e| panic!("{rel}: {e}"));
+    r.records()
+        .map(|rec| {
+            rec.unwrap_or_else(|e| panic!("{rel}: {e}"))
+                .iter()
+                .map(|v| v.parse::<f64>().unwrap_or_else(|e| panic!("{rel}: {v}: {e}")))
+                .collect()
+        })
+        .collect()
+}

@@ -1,0 +1,38 @@
+//! Subcommands, one module each.
+use clap::{Parser, Subcommand};
+
+mod inspect;
+mod pack;
+
+/// Puts small trained classifiers onto microcontrollers.
+#[derive(Debug, Parser)]
+#[command(name = "kinglet", version, about)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Import a trained model (ONNX or plain JSON), quantise it to int8 (or keep f32) and write
+    /// the blob the firmware links.
+    Pack(pack::Args),
+    /// Report what a packed blob holds: layers, parameters, flash and RAM.
+    Inspect(inspect::Args),
+}
+
+/// What a successful run concluded.
+pub enum Outcome {
+    /// Everything asked for passed.
+    Pass,
+    /// A requested check failed (exit code 1).
+    CheckFailed,
+}
+
+/// Runs the parsed command.
+pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
+    match cli.command {
+        Command::Pack(a) => pack::run(a),
+        Command::Inspect(a) => inspect::run(a),
+    }
+}

@@ -1,0 +1,129 @@
+//! `kinglet pack`: import, (calibrate and quantise,) pack, report.
+use anyhow::{anyhow, bail, Context, Result};
+use kinglet_converter::atomic::write_atomic;
+use kinglet_converter::dataset::{load_csv, load_npy, CsvOptions, Dataset, LabelColumn};
+use kinglet_converter::import::import_file;
+use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::quantise::calibrate::RangeMethod;
+use kinglet_converter::report::{table, BlobReport};
+use kinglet_converter::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
+use kinglet_runtime::Model;
+use std::path::{Path, PathBuf};
+
+use super::Outcome;
+
+/// How calibration ranges are taken.
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+enum Range {
+    /// Smallest and largest observed value.
+    Minmax,
+    /// Clip to the `--percentile` and its mirror.
+    Percentile,
+}
+
+/// Arguments of `kinglet pack`.
+#[derive(Debug, clap::Args)]
+pub struct Args {
+    /// The trained model: `.onnx`, or a `.json` plain model description.
+    model: PathBuf,
+    /// Where to write the blob [default: <model name>.int8.kgl or .f32.kgl, in the current directory].
+    #[arg(short, long)]
+    out: Option<PathBuf>,
+    /// Keep f32 weights (for boards with an FPU, and as the float reference); no calibration.
+    #[arg(long)]
+    float: bool,
+    /// Raw feature rows for int8 calibration: CSV, or `.npy` (rows × features).
+    #[arg(long, value_name = "FILE")]
+    calibration: Option<PathBuf>,
+    /// A label column in the calibration CSV to leave out (name or 0-based index).
+    #[arg(long, value_name = "COLUMN")]
+    calibration_label: Option<LabelColumn>,
+    /// How each tensor's range is taken from the calibration rows.
+    #[arg(long, value_enum, default_value = "minmax")]
+    range: Range,
+    /// Percentile for `--range percentile`.
+    #[arg(long, default_value_t = 99.99)]
+    percentile: f64,
+    /// A scaler saved separately (JSON: mean/std, min/max, or divide_by), when the model has none.
+    #[arg(long, value_name = "FILE", conflicts_with = "divide_by")]
+    scaler: Option<PathBuf>,
+    /// A uniform scaler: every raw input is divided by this (e.g. 255 for pixels).
+    #[arg(long, value_name = "N")]
+    divide_by: Option<f32>,
+    /// Class labels, comma-separated, when the model carries none.
+    #[arg(long, value_delimiter = ',')]
+    labels: Option<Vec<String>>,
+    /// Print the report as JSON.
+    #[arg(long)]
+    json: bool,
+}
+
+fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<Dataset> {
+    let is_npy = path.extension().is_some_and(|e| e.eq_ignore_ascii_case("npy"));
+    let data = if is_npy {
+        load_npy(path, None)?
+    } else {
+        load_csv(path, &CsvOptions { label, has_header: None })?
+    };
+    Ok(data)
+}
+
+fn default_out(model: &Path, float: bool) -> PathBuf {
+    let stem = model.file_stem().and_then(|s| s.to_str()).unwrap_or("model");
+    PathBuf::from(format!("{stem}.{}.kgl", if float { "f32" } else { "int8" }))
+}
+
+pub fn run(a: Args) -> Result<Outcome> {
+    let mut model = import_file(&a.model).with_context(|| format!("cannot import {}", a.model.display()))?;
+    if let Some(p) = &a.scaler {
+        attach_scaler(&mut model, load_scaler_file(p)?)?;
+    } else if let Some(d) = a.divide_by {
+        attach_scaler(&mut model, uniform_divisor(d)?)?;
+    }
+    if let Some(labels) = a.labels {
+        if !model.labels.is_empty() {
+            bail!("the model already carries class labels; drop --labels");
+        }
+        if labels.len() != model.classes() {
+            bail!("--labels gives {} labels for a model with {} classes", labels.len(), model.classes());
+        }
+        model.labels = labels;
+    }
+    let out = a.out.unwrap_or_else(|| default_out(&a.model, a.float));
+    let mut notes = Vec::new();
+    let blob = if a.float {
+        if a.calibration.is_some() {
+            bail!("--float packs f32 weights and needs no --calibration");
+        }
+        pack_f32(&model)?
+    } else {
+        let path = a.calibration.ok_or_else(|| {
+            anyhow!("an int8 pack needs --calibration <rows.csv|rows.npy> (raw feature rows, a few hundred suffice), or use --float")
+        })?;
+        let data = load_rows(&path, a.calibration_label)?;
+        let method = match a.range {
+            Range::Minmax => RangeMethod::MinMax,
+            Range::Percentile => RangeMethod::Percentile(a.percentile),
+        };
+        let p = pack_int8(&model, &data, method)?;
+        notes.push(format!("calibrated on {} rows of {} ({})", p.calibration_rows, path.display(), p.method));
+        p.blob
+    };
+    // Parse what we are about to write with the runtime's own reader.
+    let parsed = Model::parse(&blob).map_err(|e| anyhow!("internal: packed blob rejected: {e}"))?;
+    let report = BlobReport::of(&parsed);
+    write_atomic(&out, &blob)?;
+    if a.json {
+        let mut v = serde_json::to_value(&report)?;
+        v["blob"] = serde_json::Value::String(out.display().to_string());
+        v["notes"] = serde_json::to_value(&notes)?;
+        println!("{}", serde_json::to_string_pretty(&v)?);
+    } else {
+        println!("wrote {} ({} bytes)", out.display(), blob.len());
+        for n in &notes {
+            println!("{n}");
+        }
+        print!("{}", table::render(&report));
+    }
+    Ok(Outcome::Pass)
+}

@@ -1,0 +1,102 @@
+//! Quantisation parameters: asymmetric int8 activations, symmetric per-channel weights, and the
+//! fixed-point decomposition of real multipliers (Jacob et al., 2018, §2.1–2.2).
+
+/// Scale and zero point of an int8 tensor: `real = (q - zero_point) * scale`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct AffineQuant {
+    /// Real value of one quantisation step.
+    pub scale: f32,
+    /// The int8 value that represents real 0.
+    pub zero_point: i8,
+}
+
+/// Asymmetric int8 parameters covering `[min, max]`, widened to include 0 so that zero (and
+/// so ReLU's clamp and zero padding) is exactly representable (Jacob et al., 2018, §2.1).
+pub fn activation_quant(min: f32, max: f32) -> AffineQuant {
+    let lo = f64::from(min.min(0.0));
+    let mut hi = f64::from(max.max(0.0));
+    if hi - lo < 1e-12 {
+        hi = lo + 1e-6; // an all-zero tensor: any scale works; keep it finite and positive
+    }
+    let scale = (hi - lo) / 255.0;
+    let zp = (-128.0 - lo / scale).round().clamp(-128.0, 127.0);
+    AffineQuant { scale: scale as f32, zero_point: zp as i8 }
+}
+
+/// Symmetric per-output-channel weight scale: `max |w| / 127` over the row (1.0 for an all-zero
+/// row, whose weights then quantise to 0 whatever the scale).
+pub fn weight_scale(row: &[f32]) -> f32 {
+    let m = row.iter().fold(0.0f32, |a, &w| a.max(w.abs()));
+    if m > 0.0 {
+        m / 127.0
+    } else {
+        1.0
+    }
+}
+
+/// Rounds `w / scale` to the nearest int8 (ties to even), clamped to `[-127, 127]`.
+pub fn quantize_weight(w: f32, scale: f32) -> i8 {
+    (f64::from(w) / f64::from(scale)).round_ties_even().clamp(-127.0, 127.0) as i8
+}
+
+/// Splits a positive real multiplier into the runtime's `(multiplier, shift)`:
+/// `real = multiplier · 2^-31 · 2^-shift`, `multiplier ∈ [2^30, 2^31)`, `shift ∈ [-31, 31]`.
+/// Returns `None` when `real` is not finite and positive or needs a shift out of range.
+pub fn decompose_multiplier(real: f64) -> Option<(i32, i8)> {
+    if !(real.is_finite() && real > 0.0) {
+        return None;
+    }
+    let (m, mut e) = libm::frexp(real); // real = m · 2^e, m ∈ [0.5, 1)
+    let mut q = (m * (1u64 << 31) as f64).round_ties_even() as i64;
+    if q == 1 << 31 {
+        q /= 2;
+        e += 1;
+    }
+    let shift = -e;
+    if !(-31..=31).contains(&shift) {
+        return None;
+    }
+    Some((q as i32, shift as i8))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn activation_ranges_hand_worked() {
+        // [0, 2.55] (a ReLU output): scale 0.01, real 0 at -128.
+        let q = activation_quant(0.0, 2.55);
+        assert!((q.scale - 0.01).abs() < 1e-9);
+        assert_eq!(q.zero_point, -128);
+        // [-1, 1]: scale 2/255, zero point round(-128 + 127.5) = round(-0.5) = -1 (half away).
+        let q = activation_quant(-1.0, 1.0);
+        assert_eq!(q.zero_point, -1);
+        // An all-positive range is widened to include 0.
+        assert_eq!(activation_quant(3.0, 5.0).zero_point, -128);
+        assert_eq!(activation_quant(-5.0, -3.0).zero_point, 127);
+        assert!(activation_quant(0.0, 0.0).scale > 0.0);
+    }
+
+    #[test]
+    fn weights_are_symmetric_per_channel() {
+        let s = weight_scale(&[0.5, -1.27, 0.0]);
+        assert!((s - 0.01).abs() < 1e-9);
+        assert_eq!(quantize_weight(-1.27, s), -127);
+        assert_eq!(quantize_weight(0.5, s), 50);
+        assert_eq!(weight_scale(&[0.0, 0.0]), 1.0);
+        assert_eq!(quantize_weight(0.025, 0.01), 2); // 2.5 → 2 (ties to even)
+    }
+
+    #[test]
+    fn multiplier_decomposition_hand_worked() {
+        assert_eq!(decompose_multiplier(0.5), Some((1 << 30, 0)));
+        assert_eq!(decompose_multiplier(0.25), Some((1 << 30, 1)));
+        assert_eq!(decompose_multiplier(3.0), Some((3 << 29, -2)));
+        assert_eq!(decompose_multiplier(0.0), None);
+        assert_eq!(decompose_multiplier(f64::NAN), None);
+        assert_eq!(decompose_multiplier(1e-12), None); // needs shift 40
+        // Just below 1: the mantissa rounds up to 2^31 and is renormalised.
+        assert_eq!(decompose_multiplier(1.0 - 1e-12), Some((1 << 30, -1)));
+    }
+}

@@ -1,0 +1,107 @@
+//! What a packed blob holds, as data: shapes, parameters, bytes, memory, quantisation.
+use kinglet_runtime::format::{Activation, OutputKind, Precision};
+use kinglet_runtime::Model;
+use serde::Serialize;
+
+/// One layer of the report.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct LayerRow {
+    /// 1-based layer number.
+    pub layer: usize,
+    /// Input width.
+    pub inputs: usize,
+    /// Output width.
+    pub outputs: usize,
+    /// "relu" or "linear".
+    pub activation: String,
+    /// `inputs · outputs + outputs`.
+    pub parameters: usize,
+    /// Multiply-accumulates per inference.
+    pub macs: usize,
+    /// Bytes of this layer's tensors in the blob.
+    pub bytes: usize,
+    /// Output scale and zero point (int8 only).
+    pub output_quant: Option<(f32, i8)>,
+}
+
+/// The whole report.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct BlobReport {
+    /// "int8" or "f32".
+    pub precision: String,
+    /// Input width.
+    pub inputs: usize,
+    /// Number of classes.
+    pub classes: usize,
+    /// "softmax", "sigmoid" or "logits".
+    pub output: String,
+    /// "none", "uniform" or "per-feature".
+    pub scaler: String,
+    /// Input scale and zero point (int8 only).
+    pub input_quant: Option<(f32, i8)>,
+    /// Class labels (empty if none).
+    pub labels: Vec<String>,
+    /// Layers.
+    pub layers: Vec<LayerRow>,
+    /// Total parameters.
+    pub parameters: usize,
+    /// Total multiply-accumulates per inference.
+    pub macs: usize,
+    /// Flash bytes: the blob.
+    pub flash_bytes: usize,
+    /// RAM bytes: the arena.
+    pub arena_bytes: usize,
+}
+
+impl BlobReport {
+    /// Describes a parsed model.
+    pub fn of(model: &Model<'_>) -> Self {
+        let d = model.desc();
+        let layers: Vec<LayerRow> = model
+            .layers()
+            .enumerate()
+            .map(|(i, l)| LayerRow {
+                layer: i + 1,
+                inputs: l.desc.inputs as usize,
+                outputs: l.desc.outputs as usize,
+                activation: match l.desc.activation {
+                    Activation::Relu => "relu",
+                    Activation::Linear => "linear",
+                }
+                .into(),
+                parameters: l.parameters(),
+                macs: l.macs(),
+                bytes: l.tensor_bytes(),
+                output_quant: l.desc.quant.map(|q| (q.output_scale, q.output_zero_point)),
+            })
+            .collect();
+        BlobReport {
+            precision: match d.precision {
+                Precision::Int8 => "int8",
+                Precision::F32 => "f32",
+            }
+            .into(),
+            inputs: model.input_len(),
+            classes: model.classes(),
+            output: match d.output {
+                OutputKind::Softmax => "softmax",
+                OutputKind::Sigmoid => "sigmoid",
+                OutputKind::Logits => "logits",
+            }
+            .into(),
+            scaler: match &d.scaler {
+                None => "none",
+                Some(s) if s.offset.len() == 4 => "uniform",
+                Some(_) => "per-feature",
+            }
+            .into(),
+            input_quant: d.input_quant.map(|q| (q.scale, q.zero_point)),
+            labels: model.labels().map(String::from).collect(),
+            parameters: layers.iter().map(|l| l.parameters).sum(),
+            macs: layers.iter().map(|l| l.macs).sum(),
+            layers,
+            flash_bytes: model.blob_bytes(),
+            arena_bytes: model.arena_bytes(),
+        }
+    }
+}
