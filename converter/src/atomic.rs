@@ -16,6 +16,14 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
         .suffix(".tmp")
         .tempfile_in(dir)
         .with_context(|| format!("cannot write to directory {}", dir.display()))?;
+    // Temporary files are created owner-only; give the result ordinary file permissions.
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        tmp.as_file()
+            .set_permissions(std::fs::Permissions::from_mode(0o644))
+            .with_context(|| format!("cannot write {}", path.display()))?;
+    }
     tmp.write_all(bytes)
         .and_then(|()| tmp.as_file().sync_all())
         .with_context(|| format!("cannot write {}", path.display()))?;
