@@ -121,7 +121,7 @@ pub(crate) fn parse_npy(bytes: &[u8]) -> Result<NpyArray, NpyArrayError> {
     // Check the data length before decoding: the decoder reserves room for the whole array
     // up front, so an absurd header must not reach it.
     let item_bytes = dtype.num_bytes().unwrap_or(usize::MAX) as u64;
-    let expected = header.len().checked_mul(item_bytes).unwrap_or(u64::MAX);
+    let expected = header.len().saturating_mul(item_bytes);
     let found = rest.len() as u64;
     if found < expected {
         return Err(NpyArrayError::Truncated { expected, found });
