@@ -1,7 +1,7 @@
 """Deterministic generator of INVENTED accelerometer windows for the `vibration` demo scenario.
 
 Scenario (our own, synthetic): a sensor node bolted to a ventilation fan reads an invented 3-axis
-accelerometer part "KX-3" (+-4 g full scale, 8192 counts/g, int16 output, 1,600 Hz sample rate) and
+accelerometer part "KLA-3" (+-4 g full scale, 8192 counts/g, int16 output, 1,600 Hz sample rate) and
 classifies each 128-sample window (80 ms) into one of four fan states. Nothing here is measured data;
 the signal models below are simple made-up shapes chosen so the classes are separable but overlap a
 little through noise and amplitude ranges.
