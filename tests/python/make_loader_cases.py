@@ -20,7 +20,7 @@ Writes into the output directory (default: tests/fixtures/loaders):
   iris_scalers_expected.json, iris_mlp_inline.json, iris_mlp_npy.json, iris_binary_npy.json,
   iris_mlp_*.npy, iris_binary_*.npy, models_expected.json, iris_sample.csv, iris_x_f32.npy,
   iris_x_f64_fortran.npy, iris_y_int64.npy, iris_y_str.npy, digits_x_int64.npy, digits_y_int64.npy,
-  datasets_expected.json
+  datasets_expected.json, doc_example/dense0_kernel.npy, doc_example/dense0_bias.npy
 
 Usage: python make_loader_cases.py [OUT_DIR]
 """
@@ -239,6 +239,15 @@ def dataset_cases(out: Path, x: np.ndarray, target: np.ndarray, names: list[str]
     })
 
 
+def doc_example_cases(out: Path) -> None:
+    """The .npy files that the full example in docs/plain-model-format.md refers to."""
+    rng = np.random.default_rng(SEED + 1)
+    d = out / "doc_example"
+    d.mkdir(exist_ok=True)
+    np.save(d / "dense0_kernel.npy", np.round(rng.normal(0.0, 0.5, size=(4, 8)), 4).astype(F32))
+    np.save(d / "dense0_bias.npy", np.round(rng.normal(0.0, 0.1, size=8), 4).astype(F32))
+
+
 def main() -> None:
     out = Path(sys.argv[1]) if len(sys.argv) > 1 else DEFAULT_OUT
     out.mkdir(parents=True, exist_ok=True)
@@ -248,6 +257,7 @@ def main() -> None:
     std_json, mm_json = scaler_cases(out, x)
     model_cases(out, x, target, names, std_json, mm_json)
     dataset_cases(out, x, target, names)
+    doc_example_cases(out)
 
 
 if __name__ == "__main__":

@@ -258,3 +258,32 @@ fn digits_npy_int64() {
     );
     assert!(d.check_width(4).is_err());
 }
+
+/// The first JSON block of `docs/plain-model-format.md` (the full example) imports, with the
+/// `.npy` files it names (written by the fixture script), and keeps its promises.
+#[test]
+fn documented_full_example_imports() {
+    let doc_path = Path::new(env!("CARGO_MANIFEST_DIR")).join("../docs/plain-model-format.md");
+    let doc = std::fs::read_to_string(doc_path).unwrap();
+    let start = doc.find("```json\n").expect("a json block") + "```json\n".len();
+    let len = doc[start..].find("```").expect("end of the json block");
+    let json = &doc[start..start + len];
+    let m = import_plain_str(json, &dir().join("doc_example")).unwrap();
+    assert_eq!(m.input_len, 4);
+    assert_eq!(
+        m.layers
+            .iter()
+            .map(|l| (l.inputs, l.outputs))
+            .collect::<Vec<_>>(),
+        vec![(4, 8), (8, 3)]
+    );
+    assert_eq!(m.output, OutputKind::Softmax);
+    assert_eq!(m.labels.len(), 3);
+    assert_eq!(
+        m.scaler.as_ref().map(|s| s.kind),
+        Some(ScalerKind::Standardise)
+    );
+    let p = m.forward_reference(&[5.1, 3.5, 1.4, 0.2]);
+    assert_eq!(p.len(), 3);
+    assert!((p.iter().sum::<f64>() - 1.0).abs() < 1e-12);
+}
