@@ -57,7 +57,10 @@ pub enum ScalerFileError {
         #[source]
         source: Box<ScalerFileError>,
     },
-    /// The text is not valid JSON or does not fit the scaler fields.
+    /// The text is not valid JSON.
+    #[error("not valid JSON: {0}")]
+    Syntax(#[source] serde_json::Error),
+    /// The text does not fit the scaler fields.
     #[error("at `{location}`: {source}")]
     Json {
         /// Where in the document (`.` for the top level).
@@ -431,9 +434,11 @@ pub fn uniform_divisor(d: f32) -> Result<Scaler, ScalerFileError> {
 /// Turns a JSON deserialisation error into one that says where in the document it is.
 pub(crate) fn json_error(e: serde_path_to_error::Error<serde_json::Error>) -> ScalerFileError {
     let location = e.path().to_string();
-    ScalerFileError::Json {
-        location,
-        source: e.into_inner(),
+    let source = e.into_inner();
+    if source.is_syntax() || source.is_eof() {
+        ScalerFileError::Syntax(source)
+    } else {
+        ScalerFileError::Json { location, source }
     }
 }
 
@@ -634,11 +639,11 @@ mod tests {
         // JSON itself has no NaN or infinity literal, and serde_json refuses numbers past f64.
         assert!(matches!(
             parse(r#"{"mean": [NaN], "std": [1]}"#),
-            Err(ScalerFileError::Json { .. })
+            Err(ScalerFileError::Syntax(_))
         ));
         assert!(matches!(
             parse(r#"{"mean": [1e400], "std": [1]}"#),
-            Err(ScalerFileError::Json { .. })
+            Err(ScalerFileError::Syntax(_))
         ));
     }
 
@@ -681,7 +686,9 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.starts_with("at `mean[1]`"), "{e}");
-        assert!(matches!(parse("{"), Err(ScalerFileError::Json { .. })));
+        let e = parse("{\"divide_by\": 2,}").unwrap_err().to_string();
+        assert_eq!(e, "not valid JSON: trailing comma at line 1 column 17");
+        assert!(matches!(parse("{"), Err(ScalerFileError::Syntax(_))));
         assert!(matches!(parse("[1, 2]"), Err(ScalerFileError::Json { .. })));
     }
 

@@ -27,7 +27,10 @@ pub enum PlainImportError {
         #[source]
         source: Box<PlainImportError>,
     },
-    /// Not valid JSON, or a field of the wrong type, an unknown field or a missing field.
+    /// The text is not valid JSON.
+    #[error("not valid JSON: {0}")]
+    Syntax(#[source] serde_json::Error),
+    /// A field of the wrong type, an unknown field or a missing field.
     #[error("at `{location}`: {source}")]
     Json {
         /// Where in the document (`layers[1].activation`; `.` for the top level).
@@ -36,8 +39,8 @@ pub enum PlainImportError {
         #[source]
         source: serde_json::Error,
     },
-    /// The document has no `"kinglet_model"` tag.
-    #[error("not a Kinglet model description: the \"kinglet_model\" version tag is missing (write \"kinglet_model\": 1)")]
+    /// The document is not an object with a `"kinglet_model"` tag.
+    #[error("not a Kinglet model description: expected a JSON object with the \"kinglet_model\" version tag (\"kinglet_model\": 1)")]
     NotAModel,
     /// A version this converter does not read.
     #[error("unsupported \"kinglet_model\" version {0}; this converter reads version 1")]

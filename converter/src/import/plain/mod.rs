@@ -49,9 +49,11 @@ pub fn import_plain_file(path: &Path) -> Result<crate::graph::FloatModel, PlainI
 
 fn json_error(e: serde_path_to_error::Error<serde_json::Error>) -> PlainImportError {
     let location = e.path().to_string();
-    PlainImportError::Json {
-        location,
-        source: e.into_inner(),
+    let source = e.into_inner();
+    if source.is_syntax() || source.is_eof() {
+        PlainImportError::Syntax(source)
+    } else {
+        PlainImportError::Json { location, source }
     }
 }
 
@@ -60,13 +62,13 @@ pub fn import_plain_str(
     json: &str,
     base_dir: &Path,
 ) -> Result<crate::graph::FloatModel, PlainImportError> {
-    let tag: schema::FormatTag =
-        serde_path_to_error::deserialize(&mut serde_json::Deserializer::from_str(json))
-            .map_err(json_error)?;
-    match tag.kinglet_model {
-        None => return Err(PlainImportError::NotAModel),
-        Some(v) if v.as_u64() == Some(1) => {}
-        Some(v) => return Err(PlainImportError::UnsupportedVersion(v.to_string())),
+    // The version tag is read first, so that a newer version is reported as such rather than
+    // as a list of unknown fields.
+    let value: serde_json::Value = serde_json::from_str(json).map_err(PlainImportError::Syntax)?;
+    match value.as_object().map(|o| o.get("kinglet_model")) {
+        None | Some(None) => return Err(PlainImportError::NotAModel),
+        Some(Some(v)) if v.as_u64() == Some(1) => {}
+        Some(Some(v)) => return Err(PlainImportError::UnsupportedVersion(v.to_string())),
     }
     let doc: schema::ModelDoc =
         serde_path_to_error::deserialize(&mut serde_json::Deserializer::from_str(json))

@@ -9,19 +9,11 @@ use serde::{Deserialize, Deserializer};
 
 use crate::scaler_file::ScalerSpec;
 
-/// Just the format tag, read first so that a newer version is reported as such rather than as
-/// a list of unknown fields.
-#[derive(Debug, Deserialize)]
-pub(super) struct FormatTag {
-    #[serde(default)]
-    pub kinglet_model: Option<serde_json::Value>,
-}
-
 /// The whole document.
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub(super) struct ModelDoc {
-    /// Checked through [`FormatTag`] before the rest is read.
+    /// Checked before the rest of the document is read.
     #[serde(rename = "kinglet_model")]
     _format: serde::de::IgnoredAny,
     pub input_width: usize,

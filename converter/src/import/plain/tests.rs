@@ -286,14 +286,14 @@ fn version_tag() {
     assert!(e.contains("version \"1\""), "{e}");
     let e = err(&body.replace("\"kinglet_model\": 1,", ""));
     assert!(e.starts_with("not a Kinglet model description"), "{e}");
-    assert!(matches!(
-        import("[1, 2]"),
-        Err(PlainImportError::Json { .. })
-    ));
+    assert!(matches!(import("[1, 2]"), Err(PlainImportError::NotAModel)));
+    assert!(matches!(import("1"), Err(PlainImportError::NotAModel)));
     assert!(matches!(
         import("{\"kinglet_model\": 1,"),
-        Err(PlainImportError::Json { .. })
+        Err(PlainImportError::Syntax(_))
     ));
+    let e = err("{\"kinglet_model\": 1, \"input_width\": 2,}");
+    assert_eq!(e, "not valid JSON: trailing comma at line 1 column 39");
 }
 
 #[test]
