@@ -265,7 +265,7 @@ fn malformed_fixtures_give_clear_errors() {
         (
             "bad_shape_mismatch",
             |e| matches!(e, E::Node { .. }),
-            &["'fc2' (op Gemm", "take 5 inputs", "4 features"],
+            &["'fc2' (op Gemm", "take 5 inputs", "4 outputs"],
         ),
         (
             "bad_two_inputs",
@@ -312,6 +312,11 @@ fn malformed_fixtures_give_clear_errors() {
             "bad_zero_scale",
             |e| matches!(e, E::Node { .. }),
             &["'add_one' (op Add", "feature 1", "scale is 0"],
+        ),
+        (
+            "bad_sk_zipmap",
+            |e| matches!(e, E::Node { .. }),
+            &["'ZipMap' (op ZipMap, domain ai.onnx.ml)", "'zipmap': False"],
         ),
         (
             "bad_empty_graph",

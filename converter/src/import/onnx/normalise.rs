@@ -164,7 +164,6 @@ impl<'g> Walk<'g, '_> {
         if let Some(v) = self.visited.get_mut(n.index) {
             *v = true;
         }
-        let out = single_output(self.g, &n)?;
         let positions: Vec<usize> = n
             .inputs()
             .iter()
@@ -211,13 +210,19 @@ impl<'g> Walk<'g, '_> {
             (Domain::Onnx, "Relu") => self.relu(n)?,
             (Domain::Onnx, "Softmax") => self.softmax(n)?,
             (Domain::Onnx, "Sigmoid") => self.sigmoid(n)?,
+            (Domain::Ml, "ZipMap") => {
+                return Err(n.err(
+                    "ZipMap (probabilities as a list of dictionaries) is not supported; supported: probabilities as a tensor (with skl2onnx, export with options {id(classifier): {'zipmap': False}})",
+                ))
+            }
             (Domain::Onnx, "Concat" | "Constant" | "ArgMax")
             | (Domain::Ml, "ArrayFeatureExtractor") => {
                 return Err(n.unsupported(format!("on the data path {}", self.stage_text())))
             }
             _ => return Err(n.unsupported("")),
         }
-        Ok(out)
+        // Checked after dispatch, so that an unknown op is reported as such first.
+        single_output(self.g, &n)
     }
 
     fn no_output_yet(&self, n: &Node<'_>) -> Result<(), OnnxImportError> {
@@ -333,12 +338,12 @@ impl<'g> Walk<'g, '_> {
         if let Some(w) = self.shape.get(1).copied().flatten() {
             if w != layer.inputs {
                 let what = if self.layers.is_empty() {
-                    "the input has"
+                    format!("the input has {w} features")
                 } else {
-                    "the previous dense layer has"
+                    format!("the previous dense layer has {w} outputs")
                 };
                 return Err(n.err(format!(
-                    "the weights take {} inputs but {what} {w} features; supported: a chain of dense layers whose widths match",
+                    "the weights take {} inputs but {what}; supported: a chain of dense layers whose widths match",
                     layer.inputs
                 )));
             }
@@ -730,6 +735,57 @@ mod tests {
         let e = import(nodes, inits, &["label", "p"]).unwrap_err();
         assert!(
             e.to_string().contains("'am'") && e.to_string().contains("3 labels"),
+            "{e}"
+        );
+    }
+
+    /// x[N,2] -> Gemm(alpha 2) -> BatchNormalization -> Sigmoid -> Sub(1, p), Concat([1-p, p]).
+    fn binary(concat_inputs: [&str; 2]) -> Result<crate::graph::FloatModel, OnnxImportError> {
+        let nodes = vec![
+            with_attr(
+                node("fc", "Gemm", &["x", "B", "C"], &["z0"]),
+                attr_float("alpha", 2.0),
+            ),
+            with_attr(
+                node(
+                    "bn",
+                    "BatchNormalization",
+                    &["z0", "g", "be", "mu", "var"],
+                    &["z"],
+                ),
+                attr_float("epsilon", 1.0),
+            ),
+            node("sig", "Sigmoid", &["z"], &["p"]),
+            node("neg", "Sub", &["one", "p"], &["q"]),
+            with_attr(
+                node("cat", "Concat", &concat_inputs, &["probs"]),
+                attr_int("axis", 1),
+            ),
+        ];
+        let inits = vec![
+            floats("B", &[2, 1], &[1.0, -1.0]),
+            floats("C", &[1], &[0.5]),
+            floats("g", &[1], &[4.0]),
+            floats("be", &[1], &[0.25]),
+            floats("mu", &[1], &[1.0]),
+            floats("var", &[1], &[3.0]),
+            floats("one", &[], &[1.0]),
+        ];
+        import(nodes, inits, &["probs"])
+    }
+
+    #[test]
+    fn two_class_sigmoid_form_with_alpha_and_bn() {
+        let m = binary(["q", "p"]).unwrap();
+        assert_eq!(m.output, OutputKind::Sigmoid);
+        assert_eq!(m.layers.len(), 1);
+        // alpha 2: w = [2, -2]; BN k = 4 / sqrt(3 + 1) = 2: w' = [4, -4],
+        // b' = (0.5 - 1) * 2 + 0.25 = -0.75.
+        assert_eq!(m.layers[0].weights, vec![4.0, -4.0]);
+        assert_eq!(m.layers[0].bias, vec![-0.75]);
+        let e = binary(["p", "q"]).unwrap_err();
+        assert!(
+            e.to_string().contains("'cat' (op Concat") && e.to_string().contains("[1 - p, p]"),
             "{e}"
         );
     }
