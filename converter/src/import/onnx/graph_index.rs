@@ -256,9 +256,8 @@ fn constant_node_value(n: &Node<'_>, out: &str) -> Result<Tensor, String> {
     };
     let p = n.proto;
     if let Some(mut t) = attr::tensor(p, "value")? {
-        if t.name.is_empty() {
-            t.name = out.to_string();
-        }
+        // Messages name the value the graph reads, not the attribute tensor's own name.
+        t.name = out.to_string();
         return Ok(t);
     }
     if let Some(v) = attr::float(p, "value_float")? {
