@@ -85,7 +85,8 @@ mod tests {
         assert_eq!(quantize_weight(-1.27, s), -127);
         assert_eq!(quantize_weight(0.5, s), 50);
         assert_eq!(weight_scale(&[0.0, 0.0]), 1.0);
-        assert_eq!(quantize_weight(0.025, 0.01), 2); // 2.5 → 2 (ties to even)
+        assert_eq!(quantize_weight(2.5, 1.0), 2); // ties to even
+        assert_eq!(quantize_weight(-3.5, 1.0), -4);
     }
 
     #[test]
