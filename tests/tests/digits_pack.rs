@@ -29,9 +29,9 @@ fn float_pack_matches_scikit_learn_predict_proba() {
     let expected = read_float_csv("examples/digits/expected_proba.csv");
     assert_eq!(expected.len(), data.rows);
     let mut worst = 0f64;
-    for r in 0..data.rows {
+    for (r, want) in expected.iter().enumerate() {
         let (_, scores) = run(&m, data.row(r));
-        for (s, e) in scores.iter().zip(&expected[r]) {
+        for (s, e) in scores.iter().zip(want) {
             worst = worst.max((f64::from(*s) - e).abs());
         }
     }
@@ -49,12 +49,12 @@ fn int8_pack_agrees_with_float_and_keeps_accuracy() {
     let data = heldout();
     let labels: Vec<usize> = data.labels.as_ref().unwrap().iter().map(|l| l.parse().unwrap()).collect();
     let (mut agree, mut right_f, mut right_q) = (0, 0, 0);
-    for r in 0..data.rows {
+    for (r, &label) in labels.iter().enumerate() {
         let (cf, _) = run(&mf, data.row(r));
         let (cq, _) = run(&mq, data.row(r));
         agree += usize::from(cf == cq);
-        right_f += usize::from(cf == labels[r]);
-        right_q += usize::from(cq == labels[r]);
+        right_f += usize::from(cf == label);
+        right_q += usize::from(cq == label);
     }
     let n = data.rows as f64;
     let drop_pp = 100.0 * (right_f as f64 - right_q as f64) / n;
