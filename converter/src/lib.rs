@@ -10,3 +10,4 @@ pub mod pack;
 pub mod quantise;
 pub mod atomic;
 pub mod report;
+pub mod vet;

@@ -3,6 +3,7 @@ use clap::{Parser, Subcommand};
 
 mod inspect;
 mod pack;
+mod vet;
 
 /// Puts small trained classifiers onto microcontrollers.
 #[derive(Debug, Parser)]
@@ -19,6 +20,8 @@ enum Command {
     Pack(pack::Args),
     /// Report what a packed blob holds: layers, parameters, flash and RAM.
     Inspect(inspect::Args),
+    /// Compare an int8 blob with its float model on rows: accuracy, agreement, per-layer SQNR.
+    Vet(vet::Args),
 }
 
 /// What a successful run concluded.
@@ -34,5 +37,6 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
     match cli.command {
         Command::Pack(a) => pack::run(a),
         Command::Inspect(a) => inspect::run(a),
+        Command::Vet(a) => vet::run(a),
     }
 }

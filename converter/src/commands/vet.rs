@@ -1,0 +1,197 @@
+//! `kinglet vet`: compare an int8 blob with its float model on labelled (or unlabelled) rows.
+use anyhow::{anyhow, bail, Context, Result};
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+use kinglet_converter::atomic::write_atomic;
+use kinglet_converter::dataset::{load_csv, load_npy, CsvOptions, Dataset, LabelColumn};
+use kinglet_converter::vet::load::load_float;
+use kinglet_converter::vet::render_text::TextOptions;
+use kinglet_converter::vet::{
+    self, render_html, render_text, Criteria, Gate, ModelPair, Parallelism, Sources,
+};
+use kinglet_runtime::Model;
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+
+use super::Outcome;
+
+/// Rows from which a progress bar is worth drawing.
+const PROGRESS_FROM_ROWS: usize = 5_000;
+
+/// Whether the CSV's first row is a header.
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+enum Header {
+    /// Detect: a header when a field of the first row is not a number.
+    Auto,
+    /// The first row is a header.
+    Yes,
+    /// There is no header.
+    No,
+}
+
+/// What `--max-drop` is compared with.
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+enum GateArg {
+    /// The measured accuracy drop.
+    Estimate,
+    /// The upper limit of the drop's 95% interval (stricter).
+    Upper,
+}
+
+/// Arguments of `kinglet vet`.
+#[derive(Debug, clap::Args)]
+pub struct Args {
+    /// The float model: `.onnx`, a `.json` plain model description, or an f32 `.kgl` blob.
+    float_model: PathBuf,
+    /// The int8 blob (`.kgl`) to judge.
+    int8_blob: PathBuf,
+    /// Rows to compare on: CSV (features, optionally a label column), or `.npy` features.
+    #[arg(long, value_name = "FILE")]
+    data: PathBuf,
+    /// The CSV label column: header name or 0-based index. Labels are class indices or the
+    /// class names stored in the blob.
+    #[arg(long, value_name = "COLUMN")]
+    label: Option<LabelColumn>,
+    /// Labels for `.npy` features: a 1-D `.npy` array of class indices or names.
+    #[arg(long, value_name = "FILE")]
+    label_file: Option<PathBuf>,
+    /// Whether the CSV's first row is a header.
+    #[arg(long, value_enum, default_value = "auto")]
+    header: Header,
+    /// Fail (exit code 1) when int8 accuracy is more than this many percentage points below
+    /// float accuracy.
+    #[arg(long, value_name = "PP")]
+    max_drop: Option<f64>,
+    /// What --max-drop is compared with.
+    #[arg(long, value_enum, default_value = "estimate", requires = "max_drop")]
+    gate: GateArg,
+    /// Fail (exit code 1) when fewer than this percentage of rows get the same class from
+    /// both models.
+    #[arg(long, value_name = "PERCENT")]
+    min_agreement: Option<f64>,
+    /// Print the report as JSON (with per-row predictions).
+    #[arg(long)]
+    json: bool,
+    /// Also write a self-contained HTML report (heat maps, SQNR bars, score histogram).
+    #[arg(long, value_name = "FILE")]
+    html: Option<PathBuf>,
+    /// Disagreeing rows to list in the text report.
+    #[arg(long, value_name = "N", default_value_t = 10)]
+    show: usize,
+    /// Evaluate rows on one thread (the results are the same).
+    #[arg(long)]
+    serial: bool,
+}
+
+fn is_npy(p: &Path) -> bool {
+    p.extension().is_some_and(|e| e.eq_ignore_ascii_case("npy"))
+}
+
+fn load_data(a: &Args) -> Result<Dataset> {
+    if is_npy(&a.data) {
+        if a.label.is_some() {
+            bail!("--label names a CSV column; for .npy features give the labels with --label-file <labels.npy>");
+        }
+        return Ok(load_npy(&a.data, a.label_file.as_deref())?);
+    }
+    if a.label_file.is_some() {
+        bail!("--label-file goes with .npy features; for a CSV name the label column with --label");
+    }
+    let has_header = match a.header {
+        Header::Auto => None,
+        Header::Yes => Some(true),
+        Header::No => Some(false),
+    };
+    Ok(load_csv(
+        &a.data,
+        &CsvOptions {
+            label: a.label.clone(),
+            has_header,
+        },
+    )?)
+}
+
+fn check_limit(name: &str, v: Option<f64>) -> Result<()> {
+    match v {
+        Some(x) if !x.is_finite() || !(-100.0..=100.0).contains(&x) => {
+            bail!("{name} must be a number of percentage points between -100 and 100, not {x}")
+        }
+        _ => Ok(()),
+    }
+}
+
+pub fn run(a: Args) -> Result<Outcome> {
+    check_limit("--max-drop", a.max_drop)?;
+    check_limit("--min-agreement", a.min_agreement)?;
+    let int8_bytes = std::fs::read(&a.int8_blob)
+        .with_context(|| format!("cannot read {}", a.int8_blob.display()))?;
+    let int8 = Model::parse(&int8_bytes)
+        .map_err(|e| anyhow!("{}: not a valid model blob: {e}", a.int8_blob.display()))?;
+    let float = load_float(&a.float_model, &int8)?;
+    let float_model = Model::parse(&float.blob)
+        .map_err(|e| anyhow!("{}: not a valid model blob: {e}", a.float_model.display()))?;
+    let pair = ModelPair::new(float_model, int8)?;
+    let data = load_data(&a)?;
+
+    let criteria = Criteria {
+        max_drop_pp: a.max_drop,
+        gate: Some(match a.gate {
+            GateArg::Estimate => Gate::Estimate,
+            GateArg::Upper => Gate::UpperLimit,
+        }),
+        min_agreement_pct: a.min_agreement,
+    };
+    let sources = Sources {
+        float_model: a.float_model.display().to_string(),
+        int8_model: a.int8_blob.display().to_string(),
+    };
+    let bar = if std::io::stderr().is_terminal() && data.rows >= PROGRESS_FROM_ROWS {
+        let b = ProgressBar::with_draw_target(Some(data.rows as u64), ProgressDrawTarget::stderr());
+        if let Ok(style) =
+            ProgressStyle::with_template("{prefix} [{bar:40}] {pos}/{len} rows, {eta} left")
+        {
+            b.set_style(style.progress_chars("=> "));
+        }
+        b.set_prefix("vetting");
+        b
+    } else {
+        ProgressBar::hidden()
+    };
+    let parallelism = if a.serial {
+        Parallelism::Serial
+    } else {
+        Parallelism::Parallel
+    };
+    let mut report = vet::vet(&pair, &data, &sources, &criteria, parallelism, &|n| {
+        bar.inc(n)
+    })?;
+    bar.finish_and_clear();
+    report.notes.splice(0..0, float.notes);
+
+    if let Some(path) = &a.html {
+        let page = render_html::render(&report)?;
+        write_atomic(path, page.as_bytes())?;
+    }
+    if a.json {
+        println!("{}", serde_json::to_string_pretty(&report)?);
+    } else {
+        let colour = std::io::stdout().is_terminal() && std::env::var_os("NO_COLOR").is_none();
+        print!(
+            "{}",
+            render_text::render(
+                &report,
+                &TextOptions {
+                    colour,
+                    show_rows: a.show
+                }
+            )
+        );
+        if let Some(path) = &a.html {
+            println!("wrote {}", path.display());
+        }
+    }
+    Ok(if report.passed() {
+        Outcome::Pass
+    } else {
+        Outcome::CheckFailed
+    })
+}

@@ -1,0 +1,144 @@
+//! The two models being compared: a float (f32) blob and an int8 blob of the same network.
+use anyhow::{bail, Result};
+use kinglet_runtime::format::{Activation, OutputKind, Precision};
+use kinglet_runtime::Model;
+
+/// A float model and its int8 counterpart, checked to have the same shape.
+#[derive(Debug, Clone)]
+pub struct ModelPair<'a> {
+    /// The f32 reference.
+    pub float: Model<'a>,
+    /// The int8 model under test.
+    pub int8: Model<'a>,
+}
+
+impl<'a> ModelPair<'a> {
+    /// Checks that `float` is f32, `int8` is int8, and that both have the same input width,
+    /// layers (widths and activations), output function and class labels.
+    pub fn new(float: Model<'a>, int8: Model<'a>) -> Result<Self> {
+        if float.precision() != Precision::F32 {
+            bail!("the float model is an int8 blob; give the float model (.onnx, .json or an f32 .kgl) first and the int8 blob second");
+        }
+        if int8.precision() != Precision::Int8 {
+            bail!("the second model is an f32 blob; give the int8 blob (made by `kinglet pack --calibration ...`)");
+        }
+        if float.input_len() != int8.input_len() {
+            bail!(
+                "the models take different inputs: float {} features, int8 {}",
+                float.input_len(),
+                int8.input_len()
+            );
+        }
+        let fl: Vec<_> = float.layers().map(|l| shape(l.desc)).collect();
+        let ql: Vec<_> = int8.layers().map(|l| shape(l.desc)).collect();
+        if fl != ql {
+            bail!(
+                "the models have different layers: float {}, int8 {}",
+                describe(&fl),
+                describe(&ql)
+            );
+        }
+        if float.desc().output != int8.desc().output {
+            bail!(
+                "the models have different output functions: float {}, int8 {}",
+                output_name(float.desc().output),
+                output_name(int8.desc().output)
+            );
+        }
+        let (lf, lq): (Vec<_>, Vec<_>) = (float.labels().collect(), int8.labels().collect());
+        if !lf.is_empty() && !lq.is_empty() && lf != lq {
+            bail!(
+                "the models have different class labels: float [{}], int8 [{}]",
+                lf.join(", "),
+                lq.join(", ")
+            );
+        }
+        Ok(ModelPair { float, int8 })
+    }
+
+    /// Number of traced tensors: the input and each layer's output.
+    pub fn stages(&self) -> usize {
+        self.int8.layers().count() + 1
+    }
+
+    /// Number of classes.
+    pub fn classes(&self) -> usize {
+        self.int8.classes()
+    }
+
+    /// Class names from the blobs (the int8 blob's, else the float's); empty if neither has any.
+    pub fn class_names(&self) -> Vec<String> {
+        let q: Vec<String> = self.int8.labels().map(str::to_string).collect();
+        if q.is_empty() {
+            self.float.labels().map(str::to_string).collect()
+        } else {
+            q
+        }
+    }
+
+    /// Name and width of each traced tensor.
+    pub fn stage_names(&self) -> Vec<(String, usize)> {
+        let layers: Vec<_> = self.int8.layers().collect();
+        let last = layers.len();
+        let mut out = vec![(
+            "input (scaled, quantised)".to_string(),
+            self.int8.input_len(),
+        )];
+        for (k, l) in layers.iter().enumerate() {
+            let act = match l.desc.activation {
+                Activation::Relu => "relu",
+                Activation::Linear => "linear",
+            };
+            let name = if k + 1 == last && self.int8.desc().output != OutputKind::Logits {
+                format!(
+                    "layer {} ({act}, before {})",
+                    k + 1,
+                    output_name(self.int8.desc().output)
+                )
+            } else {
+                format!("layer {} ({act})", k + 1)
+            };
+            out.push((name, l.desc.outputs as usize));
+        }
+        out
+    }
+
+    /// What the scores are, for reports.
+    pub fn score_unit(&self) -> &'static str {
+        match self.int8.desc().output {
+            OutputKind::Softmax => "softmax probabilities",
+            OutputKind::Sigmoid => "sigmoid probability",
+            OutputKind::Logits => "logits",
+        }
+    }
+}
+
+fn shape(d: &kinglet_runtime::format::LayerDesc<'_>) -> (u32, u32, Activation) {
+    (d.inputs, d.outputs, d.activation)
+}
+
+fn describe(layers: &[(u32, u32, Activation)]) -> String {
+    let parts: Vec<String> = layers
+        .iter()
+        .map(|(i, o, a)| {
+            format!(
+                "{i}→{o} {}",
+                if *a == Activation::Relu {
+                    "relu"
+                } else {
+                    "linear"
+                }
+            )
+        })
+        .collect();
+    format!("[{}]", parts.join(", "))
+}
+
+/// The output function's name.
+pub fn output_name(o: OutputKind) -> &'static str {
+    match o {
+        OutputKind::Softmax => "softmax",
+        OutputKind::Sigmoid => "sigmoid",
+        OutputKind::Logits => "logits",
+    }
+}

@@ -1,0 +1,239 @@
+//! The comparison for people: aligned plain-text tables, colour only when asked (on a terminal).
+use comfy_table::{presets::UTF8_BORDERS_ONLY, Cell, CellAlignment, Table};
+use std::fmt::Write;
+
+use super::metrics::Confusion;
+use super::summary::VetReport;
+
+/// Widest confusion matrix printed as a table; larger ones are left to `--json` and `--html`.
+const MAX_MATRIX_CLASSES: usize = 20;
+
+/// How to render.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct TextOptions {
+    /// Colour the verdict with ANSI escapes.
+    pub colour: bool,
+    /// Disagreeing rows to list.
+    pub show_rows: usize,
+}
+
+fn table(header: Vec<String>) -> Table {
+    let mut t = Table::new();
+    t.load_preset(UTF8_BORDERS_ONLY);
+    t.set_header(header);
+    t
+}
+
+fn right(s: impl ToString) -> Cell {
+    Cell::new(s.to_string()).set_alignment(CellAlignment::Right)
+}
+
+fn pct(x: f64) -> String {
+    format!("{:.2} %", 100.0 * x)
+}
+
+fn paint(s: &str, code: &str, colour: bool) -> String {
+    if colour {
+        format!("\x1b[{code}m{s}\x1b[0m")
+    } else {
+        s.to_string()
+    }
+}
+
+fn confusion(r: &VetReport, c: &Confusion) -> String {
+    let mut header = vec!["true \\ predicted".to_string()];
+    header.extend((0..r.classes).map(|k| r.class_name(k)));
+    let mut t = table(header);
+    for (k, row) in c.counts.iter().enumerate() {
+        let mut cells = vec![Cell::new(r.class_name(k))];
+        cells.extend(row.iter().map(|&n| {
+            right(if n == 0 {
+                ".".to_string()
+            } else {
+                n.to_string()
+            })
+        }));
+        t.add_row(cells);
+    }
+    t.to_string()
+}
+
+/// Renders the whole report.
+pub fn render(r: &VetReport, o: &TextOptions) -> String {
+    let mut s = String::new();
+    let _ = writeln!(s, "int8 blob    {}", r.int8_model);
+    let _ = writeln!(s, "float model  {} (runtime f32 path)", r.float_model);
+    let _ = writeln!(
+        s,
+        "data         {}: {} rows, {} classes, {} output",
+        r.data, r.rows, r.classes, r.output
+    );
+
+    if let Some(a) = &r.accuracy {
+        let _ = writeln!(s, "\nAccuracy");
+        let mut t = table(vec![String::new(), "float".into(), "int8".into()]);
+        t.add_row(vec![
+            Cell::new("correct"),
+            right(format!("{} / {}", a.float.correct, a.float.rows)),
+            right(format!("{} / {}", a.int8.correct, a.int8.rows)),
+        ]);
+        t.add_row(vec![
+            Cell::new("accuracy"),
+            right(pct(a.float.accuracy)),
+            right(pct(a.int8.accuracy)),
+        ]);
+        let _ = writeln!(s, "{t}");
+        let _ = writeln!(
+            s,
+            "  drop (float − int8): {:.2} pp, 95% interval {:.2} to {:.2} pp\n    ({})",
+            a.drop_pp,
+            a.drop_interval_pp.lower,
+            a.drop_interval_pp.upper,
+            a.drop_interval_pp.method
+        );
+        let _ = writeln!(
+            s,
+            "  rows only float gets right: {}, only int8 gets right: {}; {}: p = {:.4}",
+            a.paired.first_only, a.paired.second_only, a.mcnemar.method, a.mcnemar.p_value
+        );
+    }
+
+    let g = &r.agreement;
+    let _ = writeln!(
+        s,
+        "\nAgreement    {} of {} rows ({}) get the same class from both models; {} differ",
+        g.agree,
+        g.rows,
+        pct(g.rate),
+        g.disagreements.len()
+    );
+    let e = &r.score_error;
+    let _ = writeln!(
+        s,
+        "Score error  max |float − int8| {:.3e}, mean {:.3e} ({})",
+        e.max_abs, e.mean_abs, e.unit
+    );
+
+    let _ = writeln!(
+        s,
+        "\nPer-layer fidelity: SQNR = 10·log10(Σ x_f² / Σ (x_f − x_q)²) over all rows"
+    );
+    let mut t = table(vec!["tensor".into(), "width".into(), "SQNR (dB)".into()]);
+    for f in &r.fidelity {
+        let v = match (f.sqnr_db, &f.note) {
+            (Some(db), _) => format!("{db:.1}"),
+            (None, Some(n)) => n.clone(),
+            (None, None) => "-".into(),
+        };
+        t.add_row(vec![Cell::new(&f.name), right(f.width), right(v)]);
+    }
+    let _ = writeln!(s, "{t}");
+
+    if let Some(per) = &r.per_class {
+        let _ = writeln!(s, "\nPer class");
+        let mut t = table(
+            [
+                "class",
+                "rows",
+                "float precision",
+                "float recall",
+                "int8 precision",
+                "int8 recall",
+            ]
+            .map(String::from)
+            .to_vec(),
+        );
+        for c in per {
+            let p = |x: f64, undefined: bool| {
+                if undefined {
+                    format!("{x:.4}*")
+                } else {
+                    format!("{x:.4}")
+                }
+            };
+            t.add_row(vec![
+                Cell::new(&c.name),
+                right(c.support),
+                right(p(c.float.precision, c.float.precision_undefined())),
+                right(p(c.float.recall, c.float.recall_undefined())),
+                right(p(c.int8.precision, c.int8.precision_undefined())),
+                right(p(c.int8.recall, c.int8.recall_undefined())),
+            ]);
+        }
+        let _ = writeln!(s, "{t}");
+        if per.iter().any(|c| {
+            c.float.precision_undefined()
+                || c.int8.precision_undefined()
+                || c.float.recall_undefined()
+        }) {
+            let _ = writeln!(
+                s,
+                "  * undefined (no predictions or no rows), reported as 0"
+            );
+        }
+    }
+
+    if let Some(c) = &r.confusion {
+        if r.classes <= MAX_MATRIX_CLASSES {
+            let _ = writeln!(
+                s,
+                "\nConfusion matrix, float (rows: true class, columns: predicted)"
+            );
+            let _ = writeln!(s, "{}", confusion(r, &c.float));
+            let _ = writeln!(s, "\nConfusion matrix, int8");
+            let _ = writeln!(s, "{}", confusion(r, &c.int8));
+        } else {
+            let _ = writeln!(
+                s,
+                "\nConfusion matrices: {} classes are too many for a table here; see --json or --html",
+                r.classes
+            );
+        }
+    }
+
+    if !g.disagreements.is_empty() && o.show_rows > 0 {
+        let shown = g.disagreements.len().min(o.show_rows);
+        let _ = writeln!(
+            s,
+            "\nDisagreeing rows, largest score difference first ({shown} of {}; data rows count from 1, header not counted)",
+            g.disagreements.len()
+        );
+        let mut t = table(
+            ["data row", "label", "float", "int8", "max |Δscore|"]
+                .map(String::from)
+                .to_vec(),
+        );
+        for d in g.disagreements.iter().take(shown) {
+            t.add_row(vec![
+                right(d.data_row),
+                Cell::new(d.label.map_or("-".into(), |l| r.class_name(l))),
+                Cell::new(r.class_name(d.float_class)),
+                Cell::new(r.class_name(d.int8_class)),
+                right(format!("{:.4}", d.max_score_diff)),
+            ]);
+        }
+        let _ = writeln!(s, "{t}");
+    }
+
+    for n in &r.notes {
+        let _ = writeln!(s, "note: {n}");
+    }
+    if let Some(v) = &r.verdict {
+        let _ = writeln!(s);
+        for c in &v.checks {
+            let word = if c.passed {
+                paint("PASS", "1;32", o.colour)
+            } else {
+                paint("FAIL", "1;31", o.colour)
+            };
+            let _ = writeln!(s, "{word}  {}", c.text);
+        }
+        let overall = if v.passed {
+            paint("verdict: pass", "1;32", o.colour)
+        } else {
+            paint("verdict: FAIL", "1;31", o.colour)
+        };
+        let _ = writeln!(s, "{overall}");
+    }
+    s
+}

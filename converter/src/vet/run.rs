@@ -1,0 +1,205 @@
+//! Evaluating every row through both models with the runtime's own kernels.
+//!
+//! Each row runs through [`Model::infer_traced`] twice: the f32 blob (the runtime's float path)
+//! and the int8 blob (the runtime's integer kernels, bit for bit what a board computes). The
+//! trace of each gives the tensors for the per-layer fidelity sums.
+//!
+//! Rows are independent, so they run in parallel (rayon); each row's result depends only on
+//! the row, results are collected in row order, and every sum over rows is taken afterwards in
+//! row order — so a parallel run gives exactly the numbers of a serial one.
+use anyhow::{anyhow, Result};
+use kinglet_runtime::{Input, RunError, Stage};
+use rayon::prelude::*;
+
+use super::fidelity::Energy;
+use super::pair::ModelPair;
+use crate::dataset::Dataset;
+
+/// What one row gave.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RowOutcome {
+    /// Class the float model predicts.
+    pub float_class: usize,
+    /// Class the int8 model predicts.
+    pub int8_class: usize,
+    /// The float model's scores.
+    pub float_scores: Vec<f32>,
+    /// The int8 model's scores.
+    pub int8_scores: Vec<f32>,
+    /// Per traced tensor (input, then each layer): the float signal and int8 error energy.
+    pub energy: Vec<Energy>,
+}
+
+impl RowOutcome {
+    /// Largest absolute difference between the two models' scores on this row.
+    pub fn max_score_diff(&self) -> f64 {
+        self.float_scores
+            .iter()
+            .zip(&self.int8_scores)
+            .map(|(f, q)| (f64::from(*f) - f64::from(*q)).abs())
+            .fold(0.0, f64::max)
+    }
+}
+
+/// Serial or parallel evaluation (the results are the same; serial exists for tests and for
+/// machines where threads are unwelcome).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Parallelism {
+    /// One thread.
+    Serial,
+    /// rayon's global thread pool (or the pool the caller installed).
+    Parallel,
+}
+
+/// Rows per unit of parallel work (and per progress step).
+const CHUNK: usize = 64;
+
+/// Buffers one worker reuses across rows.
+struct Scratch {
+    arena_f: Vec<u8>,
+    arena_q: Vec<u8>,
+    scores_f: Vec<f32>,
+    scores_q: Vec<f32>,
+    stages: Vec<Vec<f32>>,
+}
+
+impl Scratch {
+    fn new(pair: &ModelPair<'_>) -> Self {
+        Scratch {
+            arena_f: vec![0; pair.float.arena_bytes()],
+            arena_q: vec![0; pair.int8.arena_bytes()],
+            scores_f: vec![0.0; pair.float.output_len()],
+            scores_q: vec![0.0; pair.int8.output_len()],
+            stages: pair
+                .stage_names()
+                .iter()
+                .map(|(_, w)| vec![0.0; *w])
+                .collect(),
+        }
+    }
+}
+
+/// A row that could not be run, with which model refused it.
+#[derive(Debug, Clone, PartialEq)]
+struct RowFailure {
+    row: usize,
+    which: &'static str,
+    error: RunError,
+}
+
+fn eval_row(
+    pair: &ModelPair<'_>,
+    row: &[f32],
+    s: &mut Scratch,
+) -> Result<RowOutcome, (&'static str, RunError)> {
+    let stages = &mut s.stages;
+    let pf = pair
+        .float
+        .infer_traced(
+            Input::F32(row),
+            &mut s.arena_f,
+            &mut s.scores_f,
+            &mut |st: &Stage<'_>| {
+                if let Some(buf) = stages.get_mut(st.index) {
+                    for (i, v) in buf.iter_mut().enumerate() {
+                        *v = st.values.real(i).unwrap_or(0.0);
+                    }
+                }
+            },
+        )
+        .map_err(|e| ("float", e))?;
+    let mut energy = vec![Energy::default(); stages.len()];
+    let pq = pair
+        .int8
+        .infer_traced(
+            Input::F32(row),
+            &mut s.arena_q,
+            &mut s.scores_q,
+            &mut |st: &Stage<'_>| {
+                if let (Some(buf), Some(e)) = (stages.get(st.index), energy.get_mut(st.index)) {
+                    for (i, &f) in buf.iter().enumerate() {
+                        e.add(f, st.values.real(i).unwrap_or(0.0));
+                    }
+                }
+            },
+        )
+        .map_err(|e| ("int8", e))?;
+    Ok(RowOutcome {
+        float_class: pf.class,
+        int8_class: pq.class,
+        float_scores: s.scores_f.clone(),
+        int8_scores: s.scores_q.clone(),
+        energy,
+    })
+}
+
+fn eval_chunk(
+    pair: &ModelPair<'_>,
+    data: &Dataset,
+    c: usize,
+    s: &mut Scratch,
+) -> Vec<Result<RowOutcome, RowFailure>> {
+    let end = data.rows.min((c + 1) * CHUNK);
+    (c * CHUNK..end)
+        .map(|r| {
+            eval_row(pair, data.row(r), s).map_err(|(which, error)| RowFailure {
+                row: r,
+                which,
+                error,
+            })
+        })
+        .collect()
+}
+
+/// Runs every row of `data` through both models. `progress` is called with the number of rows
+/// just finished (from worker threads when parallel).
+///
+/// Errors name the data row (1-based, header not counted, as the dataset loader counts) and the
+/// model that refused it; the error reported is always that of the first such row.
+pub fn evaluate(
+    pair: &ModelPair<'_>,
+    data: &Dataset,
+    parallelism: Parallelism,
+    progress: &(dyn Fn(u64) + Sync),
+) -> Result<Vec<RowOutcome>> {
+    data.check_width(pair.int8.input_len())?;
+    let chunks = data.rows.div_ceil(CHUNK);
+    let per_chunk: Vec<Vec<Result<RowOutcome, RowFailure>>> = match parallelism {
+        Parallelism::Serial => {
+            let mut s = Scratch::new(pair);
+            (0..chunks)
+                .map(|c| {
+                    let r = eval_chunk(pair, data, c, &mut s);
+                    progress(r.len() as u64);
+                    r
+                })
+                .collect()
+        }
+        Parallelism::Parallel => (0..chunks)
+            .into_par_iter()
+            .map_init(
+                || Scratch::new(pair),
+                |s, c| {
+                    let r = eval_chunk(pair, data, c, s);
+                    progress(r.len() as u64);
+                    r
+                },
+            )
+            .collect(),
+    };
+    per_chunk
+        .into_iter()
+        .flatten()
+        .map(|r| {
+            r.map_err(|f| {
+                anyhow!(
+                    "{}: data row {} (1-based, header not counted): the {} model cannot run it: {}",
+                    data.source,
+                    f.row + 1,
+                    f.which,
+                    f.error
+                )
+            })
+        })
+        .collect()
+}
