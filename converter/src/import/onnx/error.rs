@@ -50,7 +50,7 @@ pub const SUPPORTED_OPS: &str = "MatMul, Add, Gemm, Relu, Softmax, Sigmoid, \
 #[derive(Debug, thiserror::Error)]
 pub enum OnnxImportError {
     /// The file could not be read.
-    #[error("cannot read ONNX file {}: {source}", path.display())]
+    #[error("cannot read ONNX file {}", path.display())]
     Io {
         /// The file.
         path: PathBuf,
@@ -59,7 +59,7 @@ pub enum OnnxImportError {
         source: std::io::Error,
     },
     /// The bytes are not a protobuf `ModelProto` (truncated, corrupt or another format).
-    #[error("not a valid ONNX model: the protobuf message cannot be decoded ({0}); the file may be truncated or not an ONNX file")]
+    #[error("not a valid ONNX model (truncated, corrupt, or not an ONNX file)")]
     Decode(#[from] prost::DecodeError),
     /// The model has no graph.
     #[error("the ONNX model has no graph")]
