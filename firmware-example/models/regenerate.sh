@@ -1,0 +1,27 @@
+#!/usr/bin/env bash
+# Regenerates everything in firmware-example/models/ from examples/, without Python:
+#   digits.kgl, digits_float.kgl, vibration.kgl        kinglet pack (int8 with calibration; f32)
+#   digits_heldout_*.bin, vibration_replay*.bin        make-assets (this workspace)
+#
+# Usage: bash firmware-example/models/regenerate.sh [OUT_DIR]   (default: firmware-example/models)
+# KINGLET=<path to the kinglet binary> skips building it. CARGO_TARGET_DIR is honoured.
+set -euo pipefail
+root="$(cd "$(dirname "${BASH_SOURCE[0]}")/../.." && pwd)"
+out="${1:-$root/firmware-example/models}"
+mkdir -p "$out"
+out="$(cd "$out" && pwd)"
+host="$(rustc -vV | sed -n 's/^host: //p')"
+
+if [[ -z "${KINGLET:-}" ]]; then
+  (cd "$root" && cargo build --quiet --release -p kinglet-converter --bin kinglet)
+  KINGLET="${CARGO_TARGET_DIR:-$root/target}/release/kinglet"
+fi
+
+"$KINGLET" pack "$root/examples/digits/model.onnx" \
+  --calibration "$root/examples/digits/calibration.csv" -o "$out/digits.kgl"
+"$KINGLET" pack "$root/examples/digits/model.onnx" --float -o "$out/digits_float.kgl"
+"$KINGLET" pack "$root/examples/vibration/model.onnx" \
+  --calibration "$root/examples/vibration/calibration.csv" -o "$out/vibration.kgl"
+
+(cd "$root/firmware-example" && cargo run --quiet --release --target "$host" \
+  -p kinglet-fw-make-assets -- "$root" "$out")

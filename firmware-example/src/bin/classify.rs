@@ -1,0 +1,129 @@
+//! The demo: classify fan-vibration windows and show the class on one output pin per class.
+//!
+//! Windows come from a [`WindowSource`]; under QEMU that is the flash replay of the 64
+//! recorded windows (`models/vibration_replay.bin`), on a board it would be
+//! `kinglet_fw_sensor::kla3::Kla3Source` over the board's I2C bus. For each window the firmware
+//! computes the 15 features of `examples/vibration/FEATURES.md`
+//! ([`kinglet_vibration_features`], in f32), runs the int8 model and drives the pins: the
+//! predicted class's pin high, the others low. QEMU's machines have no LEDs the firmware could
+//! drive, so the pins are [`RecordingPin`]s (they only remember their level) and their levels
+//! are printed; on hardware the same code takes the HAL's `OutputPin`s. With the `defmt`
+//! feature each result is also logged through defmt (RTT), which needs a probe to read.
+//!
+//! The arena: a `static` byte array of exactly `kinglet_runtime::arena_bytes(VIBRATION)` bytes,
+//! handed out once by `cortex_m::singleton!`. That keeps it in `.bss`, where the linker counts
+//! it against RAM (an oversized model fails the link, not the run), needs no `static mut`, and
+//! keeps it off the stack so the stack measurement below is the inference's alone.
+#![no_std]
+#![no_main]
+
+use core::fmt::Write;
+use cortex_m_rt::entry;
+use embedded_hal::digital::StatefulOutputPin;
+use kinglet_firmware_example::{board, console, stack};
+use kinglet_fw_sensor::pins::{show_class, RecordingPin};
+use kinglet_fw_sensor::replay::ReplaySource;
+use kinglet_fw_sensor::{Window, WindowSource, AXES, WINDOW};
+use kinglet_fw_vectors::assets::{REPLAY_LABELS, REPLAY_WINDOWS, VIBRATION, VIBRATION_ARENA};
+use kinglet_runtime::{Input, Model};
+use kinglet_vibration_features::window_features;
+
+const CLASSES: usize = 4;
+
+#[entry]
+fn main() -> ! {
+    let ok = run();
+    console::exit(ok)
+}
+
+fn fail(what: &str) -> bool {
+    let mut l = console::LineBuf::new();
+    let _ = write!(l, "classify: {what}");
+    console::line(&l);
+    false
+}
+
+fn run() -> bool {
+    let Some(arena) = cortex_m::singleton!(: [u8; VIBRATION_ARENA] = [0; VIBRATION_ARENA]) else {
+        return fail("arena already taken");
+    };
+    let model = match Model::parse(VIBRATION) {
+        Ok(m) => m,
+        Err(e) => {
+            let mut l = console::LineBuf::new();
+            let _ = write!(l, "classify: model rejected: {e}");
+            console::line(&l);
+            return false;
+        }
+    };
+    if model.classes() != CLASSES {
+        return fail("the vibration model must have 4 classes");
+    }
+    let mut l = console::LineBuf::new();
+    let _ = write!(
+        l,
+        "classify on {}: model {} bytes in flash, arena {} bytes, {} windows to replay",
+        board::BOARD,
+        model.blob_bytes(),
+        arena.len(),
+        REPLAY_WINDOWS.len() / (AXES * WINDOW * 2)
+    );
+    console::line(&l);
+    let mut pins = [RecordingPin::new(); CLASSES];
+    let mut source = ReplaySource::new(REPLAY_WINDOWS);
+    classify_all(&model, &mut source, arena, &mut pins)
+}
+
+/// Classifies every window `source` yields; returns whether all went well.
+fn classify_all<S: WindowSource, P: StatefulOutputPin>(
+    model: &Model<'_>,
+    source: &mut S,
+    arena: &mut [u8],
+    pins: &mut [P; CLASSES],
+) -> bool {
+    let mut window: Window = [[0; WINDOW]; AXES];
+    let mut scores = [0f32; CLASSES];
+    let (mut n, mut agree, mut peak) = (0usize, 0usize, 0usize);
+    while source.next_window(&mut window).is_ok() {
+        let features = window_features(&window);
+        let (result, used) =
+            stack::measure(|| model.infer(Input::F32(&features), arena, &mut scores));
+        peak = peak.max(used);
+        let p = match result {
+            Ok(p) => p,
+            Err(e) => {
+                let mut l = console::LineBuf::new();
+                let _ = write!(l, "classify: window {n}: {e}");
+                console::line(&l);
+                return false;
+            }
+        };
+        if show_class(pins, p.class).is_err() {
+            return fail("could not drive the class pins");
+        }
+        let truth = REPLAY_LABELS.get(n).map(|&c| usize::from(c));
+        agree += usize::from(truth == Some(p.class));
+        let mut l = console::LineBuf::new();
+        let _ = write!(
+            l,
+            "window {n:02}: {:<12} p={:>4}\u{2030} recorded={:<12} pins=",
+            model.label(p.class).unwrap_or("?"),
+            (p.score * 1000.0) as u32,
+            truth.and_then(|c| model.label(c)).unwrap_or("?"),
+        );
+        for pin in pins.iter_mut() {
+            let _ = l.push(if pin.is_set_high().unwrap_or(false) { '1' } else { '0' });
+        }
+        console::line(&l);
+        #[cfg(feature = "defmt")]
+        defmt::info!("window {=usize}: class {=usize}", n, p.class);
+        n += 1;
+    }
+    let mut l = console::LineBuf::new();
+    let _ = write!(
+        l,
+        "classify: {n} windows, {agree} agree with the recorded class; peak stack of one inference (features excluded): {peak} bytes"
+    );
+    console::line(&l);
+    n > 0
+}
