@@ -1,5 +1,121 @@
+//! Bit-exact test vectors on the target.
+//!
+//! Runs every vector of [`kinglet_fw_vectors::SETS`] (150 digits rows through the integer
+//! `u8` input path, 20 through the `f32` path, 10 through the f32 model, 64 recorded vibration
+//! windows through feature extraction and the `f32` path), prints one line per vector in the
+//! format of `kinglet_fw_vectors::format_vector`, compares each line with the expected line
+//! embedded at build time from `tests/fixtures/vectors/<set>.txt`, and ends with
+//! `vectors: N passed, M failed`. `scripts/firmware.sh` also diffs the printed lines against
+//! the same files. Also prints the peak stack of one inference per set (`stack ...` lines).
+//!
+//! One arena serves every model: a `static` of `MAX_ARENA` bytes (the largest
+//! `kinglet_runtime::arena_bytes` of the embedded blobs, computed at compile time), handed out
+//! once by `cortex_m::singleton!`.
 #![no_std]
 #![no_main]
-use kinglet_firmware_example as _;
-#[cortex_m_rt::entry]
-fn main() -> ! { kinglet_firmware_example::console::exit(true) }
+
+use core::fmt::Write;
+use cortex_m_rt::entry;
+use kinglet_firmware_example::{board, console, stack};
+use kinglet_fw_vectors::assets::{digits_row, MAX_ARENA};
+use kinglet_fw_vectors::{format_vector, Line, Path, VectorSet, SETS, TOTAL};
+use kinglet_runtime::{Input, Model};
+
+#[entry]
+fn main() -> ! {
+    let Some(arena) = cortex_m::singleton!(: [u8; MAX_ARENA] = [0; MAX_ARENA]) else {
+        console::exit(false)
+    };
+    let mut l = console::LineBuf::new();
+    let _ = write!(l, "vectors on {}: {TOTAL} vectors in {} sets", board::BOARD, SETS.len());
+    console::line(&l);
+    let (mut passed, mut failed) = (0usize, 0usize);
+    for set in &SETS {
+        let (p, f) = run_set(set, arena);
+        passed += p;
+        failed += f;
+    }
+    let mut l = console::LineBuf::new();
+    let _ = write!(l, "vectors: {passed} passed, {failed} failed");
+    console::line(&l);
+    console::exit(failed == 0 && passed == TOTAL)
+}
+
+/// Runs one set; returns (passed, failed).
+fn run_set(set: &VectorSet, arena: &mut [u8]) -> (usize, usize) {
+    let model = match Model::parse(set.model) {
+        Ok(m) => m,
+        Err(e) => {
+            let mut l = console::LineBuf::new();
+            let _ = write!(l, "{}: model rejected: {e}", set.name);
+            console::line(&l);
+            return (0, set.count);
+        }
+    };
+    report_stack(set, &model, arena);
+    let mut expected = set.expected.lines();
+    let mut line = Line::new();
+    let (mut passed, mut failed) = (0, 0);
+    for i in 0..set.count {
+        let want = expected.next();
+        match format_vector(set, &model, i, arena, &mut line) {
+            Ok(_) => {
+                console::line(&line);
+                if want == Some(line.as_str()) {
+                    passed += 1;
+                } else {
+                    failed += 1;
+                    let mut l = console::LineBuf::new();
+                    let _ = write!(l, "MISMATCH {} {i:03}: expected {:?}", set.name, want);
+                    console::line(&l);
+                }
+            }
+            Err(e) => {
+                failed += 1;
+                let mut l = console::LineBuf::new();
+                let _ = write!(l, "ERROR {} {i:03}: {e:?}", set.name);
+                console::line(&l);
+            }
+        }
+    }
+    (passed, failed)
+}
+
+/// Prints the peak stack of one plain inference (no trace, no formatting) on the set's first
+/// input.
+fn report_stack(set: &VectorSet, model: &Model<'_>, arena: &mut [u8]) {
+    let mut scores = [0f32; kinglet_fw_vectors::MAX_OUTPUTS];
+    let used = match set.path {
+        Path::DigitsU8 => digits_row(set.first)
+            .map(|px| stack::measure(|| model.infer(Input::U8(px), arena, &mut scores)).1),
+        Path::DigitsF32 => digits_row(set.first).map(|px| {
+            let mut x = [0f32; 64];
+            for (d, &p) in x.iter_mut().zip(px) {
+                *d = f32::from(p);
+            }
+            stack::measure(|| model.infer(Input::F32(&x), arena, &mut scores)).1
+        }),
+        Path::Vibration => kinglet_fw_vectors::assets::replay_window(set.first)
+            .and_then(kinglet_vibration_features::window_from_le_bytes)
+            .map(|w| {
+                let (_, used) = stack::measure(|| {
+                    let f = kinglet_vibration_features::window_features(&w);
+                    model.infer(Input::F32(&f), arena, &mut scores).map(|_| ())
+                });
+                used
+            }),
+    };
+    let mut l = console::LineBuf::new();
+    match (set.path, used) {
+        (Path::Vibration, Some(b)) => {
+            let _ = write!(l, "stack {} features+infer={b}", set.name);
+        }
+        (_, Some(b)) => {
+            let _ = write!(l, "stack {} infer={b}", set.name);
+        }
+        (_, None) => {
+            let _ = write!(l, "stack {} no input", set.name);
+        }
+    }
+    console::line(&l);
+}

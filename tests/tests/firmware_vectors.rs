@@ -1,0 +1,162 @@
+//! The firmware's test vectors on the host (x86-64), against the committed expected lines.
+//!
+//! `kinglet-fw-vectors` is the same crate the `vectors` firmware runs on Cortex-M0 and
+//! Cortex-M4F under QEMU (`scripts/firmware.sh` diffs their output against the same files), so
+//! equal lines here and there mean bit-identical results on all three targets.
+//!
+//! The expected files `tests/fixtures/vectors/<set>.txt` are written by this test with
+//! `KINGLET_BLESS=1` after a deliberate change to the runtime, the models or the format — never
+//! by hand. What keeps them honest is checked against the outside world below: the inputs are
+//! the examples' held-out data, the features agree with the numpy reference, and the predicted
+//! classes agree with scikit-learn's.
+use kinglet_fw_vectors::{assets, format_vector, Line, VectorSet, SETS};
+use kinglet_runtime::Model;
+use kinglet_tests::path;
+use kinglet_vibration_features::{window_features, window_from_le_bytes, FEATURES};
+
+/// Runs every vector of `set`: (lines, predicted classes).
+fn run_set(set: &VectorSet) -> (Vec<String>, Vec<usize>) {
+    let model = Model::parse(set.model).unwrap_or_else(|e| panic!("{}: {e}", set.name));
+    let mut arena = vec![0u8; model.arena_bytes()];
+    let mut line = Line::new();
+    (0..set.count)
+        .map(|i| {
+            let class = format_vector(set, &model, i, &mut arena, &mut line)
+                .unwrap_or_else(|e| panic!("{} {i}: {e:?}", set.name));
+            (line.as_str().to_string(), class)
+        })
+        .unzip()
+}
+
+#[test]
+fn vectors_match_the_committed_expected_lines() {
+    let bless = std::env::var_os("KINGLET_BLESS").is_some();
+    for set in &SETS {
+        let (lines, _) = run_set(set);
+        let file = path(&format!("tests/fixtures/vectors/{}.txt", set.name));
+        if bless {
+            std::fs::write(&file, lines.join("\n") + "\n").unwrap();
+            continue;
+        }
+        let expected = std::fs::read_to_string(&file).unwrap();
+        // The firmware embeds the same file at build time; they must not differ.
+        assert_eq!(expected, set.expected, "{}: rebuild after blessing", set.name);
+        let want: Vec<&str> = expected.lines().collect();
+        assert_eq!(want.len(), set.count, "{}: line count", file.display());
+        for (i, (got, want)) in lines.iter().zip(&want).enumerate() {
+            assert_eq!(got, want, "{} vector {i} differs from {}", set.name, file.display());
+        }
+    }
+    let total: usize = SETS.iter().map(|s| s.count).sum();
+    assert!(total >= 200, "only {total} vectors");
+}
+
+#[test]
+fn digits_inputs_are_the_heldout_rows() {
+    // The firmware's digits inputs must be examples/digits/heldout.csv (scikit-learn's
+    // load_digits split), row for row.
+    let rows = kinglet_tests::read_float_csv("examples/digits/heldout.csv");
+    assert_eq!(assets::DIGITS_ROWS, 180);
+    for (i, row) in rows.iter().take(assets::DIGITS_ROWS).enumerate() {
+        let px: Vec<f64> = assets::digits_row(i).unwrap().iter().map(|&p| f64::from(p)).collect();
+        assert_eq!(&px[..], &row[..64], "digits row {i}");
+        assert_eq!(f64::from(assets::DIGITS_LABELS[i]), row[64], "digits label {i}");
+    }
+}
+
+#[test]
+fn replay_windows_are_the_recorded_npy() {
+    let file = std::fs::File::open(path("examples/vibration/replay_windows.npy")).unwrap();
+    let npy = npyz::NpyFile::new(std::io::BufReader::new(file)).unwrap();
+    assert_eq!(npy.shape(), &[64, 3, 128]);
+    let samples: Vec<i16> = npy.into_vec().unwrap();
+    let bytes: Vec<u8> = samples.iter().flat_map(|s| s.to_le_bytes()).collect();
+    assert!(bytes == assets::REPLAY_WINDOWS, "models/vibration_replay.bin is stale");
+    let file = std::fs::File::open(path("examples/vibration/replay_labels.npy")).unwrap();
+    let labels: Vec<i64> = npyz::NpyFile::new(std::io::BufReader::new(file)).unwrap().into_vec().unwrap();
+    let ours: Vec<i64> = assets::REPLAY_LABELS.iter().map(|&l| i64::from(l)).collect();
+    assert_eq!(ours, labels);
+}
+
+#[test]
+fn window_features_match_the_numpy_reference() {
+    // Reference: examples/vibration/features.py (numpy, float64) wrote the features of these
+    // windows as the first 64 rows of heldout.csv (README: replay windows are the first 64
+    // held-out rows). mean, p2p and zc are exact in f32; rms and mad1 are rounded once or
+    // twice, so they agree to within 2 ulp of f32 (relative 2^-22).
+    let rows = feature_rows("examples/vibration/heldout.csv", FEATURES);
+    for i in 0..assets::REPLAY_COUNT {
+        let w = window_from_le_bytes(assets::replay_window(i).unwrap()).unwrap();
+        let f = window_features(&w);
+        for (k, (&ours, &reference)) in f.iter().zip(&rows[i]).enumerate() {
+            let name = kinglet_vibration_features::FEATURE_NAMES[k];
+            match k % 5 {
+                1 | 3 => {
+                    let rel = ((f64::from(ours) - reference) / reference.abs().max(1e-30)).abs();
+                    assert!(rel <= 2f64.powi(-22), "window {i} {name}: {ours} vs {reference}");
+                }
+                _ => assert_eq!(f64::from(ours), reference, "window {i} {name}"),
+            }
+        }
+    }
+}
+
+/// The first `n` columns of each row of a headered CSV, as f64 (the rest may be text).
+fn feature_rows(rel: &str, n: usize) -> Vec<Vec<f64>> {
+    let mut r = csv::Reader::from_path(path(rel)).unwrap();
+    r.records()
+        .enumerate()
+        .map(|(row, rec)| {
+            rec.unwrap()
+                .iter()
+                .take(n)
+                .map(|v| v.parse().unwrap_or_else(|e| panic!("{rel} row {}: {v}: {e}", row + 1)))
+                .collect()
+        })
+        .collect()
+}
+
+fn argmax(v: &[f64]) -> usize {
+    v.iter().enumerate().fold(0, |b, (i, &x)| if x > v[b] { i } else { b })
+}
+
+#[test]
+fn vector_classes_agree_with_scikit_learn() {
+    // scikit-learn's predictions: examples/digits/reference_metrics.json ("predictions", the
+    // float MLP on the held-out rows) and examples/vibration/expected_proba.csv
+    // (predict_proba of the held-out rows). An int8 model that agrees on at least 97% of rows
+    // is working as intended (rule of thumb, common practice, no source); the f32 model must
+    // agree on every row.
+    let metrics: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(path("examples/digits/reference_metrics.json")).unwrap(),
+    )
+    .unwrap();
+    let sk_digits: Vec<usize> = metrics["predictions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_u64().unwrap() as usize)
+        .collect();
+    let proba = kinglet_tests::read_float_csv("examples/vibration/expected_proba.csv");
+    for set in &SETS {
+        let (_, classes) = run_set(set);
+        let reference: Vec<usize> = match set.path {
+            kinglet_fw_vectors::Path::Vibration => {
+                proba[set.first..set.first + set.count].iter().map(|p| argmax(p)).collect()
+            }
+            _ => sk_digits[set.first..set.first + set.count].to_vec(),
+        };
+        let agree = classes.iter().zip(&reference).filter(|(a, b)| a == b).count();
+        let need = if set.model == assets::DIGITS_FLOAT {
+            set.count
+        } else {
+            (set.count * 97).div_ceil(100)
+        };
+        assert!(
+            agree >= need,
+            "{}: {agree} of {} classes agree with scikit-learn (need {need})",
+            set.name,
+            set.count
+        );
+    }
+}
