@@ -121,7 +121,8 @@ pub enum FormatError {
         /// Output channel.
         channel: u32,
     },
-    /// A quantisation scale that is not finite and positive.
+    /// A quantisation scale that is not finite and positive, or so large that its int8 tensor's
+    /// extreme values overflow f32.
     BadScale {
         /// Layer index; `None` for the input stage.
         layer: Option<u8>,
@@ -217,7 +218,7 @@ impl fmt::Display for FormatError {
             ),
             BadScale { layer } => {
                 at(f, layer)?;
-                f.write_str(": quantisation scale must be finite and positive")
+                f.write_str(": quantisation scale must be finite, positive and small enough that every int8 step stays finite in f32")
             }
             NonFinite { layer, tensor } => {
                 at(f, layer)?;

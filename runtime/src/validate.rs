@@ -41,8 +41,12 @@ fn finite(bytes: &[u8], layer: Option<u8>, tensor: TensorKind) -> Result<(), For
     }
 }
 
-fn good_scale(s: f32, layer: Option<u8>) -> Result<(), FormatError> {
-    if s.is_finite() && s > 0.0 {
+/// A quantisation scale must be finite and positive, and small enough that the largest real
+/// value its int8 tensor holds, `(q - zero_point) * s` with `|q - zero_point|` up to
+/// `max(127 - zp, zp + 128)`, is finite too (else a dequantised score would be infinite).
+fn good_scale(s: f32, zero_point: i8, layer: Option<u8>) -> Result<(), FormatError> {
+    let steps = f32::from((127 - i16::from(zero_point)).max(i16::from(zero_point) + 128));
+    if s.is_finite() && s > 0.0 && (s * steps).is_finite() {
         Ok(())
     } else {
         Err(FormatError::BadScale { layer })
@@ -50,7 +54,7 @@ fn good_scale(s: f32, layer: Option<u8>) -> Result<(), FormatError> {
 }
 
 fn check_input_quant(q: &InputQuantDesc<'_>, input_len: usize) -> Result<(), FormatError> {
-    good_scale(q.scale, None)?;
+    good_scale(q.scale, q.zero_point, None)?;
     let n = q.int_shift.len();
     if n != 1 && n != input_len {
         return Err(FormatError::TensorLength {
@@ -96,7 +100,7 @@ fn check_layer(
             expect_len(q.multiplier, 4 * outputs, at, TensorKind::Multiplier)?;
             expect_len(q.shift, outputs, at, TensorKind::Shift)?;
             finite(q.weight_scale, at, TensorKind::WeightScale)?;
-            good_scale(q.output_scale, at)?;
+            good_scale(q.output_scale, q.output_zero_point, at)?;
             for (c, m) in le::i32s(q.multiplier).enumerate() {
                 if m < (1 << 30) {
                     return Err(FormatError::MultiplierOutOfRange {

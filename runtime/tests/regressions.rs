@@ -1,0 +1,58 @@
+//! Regression tests for faults found by fuzzing (`fuzz/`, see `docs/bad-inputs.md`). Each test
+//! names the target that found it.
+mod common;
+
+use common::{Int8Layer, Int8Model};
+use kinglet_runtime::{FormatError, Input, Model, OutputKind};
+
+/// A 2 → 2 int8 softmax model whose output scale is `scale` (zero point `zp`).
+fn with_output_scale(scale: f32, zp: i8) -> Vec<u8> {
+    let mut l = Int8Layer::new(2, vec![127, -128, -128, 127], vec![0, 0], -31);
+    l.output_scale = scale;
+    l.output_zero_point = zp;
+    let mut m = Int8Model::new(2, vec![l]);
+    m.output = OutputKind::Softmax;
+    m.blob()
+}
+
+/// Found by `blob_mutate`: an int8 layer with output scale 3e38 passed validation ("finite and
+/// positive"), and dequantising its int8 outputs, `(q - zp) * 3e38`, overflowed to ±inf, so the
+/// softmax returned NaN probabilities from an accepted model. Validation now also requires
+/// `scale * max |q - zp|` to be finite.
+#[test]
+fn output_scale_whose_steps_overflow_f32_is_rejected() {
+    assert_eq!(
+        Model::parse(&with_output_scale(3e38, -5)).map(|_| ()),
+        Err(FormatError::BadScale { layer: Some(0) })
+    );
+    // Zero point 0: |q - zp| reaches 128 (q = -128). f32::MAX / 128 is the largest scale whose
+    // steps stay finite: accepted, and the scores it gives are finite probabilities.
+    let edge = f32::MAX / 128.0;
+    let blob = with_output_scale(edge, 0);
+    let m = Model::parse(&blob).expect("largest finite-step scale accepted");
+    let mut arena = vec![0u8; m.arena_bytes()];
+    let mut scores = [0f32; 2];
+    for x in [[i16::MIN, i16::MAX], [i16::MAX, i16::MIN], [0, 0]] {
+        m.infer(Input::I16(&x), &mut arena, &mut scores).unwrap();
+        assert!(
+            scores
+                .iter()
+                .all(|s| s.is_finite() && (0.0..=1.0).contains(s)),
+            "{scores:?}"
+        );
+        assert!((scores.iter().sum::<f32>() - 1.0).abs() < 1e-6);
+    }
+    // One ulp above: 128 steps overflow.
+    let over = f32::from_bits(edge.to_bits() + 1);
+    assert!((over * 128.0).is_infinite());
+    assert_eq!(
+        Model::parse(&with_output_scale(over, 0)).map(|_| ()),
+        Err(FormatError::BadScale { layer: Some(0) })
+    );
+    // With zero point 127 the widest step is 255 (q = -128).
+    assert_eq!(
+        Model::parse(&with_output_scale(f32::MAX / 200.0, 127)).map(|_| ()),
+        Err(FormatError::BadScale { layer: Some(0) })
+    );
+    assert!(Model::parse(&with_output_scale(f32::MAX / 256.0, 127)).is_ok());
+}
