@@ -1,0 +1,204 @@
+//! Vetting speed against numpy: 10,000 rows of a 784-100-10 softmax classifier (random
+//! weights, seeded), run through both the f32 and the int8 blob by `kinglet vet`, side by side
+//! with numpy doing the float forward pass alone in one process.
+//!
+//! Run with `cargo bench -p kinglet-converter --bench vet` (needs the reference venv,
+//! `bash tests/python/setup_venv.sh`; set `KINGLET_PYTHON` to use another interpreter). Prints
+//! a table; the goal (our whole comparison in less wall time than numpy's forward pass) is read
+//! from the table, not asserted.
+use kinglet_converter::dataset::Dataset;
+use kinglet_converter::graph::{Activation, DenseLayer, FloatModel, OutputKind, Scaler, ScalerKind};
+use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::quantise::calibrate::RangeMethod;
+use kinglet_converter::vet::{self, Criteria, ModelPair, Parallelism, Sources};
+use kinglet_runtime::Model;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use std::time::Instant;
+
+const ROWS: usize = 10_000;
+const INPUTS: usize = 784;
+const HIDDEN: usize = 100;
+const CLASSES: usize = 10;
+const PIXEL_SCALE: f32 = 1.0 / 255.0;
+
+/// A small deterministic generator (SplitMix64), so the bench needs no extra crate.
+struct Rng(u64);
+impl Rng {
+    fn next_u64(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+    /// Uniform in [0, 1).
+    fn unit(&mut self) -> f32 {
+        (self.next_u64() >> 40) as f32 / (1u64 << 24) as f32
+    }
+}
+
+fn dense(rng: &mut Rng, inputs: usize, outputs: usize, activation: Activation) -> DenseLayer {
+    let bound = (6.0 / inputs as f32).sqrt(); // He-style uniform range (common practice, no source)
+    let weights = (0..inputs * outputs).map(|_| (rng.unit() * 2.0 - 1.0) * bound).collect();
+    let bias = (0..outputs).map(|_| (rng.unit() - 0.5) * 0.1).collect();
+    DenseLayer { inputs, outputs, weights, bias, activation }
+}
+
+/// Writes a little-endian `.npy` (format version 1.0). Written by hand rather than with npyz's
+/// typestate writer because the format is a 10-line header and this is bench code.
+fn write_npy(path: &Path, descr: &str, shape: &[usize], data: &[u8]) {
+    let dims: Vec<String> = shape.iter().map(|d| d.to_string()).collect();
+    let shape_txt = if shape.len() == 1 { format!("({},)", dims[0]) } else { format!("({})", dims.join(", ")) };
+    let mut header = format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape_txt}, }}");
+    while (10 + header.len() + 1) % 64 != 0 {
+        header.push(' ');
+    }
+    header.push('\n');
+    let mut out = b"\x93NUMPY\x01\x00".to_vec();
+    out.extend_from_slice(&(header.len() as u16).to_le_bytes());
+    out.extend_from_slice(header.as_bytes());
+    out.extend_from_slice(data);
+    std::fs::write(path, out).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+}
+
+fn f32_bytes(v: &[f32]) -> Vec<u8> {
+    v.iter().flat_map(|x| x.to_le_bytes()).collect()
+}
+
+fn median(mut t: Vec<f64>) -> f64 {
+    t.sort_by(f64::total_cmp);
+    t[t.len() / 2]
+}
+
+fn python() -> PathBuf {
+    std::env::var_os("KINGLET_PYTHON")
+        .map(PathBuf::from)
+        .unwrap_or_else(|| Path::new(env!("CARGO_MANIFEST_DIR")).join("../.venv/bin/python"))
+}
+
+fn main() {
+    let mut rng = Rng(0x00C0_FFEE);
+    let model = FloatModel {
+        input_len: INPUTS,
+        scaler: Some(Scaler { kind: ScalerKind::Uniform, offset: vec![0.0], scale: vec![PIXEL_SCALE] }),
+        layers: vec![dense(&mut rng, INPUTS, HIDDEN, Activation::Relu), dense(&mut rng, HIDDEN, CLASSES, Activation::Linear)],
+        output: OutputKind::Softmax,
+        labels: vec![],
+    };
+    // Pixel-like rows: integers 0..=255, most of them dark.
+    let features: Vec<f32> = (0..ROWS * INPUTS)
+        .map(|_| {
+            let u = rng.unit();
+            if u < 0.6 { 0.0 } else { (rng.unit() * 255.0).round() }
+        })
+        .collect();
+    let labels: Vec<i64> = (0..ROWS).map(|_| (rng.next_u64() % CLASSES as u64) as i64).collect();
+    let data = Dataset {
+        rows: ROWS,
+        width: INPUTS,
+        features,
+        labels: Some(labels.iter().map(|l| l.to_string()).collect()),
+        source: "generated".into(),
+    };
+    let calib = Dataset { rows: 1000, features: data.features[..1000 * INPUTS].to_vec(), labels: None, ..data.clone() };
+    let f32_blob = pack_f32(&model).expect("f32 pack");
+    let int8_blob = pack_int8(&model, &calib, RangeMethod::MinMax).expect("int8 pack").blob;
+
+    let dir = tempfile::tempdir().expect("temp dir");
+    let d = dir.path();
+    std::fs::write(d.join("model.f32.kgl"), &f32_blob).expect("write");
+    std::fs::write(d.join("model.int8.kgl"), &int8_blob).expect("write");
+    write_npy(&d.join("x.npy"), "<f4", &[ROWS, INPUTS], &f32_bytes(&data.features));
+    let label_bytes: Vec<u8> = labels.iter().flat_map(|l| l.to_le_bytes()).collect();
+    write_npy(&d.join("labels.npy"), "<i8", &[ROWS], &label_bytes);
+    let (l1, l2) = (&model.layers[0], &model.layers[1]);
+    write_npy(&d.join("w1.npy"), "<f4", &[HIDDEN, INPUTS], &f32_bytes(&l1.weights));
+    write_npy(&d.join("b1.npy"), "<f4", &[HIDDEN], &f32_bytes(&l1.bias));
+    write_npy(&d.join("w2.npy"), "<f4", &[CLASSES, HIDDEN], &f32_bytes(&l2.weights));
+    write_npy(&d.join("b2.npy"), "<f4", &[CLASSES], &f32_bytes(&l2.bias));
+    std::fs::write(d.join("scale.txt"), format!("{PIXEL_SCALE:e}")).expect("write");
+
+    // numpy: forward pass timed inside the process, and the whole process from outside.
+    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("benches/vet_numpy.py");
+    let mut np_process = Vec::new();
+    let mut np_json = String::new();
+    for _ in 0..3 {
+        let t = Instant::now();
+        let out = Command::new(python()).arg(&script).arg(d).output().expect("run python");
+        np_process.push(t.elapsed().as_secs_f64());
+        assert!(out.status.success(), "numpy script failed: {}", String::from_utf8_lossy(&out.stderr));
+        np_json = String::from_utf8_lossy(&out.stdout).trim().to_string();
+    }
+    let np: serde_json::Value = serde_json::from_str(&np_json).expect("numpy JSON");
+
+    // Ours, in process: the evaluation and report (parallel and serial).
+    let (fm, qm) = (Model::parse(&f32_blob).expect("parse"), Model::parse(&int8_blob).expect("parse"));
+    let pair = ModelPair::new(fm, qm).expect("pair");
+    let run = |p: Parallelism| {
+        let t = Instant::now();
+        let r = vet::vet(&pair, &data, &Sources::default(), &Criteria::default(), p, &|_| {}).expect("vet");
+        (t.elapsed().as_secs_f64(), r)
+    };
+    let (par_t, par_r): (Vec<f64>, Vec<_>) = (0..3).map(|_| run(Parallelism::Parallel)).unzip();
+    let (ser_t, ser_r): (Vec<f64>, Vec<_>) = (0..3).map(|_| run(Parallelism::Serial)).unzip();
+    assert_eq!(par_r[0], ser_r[0], "parallel and serial reports differ");
+    let our_class_sum: usize = par_r[0].predictions.float.iter().sum();
+
+    // Where the time goes: each runtime path alone, one thread, all rows.
+    let path_time = |m: &Model<'_>| {
+        let mut arena = vec![0u8; m.arena_bytes()];
+        let mut scores = vec![0f32; m.output_len()];
+        let t = Instant::now();
+        let mut sum = 0usize;
+        for r in 0..ROWS {
+            sum += m.infer(kinglet_runtime::Input::F32(data.row(r)), &mut arena, &mut scores).map_or(0, |p| p.class);
+        }
+        std::hint::black_box(sum);
+        t.elapsed().as_secs_f64()
+    };
+    let f32_alone = path_time(&pair.float);
+    let int8_alone = path_time(&pair.int8);
+
+    // Ours, as a process: `kinglet vet` on the .npy rows, JSON to a pipe.
+    let exe = env!("CARGO_BIN_EXE_kinglet");
+    let mut cli = Vec::new();
+    for _ in 0..3 {
+        let t = Instant::now();
+        let out = Command::new(exe)
+            .arg("vet")
+            .arg(d.join("model.f32.kgl"))
+            .arg(d.join("model.int8.kgl"))
+            .arg("--data")
+            .arg(d.join("x.npy"))
+            .arg("--label-file")
+            .arg(d.join("labels.npy"))
+            .arg("--json")
+            .output()
+            .expect("run kinglet");
+        cli.push(t.elapsed().as_secs_f64());
+        assert!(out.status.success(), "kinglet vet failed: {}", String::from_utf8_lossy(&out.stderr));
+    }
+
+    println!("vet benchmark: {ROWS} rows, {INPUTS}-{HIDDEN}-{CLASSES} softmax, {} threads for rayon", rayon::current_num_threads());
+    println!("numpy {}: {}", np["dtype"], np["blas"]);
+    println!("{:<62} {:>10} {:>10}", "case", "median s", "best s");
+    let best = |t: &[f64]| t.iter().copied().fold(f64::INFINITY, f64::min);
+    let rows = [
+        ("numpy float forward pass only (in process, 5 runs)", np["forward_median_s"].as_f64().unwrap_or(f64::NAN), np["forward_best_s"].as_f64().unwrap_or(f64::NAN)),
+        ("numpy whole process (start, load .npy, 5 forward passes)", median(np_process.clone()), best(&np_process)),
+        ("kinglet vet, library, parallel: f32 + int8 + report", median(par_t.clone()), best(&par_t)),
+        ("kinglet vet, library, serial: f32 + int8 + report", median(ser_t.clone()), best(&ser_t)),
+        ("runtime f32 path alone, serial, Model::infer", f32_alone, f32_alone),
+        ("runtime int8 path alone, serial, Model::infer", int8_alone, int8_alone),
+        ("kinglet vet, whole process (load .npy, both paths, JSON)", median(cli.clone()), best(&cli)),
+    ];
+    for (name, med, b) in rows {
+        println!("{name:<62} {med:>10.4} {b:>10.4}");
+    }
+    println!(
+        "float predictions agree with numpy's on the class checksum: {} (ours {our_class_sum}, numpy {})",
+        np["class_sum"].as_u64() == Some(our_class_sum as u64),
+        np["class_sum"]
+    );
+}
