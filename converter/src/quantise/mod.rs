@@ -55,8 +55,18 @@ fn quantise_layer(k: usize, l: &crate::graph::DenseLayer, qi: AffineQuant, qo: A
         let acc_scale = f64::from(qi.scale) * f64::from(s_w);
         let b = f64::from(l.bias.get(o).copied().unwrap_or(0.0));
         let sum_w: i64 = row_q.iter().map(|&w| i64::from(w)).sum();
+        // The bias in accumulator steps. Checked before the integer fold: a bias that is huge
+        // next to the row's weights (or a tiny accumulator scale) would otherwise saturate the
+        // cast and overflow the subtraction below.
+        let bias_steps = (b / acc_scale).round();
+        if bias_steps.is_nan() || bias_steps.abs() > f64::from(i32::MAX) {
+            bail!(
+                "layer {k}, output {o}: the bias {b:e} is {bias_steps:e} accumulator steps (input scale × weight scale = {acc_scale:e}), \
+                 more than an int32 accumulator holds; the row's weights are tiny next to its bias, or the input's calibration range is too narrow"
+            );
+        }
         // Fold the input zero point: Σ w (q - z) = Σ w q - z Σ w.
-        let folded = (b / acc_scale).round() as i64 - i64::from(qi.zero_point) * sum_w;
+        let folded = bias_steps as i64 - i64::from(qi.zero_point) * sum_w;
         let bound = folded.abs() + 128 * row_q.iter().map(|&w| i64::from(w).abs()).sum::<i64>();
         if bound > i64::from(i32::MAX) {
             bail!(
