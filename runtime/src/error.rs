@@ -102,6 +102,11 @@ pub enum FormatError {
         /// Which tensor.
         tensor: TensorKind,
     },
+    /// A `Blocked4x4` weight field has a non-zero alignment byte or padding weight.
+    NonZeroPadding {
+        /// Layer index.
+        layer: Option<u8>,
+    },
     /// Quantisation parameters missing on an int8 model or present on an f32 model.
     PrecisionMismatch {
         /// Layer index; `None` for the input stage.
@@ -203,6 +208,10 @@ impl fmt::Display for FormatError {
             TensorLength { layer, tensor } => {
                 at(f, layer)?;
                 write!(f, ": {} length disagrees with the shape", tensor.name())
+            }
+            NonZeroPadding { layer } => {
+                at(f, layer)?;
+                f.write_str(": blocked weights have a non-zero padding or alignment byte")
             }
             PrecisionMismatch { layer } => {
                 at(f, layer)?;

@@ -61,6 +61,10 @@ impl Precision {
 pub enum WeightLayout {
     /// `[outputs][inputs]`, row by row: element `o * inputs + i`.
     OutputMajor,
+    /// Blocks of 4 rows by groups of 4 inputs, padded to multiples of 4, int8 stored
+    /// excess-128, optionally preceded by up to 3 alignment bytes (`FORMAT.md` §3.1;
+    /// [`crate::dense::layout`] has the geometry). Format version 2.
+    Blocked4x4,
 }
 
 /// The saved input scaler: `y[i] = (x[i] - offset[i]) * scale[i]` in f32.
@@ -130,7 +134,8 @@ pub struct LayerDesc<'a> {
     pub activation: Activation,
     /// Order of `weights`.
     pub layout: WeightLayout,
-    /// `inputs * outputs` weights: `i8` for int8 models, little-endian `f32` for f32 models.
+    /// The weights in `layout`: `inputs * outputs` elements for `OutputMajor`, the padded
+    /// blocks for `Blocked4x4`; `i8` for int8 models, little-endian `f32` for f32 models.
     #[serde(borrow)]
     pub weights: &'a [u8],
     /// `outputs` biases: little-endian `i32` (input zero point folded in) or `f32`.

@@ -1,8 +1,8 @@
 //! The validated model and the forward pass.
 use crate::arena::ArenaPlan;
-use crate::dense::{dense_f32, dense_i8, DenseI8};
+use crate::dense::{dense_f32, dense_f32_blocked, dense_i8, dense_i8_blocked, DenseI8};
 use crate::error::{FormatError, RunError};
-use crate::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision};
+use crate::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout};
 use crate::header::{Header, HEADER_LEN};
 use crate::output::{argmax, sigmoid, softmax};
 use crate::requant::activation_range;
@@ -350,12 +350,19 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
                 act_min,
                 act_max,
             };
-            dense_i8(&p, src, dst);
+            match layer.layout {
+                WeightLayout::OutputMajor => dense_i8(&p, src, dst),
+                WeightLayout::Blocked4x4 => dense_i8_blocked(&p, src, dst),
+            }
             Some((q.output_scale, q.output_zero_point))
         }
         None => {
             let relu = layer.activation == Activation::Relu;
-            dense_f32(
+            let kernel = match layer.layout {
+                WeightLayout::OutputMajor => dense_f32,
+                WeightLayout::Blocked4x4 => dense_f32_blocked,
+            };
+            kernel(
                 layer.inputs as usize,
                 layer.weights,
                 layer.bias,

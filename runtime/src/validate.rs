@@ -1,9 +1,11 @@
 //! Every check a reader must make on a decoded layer table (`FORMAT.md` §5), done once.
 //! After [`check`] succeeds, inference cannot index out of bounds or overflow.
 use crate::arena::ArenaPlan;
+use crate::dense::layout;
 use crate::error::{FormatError, TensorKind};
 use crate::format::{
-    InputQuantDesc, LayerDesc, ModelDesc, OutputKind, Precision, MAX_INPUT_SHIFT, MAX_WIDTH,
+    InputQuantDesc, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout, MAX_INPUT_SHIFT,
+    MAX_WIDTH,
 };
 use crate::le;
 
@@ -87,12 +89,18 @@ fn check_layer(
     if inputs != prev {
         return Err(FormatError::ShapeMismatch { layer: k });
     }
-    let weights = inputs * outputs * precision.activation_bytes();
-    expect_len(l.weights, weights, at, TensorKind::Weights)?;
+    let elem = precision.activation_bytes();
+    let weights = match l.layout {
+        WeightLayout::OutputMajor => {
+            expect_len(l.weights, inputs * outputs * elem, at, TensorKind::Weights)?;
+            l.weights
+        }
+        WeightLayout::Blocked4x4 => check_blocked(l.weights, inputs, outputs, precision, at)?,
+    };
     expect_len(l.bias, 4 * outputs, at, TensorKind::Bias)?;
     match (precision, &l.quant) {
         (Precision::F32, None) => {
-            finite(l.weights, at, TensorKind::Weights)?;
+            finite(weights, at, TensorKind::Weights)?;
             finite(l.bias, at, TensorKind::Bias)?;
         }
         (Precision::Int8, Some(q)) => {
@@ -118,12 +126,8 @@ fn check_layer(
                 }
             }
             // |bias| + 128 · Σ|w| bounds the accumulator for every int8 input.
-            let rows = l.weights.chunks_exact(inputs);
-            for (c, (row, b)) in rows.zip(le::i32s(l.bias)).enumerate() {
-                let sum: i64 = row
-                    .iter()
-                    .map(|&w| i64::from((w as i8).unsigned_abs()))
-                    .sum();
+            for (c, b) in le::i32s(l.bias).enumerate() {
+                let sum = abs_row_sum(weights, l.layout, inputs, c);
                 if i64::from(b).abs() + 128 * sum > i64::from(i32::MAX) {
                     return Err(FormatError::AccumulatorOverflow {
                         layer: k,
@@ -135,6 +139,58 @@ fn check_layer(
         _ => return Err(FormatError::PrecisionMismatch { layer: at }),
     }
     Ok(outputs)
+}
+
+/// Σ|w| over row `o` of int8 weights in `layout` (the data, without alignment bytes).
+fn abs_row_sum(w: &[u8], l: WeightLayout, inputs: usize, o: usize) -> i64 {
+    match l {
+        WeightLayout::OutputMajor => w
+            .get(o * inputs..(o + 1) * inputs)
+            .unwrap_or(&[])
+            .iter()
+            .map(|&w| i64::from((w as i8).unsigned_abs()))
+            .sum(),
+        WeightLayout::Blocked4x4 => (0..inputs)
+            .filter_map(|i| w.get(layout::index(o, i, inputs)))
+            .map(|&b| i64::from(layout::decode_i8(b).unsigned_abs()))
+            .sum(),
+    }
+}
+
+/// Checks a `Blocked4x4` weight field: its length, zero alignment bytes, and zero padding
+/// elements. Returns the data without the alignment bytes.
+fn check_blocked(
+    field: &[u8],
+    inputs: usize,
+    outputs: usize,
+    precision: Precision,
+    at: Option<u8>,
+) -> Result<&[u8], FormatError> {
+    let elem = precision.activation_bytes();
+    let bad = FormatError::TensorLength {
+        layer: at,
+        tensor: TensorKind::Weights,
+    };
+    let (pad, data) = layout::split(field, inputs, outputs, elem).ok_or(bad)?;
+    let zero: &[u8] = match precision {
+        Precision::Int8 => &[layout::ZERO_I8],
+        Precision::F32 => &[0; 4],
+    };
+    let rows = layout::padded(outputs);
+    let cols = layout::padded(inputs);
+    let padding = (0..rows)
+        .flat_map(|o| (0..cols).map(move |i| (o, i)))
+        .filter(|&(o, i)| o >= outputs || i >= inputs);
+    for (o, i) in padding {
+        let at_byte = layout::index(o, i, inputs) * elem;
+        if data.get(at_byte..at_byte + elem) != Some(zero) {
+            return Err(FormatError::NonZeroPadding { layer: at });
+        }
+    }
+    if pad.iter().any(|&b| b != 0) {
+        return Err(FormatError::NonZeroPadding { layer: at });
+    }
+    Ok(data)
 }
 
 /// Checks a decoded layer table; returns the arena plan it needs.

@@ -1,0 +1,90 @@
+//! Dense (fully connected) kernels: `y = act(W x + b)` for int8 and f32.
+//!
+//! [`portable`] holds plain-Rust kernels for every weight layout; they are always compiled and
+//! are the reference. On Cortex-M the entry points here pick a faster kernel for
+//! [`WeightLayout::Blocked4x4`](crate::format::WeightLayout::Blocked4x4) weights, chosen when
+//! the runtime is compiled (the runtime's build script maps the compilation target to a kernel,
+//! because ARM target features are not visible to `cfg` on stable Rust):
+//!
+//! | target | int8 | f32 |
+//! |---|---|---|
+//! | `thumbv7em-*` (Cortex-M4/M7) | [`dsp`]: `SMLAD` on `SXTB16`/`UXTB16`-unpacked pairs, 4 rows per pass | `eabihf`: [`dsp`] `VLDM`/`VMLA` (not fused); else portable |
+//! | `thumbv6m-*`, `thumbv7m-*`, `thumbv8m.base-*` (Cortex-M0/M0+/M3/M23) | [`m0`]: unrolled byte loads and `MULS`, 4 rows per pass | portable |
+//! | anything else | portable | portable |
+//!
+//! [`m0`] is plain safe Rust and compiled everywhere, so the host tests run it too.
+//! Setting `KINGLET_KERNEL=portable` when building forces the portable kernels. Every kernel
+//! gives bit-identical outputs to the portable one (`runtime/tests/kernels_prop.rs` on the host,
+//! and the on-target self-check of `kernel-bench/`). The fast kernels for
+//! [`dsp`] need the weight data 4-byte aligned; the packer aligns it within the blob, so a blob
+//! placed at a 4-byte aligned address gets them, and any other falls back to a slower kernel
+//! with the same results.
+pub mod layout;
+pub mod portable;
+
+#[cfg(kinglet_kernel = "dsp")]
+#[allow(unsafe_code)]
+pub mod dsp;
+
+pub mod m0;
+
+pub use portable::{dense_f32, dense_i8};
+
+/// Parameters of one int8 dense layer, borrowed from the blob.
+#[derive(Debug, Clone, Copy)]
+pub struct DenseI8<'a> {
+    /// Input width.
+    pub inputs: usize,
+    /// The weight field in the layer's layout (for [`dense_i8`], `[outputs][inputs]` int8).
+    pub weights: &'a [u8],
+    /// `outputs` little-endian i32 biases (input zero point folded in).
+    pub bias: &'a [u8],
+    /// `outputs` little-endian i32 fixed-point multipliers.
+    pub multiplier: &'a [u8],
+    /// `outputs` signed shifts.
+    pub shift: &'a [u8],
+    /// Output zero point.
+    pub zero_point: i8,
+    /// Lower clamp (the zero point for a fused ReLU).
+    pub act_min: i8,
+    /// Upper clamp.
+    pub act_max: i8,
+}
+
+/// Name of the int8 kernel [`dense_i8_blocked`] uses on this build.
+pub const KERNEL: &str = if cfg!(kinglet_kernel = "dsp") {
+    "dsp"
+} else if cfg!(kinglet_kernel = "m0") {
+    "m0"
+} else {
+    "portable"
+};
+
+/// Runs an int8 dense layer with `Blocked4x4` weights on the fastest kernel of this build;
+/// `output.len()` is the layer's output width.
+#[inline]
+pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+    #[cfg(kinglet_kernel = "dsp")]
+    return dsp::dense_i8_blocked(p, input, output);
+    #[cfg(kinglet_kernel = "m0")]
+    return m0::dense_i8_blocked(p, input, output);
+    #[allow(unreachable_code)]
+    portable::dense_i8_blocked(p, input, output)
+}
+
+/// Runs an f32 dense layer with `Blocked4x4` weights on the fastest kernel of this build;
+/// `output.len() / 4` is the layer's output width.
+#[inline]
+pub fn dense_f32_blocked(
+    inputs: usize,
+    weights: &[u8],
+    bias: &[u8],
+    relu: bool,
+    input: &[u8],
+    output: &mut [u8],
+) {
+    #[cfg(all(kinglet_kernel = "dsp", kinglet_fpu))]
+    return dsp::dense_f32_blocked(inputs, weights, bias, relu, input, output);
+    #[allow(unreachable_code)]
+    portable::dense_f32_blocked(inputs, weights, bias, relu, input, output)
+}

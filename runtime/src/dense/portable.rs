@@ -1,0 +1,231 @@
+//! The portable kernels: plain Rust over byte slices, no alignment assumptions, for every
+//! layout. They are the reference the target kernels must match bit for bit.
+//!
+//! Validation guarantees the slice lengths agree with the shapes; should they not, the zipped
+//! iterators simply stop early — they never index out of bounds.
+use super::layout::{self, BLOCK_ROWS, GROUP, GROUP_ELEMS};
+use super::DenseI8;
+use crate::le;
+use crate::requant::requantize;
+
+/// Runs an int8 dense layer with [`crate::format::WeightLayout::OutputMajor`] weights: `input` holds `inputs` int8 values, `output` receives one per row.
+///
+/// Accumulates in i32; [`crate::Model::parse`] proved that no int8 input can overflow it.
+pub fn dense_i8(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+    let rows = p.weights.chunks_exact(p.inputs.max(1));
+    let params = le::i32s(p.bias).zip(le::i32s(p.multiplier)).zip(p.shift);
+    for ((row, out), ((bias, mult), &shift)) in rows.zip(output.iter_mut()).zip(params) {
+        let mut acc = bias;
+        for (&w, &x) in row.iter().zip(input) {
+            acc += i32::from(w as i8) * i32::from(x as i8);
+        }
+        *out = requantize(acc, mult, shift as i8, p.zero_point, p.act_min, p.act_max) as u8;
+    }
+}
+
+/// Runs an f32 dense layer over little-endian f32 bytes; `relu` clamps negatives to 0.
+pub fn dense_f32(
+    inputs: usize,
+    weights: &[u8],
+    bias: &[u8],
+    relu: bool,
+    input: &[u8],
+    output: &mut [u8],
+) {
+    let rows = weights.chunks_exact(inputs.max(1).saturating_mul(4));
+    let outs = output.as_chunks_mut::<4>().0.iter_mut();
+    for ((row, out), b) in rows.zip(outs).zip(le::f32s(bias)) {
+        let mut acc = 0.0f32;
+        for (w, x) in le::f32s(row).zip(le::f32s(input)) {
+            acc += w * x;
+        }
+        acc += b;
+        if relu && acc < 0.0 {
+            acc = 0.0;
+        }
+        *out = acc.to_le_bytes();
+    }
+}
+
+/// `128 · Σ x` over the first `n` inputs: what excess-128 weights add to each accumulator.
+pub fn excess_correction(input: &[u8], n: usize) -> i32 {
+    let sum: i32 = input.iter().take(n).map(|&x| i32::from(x as i8)).sum();
+    sum.wrapping_mul(128)
+}
+
+/// The layer's per-row parameters, row by row: bias, multiplier, shift.
+pub(crate) fn row_params<'a>(p: &DenseI8<'a>) -> impl Iterator<Item = (i32, i32, i8)> + 'a {
+    le::i32s(p.bias)
+        .zip(le::i32s(p.multiplier))
+        .zip(p.shift.iter())
+        .map(|((b, m), &s)| (b, m, s as i8))
+}
+
+/// Requantises one block's accumulators (biases not yet added) into `out` (up to 4 rows).
+#[inline(always)]
+pub(crate) fn finish_block(
+    p: &DenseI8<'_>,
+    acc: [i32; BLOCK_ROWS],
+    correction: i32,
+    params: &mut impl Iterator<Item = (i32, i32, i8)>,
+    out: &mut [u8],
+) {
+    for (o, (a, (bias, mult, shift))) in out.iter_mut().zip(acc.into_iter().zip(params)) {
+        let acc = bias.wrapping_add(a).wrapping_sub(correction);
+        *o = requantize(acc, mult, shift, p.zero_point, p.act_min, p.act_max) as u8;
+    }
+}
+
+/// Accumulates one group of one block (4 rows, `x.len()` ≤ 4 inputs) into `acc`.
+#[inline(always)]
+pub(crate) fn group_i8(group: &[u8; GROUP_ELEMS], x: &[u8], acc: &mut [i32; BLOCK_ROWS]) {
+    let rows = group.as_chunks::<GROUP>().0;
+    for (a, row) in acc.iter_mut().zip(rows) {
+        for (&w, &x) in row.iter().zip(x) {
+            *a = a.wrapping_add(i32::from(w) * i32::from(x as i8));
+        }
+    }
+}
+
+/// Runs an int8 dense layer with [`crate::format::WeightLayout::Blocked4x4`] weights (the whole
+/// field, alignment bytes included); `output.len()` is the layer's output width.
+pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+    let n = p.inputs;
+    let Some((_, data)) = layout::split(p.weights, n, output.len(), 1) else {
+        return;
+    };
+    let correction = excess_correction(input, n);
+    let mut params = row_params(p);
+    let block_len = layout::padded(n) * BLOCK_ROWS;
+    for (block, out) in data
+        .chunks_exact(block_len.max(1))
+        .zip(output.chunks_mut(BLOCK_ROWS))
+    {
+        let mut acc = [0i32; BLOCK_ROWS];
+        let groups = block.as_chunks::<GROUP_ELEMS>().0;
+        for (g, x) in groups
+            .iter()
+            .zip(input.get(..n).unwrap_or(&[]).chunks(GROUP))
+        {
+            group_i8(g, x, &mut acc);
+        }
+        finish_block(p, acc, correction, &mut params, out);
+    }
+}
+
+/// Runs an f32 dense layer with [`crate::format::WeightLayout::Blocked4x4`] weights; each row
+/// adds its products in input order from `+0.0`, then the bias, exactly as [`dense_f32`].
+pub fn dense_f32_blocked(
+    inputs: usize,
+    weights: &[u8],
+    bias: &[u8],
+    relu: bool,
+    input: &[u8],
+    output: &mut [u8],
+) {
+    let n = inputs;
+    let outs = output.as_chunks_mut::<4>().0;
+    let Some((_, data)) = layout::split(weights, n, outs.len(), 4) else {
+        return;
+    };
+    let x = input.get(..n * 4).unwrap_or(&[]);
+    let block_len = layout::padded(n) * BLOCK_ROWS * 4;
+    let mut biases = le::f32s(bias);
+    for (block, out) in data
+        .chunks_exact(block_len.max(1))
+        .zip(outs.chunks_mut(BLOCK_ROWS))
+    {
+        let mut acc = [0.0f32; BLOCK_ROWS];
+        for (g, xg) in block.chunks_exact(GROUP_ELEMS * 4).zip(x.chunks(GROUP * 4)) {
+            for (a, row) in acc.iter_mut().zip(g.chunks_exact(GROUP * 4)) {
+                for (w, x) in le::f32s(row).zip(le::f32s(xg)) {
+                    *a += w * x;
+                }
+            }
+        }
+        for (o, (a, b)) in out.iter_mut().zip(acc.into_iter().zip(&mut biases)) {
+            let mut v = a + b;
+            if relu && v < 0.0 {
+                v = 0.0;
+            }
+            *o = v.to_le_bytes();
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn bytes_i32(v: &[i32]) -> Vec<u8> {
+        v.iter().flat_map(|x| x.to_le_bytes()).collect()
+    }
+
+    fn bytes_f32(v: &[f32]) -> Vec<u8> {
+        v.iter().flat_map(|x| x.to_le_bytes()).collect()
+    }
+
+    #[test]
+    fn int8_dense_hand_worked() {
+        // W = [[1, -2, 3], [-128, 127, 0]], x = [10, 20, -30], b = [5, -7].
+        // acc0 = 5 + 10 - 40 - 90 = -115; acc1 = -7 - 1280 + 2540 = 1253.
+        // M = 0.5 · 2^-2 = 1/8: -115/8 = -14.375 → -14; 1253/8 = 156.6 → 157 → saturates at 127.
+        let w: Vec<u8> = [1i8, -2, 3, -128, 127, 0]
+            .iter()
+            .map(|&v| v as u8)
+            .collect();
+        let x: Vec<u8> = [10i8, 20, -30].iter().map(|&v| v as u8).collect();
+        let p = DenseI8 {
+            inputs: 3,
+            weights: &w,
+            bias: &bytes_i32(&[5, -7]),
+            multiplier: &bytes_i32(&[1 << 30, 1 << 30]),
+            shift: &[2, 2],
+            zero_point: 0,
+            act_min: -128,
+            act_max: 127,
+        };
+        let mut out = [0u8; 2];
+        dense_i8(&p, &x, &mut out);
+        assert_eq!(out.map(|v| v as i8), [-14, 127]);
+        // With a fused ReLU at zero point 3: -14 + 3 → clamped to 3.
+        let relu = DenseI8 {
+            zero_point: 3,
+            act_min: 3,
+            ..p
+        };
+        dense_i8(&relu, &x, &mut out);
+        assert_eq!(out.map(|v| v as i8), [3, 127]);
+    }
+
+    #[test]
+    fn f32_dense_hand_worked() {
+        let w = bytes_f32(&[1.0, 2.0, -1.0, 0.5]);
+        let b = bytes_f32(&[0.5, -10.0]);
+        let x = bytes_f32(&[3.0, 4.0]);
+        let mut out = [0u8; 8];
+        dense_f32(2, &w, &b, false, &x, &mut out);
+        assert_eq!(le::f32_at(&out, 0), Some(11.5));
+        assert_eq!(le::f32_at(&out, 1), Some(-11.0));
+        dense_f32(2, &w, &b, true, &x, &mut out);
+        assert_eq!(le::f32_at(&out, 1), Some(0.0));
+    }
+
+    #[test]
+    fn short_slices_stop_early_without_panicking() {
+        let p = DenseI8 {
+            inputs: 4,
+            weights: &[1, 2, 3],
+            bias: &[0; 3],
+            multiplier: &[],
+            shift: &[],
+            zero_point: 0,
+            act_min: -128,
+            act_max: 127,
+        };
+        let mut out = [9u8; 2];
+        dense_i8(&p, &[1], &mut out);
+        assert_eq!(out, [9, 9]);
+        dense_f32(0, &[], &[], true, &[], &mut out);
+    }
+}
