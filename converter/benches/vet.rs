@@ -7,7 +7,9 @@
 //! a table; the goal (our whole comparison in less wall time than numpy's forward pass) is read
 //! from the table, not asserted.
 use kinglet_converter::dataset::Dataset;
-use kinglet_converter::graph::{Activation, DenseLayer, FloatModel, OutputKind, Scaler, ScalerKind};
+use kinglet_converter::graph::{
+    Activation, DenseLayer, FloatModel, OutputKind, Scaler, ScalerKind,
+};
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_converter::vet::{self, Criteria, ModelPair, Parallelism, Sources};
@@ -40,17 +42,30 @@ impl Rng {
 
 fn dense(rng: &mut Rng, inputs: usize, outputs: usize, activation: Activation) -> DenseLayer {
     let bound = (6.0 / inputs as f32).sqrt(); // He-style uniform range (common practice, no source)
-    let weights = (0..inputs * outputs).map(|_| (rng.unit() * 2.0 - 1.0) * bound).collect();
+    let weights = (0..inputs * outputs)
+        .map(|_| (rng.unit() * 2.0 - 1.0) * bound)
+        .collect();
     let bias = (0..outputs).map(|_| (rng.unit() - 0.5) * 0.1).collect();
-    DenseLayer { inputs, outputs, weights, bias, activation }
+    DenseLayer {
+        inputs,
+        outputs,
+        weights,
+        bias,
+        activation,
+    }
 }
 
 /// Writes a little-endian `.npy` (format version 1.0). Written by hand rather than with npyz's
 /// typestate writer because the format is a 10-line header and this is bench code.
 fn write_npy(path: &Path, descr: &str, shape: &[usize], data: &[u8]) {
     let dims: Vec<String> = shape.iter().map(|d| d.to_string()).collect();
-    let shape_txt = if shape.len() == 1 { format!("({},)", dims[0]) } else { format!("({})", dims.join(", ")) };
-    let mut header = format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape_txt}, }}");
+    let shape_txt = if shape.len() == 1 {
+        format!("({},)", dims[0])
+    } else {
+        format!("({})", dims.join(", "))
+    };
+    let mut header =
+        format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape_txt}, }}");
     while (10 + header.len() + 1) % 64 != 0 {
         header.push(' ');
     }
@@ -81,8 +96,15 @@ fn main() {
     let mut rng = Rng(0x00C0_FFEE);
     let model = FloatModel {
         input_len: INPUTS,
-        scaler: Some(Scaler { kind: ScalerKind::Uniform, offset: vec![0.0], scale: vec![PIXEL_SCALE] }),
-        layers: vec![dense(&mut rng, INPUTS, HIDDEN, Activation::Relu), dense(&mut rng, HIDDEN, CLASSES, Activation::Linear)],
+        scaler: Some(Scaler {
+            kind: ScalerKind::Uniform,
+            offset: vec![0.0],
+            scale: vec![PIXEL_SCALE],
+        }),
+        layers: vec![
+            dense(&mut rng, INPUTS, HIDDEN, Activation::Relu),
+            dense(&mut rng, HIDDEN, CLASSES, Activation::Linear),
+        ],
         output: OutputKind::Softmax,
         labels: vec![],
     };
@@ -90,10 +112,16 @@ fn main() {
     let features: Vec<f32> = (0..ROWS * INPUTS)
         .map(|_| {
             let u = rng.unit();
-            if u < 0.6 { 0.0 } else { (rng.unit() * 255.0).round() }
+            if u < 0.6 {
+                0.0
+            } else {
+                (rng.unit() * 255.0).round()
+            }
         })
         .collect();
-    let labels: Vec<i64> = (0..ROWS).map(|_| (rng.next_u64() % CLASSES as u64) as i64).collect();
+    let labels: Vec<i64> = (0..ROWS)
+        .map(|_| (rng.next_u64() % CLASSES as u64) as i64)
+        .collect();
     let data = Dataset {
         rows: ROWS,
         width: INPUTS,
@@ -101,21 +129,43 @@ fn main() {
         labels: Some(labels.iter().map(|l| l.to_string()).collect()),
         source: "generated".into(),
     };
-    let calib = Dataset { rows: 1000, features: data.features[..1000 * INPUTS].to_vec(), labels: None, ..data.clone() };
+    let calib = Dataset {
+        rows: 1000,
+        features: data.features[..1000 * INPUTS].to_vec(),
+        labels: None,
+        ..data.clone()
+    };
     let f32_blob = pack_f32(&model).expect("f32 pack");
-    let int8_blob = pack_int8(&model, &calib, RangeMethod::MinMax).expect("int8 pack").blob;
+    let int8_blob = pack_int8(&model, &calib, RangeMethod::MinMax)
+        .expect("int8 pack")
+        .blob;
 
     let dir = tempfile::tempdir().expect("temp dir");
     let d = dir.path();
     std::fs::write(d.join("model.f32.kgl"), &f32_blob).expect("write");
     std::fs::write(d.join("model.int8.kgl"), &int8_blob).expect("write");
-    write_npy(&d.join("x.npy"), "<f4", &[ROWS, INPUTS], &f32_bytes(&data.features));
+    write_npy(
+        &d.join("x.npy"),
+        "<f4",
+        &[ROWS, INPUTS],
+        &f32_bytes(&data.features),
+    );
     let label_bytes: Vec<u8> = labels.iter().flat_map(|l| l.to_le_bytes()).collect();
     write_npy(&d.join("labels.npy"), "<i8", &[ROWS], &label_bytes);
     let (l1, l2) = (&model.layers[0], &model.layers[1]);
-    write_npy(&d.join("w1.npy"), "<f4", &[HIDDEN, INPUTS], &f32_bytes(&l1.weights));
+    write_npy(
+        &d.join("w1.npy"),
+        "<f4",
+        &[HIDDEN, INPUTS],
+        &f32_bytes(&l1.weights),
+    );
     write_npy(&d.join("b1.npy"), "<f4", &[HIDDEN], &f32_bytes(&l1.bias));
-    write_npy(&d.join("w2.npy"), "<f4", &[CLASSES, HIDDEN], &f32_bytes(&l2.weights));
+    write_npy(
+        &d.join("w2.npy"),
+        "<f4",
+        &[CLASSES, HIDDEN],
+        &f32_bytes(&l2.weights),
+    );
     write_npy(&d.join("b2.npy"), "<f4", &[CLASSES], &f32_bytes(&l2.bias));
     std::fs::write(d.join("scale.txt"), format!("{PIXEL_SCALE:e}")).expect("write");
 
@@ -125,19 +175,38 @@ fn main() {
     let mut np_json = String::new();
     for _ in 0..3 {
         let t = Instant::now();
-        let out = Command::new(python()).arg(&script).arg(d).output().expect("run python");
+        let out = Command::new(python())
+            .arg(&script)
+            .arg(d)
+            .output()
+            .expect("run python");
         np_process.push(t.elapsed().as_secs_f64());
-        assert!(out.status.success(), "numpy script failed: {}", String::from_utf8_lossy(&out.stderr));
+        assert!(
+            out.status.success(),
+            "numpy script failed: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
         np_json = String::from_utf8_lossy(&out.stdout).trim().to_string();
     }
     let np: serde_json::Value = serde_json::from_str(&np_json).expect("numpy JSON");
 
     // Ours, in process: the evaluation and report (parallel and serial).
-    let (fm, qm) = (Model::parse(&f32_blob).expect("parse"), Model::parse(&int8_blob).expect("parse"));
+    let (fm, qm) = (
+        Model::parse(&f32_blob).expect("parse"),
+        Model::parse(&int8_blob).expect("parse"),
+    );
     let pair = ModelPair::new(fm, qm).expect("pair");
     let run = |p: Parallelism| {
         let t = Instant::now();
-        let r = vet::vet(&pair, &data, &Sources::default(), &Criteria::default(), p, &|_| {}).expect("vet");
+        let r = vet::vet(
+            &pair,
+            &data,
+            &Sources::default(),
+            &Criteria::default(),
+            p,
+            &|_| {},
+        )
+        .expect("vet");
         (t.elapsed().as_secs_f64(), r)
     };
     let (par_t, par_r): (Vec<f64>, Vec<_>) = (0..3).map(|_| run(Parallelism::Parallel)).unzip();
@@ -152,7 +221,13 @@ fn main() {
         let t = Instant::now();
         let mut sum = 0usize;
         for r in 0..ROWS {
-            sum += m.infer(kinglet_runtime::Input::F32(data.row(r)), &mut arena, &mut scores).map_or(0, |p| p.class);
+            sum += m
+                .infer(
+                    kinglet_runtime::Input::F32(data.row(r)),
+                    &mut arena,
+                    &mut scores,
+                )
+                .map_or(0, |p| p.class);
         }
         std::hint::black_box(sum);
         t.elapsed().as_secs_f64()
@@ -177,21 +252,56 @@ fn main() {
             .output()
             .expect("run kinglet");
         cli.push(t.elapsed().as_secs_f64());
-        assert!(out.status.success(), "kinglet vet failed: {}", String::from_utf8_lossy(&out.stderr));
+        assert!(
+            out.status.success(),
+            "kinglet vet failed: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
     }
 
-    println!("vet benchmark: {ROWS} rows, {INPUTS}-{HIDDEN}-{CLASSES} softmax, {} threads for rayon", rayon::current_num_threads());
+    println!(
+        "vet benchmark: {ROWS} rows, {INPUTS}-{HIDDEN}-{CLASSES} softmax, {} threads for rayon",
+        rayon::current_num_threads()
+    );
     println!("numpy {}: {}", np["dtype"], np["blas"]);
     println!("{:<62} {:>10} {:>10}", "case", "median s", "best s");
     let best = |t: &[f64]| t.iter().copied().fold(f64::INFINITY, f64::min);
     let rows = [
-        ("numpy float forward pass only (in process, 5 runs)", np["forward_median_s"].as_f64().unwrap_or(f64::NAN), np["forward_best_s"].as_f64().unwrap_or(f64::NAN)),
-        ("numpy whole process (start, load .npy, 5 forward passes)", median(np_process.clone()), best(&np_process)),
-        ("kinglet vet, library, parallel: f32 + int8 + report", median(par_t.clone()), best(&par_t)),
-        ("kinglet vet, library, serial: f32 + int8 + report", median(ser_t.clone()), best(&ser_t)),
-        ("runtime f32 path alone, serial, Model::infer", f32_alone, f32_alone),
-        ("runtime int8 path alone, serial, Model::infer", int8_alone, int8_alone),
-        ("kinglet vet, whole process (load .npy, both paths, JSON)", median(cli.clone()), best(&cli)),
+        (
+            "numpy float forward pass only (in process, 5 runs)",
+            np["forward_median_s"].as_f64().unwrap_or(f64::NAN),
+            np["forward_best_s"].as_f64().unwrap_or(f64::NAN),
+        ),
+        (
+            "numpy whole process (start, load .npy, 5 forward passes)",
+            median(np_process.clone()),
+            best(&np_process),
+        ),
+        (
+            "kinglet vet, library, parallel: f32 + int8 + report",
+            median(par_t.clone()),
+            best(&par_t),
+        ),
+        (
+            "kinglet vet, library, serial: f32 + int8 + report",
+            median(ser_t.clone()),
+            best(&ser_t),
+        ),
+        (
+            "runtime f32 path alone, serial, Model::infer",
+            f32_alone,
+            f32_alone,
+        ),
+        (
+            "runtime int8 path alone, serial, Model::infer",
+            int8_alone,
+            int8_alone,
+        ),
+        (
+            "kinglet vet, whole process (load .npy, both paths, JSON)",
+            median(cli.clone()),
+            best(&cli),
+        ),
     ];
     for (name, med, b) in rows {
         println!("{name:<62} {med:>10.4} {b:>10.4}");

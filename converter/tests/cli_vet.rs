@@ -20,9 +20,17 @@ struct Setup {
 impl Setup {
     fn new() -> Self {
         let model = import_file(&repo("examples/digits/model.onnx")).unwrap();
-        let calib = load_csv(&repo("examples/digits/calibration.csv"), &CsvOptions::default()).unwrap();
+        let calib = load_csv(
+            &repo("examples/digits/calibration.csv"),
+            &CsvOptions::default(),
+        )
+        .unwrap();
         let dir = tempfile::tempdir().unwrap();
-        std::fs::write(dir.path().join("digits.int8.kgl"), pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob).unwrap();
+        std::fs::write(
+            dir.path().join("digits.int8.kgl"),
+            pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob,
+        )
+        .unwrap();
         std::fs::write(dir.path().join("digits.f32.kgl"), pack_f32(&model).unwrap()).unwrap();
         Setup { dir }
     }
@@ -52,7 +60,12 @@ fn text(b: &[u8]) -> String {
 /// Exit code 2 and a one-line error containing every `parts`.
 fn fails_with(o: &Output, parts: &[&str]) {
     let err = text(&o.stderr);
-    assert_eq!(o.status.code(), Some(2), "stderr: {err}\nstdout: {}", text(&o.stdout));
+    assert_eq!(
+        o.status.code(),
+        Some(2),
+        "stderr: {err}\nstdout: {}",
+        text(&o.stdout)
+    );
     assert!(err.starts_with("kinglet: error: "), "{err}");
     for p in parts {
         assert!(err.contains(p), "missing {p:?} in: {err}");
@@ -64,18 +77,45 @@ fn text_report_json_and_html() {
     let s = Setup::new();
     let heldout = repo("examples/digits/heldout.csv");
     let html = s.p("report.html");
-    let o = s.vet(&heldout, &["--label", "label", "--max-drop", "0.5", "--html", html.to_str().unwrap()]);
+    let o = s.vet(
+        &heldout,
+        &[
+            "--label",
+            "label",
+            "--max-drop",
+            "0.5",
+            "--html",
+            html.to_str().unwrap(),
+        ],
+    );
     let out = text(&o.stdout);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
-    for part in ["434 / 450", "Newcombe (1998)", "McNemar exact", "SQNR", "layer 3", "PASS", "verdict: pass"] {
+    for part in [
+        "434 / 450",
+        "Newcombe (1998)",
+        "McNemar exact",
+        "SQNR",
+        "layer 3",
+        "PASS",
+        "verdict: pass",
+    ] {
         assert!(out.contains(part), "missing {part:?} in:\n{out}");
     }
     // Not a terminal: no colour escapes.
     assert!(!out.contains('\x1b'));
     let page = std::fs::read_to_string(&html).unwrap();
     assert!(page.starts_with("<!DOCTYPE html>") && page.trim_end().ends_with("</html>"));
-    assert_eq!(page.matches("<svg").count(), 4, "two heat maps, SQNR bars, histogram");
-    assert!(!page.contains("http://") || page.matches("http://").count() == page.matches("xmlns=\"http://www.w3.org/2000/svg\"").count(), "fetches nothing");
+    assert_eq!(
+        page.matches("<svg").count(),
+        4,
+        "two heat maps, SQNR bars, histogram"
+    );
+    assert!(
+        !page.contains("http://")
+            || page.matches("http://").count()
+                == page.matches("xmlns=\"http://www.w3.org/2000/svg\"").count(),
+        "fetches nothing"
+    );
 
     let o = s.vet(&heldout, &["--label", "label", "--json"]);
     assert_eq!(o.status.code(), Some(0));
@@ -105,19 +145,31 @@ fn failed_gate_exits_1() {
     let s = Setup::new();
     let heldout = repo("examples/digits/heldout.csv");
     // The drop's upper 95% limit on 450 rows is about 0.79 pp: above a limit of 0.1 pp.
-    let o = s.vet(&heldout, &["--label", "label", "--max-drop", "0.1", "--gate", "upper"]);
+    let o = s.vet(
+        &heldout,
+        &["--label", "label", "--max-drop", "0.1", "--gate", "upper"],
+    );
     assert_eq!(o.status.code(), Some(1), "{}", text(&o.stderr));
     let out = text(&o.stdout);
-    assert!(out.contains("FAIL") && out.contains("upper 95% limit"), "{out}");
+    assert!(
+        out.contains("FAIL") && out.contains("upper 95% limit"),
+        "{out}"
+    );
     // Every row agrees: 100 % agreement passes a 100 % limit.
-    let o = s.vet(&heldout, &["--label", "label", "--min-agreement", "100", "--json"]);
+    let o = s.vet(
+        &heldout,
+        &["--label", "label", "--min-agreement", "100", "--json"],
+    );
     assert_eq!(o.status.code(), Some(0));
 }
 
 #[test]
 fn labels_by_index_without_header() {
     let s = Setup::new();
-    let o = s.vet(&repo("tests/fixtures/vet/noheader.csv"), &["--label", "64", "--header", "no", "--json"]);
+    let o = s.vet(
+        &repo("tests/fixtures/vet/noheader.csv"),
+        &["--label", "64", "--header", "no", "--json"],
+    );
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     assert_eq!(v["rows"], 3);
@@ -133,7 +185,10 @@ fn unlabelled_rows_report_agreement_but_refuse_an_accuracy_gate() {
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     assert!(v["accuracy"].is_null());
     assert_eq!(v["agreement"]["rows"], 300);
-    fails_with(&s.vet(&calib, &["--max-drop", "1"]), &["calibration.csv", "--max-drop needs labelled rows"]);
+    fails_with(
+        &s.vet(&calib, &["--max-drop", "1"]),
+        &["calibration.csv", "--max-drop needs labelled rows"],
+    );
 }
 
 #[test]
@@ -142,17 +197,32 @@ fn bad_input_is_named() {
     let f = |n: &str| repo(&format!("tests/fixtures/vet/{n}"));
     let label = ["--label", "label"];
     // A label the model does not know: data row 2 says 11, the classes are 0..9.
-    fails_with(&s.vet(&f("bad_label.csv"), &label), &["bad_label.csv", "data row 2", "\"11\""]);
+    fails_with(
+        &s.vet(&f("bad_label.csv"), &label),
+        &["bad_label.csv", "data row 2", "\"11\""],
+    );
     // A row of the wrong width: line 4 has 64 fields, the header 65.
-    fails_with(&s.vet(&f("ragged.csv"), &label), &["ragged.csv", "line 4", "64 fields"]);
+    fails_with(
+        &s.vet(&f("ragged.csv"), &label),
+        &["ragged.csv", "line 4", "64 fields"],
+    );
     // NaN features: line 3, column f5.
-    fails_with(&s.vet(&f("nan.csv"), &label), &["nan.csv", "line 3", "'f5'", "NaN"]);
+    fails_with(
+        &s.vet(&f("nan.csv"), &label),
+        &["nan.csv", "line 3", "'f5'", "NaN"],
+    );
     // An empty file.
     fails_with(&s.vet(&f("empty.csv"), &label), &["empty.csv", "empty"]);
     // Every row one feature short of the model's 64 inputs.
-    fails_with(&s.vet(&f("narrow.csv"), &label), &["narrow.csv", "63 features", "64 inputs"]);
+    fails_with(
+        &s.vet(&f("narrow.csv"), &label),
+        &["narrow.csv", "63 features", "64 inputs"],
+    );
     // A label column that is not there.
-    fails_with(&s.vet(&repo("examples/digits/heldout.csv"), &["--label", "digit"]), &["no column named \"digit\""]);
+    fails_with(
+        &s.vet(&repo("examples/digits/heldout.csv"), &["--label", "digit"]),
+        &["no column named \"digit\""],
+    );
     // The models in the wrong order.
     let o = Command::new(env!("CARGO_BIN_EXE_kinglet"))
         .arg("vet")
@@ -164,5 +234,11 @@ fn bad_input_is_named() {
         .unwrap();
     fails_with(&o, &["the float model is an int8 blob"]);
     // A nonsense limit.
-    fails_with(&s.vet(&repo("examples/digits/heldout.csv"), &["--label", "label", "--max-drop", "NaN"]), &["--max-drop"]);
+    fails_with(
+        &s.vet(
+            &repo("examples/digits/heldout.csv"),
+            &["--label", "label", "--max-drop", "NaN"],
+        ),
+        &["--max-drop"],
+    );
 }

@@ -17,7 +17,9 @@ use kinglet_converter::dataset::{load_csv, CsvOptions, Dataset, LabelColumn};
 use kinglet_converter::import::import_file;
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
-use kinglet_converter::vet::stats::{mcnemar_exact, newcombe_paired, phi, wilson, PairedCounts, Z_95};
+use kinglet_converter::vet::stats::{
+    mcnemar_exact, newcombe_paired, phi, wilson, PairedCounts, Z_95,
+};
 use kinglet_converter::vet::{self, Criteria, Gate, ModelPair, Parallelism, Sources, VetReport};
 use kinglet_runtime::Model;
 use kinglet_tests::path;
@@ -26,21 +28,39 @@ use serde_json::Value;
 fn heldout() -> Dataset {
     load_csv(
         &path("examples/digits/heldout.csv"),
-        &CsvOptions { label: Some(LabelColumn::Name("label".into())), has_header: None },
+        &CsvOptions {
+            label: Some(LabelColumn::Name("label".into())),
+            has_header: None,
+        },
     )
     .unwrap()
 }
 
 fn blobs() -> (Vec<u8>, Vec<u8>) {
     let model = import_file(&path("examples/digits/model.onnx")).unwrap();
-    let calib = load_csv(&path("examples/digits/calibration.csv"), &CsvOptions::default()).unwrap();
-    (pack_f32(&model).unwrap(), pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob)
+    let calib = load_csv(
+        &path("examples/digits/calibration.csv"),
+        &CsvOptions::default(),
+    )
+    .unwrap();
+    (
+        pack_f32(&model).unwrap(),
+        pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob,
+    )
 }
 
 fn report(parallelism: Parallelism, criteria: &Criteria) -> VetReport {
     let (f, q) = blobs();
     let pair = ModelPair::new(Model::parse(&f).unwrap(), Model::parse(&q).unwrap()).unwrap();
-    vet::vet(&pair, &heldout(), &Sources::default(), criteria, parallelism, &|_| {}).unwrap()
+    vet::vet(
+        &pair,
+        &heldout(),
+        &Sources::default(),
+        criteria,
+        parallelism,
+        &|_| {},
+    )
+    .unwrap()
 }
 
 fn json(rel: &str) -> Value {
@@ -48,11 +68,19 @@ fn json(rel: &str) -> Value {
 }
 
 fn u64s(v: &Value) -> Vec<u64> {
-    v.as_array().unwrap().iter().map(|x| x.as_u64().unwrap()).collect()
+    v.as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_u64().unwrap())
+        .collect()
 }
 
 fn f64s(v: &Value) -> Vec<f64> {
-    v.as_array().unwrap().iter().map(|x| x.as_f64().unwrap()).collect()
+    v.as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_f64().unwrap())
+        .collect()
 }
 
 fn matrix(v: &Value) -> Vec<Vec<u64>> {
@@ -68,15 +96,36 @@ fn check_against_sklearn(r: &VetReport, float: bool, sk: &Value) {
         (&acc.int8, &r.confusion.as_ref().unwrap().int8)
     };
     let which = if float { "float" } else { "int8" };
-    assert_eq!(m.correct, sk["correct"].as_u64().unwrap(), "{which} correct");
-    assert!((m.accuracy - sk["accuracy"].as_f64().unwrap()).abs() < 1e-12, "{which} accuracy");
-    assert_eq!(confusion.counts, matrix(&sk["confusion_matrix"]), "{which} confusion");
+    assert_eq!(
+        m.correct,
+        sk["correct"].as_u64().unwrap(),
+        "{which} correct"
+    );
+    assert!(
+        (m.accuracy - sk["accuracy"].as_f64().unwrap()).abs() < 1e-12,
+        "{which} accuracy"
+    );
+    assert_eq!(
+        confusion.counts,
+        matrix(&sk["confusion_matrix"]),
+        "{which} confusion"
+    );
     let per = r.per_class.as_ref().unwrap();
-    let (p, rc, s) = (f64s(&sk["precision"]), f64s(&sk["recall"]), u64s(&sk["support"]));
+    let (p, rc, s) = (
+        f64s(&sk["precision"]),
+        f64s(&sk["recall"]),
+        u64s(&sk["support"]),
+    );
     for (k, c) in per.iter().enumerate() {
         let ours = if float { c.float } else { c.int8 };
-        assert!((ours.precision - p[k]).abs() < 1e-9, "{which} precision of class {k}");
-        assert!((ours.recall - rc[k]).abs() < 1e-9, "{which} recall of class {k}");
+        assert!(
+            (ours.precision - p[k]).abs() < 1e-9,
+            "{which} precision of class {k}"
+        );
+        assert!(
+            (ours.recall - rc[k]).abs() < 1e-9,
+            "{which} recall of class {k}"
+        );
         assert_eq!(c.support, s[k], "support of class {k}");
     }
 }
@@ -86,7 +135,14 @@ fn float_metrics_equal_scikit_learn_on_the_pipeline_predictions() {
     let r = report(Parallelism::Parallel, &Criteria::default());
     let sk = json("examples/digits/reference_metrics.json");
     // Our float predictions are scikit-learn's `predict` row for row...
-    assert_eq!(r.predictions.float.iter().map(|&c| c as u64).collect::<Vec<_>>(), u64s(&sk["predictions"]));
+    assert_eq!(
+        r.predictions
+            .float
+            .iter()
+            .map(|&c| c as u64)
+            .collect::<Vec<_>>(),
+        u64s(&sk["predictions"])
+    );
     // ...so the counts, the matrix and the per-class scores must be scikit-learn's exactly.
     check_against_sklearn(&r, true, &sk);
     let acc = r.accuracy.as_ref().unwrap();
@@ -123,9 +179,16 @@ fn statistics_equal_scipy() {
     assert!(cases.len() >= 10);
     for c in cases {
         let t = u64s(&c["table"]);
-        let table = PairedCounts { both_right: t[0], first_only: t[1], second_only: t[2], both_wrong: t[3] };
+        let table = PairedCounts {
+            both_right: t[0],
+            first_only: t[1],
+            second_only: t[2],
+            both_wrong: t[3],
+        };
         let n = table.total();
-        let close = |a: f64, b: f64, what: &str| assert!((a - b).abs() < 1e-12, "{t:?} {what}: ours {a}, scipy {b}");
+        let close = |a: f64, b: f64, what: &str| {
+            assert!((a - b).abs() < 1e-12, "{t:?} {what}: ours {a}, scipy {b}")
+        };
         let (w1, w2) = (f64s(&c["wilson_first"]), f64s(&c["wilson_second"]));
         let (l1, u1) = wilson(t[0] + t[1], n, Z_95);
         let (l2, u2) = wilson(t[0] + t[2], n, Z_95);
@@ -140,16 +203,26 @@ fn statistics_equal_scipy() {
         close(hi, nc[1], "newcombe upper");
         let p = mcnemar_exact(t[1], t[2]);
         let sp = c["mcnemar_p"].as_f64().unwrap();
-        assert!((p - sp).abs() <= 1e-10 * sp.max(1e-300) + 1e-15, "{t:?} McNemar: ours {p}, scipy {sp}");
+        assert!(
+            (p - sp).abs() <= 1e-10 * sp.max(1e-300) + 1e-15,
+            "{t:?} McNemar: ours {p}, scipy {sp}"
+        );
     }
 }
 
 #[test]
 fn parallel_run_equals_serial_run() {
-    let criteria = Criteria { max_drop_pp: Some(0.5), gate: Some(Gate::Estimate), min_agreement_pct: Some(99.0) };
+    let criteria = Criteria {
+        max_drop_pp: Some(0.5),
+        gate: Some(Gate::Estimate),
+        min_agreement_pct: Some(99.0),
+    };
     let serial = report(Parallelism::Serial, &criteria);
     // Four workers on two cores, so rows really are spread over threads and finish out of order.
-    let pool = rayon::ThreadPoolBuilder::new().num_threads(4).build().unwrap();
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(4)
+        .build()
+        .unwrap();
     let parallel = pool.install(|| report(Parallelism::Parallel, &criteria));
     assert_eq!(serial, parallel);
     assert_eq!(
@@ -160,7 +233,13 @@ fn parallel_run_equals_serial_run() {
 
 #[test]
 fn digits_numbers_for_the_record() {
-    let r = report(Parallelism::Parallel, &Criteria { max_drop_pp: Some(0.5), ..Criteria::default() });
+    let r = report(
+        Parallelism::Parallel,
+        &Criteria {
+            max_drop_pp: Some(0.5),
+            ..Criteria::default()
+        },
+    );
     let a = r.accuracy.as_ref().unwrap();
     eprintln!(
         "float {}/{}, int8 {}/{}, drop {:.3} pp [{:.3}, {:.3}], agreement {}/{}, SQNR {:?}",
@@ -180,7 +259,13 @@ fn digits_numbers_for_the_record() {
     assert!((a.drop_pp - 100.0 * (a.float.accuracy - a.int8.accuracy)).abs() < 1e-9);
     assert!(a.drop_interval_pp.lower <= a.drop_pp && a.drop_pp <= a.drop_interval_pp.upper);
     assert_eq!(r.fidelity.len(), 4);
-    assert!(r.fidelity.iter().all(|f| f.sqnr_db.is_some_and(f64::is_finite)));
-    assert_eq!(r.agreement.rows - r.agreement.agree, r.agreement.disagreements.len() as u64);
+    assert!(r
+        .fidelity
+        .iter()
+        .all(|f| f.sqnr_db.is_some_and(f64::is_finite)));
+    assert_eq!(
+        r.agreement.rows - r.agreement.agree,
+        r.agreement.disagreements.len() as u64
+    );
     assert_eq!(r.verdict.as_ref().map(|v| v.passed), Some(a.drop_pp <= 0.5));
 }

@@ -171,15 +171,14 @@ pub fn sqnr_svg(stages: &[StageFidelity]) -> Result<String> {
         ok(chart
             .configure_mesh()
             .disable_y_mesh()
+            .light_line_style(TRANSPARENT)
             .disable_y_axis()
-            .x_desc("SQNR (dB)")
             .x_label_style(font(12))
-            .axis_desc_style(font(13))
             .draw())?;
         for (i, s) in stages.iter().enumerate() {
             let y = nf - 1.0 - i as f64;
             let (label, value) = match s.sqnr_db {
-                Some(db) => (format!("{db:.1} dB"), db.max(0.0)),
+                Some(db) => (format!(" {db:.1} dB"), db.max(0.0)),
                 None => (s.note.clone().unwrap_or_else(|| "undefined".into()), 0.0),
             };
             ok(chart.draw_series(std::iter::once(Rectangle::new(
@@ -215,7 +214,8 @@ pub fn score_diff_svg(diffs: &[f64], unit: &str) -> Result<String> {
             *c += 1;
         }
     }
-    let y_max = counts.iter().copied().max().unwrap_or(1).max(1) as f64 * 1.08;
+    // Rows on a log scale, so a tail of a few rows shows next to a bin of hundreds.
+    let y_max = counts.iter().copied().max().unwrap_or(1).max(1) as f64 * 1.5;
     let (w, h) = (760u32, 360u32);
     svg_string(w, h, |root| {
         ok(root.draw(&Text::new(
@@ -226,16 +226,17 @@ pub fn score_diff_svg(diffs: &[f64], unit: &str) -> Result<String> {
             ((w / 2) as i32, 16),
             anchored(16, HPos::Center, VPos::Center),
         )))?;
-        let area = root.margin(34, 10, 10, 20);
+        let area = root.margin(34, 10, 10, 30);
         let mut chart = ok(ChartBuilder::on(&area)
             .x_label_area_size(40)
             .y_label_area_size(60)
-            .build_cartesian_2d(0f64..hi, 0f64..y_max))?;
+            .build_cartesian_2d(0f64..hi, (0.8f64..y_max).log_scale()))?;
         ok(chart
             .configure_mesh()
             .disable_x_mesh()
+            .light_line_style(TRANSPARENT)
             .x_desc("max |float − int8| over the row's scores")
-            .y_desc("rows")
+            .y_desc("rows (log scale)")
             .x_label_formatter(&|v| format!("{v:.2e}"))
             .y_label_formatter(&|v| format!("{v:.0}"))
             .x_label_style(font(11))
@@ -249,7 +250,7 @@ pub fn score_diff_svg(diffs: &[f64], unit: &str) -> Result<String> {
                 .filter(|(_, &c)| c > 0)
                 .map(|(i, &c)| {
                     let x = i as f64 * width_bin;
-                    Rectangle::new([(x, 0.0), (x + width_bin, c as f64)], BAR.filled())
+                    Rectangle::new([(x, 0.8), (x + width_bin, c as f64)], BAR.filled())
                 }),
         ))?;
         Ok(())
@@ -288,7 +289,7 @@ mod tests {
         };
         let s = vec![StageFidelity::new(0, "input".into(), 4, e)];
         let svg = sqnr_svg(&s).unwrap();
-        assert_eq!(has_text(&svg, "20.0 dB"), 1, "{svg}");
+        assert_eq!(has_text(&svg, " 20.0 dB"), 1, "{svg}");
         let h = score_diff_svg(&[0.0, 0.01, 0.02, 0.02], "softmax probabilities").unwrap();
         assert!(h.contains("4 rows"));
     }
