@@ -14,9 +14,26 @@ fn main() -> ExitCode {
         Ok(commands::Outcome::Pass) => ExitCode::SUCCESS,
         Ok(commands::Outcome::CheckFailed) => ExitCode::from(1),
         Err(e) => {
-            // One line: the chain of causes, outermost first.
-            eprintln!("kinglet: error: {e:#}");
+            eprintln!("kinglet: error: {}", one_line(&e));
             ExitCode::from(2)
         }
     }
+}
+
+/// The error and its causes on one line, outermost first. Many library errors already carry
+/// their source in their own message, so a cause whose text the line already holds is left
+/// out (printing the plain chain repeated it, up to three times).
+fn one_line(e: &anyhow::Error) -> String {
+    let mut line = String::new();
+    for cause in e.chain() {
+        let text = cause.to_string();
+        if line.contains(&text) {
+            continue;
+        }
+        if !line.is_empty() {
+            line.push_str(": ");
+        }
+        line.push_str(&text);
+    }
+    line
 }
