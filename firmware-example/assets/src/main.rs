@@ -15,9 +15,15 @@ const PIXELS: usize = 64;
 
 fn digits(root: &Path) -> Result<(Vec<u8>, Vec<u8>)> {
     let path = root.join("examples/digits/heldout.csv");
-    let mut reader = csv::Reader::from_path(&path).with_context(|| format!("opening {}", path.display()))?;
-    let header = reader.headers().with_context(|| format!("{}: reading the header", path.display()))?;
-    let expected: Vec<String> = (0..PIXELS).map(|i| format!("f{i}")).chain(["label".to_string()]).collect();
+    let mut reader =
+        csv::Reader::from_path(&path).with_context(|| format!("opening {}", path.display()))?;
+    let header = reader
+        .headers()
+        .with_context(|| format!("{}: reading the header", path.display()))?;
+    let expected: Vec<String> = (0..PIXELS)
+        .map(|i| format!("f{i}"))
+        .chain(["label".to_string()])
+        .collect();
     ensure!(
         header.iter().eq(expected.iter().map(String::as_str)),
         "{}: header must be f0..f63,label",
@@ -27,21 +33,39 @@ fn digits(root: &Path) -> Result<(Vec<u8>, Vec<u8>)> {
     for (row, record) in reader.records().take(DIGITS_ROWS).enumerate() {
         let record = record.with_context(|| format!("{}: row {}", path.display(), row + 1))?;
         for (col, cell) in record.iter().enumerate() {
-            let v: u8 = cell.trim().parse().ok().filter(|&v| {
-                if col < PIXELS { v <= 16 } else { v <= 9 }
-            }).with_context(|| {
-                format!("{}: row {}, column {}: {cell:?} is not a pixel 0..=16 / label 0..=9", path.display(), row + 1, expected[col])
-            })?;
-            if col < PIXELS { pixels.push(v) } else { labels.push(v) }
+            let v: u8 = cell
+                .trim()
+                .parse()
+                .ok()
+                .filter(|&v| if col < PIXELS { v <= 16 } else { v <= 9 })
+                .with_context(|| {
+                    format!(
+                        "{}: row {}, column {}: {cell:?} is not a pixel 0..=16 / label 0..=9",
+                        path.display(),
+                        row + 1,
+                        expected[col]
+                    )
+                })?;
+            if col < PIXELS {
+                pixels.push(v)
+            } else {
+                labels.push(v)
+            }
         }
     }
-    ensure!(labels.len() == DIGITS_ROWS, "{}: needs {DIGITS_ROWS} rows, has {}", path.display(), labels.len());
+    ensure!(
+        labels.len() == DIGITS_ROWS,
+        "{}: needs {DIGITS_ROWS} rows, has {}",
+        path.display(),
+        labels.len()
+    );
     Ok((pixels, labels))
 }
 
 fn npy_shape(path: &Path) -> Result<(npyz::NpyFile<std::io::BufReader<std::fs::File>>, Vec<u64>)> {
     let file = std::fs::File::open(path).with_context(|| format!("opening {}", path.display()))?;
-    let npy = npyz::NpyFile::new(std::io::BufReader::new(file)).with_context(|| format!("{}: not an NPY file", path.display()))?;
+    let npy = npyz::NpyFile::new(std::io::BufReader::new(file))
+        .with_context(|| format!("{}: not an NPY file", path.display()))?;
     let shape = npy.shape().to_vec();
     Ok((npy, shape))
 }
@@ -49,20 +73,40 @@ fn npy_shape(path: &Path) -> Result<(npyz::NpyFile<std::io::BufReader<std::fs::F
 fn replay(root: &Path) -> Result<(Vec<u8>, Vec<u8>)> {
     let wpath = root.join("examples/vibration/replay_windows.npy");
     let (npy, shape) = npy_shape(&wpath)?;
-    ensure!(shape.len() == 3 && shape[1] == 3 && shape[2] == 128, "{}: shape {shape:?}, expected [n, 3, 128]", wpath.display());
-    ensure!(npy.order() == npyz::Order::C, "{}: expected C order", wpath.display());
-    let samples: Vec<i16> = npy.into_vec().with_context(|| format!("{}: expected int16 data", wpath.display()))?;
+    ensure!(
+        shape.len() == 3 && shape[1] == 3 && shape[2] == 128,
+        "{}: shape {shape:?}, expected [n, 3, 128]",
+        wpath.display()
+    );
+    ensure!(
+        npy.order() == npyz::Order::C,
+        "{}: expected C order",
+        wpath.display()
+    );
+    let samples: Vec<i16> = npy
+        .into_vec()
+        .with_context(|| format!("{}: expected int16 data", wpath.display()))?;
     let windows: Vec<u8> = samples.iter().flat_map(|s| s.to_le_bytes()).collect();
 
     let lpath = root.join("examples/vibration/replay_labels.npy");
     let (npy, lshape) = npy_shape(&lpath)?;
-    ensure!(lshape == [shape[0]], "{}: shape {lshape:?}, expected [{}]", lpath.display(), shape[0]);
-    let raw: Vec<i64> = npy.into_vec().with_context(|| format!("{}: expected int64 labels", lpath.display()))?;
+    ensure!(
+        lshape == [shape[0]],
+        "{}: shape {lshape:?}, expected [{}]",
+        lpath.display(),
+        shape[0]
+    );
+    let raw: Vec<i64> = npy
+        .into_vec()
+        .with_context(|| format!("{}: expected int64 labels", lpath.display()))?;
     let mut labels = Vec::with_capacity(raw.len());
     for (i, &l) in raw.iter().enumerate() {
         match u8::try_from(l) {
             Ok(v) if v < 4 => labels.push(v),
-            _ => bail!("{}: label {l} at index {i} is not a class 0..=3", lpath.display()),
+            _ => bail!(
+                "{}: label {l} at index {i} is not a class 0..=3",
+                lpath.display()
+            ),
         }
     }
     Ok((windows, labels))

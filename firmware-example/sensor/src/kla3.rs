@@ -332,7 +332,8 @@ mod tests {
     #[test]
     fn bus_errors_are_passed_through() {
         use embedded_hal::i2c::ErrorKind;
-        let expect = [T::write_read(ADDRESS, vec![reg::STATUS], vec![0]).with_error(ErrorKind::Other)];
+        let expect =
+            [T::write_read(ADDRESS, vec![reg::STATUS], vec![0]).with_error(ErrorKind::Other)];
         let mut i2c = Mock::new(&expect);
         let mut s = Kla3::new(i2c.clone(), ADDRESS);
         assert_eq!(s.status(), Err(Error::Bus(ErrorKind::Other)));
@@ -351,7 +352,11 @@ mod tests {
             let n = chunk.min(WINDOW - sent);
             // Near the end the part holds more than the window still needs (`chunk` frames);
             // the driver reads only the n it needs.
-            t.push(T::write_read(ADDRESS, vec![reg::FIFO_COUNT], vec![chunk as u8]));
+            t.push(T::write_read(
+                ADDRESS,
+                vec![reg::FIFO_COUNT],
+                vec![chunk as u8],
+            ));
             let data: Vec<u8> = (sent..sent + n)
                 .flat_map(|i| frame_bytes(i as i16, -(i as i16), 1000 + i as i16))
                 .collect();
@@ -369,9 +374,10 @@ mod tests {
         let mut src = Kla3Source::new(Kla3::new(i2c.clone(), ADDRESS), NoopDelay::new(), 100, 3);
         let mut w = [[0i16; WINDOW]; AXES];
         src.next_window(&mut w).unwrap();
-        for i in 0..WINDOW {
-            assert_eq!([w[0][i], w[1][i], w[2][i]], [i as i16, -(i as i16), 1000 + i as i16]);
-        }
+        let t = |i: usize| i as i16;
+        assert!(w[0].iter().enumerate().all(|(i, &v)| v == t(i)));
+        assert!(w[1].iter().enumerate().all(|(i, &v)| v == -t(i)));
+        assert!(w[2].iter().enumerate().all(|(i, &v)| v == 1000 + t(i)));
         i2c.done();
     }
 

@@ -112,7 +112,11 @@ fn classify_all<S: WindowSource, P: StatefulOutputPin>(
             truth.and_then(|c| model.label(c)).unwrap_or("?"),
         );
         for pin in pins.iter_mut() {
-            let _ = l.push(if pin.is_set_high().unwrap_or(false) { '1' } else { '0' });
+            let _ = l.push(if pin.is_set_high().unwrap_or(false) {
+                '1'
+            } else {
+                '0'
+            });
         }
         console::line(&l);
         #[cfg(feature = "defmt")]

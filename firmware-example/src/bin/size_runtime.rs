@@ -18,7 +18,9 @@ fn main() -> ! {
         console::exit(false)
     };
     let (model, parse_stack) = stack::measure(|| Model::parse(blob));
-    let Ok(model) = model else { console::exit(false) };
+    let Ok(model) = model else {
+        console::exit(false)
+    };
     let mut scores = [0f32; 10];
     let pixels = core::hint::black_box([8u8; 64]);
     let floats = core::hint::black_box([8f32; 64]);
@@ -31,7 +33,8 @@ fn main() -> ! {
     let mut l = console::LineBuf::new();
     let _ = write!(
         l,
-        "class {class} stack parse={parse_stack} u8={s_u8} f32={s_f32} i16={s_i16}"
+        "class {class} stack parse={parse_stack} u8={s_u8} f32={s_f32} i16={s_i16} model_struct={}",
+        core::mem::size_of::<Model<'_>>()
     );
     console::line(&l);
     console::exit(ok)

@@ -27,7 +27,12 @@ fn main() -> ! {
         console::exit(false)
     };
     let mut l = console::LineBuf::new();
-    let _ = write!(l, "vectors on {}: {TOTAL} vectors in {} sets", board::BOARD, SETS.len());
+    let _ = write!(
+        l,
+        "vectors on {}: {TOTAL} vectors in {} sets",
+        board::BOARD,
+        SETS.len()
+    );
     console::line(&l);
     let (mut passed, mut failed) = (0usize, 0usize);
     for set in &SETS {

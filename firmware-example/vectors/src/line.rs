@@ -138,7 +138,8 @@ pub fn format_vector(
         }
     }
     if set.path == Path::Vibration {
-        line.push_str(" feat=").map_err(|_| VectorError::LineTooLong)?;
+        line.push_str(" feat=")
+            .map_err(|_| VectorError::LineTooLong)?;
         for (k, f) in features.iter().enumerate() {
             let sep = if k == 0 { "" } else { "," };
             write!(line, "{sep}{:08x}", f.to_bits())?;

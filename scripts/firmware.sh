@@ -1,0 +1,235 @@
+#!/usr/bin/env bash
+# Firmware example under QEMU, on Cortex-M4F (mps2-an386) and Cortex-M0 (microbit).
+#
+#   bash scripts/firmware.sh                  everything below; exits non-zero on any failure
+#   bash scripts/firmware.sh --write-measured also rewrites converter/src/fit/measured.rs
+#
+# 1. host: unit tests of the firmware's no_std crates (features, KLA-3 driver, vectors) and the
+#    host side of the bit-exact vectors (tests/tests/firmware_vectors.rs);
+# 2. the committed assets in firmware-example/models/ are what regenerate.sh makes now;
+# 3. per target: build, then run under QEMU: selftest (kernel tests, must report 0 failed),
+#    vectors (every line must equal tests/fixtures/vectors/*.txt, bit for bit), classify (the
+#    demo), fault_check (a fault must fail the run at once);
+# 4. code size and stack of the runtime per target, compared with converter/src/fit/measured.rs;
+# 5. the build-time model budget: passes as configured, fails with a clear message when
+#    KINGLET_RAM_BUDGET / KINGLET_FLASH_BUDGET are set too small; the defmt feature builds.
+#
+# Installs qemu-system-arm (apt-get) and the two rustup targets if they are missing.
+set -euo pipefail
+root="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
+fw="$root/firmware-example"
+write_measured=0
+[[ "${1:-}" == "--write-measured" ]] && write_measured=1
+targets=(thumbv7em-none-eabihf thumbv6m-none-eabi)
+host="$(rustc -vV | sed -n 's/^host: //p')"
+# The firmware workspace has its own target directory (firmware-example/target) unless
+# FW_TARGET_DIR says otherwise; the root workspace keeps CARGO_TARGET_DIR / target.
+fw_target="${FW_TARGET_DIR:-$fw/target}"
+root_target="${CARGO_TARGET_DIR:-$root/target}"
+work="$(mktemp -d)"
+trap 'rm -rf "$work"' EXIT
+failures=0
+fail() { echo "FAIL: $*"; failures=$((failures + 1)); }
+step() { printf '\n---- firmware: %s ----\n' "$*"; }
+fwcargo() { (cd "$fw" && CARGO_TARGET_DIR="$fw_target" cargo "$@"); }
+
+step "prerequisites"
+if ! command -v qemu-system-arm >/dev/null; then
+  if [[ $(id -u) -eq 0 ]] && command -v apt-get >/dev/null; then
+    apt-get update -qq
+    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq qemu-system-arm >/dev/null
+  else
+    echo "qemu-system-arm is missing (Debian: apt-get install qemu-system-arm)"; exit 1
+  fi
+fi
+rustup target add "${targets[@]}" >/dev/null 2>&1 || true
+qemu-system-arm --version | head -1
+
+step "host tests of the firmware crates"
+fwcargo test -q --target "$host" -p kinglet-vibration-features -p kinglet-fw-sensor -p kinglet-fw-vectors
+(cd "$root" && cargo test -q -p kinglet-tests --test firmware_vectors)
+
+step "committed assets are current"
+(cd "$root" && cargo build -q --release -p kinglet-converter --bin kinglet)
+KINGLET="$root_target/release/kinglet" CARGO_TARGET_DIR="$fw_target" \
+  bash "$fw/models/regenerate.sh" "$work/models" >"$work/regenerate.log" 2>&1 \
+  || { cat "$work/regenerate.log"; fail "regenerate.sh failed"; }
+for f in "$fw"/models/*.kgl "$fw"/models/*.bin; do
+  name="$(basename "$f")"
+  if ! cmp -s "$f" "$work/models/$name"; then
+    fail "firmware-example/models/$name differs from what regenerate.sh makes now: run
+      bash firmware-example/models/regenerate.sh && KINGLET_BLESS=1 cargo test -p kinglet-tests --test firmware_vectors
+    and review the diff of tests/fixtures/vectors/"
+  fi
+done
+
+expected="$work/expected.txt"
+for s in digits_u8 digits_f32 digits_float vibration; do
+  cat "$root/tests/fixtures/vectors/$s.txt"
+done >"$expected"
+
+# run <target> <bin> <log>: runs an ELF under QEMU through the runner; prints seconds taken.
+run() {
+  local t0 rc=0
+  t0=$EPOCHREALTIME
+  (cd "$fw" && ./qemu-run.sh "$fw_target/$1/release/$2") >"$3" 2>&1 || rc=$?
+  awk -v a="$t0" -v b="$EPOCHREALTIME" -v t="$1" -v n="$2" -v rc="$rc" \
+    'BEGIN { printf "%s %s: exit %d in %.2f s\n", t, n, rc, b - a }'
+  return $rc
+}
+
+section() { llvm-size -A "$1" | awk -v s="$2" '$1 == s { print $2 }'; }
+
+declare -A measured
+for t in "${targets[@]}"; do
+  step "$t: build"
+  # Not quiet: the build script's budget report comes as cargo warnings.
+  fwcargo build --release --target "$t" 2>"$work/build-$t.log" || { cat "$work/build-$t.log"; fail "$t: build"; continue; }
+  grep 'model flash' "$work/build-$t.log" | sed 's/^warning: [^:]*: /  /' | sort -u || true
+
+  step "$t: selftest"
+  if run "$t" selftest "$work/selftest-$t.txt"; then :; else fail "$t: selftest exited non-zero"; fi
+  grep -v '^selftest on' "$work/selftest-$t.txt" | tail -20
+  grep -Eq '^selftest: [1-9][0-9]* passed, 0 failed$' "$work/selftest-$t.txt" || fail "$t: selftest summary"
+
+  step "$t: vectors"
+  if run "$t" vectors "$work/vectors-$t.txt"; then :; else fail "$t: vectors exited non-zero"; fi
+  grep -E '^(stack|vectors|MISMATCH|ERROR)' "$work/vectors-$t.txt" || true
+  if grep -E '^(digits_u8|digits_f32|digits_float|vibration) ' "$work/vectors-$t.txt" | diff -u "$expected" - >"$work/diff-$t.txt"; then
+    echo "$(wc -l <"$expected") lines identical to tests/fixtures/vectors/*.txt"
+  else
+    head -20 "$work/diff-$t.txt"; fail "$t: vector output differs from the expected files"
+  fi
+
+  step "$t: classify (demo)"
+  if run "$t" classify "$work/classify-$t.txt"; then :; else fail "$t: classify exited non-zero"; fi
+  head -3 "$work/classify-$t.txt"; echo "  ..."; tail -1 "$work/classify-$t.txt"
+  grep -q '^classify: 64 windows' "$work/classify-$t.txt" || fail "$t: classify did not process 64 windows"
+
+  step "$t: a fault fails fast"
+  start=$(date +%s)
+  if KINGLET_QEMU_TIMEOUT=20 run "$t" fault_check "$work/fault-$t.txt"; then
+    fail "$t: fault_check exited 0"
+  fi
+  cat "$work/fault-$t.txt"
+  grep -q '^HARDFAULT' "$work/fault-$t.txt" || fail "$t: no HARDFAULT report"
+  (( $(date +%s) - start < 15 )) || fail "$t: fault took too long to end the run"
+
+  step "$t: runtime code size and stack"
+  run "$t" size_runtime "$work/size-$t.txt" || fail "$t: size_runtime"
+  cat "$work/size-$t.txt"
+  base="$fw_target/$t/release/size_base"; rt="$fw_target/$t/release/size_runtime"
+  text=$(( $(section "$rt" .text) - $(section "$base" .text) ))
+  blob=$(stat -c %s "$fw/models/digits.kgl")
+  rodata=$(( $(section "$rt" .rodata) - $(section "$base" .rodata) - blob ))
+  parse=$(sed -n 's/.*parse=\([0-9]*\).*/\1/p' "$work/size-$t.txt")
+  infer=$( { sed -n 's/.* u8=\([0-9]*\) f32=\([0-9]*\) i16=\([0-9]*\).*/\1\n\2\n\3/p' "$work/size-$t.txt";
+             sed -n 's/^stack .* infer=\([0-9]*\)$/\1/p' "$work/vectors-$t.txt"; } | sort -n | tail -1)
+  model_struct=$(sed -n 's/.*model_struct=\([0-9]*\).*/\1/p' "$work/size-$t.txt")
+  echo "runtime .text $text bytes, .rodata $rodata bytes (blob excluded); stack: parse $parse, inference $infer bytes; Model value $model_struct bytes"
+  measured[$t]="$text $rodata $parse $infer $model_struct"
+  for bin in classify vectors selftest; do
+    printf '  %-9s flash %7d bytes (.text %d, .rodata %d), RAM .bss %d bytes\n' "$bin" \
+      $(( $(section "$fw_target/$t/release/$bin" .vector_table) + $(section "$fw_target/$t/release/$bin" .text) + $(section "$fw_target/$t/release/$bin" .rodata) )) \
+      "$(section "$fw_target/$t/release/$bin" .text)" "$(section "$fw_target/$t/release/$bin" .rodata)" \
+      "$(section "$fw_target/$t/release/$bin" .bss)"
+  done
+done
+
+step "runtime measurements vs converter/src/fit/measured.rs"
+measured_rs="$root/converter/src/fit/measured.rs"
+if [[ -n "${measured[thumbv6m-none-eabi]:-}" && -n "${measured[thumbv7em-none-eabihf]:-}" ]]; then
+  read -r m0_text m0_rodata m0_parse m0_infer m0_model <<<"${measured[thumbv6m-none-eabi]}"
+  read -r m4_text m4_rodata m4_parse m4_infer m4_model <<<"${measured[thumbv7em-none-eabihf]}"
+  if (( write_measured )); then
+    cat >"$measured_rs" <<RS
+//! Runtime footprint measured on the example firmware (generated; do not edit by hand).
+//!
+//! Reproduce: \`bash scripts/firmware.sh --write-measured\` ($(rustc --version | cut -d' ' -f1-2),
+//! release profile of \`firmware-example/\`: opt-level "s", fat LTO, one codegen unit).
+//! Code: \`.text\` and \`.rodata\` of the \`size_runtime\` firmware (parse + one inference per
+//! input path) minus those of \`size_base\` (same start-up and console, no runtime), with the
+//! embedded blob taken out of \`.rodata\`. Stack: peak bytes found by painting the stack below
+//! the stack pointer and scanning after the call (\`firmware-example/src/stack.rs\`), under
+//! QEMU; \`stack_infer\` is the largest of the measured inferences (digits int8 through the
+//! u8/i16/f32 paths, the f32 digits model).
+use super::Measured;
+
+/// Cortex-M0 / M0+ (\`thumbv6m-none-eabi\`, no FPU: float is software).
+pub const CORTEX_M0: Measured = Measured {
+    target: "thumbv6m-none-eabi",
+    runtime_text: $m0_text,
+    runtime_rodata: $m0_rodata,
+    stack_parse: $m0_parse,
+    stack_infer: $m0_infer,
+    model_struct: $m0_model,
+};
+
+/// Cortex-M4F / M7 class (\`thumbv7em-none-eabihf\`, single-precision FPU).
+pub const CORTEX_M4F: Measured = Measured {
+    target: "thumbv7em-none-eabihf",
+    runtime_text: $m4_text,
+    runtime_rodata: $m4_rodata,
+    stack_parse: $m4_parse,
+    stack_infer: $m4_infer,
+    model_struct: $m4_model,
+};
+RS
+    echo "wrote $measured_rs"
+  elif [[ -f "$measured_rs" ]]; then
+    # Same compiler, same numbers; another compiler version may move code size a little.
+    check() { # name recorded now
+      local lo=$(( $2 * 85 / 100 )) hi=$(( $2 * 115 / 100 + 16 ))
+      if (( $3 < lo || $3 > hi )); then
+        fail "$1: measured $3, measured.rs records $2 (more than 15% off): run bash scripts/firmware.sh --write-measured"
+      else
+        echo "  $1: $3 (recorded $2)"
+      fi
+    }
+    rec() { awk -v c="$1" -v f="$2" '$0 ~ "pub const " c ":" {on=1} on && $1 == f":" {gsub(",", "", $2); print $2; exit}' "$measured_rs"; }
+    check "M0 runtime .text" "$(rec CORTEX_M0 runtime_text)" "$m0_text"
+    check "M0 stack (parse)" "$(rec CORTEX_M0 stack_parse)" "$m0_parse"
+    check "M0 stack (inference)" "$(rec CORTEX_M0 stack_infer)" "$m0_infer"
+    check "M4F runtime .text" "$(rec CORTEX_M4F runtime_text)" "$m4_text"
+    check "M4F stack (parse)" "$(rec CORTEX_M4F stack_parse)" "$m4_parse"
+    check "M4F stack (inference)" "$(rec CORTEX_M4F stack_infer)" "$m4_infer"
+  else
+    fail "$measured_rs is missing: run bash scripts/firmware.sh --write-measured"
+  fi
+fi
+
+step "build-time model budget"
+t=thumbv6m-none-eabi
+if KINGLET_RAM_BUDGET=64 fwcargo build -q --release --target "$t" --bin classify >"$work/over-ram.log" 2>&1; then
+  fail "build passed with KINGLET_RAM_BUDGET=64"
+fi
+grep -o 'arena RAM [0-9]* bytes exceeds the microbit RAM budget of 64 bytes' "$work/over-ram.log" \
+  || { cat "$work/over-ram.log"; fail "no clear RAM budget message"; }
+if KINGLET_FLASH_BUDGET=8K fwcargo build -q --release --target "$t" --bin classify >"$work/over-flash.log" 2>&1; then
+  fail "build passed with KINGLET_FLASH_BUDGET=8K"
+fi
+grep -o 'model flash [0-9]* bytes exceeds the microbit flash budget of 8192 bytes' "$work/over-flash.log" \
+  || { cat "$work/over-flash.log"; fail "no clear flash budget message"; }
+fwcargo build -q --release --target "$t" --bin classify 2>/dev/null && echo "default budget: builds" \
+  || fail "build under the default budget failed"
+
+step "defmt feature builds"
+fwcargo build -q --release --target thumbv7em-none-eabihf --features defmt --bin classify 2>/dev/null \
+  && echo "classify with defmt: built" || fail "defmt build"
+
+step "lint"
+# Only this workspace's own packages: `--all` would also reach the path dependencies.
+fwcargo fmt --check -p kinglet-firmware-example -p kinglet-vibration-features -p kinglet-fw-sensor \
+  -p kinglet-fw-vectors -p kinglet-fw-make-assets || fail "cargo fmt in firmware-example"
+fwcargo clippy -q --target "$host" -p kinglet-vibration-features -p kinglet-fw-sensor -p kinglet-fw-vectors -p kinglet-fw-make-assets --all-targets -- -D warnings || fail "clippy (host crates)"
+for t in "${targets[@]}"; do
+  fwcargo clippy -q --release --target "$t" -p kinglet-firmware-example -- -D warnings 2>&1 | grep -v 'model flash' || true
+  fwcargo clippy -q --release --target "$t" -p kinglet-firmware-example -- -D warnings >/dev/null 2>&1 || fail "clippy ($t)"
+done
+
+echo
+if (( failures )); then
+  echo "firmware: $failures check(s) failed"
+  exit 1
+fi
+echo "firmware: all checks passed"
