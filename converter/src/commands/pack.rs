@@ -76,7 +76,7 @@ fn default_out(model: &Path, float: bool) -> PathBuf {
 pub fn run(a: Args) -> Result<Outcome> {
     let mut model = import_file(&a.model).with_context(|| format!("cannot import {}", a.model.display()))?;
     if let Some(p) = &a.scaler {
-        attach_scaler(&mut model, load_scaler_file(p)?)?;
+        attach_scaler(&mut model, load_scaler_file(p)?).with_context(|| format!("--scaler {}", p.display()))?;
     } else if let Some(d) = a.divide_by {
         attach_scaler(&mut model, uniform_divisor(d)?)?;
     }
@@ -95,7 +95,7 @@ pub fn run(a: Args) -> Result<Outcome> {
         if a.calibration.is_some() {
             bail!("--float packs f32 weights and needs no --calibration");
         }
-        pack_f32(&model)?
+        pack_f32(&model).with_context(|| format!("cannot pack {}", a.model.display()))?
     } else {
         let path = a.calibration.ok_or_else(|| {
             anyhow!("an int8 pack needs --calibration <rows.csv|rows.npy> (raw feature rows, a few hundred suffice), or use --float")
@@ -105,7 +105,7 @@ pub fn run(a: Args) -> Result<Outcome> {
             Range::Minmax => RangeMethod::MinMax,
             Range::Percentile => RangeMethod::Percentile(a.percentile),
         };
-        let p = pack_int8(&model, &data, method)?;
+        let p = pack_int8(&model, &data, method).with_context(|| format!("cannot pack {}", a.model.display()))?;
         notes.push(format!("calibrated on {} rows of {} ({})", p.calibration_rows, path.display(), p.method));
         p.blob
     };

@@ -1,0 +1,786 @@
+//! The bad-input catalogue (`docs/bad-inputs.md`), command-line rows: each test is one row (its
+//! id in the name), run through the real `kinglet` binary in a fresh directory. Every row must
+//! exit with code 2, print nothing on stdout and exactly one line `kinglet: error: <cause>` on
+//! stderr naming what is wrong and where, and leave no file behind (no output blob, no
+//! temporary). The runtime and library rows are in `tests/tests/bad_inputs.rs`.
+use std::collections::BTreeSet;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn repo(rel: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("..").join(rel)
+}
+
+fn fixture(name: &str) -> PathBuf {
+    repo("tests/fixtures/bad").join(name)
+}
+
+/// A scratch directory the command runs in.
+struct Case {
+    dir: tempfile::TempDir,
+}
+
+impl Case {
+    fn new() -> Self {
+        Case {
+            dir: tempfile::tempdir().expect("temp dir"),
+        }
+    }
+
+    /// Copies `tests/fixtures/bad/<name>` into the directory.
+    fn with(self, name: &str) -> Self {
+        std::fs::copy(fixture(name), self.dir.path().join(name)).expect("fixture copies");
+        self
+    }
+
+    /// Copies a repository file into the directory under `name`.
+    fn with_repo(self, rel: &str, name: &str) -> Self {
+        std::fs::copy(repo(rel), self.dir.path().join(name)).expect("repo file copies");
+        self
+    }
+
+    fn put(self, name: &str, bytes: &[u8]) -> Self {
+        std::fs::write(self.dir.path().join(name), bytes).expect("write");
+        self
+    }
+
+    fn listing(&self) -> BTreeSet<String> {
+        let mut out = BTreeSet::new();
+        let mut stack = vec![self.dir.path().to_path_buf()];
+        while let Some(d) = stack.pop() {
+            for e in std::fs::read_dir(&d).expect("read dir").flatten() {
+                let p = e.path();
+                if p.is_dir() {
+                    stack.push(p.clone());
+                }
+                out.insert(
+                    p.strip_prefix(self.dir.path())
+                        .unwrap()
+                        .display()
+                        .to_string(),
+                );
+            }
+        }
+        out
+    }
+
+    fn run(&self, args: &[&str]) -> std::process::Output {
+        Command::new(env!("CARGO_BIN_EXE_kinglet"))
+            .args(args)
+            .current_dir(self.dir.path())
+            .output()
+            .expect("kinglet runs")
+    }
+
+    /// Runs `kinglet args`, checks the failure contract, and returns the cause (the text after
+    /// `kinglet: error: `), which must contain every one of `wants`.
+    fn fails(&self, args: &[&str], wants: &[&str]) -> String {
+        let before = self.listing();
+        let out = self.run(args);
+        let stderr = String::from_utf8_lossy(&out.stderr).into_owned();
+        assert_eq!(out.status.code(), Some(2), "{args:?}: stderr {stderr}");
+        assert!(
+            out.stdout.is_empty(),
+            "{args:?}: stdout {:?}",
+            String::from_utf8_lossy(&out.stdout)
+        );
+        assert!(!stderr.contains("panicked"), "{args:?}: {stderr}");
+        let line = stderr.strip_suffix('\n').unwrap_or(&stderr);
+        assert!(
+            !line.contains('\n'),
+            "{args:?}: more than one line: {stderr}"
+        );
+        let cause = line
+            .strip_prefix("kinglet: error: ")
+            .unwrap_or_else(|| panic!("{args:?}: not an error line: {stderr}"));
+        for w in wants {
+            assert!(
+                cause.contains(w),
+                "{args:?}: {cause:?} does not mention {w:?}"
+            );
+        }
+        // No cause is printed twice.
+        let parts: Vec<&str> = cause.split(": ").collect();
+        for (i, p) in parts.iter().enumerate() {
+            if p.len() > 12 {
+                assert!(
+                    !parts[i + 1..].contains(p),
+                    "{args:?}: {p:?} repeated in {cause:?}"
+                );
+            }
+        }
+        assert_eq!(self.listing(), before, "{args:?}: files left behind");
+        println!("{cause}");
+        cause.to_string()
+    }
+
+    /// Packs the plain 2-input model to `name` (int8, calibrated on `rows.csv`).
+    fn packed(self, name: &str) -> Self {
+        let c = self.with("model_2in.json").with("rows.csv");
+        let out = c.run(&[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "-o",
+            name,
+        ]);
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        c
+    }
+
+    fn read(&self, name: &str) -> Vec<u8> {
+        std::fs::read(self.dir.path().join(name)).expect("read")
+    }
+}
+
+/// Recomputes the header's length and CRC-32 (ISO-HDLC, the runtime's checksum).
+fn reseal(blob: &mut [u8]) {
+    let len = blob.len() as u32;
+    blob[8..12].copy_from_slice(&len.to_le_bytes());
+    let crc = kinglet_runtime::CHECKSUM.checksum(&blob[16..]);
+    blob[12..16].copy_from_slice(&crc.to_le_bytes());
+}
+
+/// A version-1 `.npy` file (format of numpy's `numpy.lib.format`, version 1.0).
+fn npy(descr: &str, shape: &str, payload: &[u8]) -> Vec<u8> {
+    let mut header = format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape}, }}");
+    while (10 + header.len() + 1) % 64 != 0 {
+        header.push(' ');
+    }
+    header.push('\n');
+    let mut v = b"\x93NUMPY\x01\x00".to_vec();
+    v.extend_from_slice(&(header.len() as u16).to_le_bytes());
+    v.extend_from_slice(header.as_bytes());
+    v.extend_from_slice(payload);
+    v
+}
+
+fn pack_with_rows(rows: &str, wants: &[&str]) -> String {
+    Case::new().with("model_2in.json").with(rows).fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            rows,
+            "-o",
+            "out/m.kgl",
+        ],
+        wants,
+    )
+}
+
+fn pack_float(model: &str, wants: &[&str]) -> String {
+    Case::new()
+        .with(model)
+        .fails(&["pack", model, "--float", "-o", "m.kgl"], wants)
+}
+
+fn pack_onnx_fixture(name: &str, wants: &[&str]) -> String {
+    Case::new()
+        .with_repo(&format!("tests/fixtures/onnx/{name}"), name)
+        .fails(&["pack", name, "--float", "-o", "m.kgl"], wants)
+}
+
+#[test]
+fn baseline_pack_and_inspect_succeed() {
+    let c = Case::new().packed("m.kgl");
+    let out = c.run(&["inspect", "m.kgl"]);
+    assert_eq!(out.status.code(), Some(0));
+    assert!(String::from_utf8_lossy(&out.stdout).contains("int8"));
+}
+
+#[test]
+fn c01_inspect_truncated_blob() {
+    let c = Case::new().packed("m.kgl");
+    let b = c.read("m.kgl");
+    let c = c.put("cut.kgl", &b[..b.len() - 7]);
+    c.fails(
+        &["inspect", "cut.kgl"],
+        &[
+            "cut.kgl",
+            &format!(
+                "blob truncated: needs {} bytes, got {}",
+                b.len(),
+                b.len() - 7
+            ),
+        ],
+    );
+    let c = c.put("head.kgl", &b[..12]);
+    c.fails(
+        &["inspect", "head.kgl"],
+        &["head.kgl", "needs 20 bytes, got 12"],
+    );
+}
+
+#[test]
+fn c02_inspect_bit_flipped_blob() {
+    let c = Case::new().packed("m.kgl");
+    let mut b = c.read("m.kgl");
+    let at = b.len() / 2;
+    b[at] ^= 0x10;
+    c.put("flip.kgl", &b)
+        .fails(&["inspect", "flip.kgl"], &["flip.kgl", "checksum mismatch"]);
+}
+
+#[test]
+fn c03_inspect_blob_from_a_newer_format_version() {
+    let c = Case::new().packed("m.kgl");
+    let mut b = c.read("m.kgl");
+    b[4] = 2;
+    reseal(&mut b);
+    c.put("v2.kgl", &b).fails(
+        &["inspect", "v2.kgl"],
+        &[
+            "v2.kgl",
+            "model format version 2 is not supported (this reader accepts version 1)",
+        ],
+    );
+}
+
+#[test]
+fn c04_inspect_wrong_magic() {
+    Case::new()
+        .with_repo("examples/vibration/model.onnx", "model.onnx")
+        .fails(
+            &["inspect", "model.onnx"],
+            &["model.onnx", "not a Kinglet model: wrong magic bytes"],
+        );
+}
+
+#[test]
+fn c05_inspect_empty_file() {
+    Case::new().put("empty.kgl", b"").fails(
+        &["inspect", "empty.kgl"],
+        &["empty.kgl", "needs 20 bytes, got 0"],
+    );
+}
+
+#[test]
+fn c06_inspect_missing_file() {
+    Case::new().fails(&["inspect", "nowhere.kgl"], &["cannot read nowhere.kgl"]);
+}
+
+#[test]
+fn c07_ragged_csv() {
+    pack_with_rows(
+        "ragged.csv",
+        &["ragged.csv", "line 3", "1 fields, but the first row has 2"],
+    );
+}
+
+#[test]
+fn c08_nan_in_calibration_rows() {
+    pack_with_rows("nan.csv", &["nan.csv", "line 3, column 'b'", "finite f32"]);
+}
+
+#[test]
+fn c09_inf_in_calibration_rows() {
+    pack_with_rows("inf.csv", &["inf.csv", "line 4, column 'a'", "finite f32"]);
+}
+
+#[test]
+fn c10_calibration_value_beyond_f32() {
+    pack_with_rows(
+        "f32_overflow.csv",
+        &["f32_overflow.csv", "line 3, column 'a'", "1e39"],
+    );
+}
+
+#[test]
+fn c11_calibration_field_not_a_number() {
+    pack_with_rows(
+        "text_field.csv",
+        &[
+            "text_field.csv",
+            "line 3, column 'b'",
+            "\"four\" is not a number",
+        ],
+    );
+}
+
+#[test]
+fn c12_calibration_rows_of_the_wrong_width() {
+    pack_with_rows(
+        "wide.csv",
+        &[
+            "wide.csv",
+            "3 features per row, but the model takes 2 inputs",
+        ],
+    );
+}
+
+#[test]
+fn c13_calibration_with_no_rows() {
+    pack_with_rows(
+        "header_only.csv",
+        &["header_only.csv", "header but no data rows"],
+    );
+}
+
+#[test]
+fn c14_empty_calibration_file() {
+    pack_with_rows("empty.csv", &["empty.csv", "the file is empty"]);
+}
+
+#[test]
+fn c15_label_column_out_of_range() {
+    Case::new().with("model_2in.json").with("rows.csv").fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "--calibration-label",
+            "5",
+            "-o",
+            "m.kgl",
+        ],
+        &[
+            "rows.csv",
+            "label column index 5 is out of range",
+            "2 columns",
+        ],
+    );
+}
+
+#[test]
+fn c16_label_column_name_not_found() {
+    Case::new().with("model_2in.json").with("rows.csv").fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "--calibration-label",
+            "species",
+            "-o",
+            "m.kgl",
+        ],
+        &["rows.csv", "no column named \"species\"", "\"a\", \"b\""],
+    );
+}
+
+#[test]
+fn c17_calibration_csv_not_utf8() {
+    pack_with_rows("not_utf8.csv", &["not_utf8.csv", "line 2", "invalid UTF-8"]);
+}
+
+#[test]
+fn c18_truncated_npy_calibration() {
+    let full = npy("<f4", "(3, 2)", &[0u8; 24]);
+    Case::new()
+        .with("model_2in.json")
+        .put("rows.npy", &full[..full.len() - 5])
+        .fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--calibration",
+                "rows.npy",
+                "-o",
+                "m.kgl",
+            ],
+            &["rows.npy"],
+        );
+}
+
+#[test]
+fn c19_nan_in_npy_calibration() {
+    let vals: Vec<u8> = [1.0f32, 2.0, f32::NAN, 4.0]
+        .iter()
+        .flat_map(|v| v.to_le_bytes())
+        .collect();
+    Case::new()
+        .with("model_2in.json")
+        .put("rows.npy", &npy("<f4", "(2, 2)", &vals))
+        .fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--calibration",
+                "rows.npy",
+                "-o",
+                "m.kgl",
+            ],
+            &["rows.npy", "row index 1, column index 0: NaN"],
+        );
+}
+
+#[test]
+fn c20_unsupported_onnx_op() {
+    pack_onnx_fixture(
+        "bad_tanh.onnx",
+        &[
+            "bad_tanh.onnx",
+            "node 'tanh1'",
+            "op Tanh is not supported",
+            "supported: MatMul",
+        ],
+    );
+    pack_onnx_fixture(
+        "bad_conv.onnx",
+        &["node 'conv1'", "op Conv is not supported"],
+    );
+}
+
+#[test]
+fn c21_onnx_graph_with_two_inputs() {
+    pack_onnx_fixture(
+        "bad_two_inputs.onnx",
+        &[
+            "the graph has 2 data inputs ('x', 'x2')",
+            "exactly one graph input",
+        ],
+    );
+}
+
+#[test]
+fn c22_cyclic_onnx_graph() {
+    pack_onnx_fixture(
+        "bad_cycle.onnx",
+        &["the graph has a cycle through node 'add_loop'"],
+    );
+}
+
+#[test]
+fn c23_disconnected_onnx_graph() {
+    pack_onnx_fixture(
+        "bad_disconnected.onnx",
+        &["node 'stray_relu'", "not connected to the model"],
+    );
+}
+
+#[test]
+fn c24_empty_onnx_graph() {
+    pack_onnx_fixture("bad_empty_graph.onnx", &["the ONNX graph has no nodes"]);
+}
+
+#[test]
+fn c25_nan_weight_in_onnx() {
+    pack_onnx_fixture(
+        "bad_nan_weight.onnx",
+        &[
+            "node 'fc_nan'",
+            "tensor 'Wnan' has a non-finite value (NaN) at flat index 7",
+        ],
+    );
+}
+
+#[test]
+fn c26_truncated_onnx() {
+    pack_onnx_fixture(
+        "bad_truncated.onnx",
+        &["bad_truncated.onnx", "not a valid ONNX model"],
+    );
+}
+
+#[test]
+fn c27_onnx_layer_widths_do_not_chain() {
+    pack_onnx_fixture(
+        "bad_shape_mismatch.onnx",
+        &[
+            "node 'fc2'",
+            "take 5 inputs but the previous dense layer has 4 outputs",
+        ],
+    );
+}
+
+#[test]
+fn c28_onnx_sigmoid_on_several_outputs() {
+    pack_onnx_fixture(
+        "bad_sigmoid_multi.onnx",
+        &["node 'sigmoid_multi'", "Sigmoid on 4 outputs"],
+    );
+}
+
+#[test]
+fn c29_plain_model_widths_do_not_chain() {
+    pack_float("plain_widths.json", &["plain_widths.json", "layers[1]"]);
+}
+
+#[test]
+fn c30_plain_model_without_layers() {
+    pack_float("plain_empty.json", &["plain_empty.json", "layer"]);
+}
+
+#[test]
+fn c31_plain_model_of_a_newer_version() {
+    pack_float("plain_v2.json", &["plain_v2.json", "2"]);
+}
+
+#[test]
+fn c32_plain_model_unknown_activation() {
+    pack_float(
+        "plain_tanh.json",
+        &[
+            "plain_tanh.json",
+            "layers[0].activation",
+            "unknown variant `tanh`",
+            "line 1 column",
+        ],
+    );
+}
+
+#[test]
+fn c33_plain_weight_beyond_f32() {
+    pack_float(
+        "plain_f32_overflow.json",
+        &[
+            "plain_f32_overflow.json",
+            "layers[0].weights",
+            "at output 1, input 1 is not a finite f32",
+        ],
+    );
+}
+
+#[test]
+fn c34_plain_model_nan_is_not_json() {
+    pack_float(
+        "plain_nan_token.json",
+        &["plain_nan_token.json", "line 1 column"],
+    );
+}
+
+#[test]
+fn c35_plain_model_names_a_missing_npy() {
+    let cause = pack_float(
+        "plain_missing_npy.json",
+        &[
+            "plain_missing_npy.json",
+            "layers[0].weights",
+            "kernel.npy",
+            "cannot read the file",
+        ],
+    );
+    // Regression: the OS error used to be printed three times on this line.
+    assert_eq!(cause.matches("os error 2").count(), 1, "{cause}");
+}
+
+#[test]
+fn c36_plain_model_with_more_layers_than_the_format_holds() {
+    let layer = r#"{"inputs": 2, "outputs": 2, "activation": "relu", "weights": [[1, 0], [0, 1]], "bias": [0, 0]}"#;
+    let json = format!(
+        r#"{{"kinglet_model": 1, "input_width": 2, "layers": [{}], "output": "softmax"}}"#,
+        vec![layer; 9].join(", ")
+    );
+    Case::new().put("nine.json", json.as_bytes()).fails(
+        &["pack", "nine.json", "--float", "-o", "m.kgl"],
+        &["cannot pack nine.json", "9 dense layers", "at most 8"],
+    );
+}
+
+#[test]
+fn c37_zero_variance_scaler() {
+    Case::new()
+        .with("model_2in.json")
+        .with("scaler_zero_std.json")
+        .fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--float",
+                "--scaler",
+                "scaler_zero_std.json",
+                "-o",
+                "m.kgl",
+            ],
+            &["scaler_zero_std.json", "feature 1 (0-based) has std 0"],
+        );
+}
+
+#[test]
+fn c38_scaler_value_beyond_f32() {
+    Case::new()
+        .with("model_2in.json")
+        .with("scaler_overflow.json")
+        .fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--float",
+                "--scaler",
+                "scaler_overflow.json",
+                "-o",
+                "m.kgl",
+            ],
+            &["scaler_overflow.json", "feature 1", "not a finite f32"],
+        );
+}
+
+#[test]
+fn c39_scaler_width_does_not_match_the_model() {
+    Case::new()
+        .with("model_2in.json")
+        .with("scaler_width3.json")
+        .fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--float",
+                "--scaler",
+                "scaler_width3.json",
+                "-o",
+                "m.kgl",
+            ],
+            &[
+                "--scaler scaler_width3.json",
+                "3 values per list",
+                "takes 2 inputs",
+            ],
+        );
+}
+
+#[test]
+fn c40_second_scaler_for_a_model_that_has_one() {
+    Case::new()
+        .with_repo("examples/vibration/model.onnx", "vib.onnx")
+        .fails(
+            &[
+                "pack",
+                "vib.onnx",
+                "--float",
+                "--divide-by",
+                "255",
+                "-o",
+                "m.kgl",
+            ],
+            &["already has an input scaler"],
+        );
+}
+
+#[test]
+fn c41_label_count_differs_from_classes() {
+    Case::new().with("model_2in.json").fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--float",
+            "--labels",
+            "a,b,c",
+            "-o",
+            "m.kgl",
+        ],
+        &["--labels gives 3 labels for a model with 2 classes"],
+    );
+}
+
+#[test]
+fn c42_zero_divisor() {
+    Case::new().with("model_2in.json").fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--float",
+            "--divide-by",
+            "0",
+            "-o",
+            "m.kgl",
+        ],
+        &["divisor 0 must be a positive finite number"],
+    );
+}
+
+#[test]
+fn c43_percentile_out_of_range() {
+    Case::new().with("model_2in.json").with("rows.csv").fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "--range",
+            "percentile",
+            "--percentile",
+            "30",
+            "-o",
+            "m.kgl",
+        ],
+        &["percentile must be in (50, 100], got 30"],
+    );
+}
+
+#[test]
+fn c44_int8_pack_without_calibration() {
+    Case::new().with("model_2in.json").fails(
+        &["pack", "model_2in.json", "-o", "m.kgl"],
+        &["needs --calibration", "--float"],
+    );
+}
+
+#[test]
+fn c45_output_directory_missing() {
+    Case::new().with("model_2in.json").fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--float",
+            "-o",
+            "no/such/dir/m.kgl",
+        ],
+        &["cannot write to directory no/such/dir"],
+    );
+}
+
+#[test]
+fn c46_output_path_under_a_file() {
+    Case::new().with("model_2in.json").with("rows.csv").fails(
+        &["pack", "model_2in.json", "--float", "-o", "rows.csv/m.kgl"],
+        &["cannot write to directory rows.csv", "Not a directory"],
+    );
+}
+
+#[test]
+fn c47_unknown_model_type() {
+    Case::new().with("rows.csv").fails(
+        &["pack", "rows.csv", "--float", "-o", "m.kgl"],
+        &["rows.csv", "unknown model type", ".onnx", ".json"],
+    );
+}
+
+#[test]
+fn c48_bias_too_large_for_its_weights() {
+    // Regression: this used to panic in the quantiser (i64 overflow).
+    Case::new()
+        .with("plain_bias_overflow.json")
+        .with("rows.csv")
+        .fails(
+            &[
+                "pack",
+                "plain_bias_overflow.json",
+                "--calibration",
+                "rows.csv",
+                "-o",
+                "m.kgl",
+            ],
+            &[
+                "cannot pack plain_bias_overflow.json",
+                "layer 0, output 0",
+                "more than an int32 accumulator holds",
+            ],
+        );
+}
+
+#[test]
+fn c49_failed_pack_keeps_an_existing_output() {
+    // A failing pack over an existing blob leaves the old blob as it was.
+    let c = Case::new().packed("m.kgl").with("nan.csv");
+    let before = c.read("m.kgl");
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "nan.csv",
+            "-o",
+            "m.kgl",
+        ],
+        &["nan.csv"],
+    );
+    assert_eq!(c.read("m.kgl"), before);
+}
