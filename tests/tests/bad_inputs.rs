@@ -796,9 +796,10 @@ fn r30_f32_model_overflows_on_far_out_input() {
 
 #[test]
 fn r31_bias_too_large_for_its_weights() {
-    // Found while writing this catalogue (and by `plain_import`): a bias of 1 next to weights of
-    // 1e-30 is 6e33 accumulator steps. The quantiser's float-to-int cast saturated and the
-    // zero-point fold overflowed i64 (a panic in debug builds, a wrapped, wrong bias in release).
+    // Found by review while writing this catalogue: a bias of 1 next to weights of 1e-30 is
+    // 6e33 accumulator steps. The quantiser's float-to-int cast saturated and the zero-point
+    // fold overflowed i64 (a panic in debug builds; release wrapped and reported a meaningless
+    // overflow bound).
     let m = FloatModel {
         input_len: 2,
         scaler: None,

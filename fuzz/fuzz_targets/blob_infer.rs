@@ -1,0 +1,71 @@
+//! Target 1: arbitrary bytes as a blob, run with arbitrary inputs, arena and score sizes.
+//!
+//! Input layout: `flags, arena_lo, arena_hi, kind, scores, count, vlen_lo, vlen_hi`, then
+//! `vlen` bytes of input values, then the blob. Flag bit 0 reseals the header (total length and
+//! CRC made right, so byte mutations reach the layer table), bit 1 uses the model's own arena
+//! size, bit 2 its own score count. `count` 0 means the model's input width; the value bytes are
+//! repeated to fill the input.
+#![no_main]
+use kinglet_fuzz::{oracle, owned};
+use kinglet_runtime::{Input, Model};
+use libfuzzer_sys::fuzz_target;
+
+fuzz_target!(|data: &[u8]| {
+    if data.len() < 8 {
+        let _ = Model::parse(data);
+        return;
+    }
+    let (head, rest) = data.split_at(8);
+    let flags = head[0];
+    let vlen = usize::from(u16::from_le_bytes([head[6], head[7]])).min(rest.len());
+    let (values, blob) = rest.split_at(vlen);
+    let mut blob = blob.to_vec();
+    if flags & 1 != 0 {
+        let arena = kinglet_runtime::arena_bytes(&blob) as u32;
+        owned::seal(&mut blob, arena);
+    }
+    let Ok(model) = Model::parse(&blob) else {
+        return;
+    };
+    // Everything the header promises agrees with the parsed model.
+    assert_eq!(kinglet_runtime::arena_bytes(&blob), model.arena_bytes());
+    assert_eq!(kinglet_runtime::blob_len(&blob), blob.len());
+    let arena = if flags & 2 != 0 {
+        model.arena_bytes()
+    } else {
+        usize::from(u16::from_le_bytes([head[1], head[2]]))
+    };
+    let scores = if flags & 4 != 0 {
+        model.output_len()
+    } else {
+        usize::from(head[4])
+    };
+    let count = match head[5] {
+        0 => model.input_len(),
+        c => usize::from(c),
+    };
+    let byte = |i: usize| values.get(i % values.len().max(1)).copied().unwrap_or(0);
+    match head[3] % 3 {
+        0 => {
+            let v: Vec<f32> = (0..count)
+                .map(|i| {
+                    f32::from_le_bytes([byte(4 * i), byte(4 * i + 1), byte(4 * i + 2), byte(4 * i + 3)])
+                })
+                .collect();
+            oracle::run_checked(&model, Input::F32(&v), arena, scores);
+        }
+        1 => {
+            let v: Vec<i16> = (0..count)
+                .map(|i| i16::from_le_bytes([byte(2 * i), byte(2 * i + 1)]))
+                .collect();
+            oracle::run_checked(&model, Input::I16(&v), arena, scores);
+        }
+        _ => {
+            let v: Vec<u8> = (0..count).map(byte).collect();
+            oracle::run_checked(&model, Input::U8(&v), arena, scores);
+        }
+    }
+    if flags & 8 != 0 {
+        oracle::run_extremes(&model);
+    }
+});

@@ -1,0 +1,82 @@
+//! Target 2: structure-aware. Starts from a valid model (a real packed blob or a synthetic one),
+//! applies field-by-field mutations (shapes, tensor lengths, scales, zero points, shifts,
+//! multipliers, biases at the accumulator bound, labels, ...), re-encodes with a correct length
+//! and CRC, and checks that the reader's verdict is sound: a table it accepts runs every
+//! extreme and fuzzed input without panicking, with finite scores (probabilities for softmax
+//! and sigmoid), and round-trips through the validating encoder byte for byte.
+#![no_main]
+use arbitrary::Unstructured;
+use kinglet_fuzz::{base, mutate, oracle, owned, BASES};
+use kinglet_runtime::encode::{encode, max_encoded_len};
+use kinglet_runtime::{Input, Model};
+use libfuzzer_sys::fuzz_target;
+
+fuzz_target!(|data: &[u8]| {
+    let mut u = Unstructured::new(data);
+    let Ok(which) = u.choose_index(BASES) else {
+        return;
+    };
+    let mut m = base(which);
+    let Ok(steps) = u.int_in_range(0..=12u8) else {
+        return;
+    };
+    for _ in 0..steps {
+        if mutate::mutate_once(&mut m, &mut u).is_err() {
+            break;
+        }
+    }
+    // Keep each run fast: big tables add nothing the small ones do not reach.
+    let bytes: usize = m.layers.iter().map(|l| l.weights.len()).sum();
+    if bytes > 1 << 16 {
+        return;
+    }
+    if std::env::var_os("KINGLET_FUZZ_DEBUG").is_some() {
+        eprintln!("{m:#?}");
+    }
+    let desc = m.desc();
+    let planned = m.planned_arena();
+    let arena_field = match u.int_in_range(0..=15u8).unwrap_or(0) {
+        0 => planned.wrapping_add(1),
+        1 => planned.saturating_sub(1),
+        _ => planned,
+    };
+    let blob = owned::raw_blob(&desc, arena_field);
+    let verdict = Model::parse(&blob);
+    // The validating encoder agrees with the reader.
+    let mut out = vec![0u8; max_encoded_len(&desc).max(blob.len())];
+    let enc = encode(&desc, &mut out);
+    match (&verdict, &enc) {
+        (Ok(_), Ok(n)) => assert_eq!(&out[..*n], &blob[..], "encoder and raw writer differ"),
+        (Err(kinglet_runtime::FormatError::ArenaMismatch { .. }), Ok(_)) => {}
+        (Err(e), Ok(_)) => panic!("reader rejects ({e:?}) what the encoder writes"),
+        (Ok(_), Err(e)) => panic!("encoder refuses ({e:?}) what the reader accepts"),
+        (Err(_), Err(_)) => {}
+    }
+    let Ok(model) = verdict else {
+        return;
+    };
+    oracle::run_extremes(&model);
+    let n = model.input_len();
+    let kind = u.int_in_range(0..=2u8).unwrap_or(0);
+    let rest = u.take_rest();
+    let byte = |i: usize| rest.get(i % rest.len().max(1)).copied().unwrap_or(0);
+    let (a, s) = (model.arena_bytes(), model.output_len());
+    match kind {
+        0 => {
+            let v: Vec<f32> = (0..n)
+                .map(|i| f32::from_le_bytes([byte(4 * i), byte(4 * i + 1), byte(4 * i + 2), byte(4 * i + 3)]))
+                .collect();
+            oracle::run_checked(&model, Input::F32(&v), a, s);
+        }
+        1 => {
+            let v: Vec<i16> = (0..n)
+                .map(|i| i16::from_le_bytes([byte(2 * i), byte(2 * i + 1)]))
+                .collect();
+            oracle::run_checked(&model, Input::I16(&v), a, s);
+        }
+        _ => {
+            let v: Vec<u8> = (0..n).map(byte).collect();
+            oracle::run_checked(&model, Input::U8(&v), a, s);
+        }
+    }
+});

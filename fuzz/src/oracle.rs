@@ -1,0 +1,101 @@
+//! What must hold after `Model::parse` accepted a blob: inference never panics, refuses bad
+//! calls with the right typed error, and otherwise returns finite scores that are probabilities
+//! when the output is softmax or sigmoid.
+use kinglet_runtime::{Input, Model, OutputKind, RunError};
+
+/// Runs `input` through `model` with an arena of `arena_len` bytes and `scores_len` scores, and
+/// panics (a fuzz finding) when a rule is broken.
+pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores_len: usize) {
+    let mut arena = vec![0u8; arena_len];
+    let mut scores = vec![f32::NAN; scores_len];
+    let n_in = match input {
+        Input::F32(v) => v.len(),
+        Input::I16(v) => v.len(),
+        Input::U8(v) => v.len(),
+    };
+    let nonfinite_at = match input {
+        Input::F32(v) => v.iter().position(|x| !x.is_finite()),
+        _ => None,
+    };
+    let mut stages = 0usize;
+    let r = model.infer_traced(input, &mut arena, &mut scores, &mut |s| {
+        assert_eq!(s.index, stages, "stages come in order");
+        stages += 1;
+    });
+    let out_len = model.output_len();
+    match r {
+        Err(RunError::InputLength { expected, got }) => {
+            assert_eq!(expected as usize, model.input_len());
+            assert_eq!(got as usize, n_in);
+            assert_ne!(n_in, model.input_len());
+        }
+        Err(RunError::ScoresTooSmall { needed, .. }) => {
+            assert_eq!(needed as usize, out_len);
+            assert!(scores_len < out_len);
+        }
+        Err(RunError::ArenaTooSmall { needed, .. }) => {
+            assert_eq!(needed as usize, model.arena_bytes());
+            assert!(arena_len < model.arena_bytes());
+        }
+        Err(RunError::NonFiniteInput { index }) => {
+            assert_eq!(Some(index as usize), nonfinite_at);
+        }
+        Err(RunError::NonFiniteOutput) => {
+            assert_eq!(
+                model.precision(),
+                kinglet_runtime::Precision::F32,
+                "only an f32 model may report a non-finite output"
+            );
+        }
+        Err(e) => panic!("unexpected run error {e:?}"),
+        Ok(p) => {
+            assert_eq!(n_in, model.input_len());
+            assert!(nonfinite_at.is_none(), "non-finite input accepted");
+            assert!(arena_len >= model.arena_bytes(), "short arena accepted");
+            assert_eq!(stages, model.layers().count() + 1, "one trace per tensor");
+            let s = &scores[..out_len];
+            assert!(
+                s.iter().all(|v| v.is_finite()),
+                "non-finite scores {s:?} from an accepted model"
+            );
+            assert!(p.class < model.classes(), "class {} of {}", p.class, model.classes());
+            assert!(p.score.is_finite());
+            match model.desc().output {
+                OutputKind::Softmax => {
+                    assert!(s.iter().all(|v| (0.0..=1.0).contains(v)), "{s:?}");
+                    let sum: f32 = s.iter().sum();
+                    assert!((sum - 1.0).abs() < 1e-3, "softmax sums to {sum}");
+                    assert_eq!(p.score, s[p.class]);
+                    assert!(s.iter().all(|&v| v <= p.score));
+                }
+                OutputKind::Sigmoid => {
+                    assert!((0.0..=1.0).contains(&s[0]), "{s:?}");
+                    assert!((0.5..=1.0).contains(&p.score), "{p:?}");
+                }
+                OutputKind::Logits => {
+                    assert_eq!(p.score, s[p.class]);
+                    assert!(s.iter().all(|&v| v <= p.score));
+                }
+            }
+        }
+    }
+}
+
+/// Runs the extreme inputs every accepted model must survive with a right-sized arena.
+pub fn run_extremes(model: &Model<'_>) {
+    let n = model.input_len();
+    let (arena, scores) = (model.arena_bytes(), model.output_len());
+    for v in [0.0f32, 1.0, -1.0, 1e30, -1e30, f32::MAX, f32::MIN, 1e-40] {
+        run_checked(model, Input::F32(&vec![v; n]), arena, scores);
+    }
+    for v in [i16::MIN, i16::MAX, 0, -1] {
+        run_checked(model, Input::I16(&vec![v; n]), arena, scores);
+    }
+    for v in [0u8, 255] {
+        run_checked(model, Input::U8(&vec![v; n]), arena, scores);
+    }
+    let alt: Vec<i16> = (0..n)
+        .map(|i| if i % 2 == 0 { i16::MIN } else { i16::MAX })
+        .collect();
+    run_checked(model, Input::I16(&alt), arena, scores);
+}
