@@ -1,6 +1,6 @@
 //! Evaluating every row through both models with the runtime's own kernels.
 //!
-//! Each row runs through [`Model::infer_traced`] twice: the f32 blob (the runtime's float path)
+//! Each row runs through [`kinglet_runtime::Model::infer_traced`] twice: the f32 blob (the runtime's float path)
 //! and the int8 blob (the runtime's integer kernels, bit for bit what a board computes). The
 //! trace of each gives the tensors for the per-layer fidelity sums.
 //!
