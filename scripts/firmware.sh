@@ -177,11 +177,14 @@ pub const CORTEX_M4F: Measured = Measured {
 RS
     echo "wrote $measured_rs"
   elif [[ -f "$measured_rs" ]]; then
-    # Same compiler, same numbers; another compiler version may move code size a little.
+    # The budget command must not under-count: a recorded number more than 15% below today's
+    # measurement fails; one above it (the budget is conservative) is only reported.
     check() { # name recorded now
-      local lo=$(( $2 * 85 / 100 )) hi=$(( $2 * 115 / 100 + 16 ))
-      if (( $3 < lo || $3 > hi )); then
-        fail "$1: measured $3, measured.rs records $2 (more than 15% off): run bash scripts/firmware.sh --write-measured"
+      local hi=$(( $2 * 115 / 100 + 16 ))
+      if (( $3 > hi )); then
+        fail "$1: measured $3, measured.rs records only $2: run bash scripts/firmware.sh --write-measured"
+      elif (( $3 * 115 / 100 + 16 < $2 )); then
+        echo "  $1: $3, measured.rs records $2 (conservative; refresh with --write-measured)"
       else
         echo "  $1: $3 (recorded $2)"
       fi

@@ -11,3 +11,5 @@ pub mod quantise;
 pub mod atomic;
 pub mod report;
 pub mod vet;
+pub mod fit;
+pub mod emit_rust;

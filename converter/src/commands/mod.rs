@@ -1,6 +1,8 @@
 //! Subcommands, one module each.
 use clap::{Parser, Subcommand};
 
+mod budget;
+mod emit_rust;
 mod inspect;
 mod pack;
 mod vet;
@@ -22,6 +24,10 @@ enum Command {
     Inspect(inspect::Args),
     /// Compare an int8 blob with its float model on rows: accuracy, agreement, per-layer SQNR.
     Vet(vet::Args),
+    /// Check a blob against a part's flash and RAM (built-in profile or custom sizes).
+    Budget(budget::Args),
+    /// Write a blob as a Rust source file: the bytes as a static array, sizes as constants.
+    EmitRust(emit_rust::Args),
 }
 
 /// What a successful run concluded.
@@ -38,5 +44,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         Command::Pack(a) => pack::run(a),
         Command::Inspect(a) => inspect::run(a),
         Command::Vet(a) => vet::run(a),
+        Command::Budget(a) => budget::run(a),
+        Command::EmitRust(a) => emit_rust::run(a),
     }
 }
