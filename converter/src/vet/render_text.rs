@@ -17,10 +17,17 @@ pub struct TextOptions {
     pub show_rows: usize,
 }
 
+/// A table whose columns after the first are right-aligned, header included.
 fn table(header: Vec<String>) -> Table {
     let mut t = Table::new();
     t.load_preset(UTF8_BORDERS_ONLY);
+    let n = header.len();
     t.set_header(header);
+    for i in 1..n {
+        if let Some(c) = t.column_mut(i) {
+            c.set_cell_alignment(CellAlignment::Right);
+        }
+    }
     t
 }
 
