@@ -1,4 +1,5 @@
 //! Packing: a [`FloatModel`] into an f32 blob, or, with a calibration set, into an int8 blob.
+pub mod layout;
 pub mod owned;
 
 use anyhow::Result;

@@ -110,8 +110,25 @@ fn wire_u32(v: usize, what: &str) -> Result<u32> {
 }
 
 impl OwnedModel {
-    /// Encodes the model into a blob; the encoder applies the reader's validation rules.
+    /// Encodes the model into a blob in the shipped weight layout, `Blocked4x4` (see
+    /// [`super::layout`]); the encoder applies the reader's validation rules.
     pub fn encode(&self) -> Result<Vec<u8>> {
+        self.encode_with(WeightLayout::Blocked4x4)
+    }
+
+    /// Encodes the model with every layer's weights in `target`.
+    pub fn encode_with(&self, target: WeightLayout) -> Result<Vec<u8>> {
+        let data = self
+            .layers
+            .iter()
+            .map(|l| super::layout::reorder(self.precision, l.inputs, l.outputs, &l.weights, target))
+            .collect::<Result<Vec<_>>>()?;
+        let blocked = vec![target == WeightLayout::Blocked4x4; data.len()];
+        super::layout::encode_aligned(&data, &blocked, |fields| self.encode_fields(target, fields))
+    }
+
+    /// Encodes with the given weight fields (already in `target`, alignment bytes included).
+    fn encode_fields(&self, target: WeightLayout, fields: &[Vec<u8>]) -> Result<Vec<u8>> {
         if self.layers.len() > MAX_LAYERS {
             bail!("the model has {} dense layers; the format holds at most {MAX_LAYERS}", self.layers.len());
         }
@@ -124,13 +141,13 @@ impl OwnedModel {
         });
         let labels = self.labels.join("\n");
         let mut layers = heapless::Vec::<LayerDesc<'_>, MAX_LAYERS>::new();
-        for (k, l) in self.layers.iter().enumerate() {
+        for (k, (l, weights)) in self.layers.iter().zip(fields).enumerate() {
             let desc = LayerDesc {
                 inputs: wire_u32(l.inputs, "layer width")?,
                 outputs: wire_u32(l.outputs, "layer width")?,
                 activation: l.activation,
-                layout: WeightLayout::OutputMajor,
-                weights: &l.weights,
+                layout: target,
+                weights,
                 bias: &l.bias,
                 quant: l.quant.as_ref().map(|(q, b)| LayerQuantDesc {
                     weight_scale: &b[0],

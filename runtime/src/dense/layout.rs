@@ -65,10 +65,64 @@ pub fn split(
     weights.split_at_checked(pad)
 }
 
+/// Writes output-major int8 weights `w` (`outputs · inputs`) into `out` (`elements` bytes) in
+/// block order, excess-128, zero padding. Returns `false`, writing nothing, if a length is wrong.
+pub fn block_i8(inputs: usize, outputs: usize, w: &[i8], out: &mut [u8]) -> bool {
+    if w.len() != inputs.saturating_mul(outputs) || out.len() != elements(inputs, outputs) {
+        return false;
+    }
+    out.fill(ZERO_I8);
+    for (k, &v) in w.iter().enumerate() {
+        if let Some(d) = out.get_mut(index(k / inputs, k % inputs, inputs)) {
+            *d = encode_i8(v);
+        }
+    }
+    true
+}
+
+/// Writes output-major f32 weights `w` into `out` (`4 · elements` bytes) in block order,
+/// little-endian, `+0.0` padding. Returns `false`, writing nothing, if a length is wrong.
+pub fn block_f32(inputs: usize, outputs: usize, w: &[f32], out: &mut [u8]) -> bool {
+    if w.len() != inputs.saturating_mul(outputs) || out.len() != 4 * elements(inputs, outputs) {
+        return false;
+    }
+    out.fill(0);
+    for (k, &v) in w.iter().enumerate() {
+        let at = 4 * index(k / inputs, k % inputs, inputs);
+        if let Some(d) = out.get_mut(at..at + 4) {
+            d.copy_from_slice(&v.to_le_bytes());
+        }
+    }
+    true
+}
+
 /// The alignment bytes a writer puts before data that would otherwise start at blob offset
 /// `offset`, so that it starts at a multiple of 4.
 pub const fn pad_for(offset: usize) -> usize {
     (4 - offset % 4) % 4
+}
+
+/// For each layer of a parsed `blob`: the number of alignment bytes its `Blocked4x4` weight
+/// field should have so that the data starts at a blob offset that is a multiple of 4 (`None`
+/// for other layouts). A writer encodes, asks, re-encodes with these pads, and repeats until
+/// nothing changes (earlier pads shift later layers).
+pub fn wanted_pads(
+    model: &crate::Model<'_>,
+    blob: &[u8],
+) -> [Option<usize>; crate::format::MAX_LAYERS] {
+    let mut pads = [None; crate::format::MAX_LAYERS];
+    let elem = model.precision().activation_bytes();
+    for (slot, l) in pads.iter_mut().zip(model.layers()) {
+        let d = l.desc;
+        if d.layout != crate::format::WeightLayout::Blocked4x4 {
+            continue;
+        }
+        let data = elements(d.inputs as usize, d.outputs as usize) * elem;
+        let pad = d.weights.len().saturating_sub(data);
+        let field = (d.weights.as_ptr() as usize).wrapping_sub(blob.as_ptr() as usize);
+        *slot = Some((pad + pad_for(field + pad)) % 4);
+    }
+    pads
 }
 
 #[cfg(test)]
@@ -104,6 +158,23 @@ mod tests {
                 assert!(seen.iter().all(|&s| s));
             }
         }
+    }
+
+    #[test]
+    fn blocking_hand_worked() {
+        // 2 outputs × 3 inputs → one block of 4 rows × 4 inputs.
+        let w = [1i8, 2, 3, -1, -2, -128];
+        let mut out = [0u8; 16];
+        assert!(block_i8(3, 2, &w, &mut out));
+        let z = ZERO_I8;
+        #[rustfmt::skip]
+        let expected = [129, 130, 131, z, 127, 126, 0, z, z, z, z, z, z, z, z, z];
+        assert_eq!(out, expected);
+        assert!(!block_i8(3, 2, &w[..5], &mut out));
+        let mut f = [0xFFu8; 64];
+        assert!(block_f32(3, 2, &[1.0, 2.0, 3.0, 4.0, 5.0, 6.0], &mut f));
+        assert_eq!(f[4 * 4..4 * 5], 4.0f32.to_le_bytes());
+        assert_eq!(f[4 * 3..4 * 4], [0; 4]);
     }
 
     #[test]

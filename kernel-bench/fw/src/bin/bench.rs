@@ -1,0 +1,196 @@
+//! The benchmark firmware: self-check, then every counted case, then stack use, printed over
+//! semihosting as `kb ...` lines that `kb-gen report` pairs with the plugin's counts (in order).
+#![no_std]
+#![no_main]
+
+use core::hint::black_box;
+use cortex_m_rt::entry;
+use cortex_m_semihosting::{debug, hprintln};
+use kinglet_firmware_bench::blobs::{self, Aligned};
+use kinglet_firmware_bench::{marker, naive, rng::Rng, selfcheck, stack};
+use kinglet_runtime::dense::{self, portable, DenseI8};
+use kinglet_runtime::format::{LayerDesc, WeightLayout};
+use kinglet_runtime::requant::activation_range;
+use kinglet_runtime::{Input, Model};
+
+#[panic_handler]
+fn panic(info: &core::panic::PanicInfo<'_>) -> ! {
+    hprintln!("kb panic {}", info);
+    debug::exit(debug::EXIT_FAILURE);
+    loop {}
+}
+
+/// Runs `f` as one counted section named `name` (`macs` multiply-accumulates).
+#[inline(never)]
+fn case(name: &str, variant: &str, macs: usize, f: impl FnOnce()) {
+    hprintln!("kb case {} {} {}", name, variant, macs);
+    marker::start();
+    f();
+    marker::stop();
+}
+
+fn model(blob: &'static [u8]) -> Model<'static> {
+    match Model::parse(blob) {
+        Ok(m) => m,
+        Err(e) => panic!("blob rejected: {}", e),
+    }
+}
+
+fn params<'a>(l: &LayerDesc<'a>) -> DenseI8<'a> {
+    let q = l.quant.expect("int8 layer");
+    let (act_min, act_max) = activation_range(l.activation, q.output_zero_point);
+    DenseI8 {
+        inputs: l.inputs as usize,
+        weights: l.weights,
+        bias: l.bias,
+        multiplier: q.multiplier,
+        shift: q.shift,
+        zero_point: q.output_zero_point,
+        act_min,
+        act_max,
+    }
+}
+
+/// The layer's kernel as the runtime picks it for its layout.
+fn run_i8(l: &LayerDesc<'_>, x: &[u8], out: &mut [u8]) {
+    let p = params(l);
+    match l.layout {
+        WeightLayout::Blocked4x4 => dense::dense_i8_blocked(&p, x, out),
+        _ => dense::dense_i8(&p, x, out),
+    }
+}
+
+fn fill(buf: &mut [u8], rng: &mut Rng) {
+    for b in buf.iter_mut() {
+        *b = rng.next_u32() as u8;
+    }
+}
+
+fn fill_f32(buf: &mut [u8], rng: &mut Rng) {
+    for c in buf.chunks_exact_mut(4) {
+        c.copy_from_slice(&rng.f32().to_le_bytes());
+    }
+}
+
+/// The int8 cases of one synthetic layer: naive, portable output-major, portable blocked, kernel.
+fn int8_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rng) {
+    let (mb, mo) = (model(blocked), model(om));
+    let (lb, lo) = (mb.desc().layers[0], mo.desc().layers[0]);
+    let (n, m) = (lb.inputs as usize, lb.outputs as usize);
+    let mut x = [0u8; 784];
+    let x = &mut x[..n];
+    fill(x, rng);
+    let mut out = [0u8; 100];
+    let mut reference = [0u8; 100];
+    let (pb, po) = (params(&lb), params(&lo));
+    case(name, "naive", n * m, || naive::dense_i8(black_box(&po), black_box(x), &mut reference[..m]));
+    case(name, "portable", n * m, || portable::dense_i8(black_box(&po), black_box(x), &mut out[..m]));
+    assert!(out[..m] == reference[..m], "{} portable differs", name);
+    case(name, "portable-blocked", n * m, || {
+        portable::dense_i8_blocked(black_box(&pb), black_box(x), &mut out[..m])
+    });
+    assert!(out[..m] == reference[..m], "{} portable-blocked differs", name);
+    case(name, "kernel", n * m, || dense::dense_i8_blocked(black_box(&pb), black_box(x), &mut out[..m]));
+    assert!(out[..m] == reference[..m], "{} kernel differs", name);
+    black_box(&out);
+}
+
+/// The f32 cases of one synthetic layer: naive, portable output-major, kernel.
+fn f32_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rng) {
+    let (mb, mo) = (model(blocked), model(om));
+    let (lb, lo) = (mb.desc().layers[0], mo.desc().layers[0]);
+    let (n, m) = (lb.inputs as usize, lb.outputs as usize);
+    let mut x = Aligned([0u8; 4 * 784]);
+    let x = &mut x.0[..4 * n];
+    fill_f32(x, rng);
+    let mut out = [0u8; 400];
+    let mut reference = [0u8; 400];
+    let relu = false;
+    case(name, "naive", n * m, || {
+        naive::dense_f32(n, black_box(lo.weights), lo.bias, relu, black_box(x), &mut reference[..4 * m])
+    });
+    case(name, "portable", n * m, || {
+        portable::dense_f32(n, black_box(lo.weights), lo.bias, relu, black_box(x), &mut out[..4 * m])
+    });
+    assert!(out[..4 * m] == reference[..4 * m], "{} portable differs", name);
+    case(name, "kernel", n * m, || {
+        dense::dense_f32_blocked(n, black_box(lb.weights), lb.bias, relu, black_box(x), &mut out[..4 * m])
+    });
+    assert!(out[..4 * m] == reference[..4 * m], "{} kernel differs", name);
+}
+
+/// Whole inference of a packed model (blocked and its output-major twin), each layer alone,
+/// and the peak stack of one inference.
+fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rng) {
+    let (mb, mo) = (model(blocked), model(om));
+    let n = mb.input_len();
+    let mut features = [0f32; 64];
+    for f in features[..n].iter_mut() {
+        *f = (rng.next_u32() % 17) as f32 * if n == 64 { 1.0 } else { 0.25 };
+    }
+    let input = Input::F32(&features[..n]);
+    let mut arena = Aligned([0u8; 512]);
+    let mut scores = [0f32; 16];
+    let macs: usize = mb.layers().map(|l| l.macs()).sum();
+    let mut pred = None;
+    case(name, "model-portable", macs, || {
+        pred = Some(mo.infer(black_box(input), &mut arena.0, &mut scores));
+    });
+    let want = pred.take();
+    case(name, "model-kernel", macs, || {
+        pred = Some(mb.infer(black_box(input), &mut arena.0, &mut scores));
+    });
+    assert!(pred == want && want.is_some_and(|p| p.is_ok()), "{} predictions differ", name);
+    for (k, l) in mb.desc().layers.iter().enumerate() {
+        let (src, dst) = arena.0.split_at_mut(256);
+        fill(&mut src[..l.inputs as usize], rng);
+        let mut label = [0u8; 24];
+        let text = layer_name(&mut label, name, k);
+        case(text, "layer-kernel", l.macs_hint(), || {
+            run_i8(black_box(l), black_box(&src[..l.inputs as usize]), &mut dst[..l.outputs as usize])
+        });
+    }
+    let bytes = stack::measure(|| {
+        black_box(mb.infer(black_box(input), &mut arena.0, &mut scores)).ok();
+    });
+    hprintln!("kb stack {} {}", name, bytes);
+}
+
+trait Macs {
+    fn macs_hint(&self) -> usize;
+}
+impl Macs for LayerDesc<'_> {
+    fn macs_hint(&self) -> usize {
+        self.inputs as usize * self.outputs as usize
+    }
+}
+
+fn layer_name<'b>(buf: &'b mut [u8; 24], model: &str, k: usize) -> &'b str {
+    let m = model.as_bytes();
+    let len = m.len().min(20);
+    buf[..len].copy_from_slice(&m[..len]);
+    buf[len..len + 3].copy_from_slice(b"-L1");
+    buf[len + 2] = b'1' + k as u8;
+    core::str::from_utf8(&buf[..len + 3]).unwrap_or("layer")
+}
+
+#[entry]
+fn main() -> ! {
+    hprintln!("kb target {}", dense::KERNEL);
+    let cases = option_env!("KB_SELFCHECK_CASES").and_then(|s| s.parse().ok()).unwrap_or(300);
+    let t = selfcheck::run(cases, 0x5EED_1234);
+    hprintln!("kb selfcheck {} {}", t.passed, t.failed);
+    hprintln!("selfcheck: {} passed, {} failed", t.passed, t.failed);
+    let mut rng = Rng::new(42);
+    case("empty", "empty", 0, || {});
+    int8_layer("i8-784x100", blobs::I8_784X100, blobs::I8_784X100_OM, &mut rng);
+    int8_layer("i8-64x32", blobs::I8_64X32, blobs::I8_64X32_OM, &mut rng);
+    #[cfg(kb_big_f32)]
+    f32_layer("f32-784x100", blobs::F32_784X100, blobs::F32_784X100_OM, &mut rng);
+    f32_layer("f32-64x32", blobs::F32_64X32, blobs::F32_64X32_OM, &mut rng);
+    whole_model("digits", blobs::DIGITS, blobs::DIGITS_OM, &mut rng);
+    whole_model("vibration", blobs::VIBRATION, blobs::VIBRATION_OM, &mut rng);
+    hprintln!("kb end");
+    debug::exit(if t.failed == 0 { debug::EXIT_SUCCESS } else { debug::EXIT_FAILURE });
+    loop {}
+}

@@ -1,0 +1,32 @@
+//! The blobs the benchmark runs, 4-byte aligned (so the Cortex-M4 kernels can use `LDM`/`VLDM`).
+//! `*_om` blobs are output-major twins with the same quantised weights: the baseline.
+
+/// Bytes at a 4-byte aligned address.
+#[repr(C, align(4))]
+pub struct Aligned<const N: usize>(pub [u8; N]);
+
+macro_rules! blob {
+    ($name:ident, $file:literal) => {
+        #[doc = concat!("`", $file, "`")]
+        pub static $name: &[u8] = {
+            const B: &[u8] = include_bytes!(concat!(env!("KB_BLOBS"), "/", $file));
+            static A: Aligned<{ B.len() }> = Aligned(*include_bytes!(concat!(env!("KB_BLOBS"), "/", $file)));
+            &A.0
+        };
+    };
+}
+
+blob!(I8_784X100, "i8_784x100.kgl");
+blob!(I8_784X100_OM, "i8_784x100.om.kgl");
+blob!(I8_64X32, "i8_64x32.kgl");
+blob!(I8_64X32_OM, "i8_64x32.om.kgl");
+blob!(F32_64X32, "f32_64x32.kgl");
+blob!(F32_64X32_OM, "f32_64x32.om.kgl");
+#[cfg(kb_big_f32)]
+blob!(F32_784X100, "f32_784x100.kgl");
+#[cfg(kb_big_f32)]
+blob!(F32_784X100_OM, "f32_784x100.om.kgl");
+blob!(DIGITS, "digits.kgl");
+blob!(DIGITS_OM, "digits.om.kgl");
+blob!(VIBRATION, "vibration.kgl");
+blob!(VIBRATION_OM, "vibration.om.kgl");

@@ -1,0 +1,165 @@
+//! On-target self-check: the target's kernels against the portable ones (and the naive
+//! baseline) on many random shapes, weights and inputs, output bytes compared exactly.
+use crate::blobs::Aligned;
+use crate::naive;
+use crate::rng::Rng;
+use kinglet_runtime::dense::{self, layout, portable, DenseI8};
+
+const MAX_IN: usize = 70;
+#[cfg(kb_big_f32)]
+const MAX_OUT: usize = 40;
+#[cfg(not(kb_big_f32))]
+const MAX_OUT: usize = 24;
+const MAX_OM: usize = MAX_IN * MAX_OUT;
+const MAX_BL: usize = layout::MAX_PAD + 72 * MAX_OUT;
+
+/// Pass and fail counts.
+#[derive(Default)]
+pub struct Tally {
+    /// Cases whose every output agreed.
+    pub passed: u32,
+    /// Cases with a disagreement.
+    pub failed: u32,
+}
+
+impl Tally {
+    fn record(&mut self, ok: bool) {
+        if ok {
+            self.passed += 1;
+        } else {
+            self.failed += 1;
+        }
+    }
+}
+
+/// One random int8 case; `true` if every kernel agreed with the portable output-major one.
+fn int8_case(rng: &mut Rng) -> bool {
+    let n = rng.range(1, MAX_IN as i32) as usize;
+    let m = rng.range(1, MAX_OUT as i32) as usize;
+    let (wmode, xmode) = (rng.next_u32() % 8, rng.next_u32() % 8);
+    let mut w = [0i8; MAX_OM];
+    let w = &mut w[..n * m];
+    for v in w.iter_mut() {
+        *v = rng.i8_byte(wmode) as i8;
+    }
+    let mut x = [0u8; MAX_IN];
+    for v in x[..n].iter_mut() {
+        *v = rng.i8_byte(xmode);
+    }
+    let om: &mut [u8] = &mut [0u8; MAX_OM][..n * m];
+    for (d, &s) in om.iter_mut().zip(w.iter()) {
+        *d = s as u8;
+    }
+    let pad = (rng.next_u32() % 4) as usize;
+    let mut field = Aligned([0u8; MAX_BL]);
+    let len = layout::elements(n, m);
+    let field = &mut field.0[..pad + len];
+    if !layout::block_i8(n, m, w, &mut field[pad..]) {
+        return false;
+    }
+    let mut bias = [0u8; 4 * MAX_OUT];
+    let mut mult = [0u8; 4 * MAX_OUT];
+    let mut shift = [0u8; MAX_OUT];
+    let wide = rng.next_u32() % 4 == 0;
+    for o in 0..m {
+        // Any bias the format accepts: |bias| + 128·Σ|w| ≤ 2^31 - 1 (capped at 2^24 mostly).
+        let sum: i64 = w[o * n..(o + 1) * n].iter().map(|&v| i64::from(v).abs()).sum();
+        let cap = if wide { i64::MAX } else { 1 << 24 };
+        let room = (i64::from(i32::MAX) - 128 * sum).min(cap).max(0) as u32;
+        let b = (u64::from(rng.next_u32()) % (2 * u64::from(room) + 1)) as i64 - i64::from(room);
+        bias[4 * o..4 * o + 4].copy_from_slice(&(b as i32).to_le_bytes());
+        let mul = (1u32 << 30) + (rng.next_u32() & 0x3FFF_FFFF);
+        mult[4 * o..4 * o + 4].copy_from_slice(&(mul as i32).to_le_bytes());
+    }
+    for s in shift[..m].iter_mut() {
+        *s = if wide { rng.range(-31, 31) } else { rng.range(-1, 12) } as i8 as u8;
+    }
+    let zp = rng.next_u32() as u8 as i8;
+    let relu = rng.next_u32() % 2 == 0;
+    let base = DenseI8 {
+        inputs: n,
+        weights: om,
+        bias: &bias[..4 * m],
+        multiplier: &mult[..4 * m],
+        shift: &shift[..m],
+        zero_point: zp,
+        act_min: if relu { zp } else { -128 },
+        act_max: 127,
+    };
+    let blocked = DenseI8 { weights: field, ..base };
+    let mut reference = [0u8; MAX_OUT];
+    portable::dense_i8(&base, &x[..n], &mut reference[..m]);
+    let mut ok = true;
+    let mut out = [0u8; MAX_OUT];
+    dense::dense_i8_blocked(&blocked, &x[..n], &mut out[..m]);
+    ok &= out[..m] == reference[..m];
+    let mut out = [0u8; MAX_OUT];
+    portable::dense_i8_blocked(&blocked, &x[..n], &mut out[..m]);
+    ok &= out[..m] == reference[..m];
+    let mut out = [0u8; MAX_OUT];
+    dense::m0::dense_i8_blocked(&blocked, &x[..n], &mut out[..m]);
+    ok &= out[..m] == reference[..m];
+    let mut out = [0u8; MAX_OUT];
+    naive::dense_i8(&base, &x[..n], &mut out[..m]);
+    ok &= out[..m] == reference[..m];
+    ok
+}
+
+/// One random f32 case.
+#[cfg(kb_big_f32)]
+fn f32_case(rng: &mut Rng) -> bool {
+    let n = rng.range(1, MAX_IN as i32) as usize;
+    let m = rng.range(1, MAX_OUT as i32) as usize;
+    let mut w = [0f32; MAX_OM];
+    let w = &mut w[..n * m];
+    for v in w.iter_mut() {
+        *v = rng.f32();
+    }
+    let mut om = [0u8; 4 * MAX_OM];
+    for (d, v) in om.chunks_exact_mut(4).zip(w.iter()) {
+        d.copy_from_slice(&v.to_le_bytes());
+    }
+    let pad = (rng.next_u32() % 4) as usize;
+    let mut field = Aligned([0u8; 4 * MAX_BL]);
+    let field = &mut field.0[..pad + 4 * layout::elements(n, m)];
+    if !layout::block_f32(n, m, w, &mut field[pad..]) {
+        return false;
+    }
+    let xoff = (rng.next_u32() % 2) as usize * 2; // aligned or not
+    let mut x = Aligned([0u8; 4 * MAX_IN + 2]);
+    for c in x.0[xoff..xoff + 4 * n].chunks_exact_mut(4) {
+        c.copy_from_slice(&rng.f32().to_le_bytes());
+    }
+    let x = &x.0[xoff..xoff + 4 * n];
+    let mut bias = [0u8; 4 * MAX_OUT];
+    for c in bias[..4 * m].chunks_exact_mut(4) {
+        c.copy_from_slice(&rng.f32().to_le_bytes());
+    }
+    let relu = rng.next_u32() % 2 == 0;
+    let (b, om) = (&bias[..4 * m], &om[..4 * n * m]);
+    let mut reference = [0u8; 4 * MAX_OUT];
+    portable::dense_f32(n, om, b, relu, x, &mut reference[..4 * m]);
+    let mut ok = true;
+    let mut out = [0u8; 4 * MAX_OUT];
+    dense::dense_f32_blocked(n, field, b, relu, x, &mut out[..4 * m]);
+    ok &= out[..4 * m] == reference[..4 * m];
+    let mut out = [0u8; 4 * MAX_OUT];
+    portable::dense_f32_blocked(n, field, b, relu, x, &mut out[..4 * m]);
+    ok &= out[..4 * m] == reference[..4 * m];
+    let mut out = [0u8; 4 * MAX_OUT];
+    naive::dense_f32(n, om, b, relu, x, &mut out[..4 * m]);
+    ok &= out[..4 * m] == reference[..4 * m];
+    ok
+}
+
+/// Runs `cases` random int8 cases (and as many f32 ones on the FPU target).
+pub fn run(cases: u32, seed: u32) -> Tally {
+    let mut rng = Rng::new(seed);
+    let mut t = Tally::default();
+    for _ in 0..cases {
+        t.record(int8_case(&mut rng));
+        #[cfg(kb_big_f32)]
+        t.record(f32_case(&mut rng));
+    }
+    t
+}
