@@ -155,8 +155,7 @@ impl<'a> Model<'a> {
 
     /// Class labels, in class order (empty if the blob has none).
     pub fn labels(&self) -> impl Iterator<Item = &'a str> {
-        let labels = self.desc.labels;
-        labels.split('\n').filter(move |_| !labels.is_empty())
+        split_labels(self.desc.labels)
     }
 
     /// The label of class `i`, if the blob has labels.
@@ -318,6 +317,27 @@ impl<'a> Model<'a> {
             }
         }
     }
+}
+
+/// The `'\n'`-separated labels of `all` (none when `all` is empty). Splits on bytes rather than
+/// with `str::split`, whose searcher keeps a slice-index panic path in optimised Cortex-M0
+/// builds (`scripts/no-panic-check.sh`); `'\n'` is ASCII, so every cut is a char boundary.
+fn split_labels(all: &str) -> impl Iterator<Item = &str> {
+    let mut rest = (!all.is_empty()).then_some(all);
+    core::iter::from_fn(move || {
+        let s = rest?;
+        match s.bytes().position(|b| b == b'\n') {
+            Some(i) => {
+                let (head, tail) = s.split_at_checked(i)?;
+                rest = tail.get(1..);
+                Some(head)
+            }
+            None => {
+                rest = None;
+                Some(s)
+            }
+        }
+    })
 }
 
 /// Scale and zero point of an int8 tensor; `None` for f32.

@@ -229,7 +229,8 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ArenaPlan, FormatError> {
         } else {
             prev
         };
-        let found = d.labels.split('\n').count();
+        // Byte count rather than `str::split` (see `Model::labels`): one more label than breaks.
+        let found = d.labels.bytes().filter(|&b| b == b'\n').count() + 1;
         if found != classes {
             return Err(FormatError::LabelCount {
                 expected: classes as u32,

@@ -56,3 +56,34 @@ fn output_scale_whose_steps_overflow_f32_is_rejected() {
     );
     assert!(Model::parse(&with_output_scale(f32::MAX / 256.0, 127)).is_ok());
 }
+
+/// Not a fault but a change made for `scripts/no-panic-check.sh`: labels are split on bytes
+/// instead of with `str::split` (whose searcher kept a slice-index panic path on Cortex-M0).
+/// The labels and their count must be exactly what `str::split('\n')` gives.
+#[test]
+fn labels_split_like_str_split() {
+    let layer = Int8Layer::new(2, vec![1; 6], vec![0; 3], 0);
+    let blob = Int8Model::new(2, vec![layer]).blob();
+    let parsed = Model::parse(&blob).unwrap();
+    let base = parsed.desc().clone();
+    let arena = parsed.arena_bytes() as u32;
+    for labels in ["x\n\ny", "α\nβ\nγ", "a\nb\n", "\n\n", "one\ntwo\nthree"] {
+        let mut d = base.clone();
+        d.labels = labels;
+        let blob = common::raw_blob(&d, arena);
+        let m = Model::parse(&blob).unwrap_or_else(|e| panic!("{labels:?}: {e}"));
+        let want: Vec<&str> = labels.split('\n').collect();
+        assert_eq!(m.labels().collect::<Vec<_>>(), want);
+        assert_eq!(m.label(2), Some(want[2]));
+        assert_eq!(m.label(3), None);
+    }
+    for labels in ["a\nb", "a\nb\nc\nd", "a"] {
+        let mut d = base.clone();
+        d.labels = labels;
+        let found = labels.split('\n').count() as u32;
+        assert_eq!(
+            Model::parse(&common::raw_blob(&d, arena)).map(|_| ()),
+            Err(FormatError::LabelCount { expected: 3, found })
+        );
+    }
+}
