@@ -26,7 +26,7 @@ enum Range {
 pub struct Args {
     /// The trained model: `.onnx`, or a `.json` plain model description.
     model: PathBuf,
-    /// Where to write the blob [default: <model name>.int8.kgl or .f32.kgl, in the current directory].
+    /// Where to write the blob [default: the model name + `.int8.kgl` or `.f32.kgl`, in the current directory].
     #[arg(short, long)]
     out: Option<PathBuf>,
     /// Keep f32 weights (for boards with an FPU, and as the float reference); no calibration.
