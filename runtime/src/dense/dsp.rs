@@ -127,7 +127,9 @@ pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     let block_len = layout::padded(n) * BLOCK_ROWS;
     for (block, out) in data
         .chunks_exact(block_len.max(1))
-        .zip(output.chunks_mut(BLOCK_ROWS))
+        // `&mut`: zipping the plain `ChunksMut` takes core's random-access `Zip::new`, which is
+        // not inlined here and keeps a division-by-zero panic path (scripts/no-panic-check.sh).
+        .zip(&mut output.chunks_mut(BLOCK_ROWS))
     {
         let groups = block.as_chunks::<GROUP_ELEMS>().0;
         let mut acc = [0i32; BLOCK_ROWS];
@@ -248,7 +250,7 @@ pub fn dense_f32_blocked(
     let mut biases = crate::le::f32s(bias);
     for (block, out) in data
         .chunks_exact(block_len.max(1))
-        .zip(outs.chunks_mut(BLOCK_ROWS))
+        .zip(&mut outs.chunks_mut(BLOCK_ROWS)) // `&mut`: see `dense_i8_blocked`
     {
         let groups = block.as_chunks::<{ GROUP_ELEMS * 4 }>().0;
         let mut acc = [0.0f32; BLOCK_ROWS];

@@ -1,0 +1,30 @@
+#!/usr/bin/env bash
+# The runtime's test suite under Miri (undefined behaviour, out-of-bounds and uninitialised
+# reads, integer overflow in debug). Installs the nightly `miri` component if it is missing;
+# skips with a clear message (exit 0) when no nightly toolchain can be had, unless
+# KINGLET_REQUIRE_MIRI=1, when that is an error.
+#
+# Under Miri the proptest suites run fewer cases (PROPTEST_CASES, default 16 here) and the
+# exhaustive byte-flip/truncation sweeps are sampled (see `cfg(miri)` in the tests); everything
+# else runs as in `cargo test`.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+skip() {
+    echo "miri: SKIPPED: $*"
+    if [ "${KINGLET_REQUIRE_MIRI:-0}" = 1 ]; then exit 1; fi
+    exit 0
+}
+command -v rustup >/dev/null || skip "rustup not found"
+rustup toolchain list | grep -q '^nightly' || rustup toolchain install nightly --profile minimal \
+    || skip "no nightly toolchain (rustup toolchain install nightly failed)"
+if ! cargo +nightly miri --version >/dev/null 2>&1; then
+    rustup +nightly component add miri rust-src \
+        || skip "the nightly miri component could not be installed"
+fi
+export CARGO_TARGET_DIR="${CARGO_TARGET_DIR:-target}/miri"
+export PROPTEST_CASES="${PROPTEST_CASES:-16}"
+# Proptest's failure persistence writes files, which Miri's isolation forbids; it also needs
+# the clock for its time-outs.
+export MIRIFLAGS="${MIRIFLAGS:--Zmiri-disable-isolation}"
+cargo +nightly miri setup
+cargo +nightly miri test -p kinglet-runtime "$@"
