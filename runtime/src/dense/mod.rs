@@ -19,6 +19,7 @@
 //! [`dsp`] need the weight data 4-byte aligned; the packer aligns it within the blob, so a blob
 //! placed at a 4-byte aligned address gets them, and any other falls back to a slower kernel
 //! with the same results.
+pub mod fixed;
 pub mod layout;
 pub mod portable;
 

@@ -74,7 +74,7 @@ pub(crate) fn finish_block(
 ) {
     for (o, (a, (bias, mult, shift))) in out.iter_mut().zip(acc.into_iter().zip(params)) {
         let acc = bias.wrapping_add(a).wrapping_sub(correction);
-        *o = requantize(acc, mult, shift, p.zero_point, p.act_min, p.act_max) as u8;
+        *o = super::fixed::requantize(acc, mult, shift, p.zero_point, p.act_min, p.act_max) as u8;
     }
 }
 

@@ -1,0 +1,187 @@
+//! Property tests: every kernel and layout gives the bytes of the portable output-major kernel.
+//!
+//! On the host this runs the portable blocked kernels, the Cortex-M0 kernel's Rust, the
+//! kernel [`dense_i8_blocked`] dispatches to, and the kernels' requantisation; the `asm!`
+//! kernels themselves run in the on-target self-check of `kernel-bench/`.
+use kinglet_runtime::dense::{self, fixed, layout, m0, portable, DenseI8};
+use kinglet_runtime::requant::requantize;
+use proptest::prelude::*;
+
+/// Weights or inputs: random, or all -128, or all 127.
+fn int8s(len: usize) -> impl Strategy<Value = Vec<i8>> {
+    prop_oneof![
+        6 => proptest::collection::vec(any::<i8>(), len),
+        1 => Just(vec![i8::MIN; len]),
+        1 => Just(vec![i8::MAX; len]),
+    ]
+}
+
+#[derive(Debug, Clone)]
+struct Int8Case {
+    n: usize,
+    m: usize,
+    w: Vec<i8>,
+    x: Vec<i8>,
+    bias_seed: Vec<i64>,
+    mult: Vec<i32>,
+    shift: Vec<i8>,
+    zp: i8,
+    relu: bool,
+    pad: usize,
+}
+
+fn int8_case() -> impl Strategy<Value = Int8Case> {
+    (1usize..=70, 1usize..=40)
+        .prop_flat_map(|(n, m)| {
+            (
+                Just((n, m)),
+                int8s(n * m),
+                int8s(n),
+                proptest::collection::vec(any::<i64>(), m),
+                proptest::collection::vec((1i32 << 30)..=i32::MAX, m),
+                proptest::collection::vec(prop_oneof![3 => -1i8..=12, 1 => -31i8..=31], m),
+                (any::<i8>(), any::<bool>(), 0usize..=3),
+            )
+        })
+        .prop_map(
+            |((n, m), w, x, bias_seed, mult, shift, (zp, relu, pad))| Int8Case {
+                n,
+                m,
+                w,
+                x,
+                bias_seed,
+                mult,
+                shift,
+                zp,
+                relu,
+                pad,
+            },
+        )
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(400))]
+
+    #[test]
+    fn int8_kernels_agree_with_the_portable_output_major_one(c in int8_case()) {
+        let (n, m) = (c.n, c.m);
+        // Any bias the format accepts: |bias| + 128·Σ|w| ≤ 2^31 - 1.
+        let bias: Vec<u8> = (0..m)
+            .flat_map(|o| {
+                let s: i64 = c.w[o * n..(o + 1) * n].iter().map(|&v| i64::from(v).abs()).sum();
+                let room = i64::from(i32::MAX) - 128 * s;
+                ((c.bias_seed[o].rem_euclid(2 * room + 1) - room) as i32).to_le_bytes()
+            })
+            .collect();
+        let mult: Vec<u8> = c.mult.iter().flat_map(|v| v.to_le_bytes()).collect();
+        let shift: Vec<u8> = c.shift.iter().map(|&s| s as u8).collect();
+        let om: Vec<u8> = c.w.iter().map(|&v| v as u8).collect();
+        let x: Vec<u8> = c.x.iter().map(|&v| v as u8).collect();
+        let mut field = vec![0u8; c.pad + layout::elements(n, m)];
+        prop_assert!(layout::block_i8(n, m, &c.w, &mut field[c.pad..]));
+        let base = DenseI8 {
+            inputs: n,
+            weights: &om,
+            bias: &bias,
+            multiplier: &mult,
+            shift: &shift,
+            zero_point: c.zp,
+            act_min: if c.relu { c.zp } else { -128 },
+            act_max: 127,
+        };
+        let blocked = DenseI8 { weights: &field, ..base };
+        let mut want = vec![0u8; m];
+        portable::dense_i8(&base, &x, &mut want);
+        for (name, kernel) in [
+            ("portable blocked", portable::dense_i8_blocked as fn(&DenseI8<'_>, &[u8], &mut [u8])),
+            ("m0", m0::dense_i8_blocked),
+            ("dispatched", dense::dense_i8_blocked),
+        ] {
+            let mut got = vec![0x55u8; m];
+            kernel(&blocked, &x, &mut got);
+            prop_assert_eq!(&got, &want, "{} kernel, {}x{}", name, m, n);
+        }
+    }
+
+    #[test]
+    fn f32_kernels_agree_bit_for_bit(
+        (n, m, w, x, b, relu, pad) in (1usize..=70, 1usize..=40).prop_flat_map(|(n, m)| (
+            Just(n), Just(m),
+            proptest::collection::vec(-2.0f32..2.0, n * m),
+            proptest::collection::vec(-4.0f32..4.0, n),
+            proptest::collection::vec(-1.0f32..1.0, m),
+            any::<bool>(), 0usize..=3,
+        ))
+    ) {
+        let bytes = |v: &[f32]| -> Vec<u8> { v.iter().flat_map(|f| f.to_le_bytes()).collect() };
+        let (om, xb, bb) = (bytes(&w), bytes(&x), bytes(&b));
+        let mut field = vec![0u8; pad + 4 * layout::elements(n, m)];
+        prop_assert!(layout::block_f32(n, m, &w, &mut field[pad..]));
+        let mut want = vec![0u8; 4 * m];
+        portable::dense_f32(n, &om, &bb, relu, &xb, &mut want);
+        let mut got = vec![0u8; 4 * m];
+        portable::dense_f32_blocked(n, &field, &bb, relu, &xb, &mut got);
+        prop_assert_eq!(&got, &want);
+        let mut got = vec![0u8; 4 * m];
+        dense::dense_f32_blocked(n, &field, &bb, relu, &xb, &mut got);
+        prop_assert_eq!(&got, &want);
+    }
+
+    #[test]
+    fn kernel_requantisation_equals_the_reference(
+        acc in prop_oneof![any::<i32>(), Just(i32::MIN), Just(i32::MAX), -1000i32..1000],
+        mult in prop_oneof![(1i32 << 30)..=i32::MAX, Just(1 << 30), Just(i32::MAX)],
+        shift in -31i8..=31,
+        zp in any::<i8>(),
+        bounds in (any::<i8>(), any::<i8>()),
+    ) {
+        let (lo, hi) = (bounds.0.min(bounds.1), bounds.0.max(bounds.1));
+        prop_assert_eq!(
+            fixed::requantize(acc, mult, shift, zp, lo, hi),
+            requantize(acc, mult, shift, zp, lo, hi)
+        );
+    }
+}
+
+#[test]
+fn one_by_one_and_exact_ties() {
+    // 1×1: w = 3, x = 5, bias 1 → acc 16; M = 2^30·2^-31·2^-3 = 1/16 → 1.
+    let p = DenseI8 {
+        inputs: 1,
+        weights: &[3],
+        bias: &1i32.to_le_bytes(),
+        multiplier: &(1i32 << 30).to_le_bytes(),
+        shift: &[3],
+        zero_point: 0,
+        act_min: -128,
+        act_max: 127,
+    };
+    let mut field = vec![0u8; 16];
+    assert!(layout::block_i8(1, 1, &[3], &mut field));
+    let blocked = DenseI8 {
+        weights: &field,
+        ..p
+    };
+    let mut out = [0u8; 1];
+    portable::dense_i8(&p, &[5], &mut out);
+    assert_eq!(out[0] as i8, 1);
+    for kernel in [
+        portable::dense_i8_blocked,
+        m0::dense_i8_blocked,
+        dense::dense_i8_blocked,
+    ] {
+        let mut out = [0u8; 1];
+        kernel(&blocked, &[5], &mut out);
+        assert_eq!(out[0] as i8, 1);
+    }
+    // Ties of both roundings, against the reference (gemmlowp semantics, requant.rs).
+    for acc in [-6, -5, -3, -2, -1, 1, 2, 3, 5, 6] {
+        for shift in [-2i8, 0, 1, 2] {
+            assert_eq!(
+                fixed::requantize(acc, 1 << 30, shift, 0, -128, 127),
+                requantize(acc, 1 << 30, shift, 0, -128, 127),
+                "acc {acc}, shift {shift}"
+            );
+        }
+    }
+}
