@@ -3,7 +3,7 @@
 //! blob that [`crate::Model::parse`] would reject.
 use crate::error::FormatError;
 use crate::format::ModelDesc;
-use crate::header::{Header, CHECKED_FROM, CHECKSUM, FORMAT_VERSION, HEADER_LEN};
+use crate::header::{version_for, Header, CHECKED_FROM, CHECKSUM, HEADER_LEN};
 use crate::validate;
 
 /// Why a blob could not be written.
@@ -57,7 +57,7 @@ pub fn encode(desc: &ModelDesc<'_>, out: &mut [u8]) -> Result<usize, EncodeError
         .len();
     let total = HEADER_LEN + body_len;
     let mut header = Header {
-        version: FORMAT_VERSION,
+        version: version_for(desc),
         flags: 0,
         total_len: u32::try_from(total).map_err(|_| EncodeError::BufferTooSmall)?,
         crc: 0,

@@ -178,7 +178,8 @@ impl fmt::Display for FormatError {
             BadMagic => f.write_str("not a Kinglet model: wrong magic bytes"),
             UnsupportedVersion { found } => write!(
                 f,
-                "model format version {found} is not supported (this reader accepts version {})",
+                "model format version {found} is not supported (this reader accepts versions {} to {})",
+                crate::header::OLDEST_VERSION,
                 crate::header::FORMAT_VERSION
             ),
             ReservedFlags => f.write_str("reserved header flags are set"),

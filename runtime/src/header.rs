@@ -4,8 +4,26 @@ use crate::error::FormatError;
 /// Magic bytes at offset 0.
 pub const MAGIC: [u8; 4] = *b"KGLT";
 
-/// The format version this reader writes and accepts.
-pub const FORMAT_VERSION: u16 = 1;
+/// The newest format version this reader accepts (and writes when a blob needs it).
+pub const FORMAT_VERSION: u16 = 2;
+
+/// The oldest format version this reader accepts. Version 1 is version 2 without the
+/// `Blocked4x4` weight layout; writers emit the lowest version that holds the blob.
+pub const OLDEST_VERSION: u16 = 1;
+
+/// The version a writer puts on a blob with this layer table: 2 if any layer uses the
+/// `Blocked4x4` layout, else 1 (so readers of version 1 still read it).
+pub fn version_for(desc: &crate::format::ModelDesc<'_>) -> u16 {
+    let blocked = desc
+        .layers
+        .iter()
+        .any(|l| l.layout == crate::format::WeightLayout::Blocked4x4);
+    if blocked {
+        2
+    } else {
+        OLDEST_VERSION
+    }
+}
 
 /// Length of the fixed header in bytes.
 pub const HEADER_LEN: usize = 20;
@@ -110,7 +128,7 @@ impl Header {
             crc: u32_at(blob, 12),
             arena_bytes: u32_at(blob, 16),
         };
-        if h.version != FORMAT_VERSION {
+        if !(OLDEST_VERSION..=FORMAT_VERSION).contains(&h.version) {
             return Err(FormatError::UnsupportedVersion { found: h.version });
         }
         if h.flags != 0 {
@@ -213,11 +231,17 @@ mod tests {
             Header::read(b"PK\x03\x04 zip file"),
             Err(FormatError::BadMagic)
         );
-        let mut v2 = good;
-        v2[4] = 2;
+        let mut v3 = good;
+        v3[4] = 3;
         assert_eq!(
-            Header::read(&v2),
-            Err(FormatError::UnsupportedVersion { found: 2 })
+            Header::read(&v3),
+            Err(FormatError::UnsupportedVersion { found: 3 })
+        );
+        let mut v0 = good;
+        v0[4] = 0;
+        assert_eq!(
+            Header::read(&v0),
+            Err(FormatError::UnsupportedVersion { found: 0 })
         );
         let mut flags = good;
         flags[6] = 1;

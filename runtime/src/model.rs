@@ -90,6 +90,11 @@ impl<'a> Model<'a> {
         if !rest.is_empty() {
             return Err(FormatError::TrailingBytes);
         }
+        if header.version < crate::header::version_for(&desc) {
+            return Err(FormatError::UnsupportedVersion {
+                found: header.version,
+            });
+        }
         let plan = validate::check(&desc)?;
         let computed = u32::try_from(plan.total()).unwrap_or(u32::MAX);
         if computed != header.arena_bytes {

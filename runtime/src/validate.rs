@@ -460,6 +460,84 @@ mod tests {
         );
     }
 
+    /// `tiny_int8` with layer 0 in Blocked4x4 (field = `pad` zero bytes + data), as a blob of
+    /// `version`; `poke` edits the field first.
+    fn blocked_blob(pad: usize, version: u16, poke: impl Fn(&mut Vec<u8>)) -> Vec<u8> {
+        use crate::dense::layout;
+        let m = tiny_int8();
+        let w: Vec<i8> = m.layers[0].weights.iter().map(|&b| b as i8).collect();
+        let mut field = vec![0u8; pad + layout::elements(3, 4)];
+        assert!(layout::block_i8(3, 4, &w, &mut field[pad..]));
+        poke(&mut field);
+        let mut d = m.desc();
+        d.layers[0].layout = crate::format::WeightLayout::Blocked4x4;
+        d.layers[0].weights = &field;
+        let mut blob = raw_blob(&d, 7);
+        blob[4..6].copy_from_slice(&version.to_le_bytes());
+        let crc = crate::CHECKSUM.checksum(&blob[16..]);
+        blob[12..16].copy_from_slice(&crc.to_le_bytes());
+        blob
+    }
+
+    #[test]
+    fn blocked_layout_is_checked() {
+        for pad in 0..=3 {
+            let blob = blocked_blob(pad, 2, |_| {});
+            let m = Model::parse(&blob).expect("valid blocked blob");
+            // Same forward pass as the output-major original (FORMAT.md §6).
+            let mut arena = [0u8; 7];
+            let mut scores = [0f32; 2];
+            let mut stages = Vec::new();
+            m.infer_traced(
+                crate::Input::F32(&[1.0, 2.0, 3.0]),
+                &mut arena,
+                &mut scores,
+                &mut |s| {
+                    stages.push(
+                        (0..s.values.len())
+                            .filter_map(|i| s.values.int8(i))
+                            .collect::<Vec<_>>(),
+                    )
+                },
+            )
+            .unwrap();
+            assert_eq!(stages[1], vec![3, -5, -5, 100]);
+        }
+        let err = |b: Vec<u8>| Model::parse(&b).map(|_| ());
+        let nz = Err(E::NonZeroPadding { layer: Some(0) });
+        assert_eq!(err(blocked_blob(2, 2, |f| f[1] = 1)), nz, "alignment byte");
+        assert_eq!(
+            err(blocked_blob(0, 2, |f| f[3] = 0x81)),
+            nz,
+            "padding input"
+        );
+        assert_eq!(
+            err(blocked_blob(0, 2, |f| f[7] = 0)),
+            nz,
+            "padding input of row 1"
+        );
+        let len = Err(E::TensorLength {
+            layer: Some(0),
+            tensor: T::Weights,
+        });
+        assert_eq!(
+            err(blocked_blob(3, 2, |f| f.push(0))),
+            len,
+            "four alignment bytes"
+        );
+        assert_eq!(
+            err(blocked_blob(0, 2, |f| {
+                f.pop();
+            })),
+            len
+        );
+        assert_eq!(
+            err(blocked_blob(0, 1, |_| {})),
+            Err(E::UnsupportedVersion { found: 1 }),
+            "Blocked4x4 needs version 2"
+        );
+    }
+
     #[test]
     fn rejects_scaler_output_and_label_faults() {
         assert_eq!(

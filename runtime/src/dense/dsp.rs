@@ -250,7 +250,8 @@ pub fn dense_f32_blocked(
     let mut biases = crate::le::f32s(bias);
     for (block, out) in data
         .chunks_exact(block_len.max(1))
-        .zip(&mut outs.chunks_mut(BLOCK_ROWS)) // `&mut`: see `dense_i8_blocked`
+        .zip(&mut outs.chunks_mut(BLOCK_ROWS))
+    // `&mut`: see `dense_i8_blocked`
     {
         let groups = block.as_chunks::<{ GROUP_ELEMS * 4 }>().0;
         let mut acc = [0.0f32; BLOCK_ROWS];
