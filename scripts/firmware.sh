@@ -30,7 +30,7 @@ work="$(mktemp -d)"
 trap 'rm -rf "$work"' EXIT
 failures=0
 fail() { echo "FAIL: $*"; failures=$((failures + 1)); }
-step() { printf '\n---- firmware: %s ----\n' "$*"; }
+step() { printf '\n---- firmware: %s (at %d s) ----\n' "$*" "$SECONDS"; }
 fwcargo() { (cd "$fw" && CARGO_TARGET_DIR="$fw_target" cargo "$@"); }
 
 step "prerequisites"
@@ -225,14 +225,14 @@ step "lint"
 fwcargo fmt --check -p kinglet-firmware-example -p kinglet-vibration-features -p kinglet-fw-sensor \
   -p kinglet-fw-vectors -p kinglet-fw-make-assets || fail "cargo fmt in firmware-example"
 fwcargo clippy -q --target "$host" -p kinglet-vibration-features -p kinglet-fw-sensor -p kinglet-fw-vectors -p kinglet-fw-make-assets --all-targets -- -D warnings || fail "clippy (host crates)"
-for t in "${targets[@]}"; do
-  fwcargo clippy -q --release --target "$t" -p kinglet-firmware-example -- -D warnings 2>&1 | grep -v 'model flash' || true
-  fwcargo clippy -q --release --target "$t" -p kinglet-firmware-example -- -D warnings >/dev/null 2>&1 || fail "clippy ($t)"
-done
+# The firmware's own code is the same on both targets; lint it once, on the M0.
+if ! fwcargo clippy -q --release --target thumbv6m-none-eabi -p kinglet-firmware-example --bins -- -D warnings 2>"$work/clippy.log"; then
+  grep -v 'model flash' "$work/clippy.log"; fail "clippy (firmware)"
+fi
 
 echo
 if (( failures )); then
   echo "firmware: $failures check(s) failed"
   exit 1
 fi
-echo "firmware: all checks passed"
+echo "firmware: all checks passed in $SECONDS s"

@@ -23,5 +23,5 @@ fi
 "$KINGLET" pack "$root/examples/vibration/model.onnx" \
   --calibration "$root/examples/vibration/calibration.csv" -o "$out/vibration.kgl"
 
-(cd "$root/firmware-example" && cargo run --quiet --release --target "$host" \
+(cd "$root/firmware-example" && cargo run --quiet --target "$host" \
   -p kinglet-fw-make-assets -- "$root" "$out")
