@@ -13,19 +13,19 @@ use super::Measured;
 /// Cortex-M0 / M0+ (`thumbv6m-none-eabi`, no FPU: float is software).
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
-    runtime_text: 15140,
-    runtime_rodata: 1640,
+    runtime_text: 14528,
+    runtime_rodata: 1383,
     stack_parse: 2972,
-    stack_infer: 644,
+    stack_infer: 756,
     model_struct: 560,
 };
 
 /// Cortex-M4F / M7 class (`thumbv7em-none-eabihf`, single-precision FPU).
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
-    runtime_text: 13164,
-    runtime_rodata: 1780,
-    stack_parse: 2860,
-    stack_infer: 428,
+    runtime_text: 12216,
+    runtime_rodata: 1383,
+    stack_parse: 2868,
+    stack_infer: 576,
     model_struct: 560,
 };
