@@ -51,6 +51,8 @@ pub struct BlobReport {
     pub flash_bytes: usize,
     /// RAM bytes: the arena.
     pub arena_bytes: usize,
+    /// Estimated instructions per inference on each target (from measured rates; an estimate).
+    pub cycle_estimate: Vec<super::cycles::CycleEstimate>,
 }
 
 impl BlobReport {
@@ -100,6 +102,14 @@ impl BlobReport {
             parameters: layers.iter().map(|l| l.parameters).sum(),
             macs: layers.iter().map(|l| l.macs).sum(),
             layers,
+            cycle_estimate: super::cycles::estimate(
+                match d.precision {
+                    Precision::Int8 => &super::cycles::INT8,
+                    Precision::F32 => &super::cycles::F32,
+                },
+                model.input_len(),
+                &model.layers().map(|l| (l.desc.inputs as usize, l.desc.outputs as usize)).collect::<Vec<_>>(),
+            ),
             flash_bytes: model.blob_bytes(),
             arena_bytes: model.arena_bytes(),
         }

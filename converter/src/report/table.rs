@@ -7,6 +7,12 @@ fn quant(q: Option<(f32, i8)>) -> String {
     q.map_or_else(|| "-".into(), |(s, z)| format!("{s:.3e} @ {z}"))
 }
 
+/// The cycle estimate line: instruction counts from measured rates, an estimate.
+fn cycles(r: &BlobReport) -> String {
+    let parts: Vec<String> = r.cycle_estimate.iter().map(|c| format!("{}: ~{}", c.target, c.instructions)).collect();
+    format!("{} (estimate from instruction counts under QEMU; see BENCHMARKS.md)", parts.join(", "))
+}
+
 /// Renders the report as text.
 pub fn render(r: &BlobReport) -> String {
     let mut t = Table::new();
@@ -33,6 +39,7 @@ pub fn render(r: &BlobReport) -> String {
         ("MACs/inference", r.macs.to_string()),
         ("flash (blob)", format!("{} bytes", r.flash_bytes)),
         ("RAM (arena)", format!("{} bytes", r.arena_bytes)),
+        ("cycles (est.)", cycles(r)),
     ];
     let mut out = t.to_string();
     out.push('\n');

