@@ -6,7 +6,11 @@ fn main() {
     let dir = PathBuf::from(std::env::var("CARGO_MANIFEST_DIR").unwrap_or_default());
     let out = PathBuf::from(std::env::var("OUT_DIR").unwrap_or_default());
     let target = std::env::var("TARGET").unwrap_or_default();
-    let memory = if target.starts_with("thumbv6m") { "microbit.x" } else { "mps2-an386.x" };
+    let memory = if target.starts_with("thumbv6m") {
+        "microbit.x"
+    } else {
+        "mps2-an386.x"
+    };
     let src = dir.join("../memory").join(memory);
     std::fs::copy(&src, out.join("memory.x"))
         .unwrap_or_else(|e| panic!("copying {}: {e}", src.display()));

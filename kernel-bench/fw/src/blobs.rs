@@ -10,7 +10,8 @@ macro_rules! blob {
         #[doc = concat!("`", $file, "`")]
         pub static $name: &[u8] = {
             const B: &[u8] = include_bytes!(concat!(env!("KB_BLOBS"), "/", $file));
-            static A: Aligned<{ B.len() }> = Aligned(*include_bytes!(concat!(env!("KB_BLOBS"), "/", $file)));
+            static A: Aligned<{ B.len() }> =
+                Aligned(*include_bytes!(concat!(env!("KB_BLOBS"), "/", $file)));
             &A.0
         };
     };

@@ -63,7 +63,10 @@ fn int8_case(rng: &mut Rng) -> bool {
     let wide = rng.next_u32() % 4 == 0;
     for o in 0..m {
         // Any bias the format accepts: |bias| + 128·Σ|w| ≤ 2^31 - 1 (capped at 2^24 mostly).
-        let sum: i64 = w[o * n..(o + 1) * n].iter().map(|&v| i64::from(v).abs()).sum();
+        let sum: i64 = w[o * n..(o + 1) * n]
+            .iter()
+            .map(|&v| i64::from(v).abs())
+            .sum();
         let cap = if wide { i64::MAX } else { 1 << 24 };
         let room = (i64::from(i32::MAX) - 128 * sum).min(cap).max(0) as u32;
         let b = (u64::from(rng.next_u32()) % (2 * u64::from(room) + 1)) as i64 - i64::from(room);
@@ -72,7 +75,11 @@ fn int8_case(rng: &mut Rng) -> bool {
         mult[4 * o..4 * o + 4].copy_from_slice(&(mul as i32).to_le_bytes());
     }
     for s in shift[..m].iter_mut() {
-        *s = if wide { rng.range(-31, 31) } else { rng.range(-1, 12) } as i8 as u8;
+        *s = if wide {
+            rng.range(-31, 31)
+        } else {
+            rng.range(-1, 12)
+        } as i8 as u8;
     }
     let zp = rng.next_u32() as u8 as i8;
     let relu = rng.next_u32() % 2 == 0;
@@ -86,7 +93,10 @@ fn int8_case(rng: &mut Rng) -> bool {
         act_min: if relu { zp } else { -128 },
         act_max: 127,
     };
-    let blocked = DenseI8 { weights: field, ..base };
+    let blocked = DenseI8 {
+        weights: field,
+        ..base
+    };
     let mut reference = [0u8; MAX_OUT];
     portable::dense_i8(&base, &x[..n], &mut reference[..m]);
     let mut ok = true;

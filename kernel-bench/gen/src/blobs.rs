@@ -1,7 +1,8 @@
 //! Synthetic blobs and output-major twins, written with the runtime's own encoder.
 use kinglet_runtime::dense::layout;
 use kinglet_runtime::format::{
-    Activation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind, Precision, WeightLayout,
+    Activation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind, Precision,
+    WeightLayout,
 };
 use kinglet_runtime::Model;
 
@@ -36,12 +37,19 @@ fn encode_aligned(
 ) -> Result<Vec<u8>, String> {
     let mut pads = vec![0usize; data.len()];
     for _ in 0..16 {
-        let fields: Vec<Vec<u8>> =
-            data.iter().zip(&pads).map(|(d, &p)| [vec![0u8; p], d.clone()].concat()).collect();
+        let fields: Vec<Vec<u8>> = data
+            .iter()
+            .zip(&pads)
+            .map(|(d, &p)| [vec![0u8; p], d.clone()].concat())
+            .collect();
         let blob = build(&fields)?;
         let wanted: Vec<usize> = {
             let model = Model::parse(&blob).map_err(|e| e.to_string())?;
-            layout::wanted_pads(&model, &blob).iter().take(data.len()).map(|p| p.unwrap_or(0)).collect()
+            layout::wanted_pads(&model, &blob)
+                .iter()
+                .take(data.len())
+                .map(|p| p.unwrap_or(0))
+                .collect()
         };
         if wanted == pads {
             return Ok(blob);
@@ -60,7 +68,9 @@ fn f32s(v: impl IntoIterator<Item = f32>) -> Vec<u8> {
 
 /// One int8 layer `n → m`: blocked blob and output-major twin.
 fn int8_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Vec<u8>, Vec<u8>), String> {
-    let w: Vec<i8> = (0..n * m).map(|_| ((rng.next() % 255) as i32 - 127) as i8).collect();
+    let w: Vec<i8> = (0..n * m)
+        .map(|_| ((rng.next() % 255) as i32 - 127) as i8)
+        .collect();
     let bias = i32s((0..m).map(|_| (rng.next() % 8193) as i32 - 4096));
     let mult = i32s((0..m).map(|_| (1 << 30) + (rng.next() & 0x3FFF_FFFF) as i32));
     // About ±64 at the output: accumulators have a spread of √n · 73 · 73.
@@ -138,7 +148,10 @@ fn f32_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Vec<u8>, Vec<u8>), St
     let mut data = vec![0u8; 4 * layout::elements(n, m)];
     layout::block_f32(n, m, &w, &mut data);
     let blocked = encode_aligned(&[data], |f| desc(WeightLayout::Blocked4x4, &f[0]))?;
-    Ok((blocked, desc(WeightLayout::OutputMajor, &f32s(w.iter().copied()))?))
+    Ok((
+        blocked,
+        desc(WeightLayout::OutputMajor, &f32s(w.iter().copied()))?,
+    ))
 }
 
 fn write(dir: &str, name: &str, bytes: &[u8]) -> Result<(), String> {

@@ -35,6 +35,8 @@ fn text_size(path: &str) -> Result<u64, String> {
     use object::{Object, ObjectSection};
     let data = std::fs::read(path).map_err(|e| format!("{path}: {e}"))?;
     let file = object::File::parse(&*data).map_err(|e| format!("{path}: {e}"))?;
-    let text = file.section_by_name(".text").ok_or(format!("{path}: no .text section"))?;
+    let text = file
+        .section_by_name(".text")
+        .ok_or(format!("{path}: no .text section"))?;
     Ok(text.size())
 }

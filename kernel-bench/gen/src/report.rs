@@ -28,7 +28,9 @@ struct Run {
 fn load(spec: &str) -> Result<Run, String> {
     let parts: Vec<&str> = spec.split(':').collect();
     let [target, log, counts, base, int8] = parts[..] else {
-        return Err(format!("{spec}: expected NAME:LOG:COUNTS:BASE_ELF:INT8_ELF"));
+        return Err(format!(
+            "{spec}: expected NAME:LOG:COUNTS:BASE_ELF:INT8_ELF"
+        ));
     };
     let read = |p: &str| std::fs::read_to_string(p).map_err(|e| format!("{p}: {e}"));
     let (log_text, count_text) = (read(log)?, read(counts)?);
@@ -39,7 +41,11 @@ fn load(spec: &str) -> Result<Run, String> {
                 return Err(format!("{counts}: unbalanced markers"));
             }
         } else {
-            numbers.push(line.trim().parse::<u64>().map_err(|e| format!("{counts}: {line:?}: {e}"))?);
+            numbers.push(
+                line.trim()
+                    .parse::<u64>()
+                    .map_err(|e| format!("{counts}: {line:?}: {e}"))?,
+            );
         }
     }
     let mut run = Run {
@@ -62,7 +68,9 @@ fn load(spec: &str) -> Result<Run, String> {
                 run.failed = fl.parse().map_err(|_| format!("{log}: {line}"))?;
             }
             ["kb", "case", name, variant, macs] => {
-                let count = next.next().ok_or(format!("{log}: more cases than counts"))?;
+                let count = next
+                    .next()
+                    .ok_or(format!("{log}: more cases than counts"))?;
                 run.cases.push(Case {
                     name: name.into(),
                     variant: variant.into(),
@@ -71,7 +79,10 @@ fn load(spec: &str) -> Result<Run, String> {
                 });
             }
             ["kb", "stack", name, bytes] => {
-                run.stack.insert(name.into(), bytes.parse().map_err(|_| format!("{log}: {line}"))?);
+                run.stack.insert(
+                    name.into(),
+                    bytes.parse().map_err(|_| format!("{log}: {line}"))?,
+                );
             }
             ["kb", "end"] => ended = true,
             ["kb", "panic", ..] => return Err(format!("{log}: firmware panicked: {line}")),
@@ -86,7 +97,10 @@ fn load(spec: &str) -> Result<Run, String> {
     }
     if let Some(e) = run.cases.iter().find(|c| c.name == "empty") {
         if e.count != 0 {
-            return Err(format!("{counts}: the empty section counted {} instructions", e.count));
+            return Err(format!(
+                "{counts}: the empty section counted {} instructions",
+                e.count
+            ));
         }
     }
     Ok(run)
@@ -94,18 +108,25 @@ fn load(spec: &str) -> Result<Run, String> {
 
 impl Run {
     fn count(&self, name: &str, variant: &str) -> Option<&Case> {
-        self.cases.iter().find(|c| c.name == name && c.variant == variant)
+        self.cases
+            .iter()
+            .find(|c| c.name == name && c.variant == variant)
     }
     fn per_mac(&self, name: &str, variant: &str) -> Option<f64> {
-        self.count(name, variant).map(|c| c.count as f64 / c.macs.max(1) as f64)
+        self.count(name, variant)
+            .map(|c| c.count as f64 / c.macs.max(1) as f64)
     }
     /// Whole inference (kernel) over the sum of its layers alone.
     fn model_ratio(&self, model: &str) -> Option<(u64, u64, u64, f64)> {
         let whole = self.count(model, "model-kernel")?.count;
         let portable = self.count(model, "model-portable")?.count;
         let prefix = format!("{model}-L");
-        let layers: u64 =
-            self.cases.iter().filter(|c| c.name.starts_with(&prefix)).map(|c| c.count).sum();
+        let layers: u64 = self
+            .cases
+            .iter()
+            .filter(|c| c.name.starts_with(&prefix))
+            .map(|c| c.count)
+            .sum();
         Some((portable, whole, layers, whole as f64 / layers.max(1) as f64))
     }
 }
@@ -134,7 +155,10 @@ const RECORDED: [(&str, f64); 5] = [
 impl Goal {
     /// What `--check` enforces: the goal, or the recorded value where the goal is not met.
     fn check_limit(&self) -> f64 {
-        let recorded = RECORDED.iter().find(|r| r.0 == self.what).map_or(0.0, |r| r.1);
+        let recorded = RECORDED
+            .iter()
+            .find(|r| r.0 == self.what)
+            .map_or(0.0, |r| r.1);
         self.limit.max(recorded) * (1.0 + MARGIN)
     }
 }
@@ -150,15 +174,39 @@ fn goals(runs: &[Run]) -> Vec<Goal> {
         let t = &r.target;
         let dsp = r.kernel == "dsp";
         let int8_limit = if dsp { 1.5 } else { 4.0 };
-        add(format!("{t} int8 784x100 instr/MAC"), r.per_mac("i8-784x100", "kernel"), int8_limit);
+        add(
+            format!("{t} int8 784x100 instr/MAC"),
+            r.per_mac("i8-784x100", "kernel"),
+            int8_limit,
+        );
         if dsp {
-            add(format!("{t} f32 784x100 instr/MAC"), r.per_mac("f32-784x100", "kernel"), 3.0);
-            add(format!("{t} f32 64x32 instr/MAC"), r.per_mac("f32-64x32", "kernel"), 3.0);
-            add(format!("{t} digits whole / Σ layers"), r.model_ratio("digits").map(|m| m.3), 1.15);
+            add(
+                format!("{t} f32 784x100 instr/MAC"),
+                r.per_mac("f32-784x100", "kernel"),
+                3.0,
+            );
+            add(
+                format!("{t} f32 64x32 instr/MAC"),
+                r.per_mac("f32-64x32", "kernel"),
+                3.0,
+            );
+            add(
+                format!("{t} digits whole / Σ layers"),
+                r.model_ratio("digits").map(|m| m.3),
+                1.15,
+            );
         }
-        add(format!("{t} runtime .text (int8 path) bytes"), Some(r.size as f64), 8192.0);
+        add(
+            format!("{t} runtime .text (int8 path) bytes"),
+            Some(r.size as f64),
+            8192.0,
+        );
         for (m, &b) in &r.stack {
-            add(format!("{t} peak stack, {m} inference, bytes"), Some(b as f64), 1024.0);
+            add(
+                format!("{t} peak stack, {m} inference, bytes"),
+                Some(b as f64),
+                1024.0,
+            );
         }
     }
     g
@@ -173,7 +221,11 @@ fn print(runs: &[Run]) {
             if r.count(name, "naive").is_none() {
                 continue;
             }
-            let kernel = if name.starts_with("f32") && r.kernel != "dsp" { "portable" } else { &r.kernel };
+            let kernel = if name.starts_with("f32") && r.kernel != "dsp" {
+                "portable"
+            } else {
+                &r.kernel
+            };
             println!(
                 "| {name} | {} | {} | {} | {} | {} | {kernel} |",
                 r.target,
@@ -204,14 +256,25 @@ fn print(runs: &[Run]) {
     println!("|---|---:|---|---|");
     for r in runs {
         let stack: Vec<String> = r.stack.iter().map(|(m, b)| format!("{m} {b}")).collect();
-        println!("| {} | {} | {} | {} passed, {} failed |", r.target, r.size, stack.join(", "), r.passed, r.failed);
+        println!(
+            "| {} | {} | {} | {} passed, {} failed |",
+            r.target,
+            r.size,
+            stack.join(", "),
+            r.passed,
+            r.failed
+        );
     }
 }
 
 /// Runs the report.
 pub fn run(args: &[String]) -> Result<(), String> {
     let check = args.iter().any(|a| a == "--check");
-    let runs = args.iter().filter(|a| *a != "--check").map(|s| load(s)).collect::<Result<Vec<_>, _>>()?;
+    let runs = args
+        .iter()
+        .filter(|a| *a != "--check")
+        .map(|s| load(s))
+        .collect::<Result<Vec<_>, _>>()?;
     print(&runs);
     println!("\nGoals (--check fails above the goal, or above the recorded value where the goal is not met, plus {:.0}%):\n", MARGIN * 100.0);
     let mut missed = 0;
@@ -219,7 +282,11 @@ pub fn run(args: &[String]) -> Result<(), String> {
         let met = g.value <= g.limit;
         let fails = g.value > g.check_limit();
         missed += usize::from(fails);
-        let note = if met { "met".to_string() } else { format!("MISSED (regression limit {:.3})", g.check_limit()) };
+        let note = if met {
+            "met".to_string()
+        } else {
+            format!("MISSED (regression limit {:.3})", g.check_limit())
+        };
         println!("- {}: {:.3} (goal ≤ {}) {note}", g.what, g.value, g.limit);
     }
     let selfcheck_failed: u64 = runs.iter().map(|r| r.failed).sum();

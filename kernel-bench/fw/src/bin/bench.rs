@@ -83,14 +83,24 @@ fn int8_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut R
     let mut out = [0u8; 100];
     let mut reference = [0u8; 100];
     let (pb, po) = (params(&lb), params(&lo));
-    case(name, "naive", n * m, || naive::dense_i8(black_box(&po), black_box(x), &mut reference[..m]));
-    case(name, "portable", n * m, || portable::dense_i8(black_box(&po), black_box(x), &mut out[..m]));
+    case(name, "naive", n * m, || {
+        naive::dense_i8(black_box(&po), black_box(x), &mut reference[..m])
+    });
+    case(name, "portable", n * m, || {
+        portable::dense_i8(black_box(&po), black_box(x), &mut out[..m])
+    });
     assert!(out[..m] == reference[..m], "{} portable differs", name);
     case(name, "portable-blocked", n * m, || {
         portable::dense_i8_blocked(black_box(&pb), black_box(x), &mut out[..m])
     });
-    assert!(out[..m] == reference[..m], "{} portable-blocked differs", name);
-    case(name, "kernel", n * m, || dense::dense_i8_blocked(black_box(&pb), black_box(x), &mut out[..m]));
+    assert!(
+        out[..m] == reference[..m],
+        "{} portable-blocked differs",
+        name
+    );
+    case(name, "kernel", n * m, || {
+        dense::dense_i8_blocked(black_box(&pb), black_box(x), &mut out[..m])
+    });
     assert!(out[..m] == reference[..m], "{} kernel differs", name);
     black_box(&out);
 }
@@ -107,16 +117,45 @@ fn f32_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rn
     let mut reference = [0u8; 400];
     let relu = false;
     case(name, "naive", n * m, || {
-        naive::dense_f32(n, black_box(lo.weights), lo.bias, relu, black_box(x), &mut reference[..4 * m])
+        naive::dense_f32(
+            n,
+            black_box(lo.weights),
+            lo.bias,
+            relu,
+            black_box(x),
+            &mut reference[..4 * m],
+        )
     });
     case(name, "portable", n * m, || {
-        portable::dense_f32(n, black_box(lo.weights), lo.bias, relu, black_box(x), &mut out[..4 * m])
+        portable::dense_f32(
+            n,
+            black_box(lo.weights),
+            lo.bias,
+            relu,
+            black_box(x),
+            &mut out[..4 * m],
+        )
     });
-    assert!(out[..4 * m] == reference[..4 * m], "{} portable differs", name);
+    assert!(
+        out[..4 * m] == reference[..4 * m],
+        "{} portable differs",
+        name
+    );
     case(name, "kernel", n * m, || {
-        dense::dense_f32_blocked(n, black_box(lb.weights), lb.bias, relu, black_box(x), &mut out[..4 * m])
+        dense::dense_f32_blocked(
+            n,
+            black_box(lb.weights),
+            lb.bias,
+            relu,
+            black_box(x),
+            &mut out[..4 * m],
+        )
     });
-    assert!(out[..4 * m] == reference[..4 * m], "{} kernel differs", name);
+    assert!(
+        out[..4 * m] == reference[..4 * m],
+        "{} kernel differs",
+        name
+    );
 }
 
 /// Whole inference of a packed model (blocked and its output-major twin), each layer alone,
@@ -140,14 +179,22 @@ fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut 
     case(name, "model-kernel", macs, || {
         pred = Some(mb.infer(black_box(input), &mut arena.0, &mut scores));
     });
-    assert!(pred == want && want.is_some_and(|p| p.is_ok()), "{} predictions differ", name);
+    assert!(
+        pred == want && want.is_some_and(|p| p.is_ok()),
+        "{} predictions differ",
+        name
+    );
     for (k, l) in mb.desc().layers.iter().enumerate() {
         let (src, dst) = arena.0.split_at_mut(256);
         fill(&mut src[..l.inputs as usize], rng);
         let mut label = [0u8; 24];
         let text = layer_name(&mut label, name, k);
         case(text, "layer-kernel", l.macs_hint(), || {
-            run_i8(black_box(l), black_box(&src[..l.inputs as usize]), &mut dst[..l.outputs as usize])
+            run_i8(
+                black_box(l),
+                black_box(&src[..l.inputs as usize]),
+                &mut dst[..l.outputs as usize],
+            )
         });
     }
     let bytes = stack::measure(|| {
@@ -177,20 +224,36 @@ fn layer_name<'b>(buf: &'b mut [u8; 24], model: &str, k: usize) -> &'b str {
 #[entry]
 fn main() -> ! {
     hprintln!("kb target {}", dense::KERNEL);
-    let cases = option_env!("KB_SELFCHECK_CASES").and_then(|s| s.parse().ok()).unwrap_or(300);
+    let cases = option_env!("KB_SELFCHECK_CASES")
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(300);
     let t = selfcheck::run(cases, 0x5EED_1234);
     hprintln!("kb selfcheck {} {}", t.passed, t.failed);
     hprintln!("selfcheck: {} passed, {} failed", t.passed, t.failed);
     let mut rng = Rng::new(42);
     case("empty", "empty", 0, || {});
-    int8_layer("i8-784x100", blobs::I8_784X100, blobs::I8_784X100_OM, &mut rng);
+    int8_layer(
+        "i8-784x100",
+        blobs::I8_784X100,
+        blobs::I8_784X100_OM,
+        &mut rng,
+    );
     int8_layer("i8-64x32", blobs::I8_64X32, blobs::I8_64X32_OM, &mut rng);
     #[cfg(kb_big_f32)]
-    f32_layer("f32-784x100", blobs::F32_784X100, blobs::F32_784X100_OM, &mut rng);
+    f32_layer(
+        "f32-784x100",
+        blobs::F32_784X100,
+        blobs::F32_784X100_OM,
+        &mut rng,
+    );
     f32_layer("f32-64x32", blobs::F32_64X32, blobs::F32_64X32_OM, &mut rng);
     whole_model("digits", blobs::DIGITS, blobs::DIGITS_OM, &mut rng);
     whole_model("vibration", blobs::VIBRATION, blobs::VIBRATION_OM, &mut rng);
     hprintln!("kb end");
-    debug::exit(if t.failed == 0 { debug::EXIT_SUCCESS } else { debug::EXIT_FAILURE });
+    debug::exit(if t.failed == 0 {
+        debug::EXIT_SUCCESS
+    } else {
+        debug::EXIT_FAILURE
+    });
     loop {}
 }
