@@ -46,7 +46,9 @@ fuzz_target!(|data: &[u8]| {
     let mut out = vec![0u8; max_encoded_len(&desc).max(blob.len())];
     let enc = encode(&desc, &mut out);
     match (&verdict, &enc) {
-        (Ok(_), Ok(n)) => assert_eq!(&out[..*n], &blob[..], "encoder and raw writer differ"),
+        // Same arena field and table; the header's version (the encoder writes the lowest
+        // that holds the blob) and so the CRC may differ.
+        (Ok(_), Ok(n)) => assert_eq!(&out[16..*n], &blob[16..], "encoder and raw writer differ"),
         (Err(kinglet_runtime::FormatError::ArenaMismatch { .. }), Ok(_)) => {}
         (Err(e), Ok(_)) => panic!("reader rejects ({e:?}) what the encoder writes"),
         (Ok(_), Err(e)) => panic!("encoder refuses ({e:?}) what the reader accepts"),

@@ -12,7 +12,9 @@ use kinglet_converter::import::onnx::import_onnx_file;
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_runtime::arena::ArenaPlan;
-use kinglet_runtime::format::{LayerDesc, ModelDesc, OutputKind, Precision, MAX_LAYERS};
+use kinglet_runtime::format::{
+    LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout, MAX_LAYERS,
+};
 use kinglet_runtime::header::{Header, CHECKED_FROM};
 use kinglet_runtime::{
     Activation, FormatError, Input, Model, RunError, TensorKind, CHECKSUM, HEADER_LEN,
@@ -68,7 +70,7 @@ fn raw_with_arena(d: &ModelDesc<'_>, arena: u32) -> Vec<u8> {
     let mut blob = vec![0u8; HEADER_LEN];
     blob.extend_from_slice(&body);
     let h = Header {
-        version: 1,
+        version: kinglet_runtime::FORMAT_VERSION,
         flags: 0,
         total_len: 0,
         crc: 0,
@@ -168,13 +170,21 @@ fn r02_bit_flipped_blob() {
 
 #[test]
 fn r03_newer_format_version() {
+    let newer = kinglet_runtime::FORMAT_VERSION + 1;
     let mut b = int8_blob().to_vec();
-    b[4..6].copy_from_slice(&2u16.to_le_bytes());
-    let msg = rejects(&b, FormatError::UnsupportedVersion { found: 2 });
+    b[4..6].copy_from_slice(&newer.to_le_bytes());
+    let msg = rejects(&b, FormatError::UnsupportedVersion { found: newer });
     assert_eq!(
         msg,
-        "model format version 2 is not supported (this reader accepts version 1)"
+        format!(
+            "model format version {newer} is not supported (this reader accepts versions {} to {})",
+            kinglet_runtime::header::OLDEST_VERSION,
+            kinglet_runtime::FORMAT_VERSION
+        )
     );
+    // Version 0 never existed.
+    b[4..6].copy_from_slice(&0u16.to_le_bytes());
+    rejects(&b, FormatError::UnsupportedVersion { found: 0 });
 }
 
 #[test]
@@ -540,19 +550,15 @@ fn r21_label_count_differs_from_classes() {
 
 #[test]
 fn r22_accumulator_could_overflow() {
-    let d0 = table(int8_blob());
-    // Channel 3 of layer 1: a bias one above the largest that validation proves safe.
-    let row = &d0.layers[1].weights[3 * 24..4 * 24];
-    let sum: i64 = row
-        .iter()
-        .map(|&w| i64::from((w as i8).unsigned_abs()))
-        .sum();
-    let limit = i64::from(i32::MAX) - 128 * sum;
-    let mut bias: Vec<i32> = d0.layers[1]
-        .bias
-        .chunks_exact(4)
-        .map(|c| i32::from_le_bytes(c.try_into().unwrap()))
+    // Layer 1 (24 → 12) with output-major weights of our own: row 3 is 24 weights of -100.
+    let w: Vec<u8> = (0..12 * 24)
+        .map(|i| if i / 24 == 3 { -100i8 as u8 } else { 1 })
         .collect();
+    let mut d0 = table(int8_blob());
+    d0.layers[1].layout = WeightLayout::OutputMajor;
+    d0.layers[1].weights = &w;
+    let limit = i64::from(i32::MAX) - 128 * 24 * 100;
+    let mut bias = vec![0i32; 12];
     for (b, ok) in [(limit, true), (limit + 1, false), (-limit - 1, false)] {
         bias[3] = b as i32;
         let bytes = le_i32(&bias);
