@@ -4,9 +4,10 @@
 # skips with a clear message (exit 0) when no nightly toolchain can be had, unless
 # KINGLET_REQUIRE_MIRI=1, when that is an error.
 #
-# Under Miri the proptest suites run fewer cases (PROPTEST_CASES, default 16 here) and the
-# exhaustive byte-flip/truncation sweeps are sampled (see `cfg(miri)` in the tests); everything
-# else runs as in `cargo test`.
+# Under Miri the proptest suites run fewer cases (PROPTEST_CASES, default 16 here), and in
+# runtime/tests/overflow.rs the 1000- and 16384-input layers are left out (`cfg(miri)`: minutes
+# each when interpreted); everything else, the byte-flip and truncation sweeps included, runs as
+# in `cargo test`. About 10 minutes on one core.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 skip() {
