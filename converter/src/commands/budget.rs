@@ -2,7 +2,6 @@
 use anyhow::{anyhow, bail, Context, Result};
 use kinglet_converter::fit::{self, profile, render, Core, Target};
 use kinglet_runtime::Model;
-use std::io::Write;
 use std::path::PathBuf;
 
 use super::Outcome;
@@ -80,9 +79,7 @@ pub fn run(a: Args) -> Result<Outcome> {
     } else {
         render::table(&b)
     };
-    std::io::stdout()
-        .write_all(text.as_bytes())
-        .context("cannot write to standard output")?;
+    super::out::emit(&text)?;
     Ok(if b.fits() {
         Outcome::Pass
     } else {

@@ -25,12 +25,12 @@ pub fn run(a: Args) -> Result<Outcome> {
         |n| n.to_string_lossy().into_owned(),
     );
     write_atomic(&a.out, render(&bytes, &model, &name).as_bytes())?;
-    println!(
+    super::out::line(&format!(
         "wrote {} ({} bytes of model, arena {} bytes)",
         a.out.display(),
         bytes.len(),
         model.arena_bytes()
-    );
+    ))?;
     Ok(Outcome::Pass)
 }
 

@@ -21,9 +21,9 @@ pub fn run(a: Args) -> Result<Outcome> {
     let model = Model::parse(&bytes).map_err(|e| anyhow!("{}: {e}", a.blob.display()))?;
     let report = BlobReport::of(&model);
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&report)?);
+        super::out::line(&serde_json::to_string_pretty(&report)?)?;
     } else {
-        print!("{}", table::render(&report));
+        super::out::emit(&table::render(&report))?;
     }
     Ok(Outcome::Pass)
 }

@@ -4,6 +4,7 @@ use clap::{Parser, Subcommand};
 mod budget;
 mod emit_rust;
 mod inspect;
+mod out;
 mod pack;
 mod vet;
 

@@ -117,13 +117,13 @@ pub fn run(a: Args) -> Result<Outcome> {
         let mut v = serde_json::to_value(&report)?;
         v["blob"] = serde_json::Value::String(out.display().to_string());
         v["notes"] = serde_json::to_value(&notes)?;
-        println!("{}", serde_json::to_string_pretty(&v)?);
+        super::out::line(&serde_json::to_string_pretty(&v)?)?;
     } else {
-        println!("wrote {} ({} bytes)", out.display(), blob.len());
+        super::out::line(&format!("wrote {} ({} bytes)", out.display(), blob.len()))?;
         for n in &notes {
-            println!("{n}");
+            super::out::line(n)?;
         }
-        print!("{}", table::render(&report));
+        super::out::emit(&table::render(&report))?;
     }
     Ok(Outcome::Pass)
 }

@@ -172,21 +172,18 @@ pub fn run(a: Args) -> Result<Outcome> {
         write_atomic(path, page.as_bytes())?;
     }
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&report)?);
+        super::out::line(&serde_json::to_string_pretty(&report)?)?;
     } else {
         let colour = std::io::stdout().is_terminal() && std::env::var_os("NO_COLOR").is_none();
-        print!(
-            "{}",
-            render_text::render(
-                &report,
-                &TextOptions {
-                    colour,
-                    show_rows: a.show
-                }
-            )
-        );
+        super::out::emit(&render_text::render(
+            &report,
+            &TextOptions {
+                colour,
+                show_rows: a.show,
+            },
+        ))?;
         if let Some(path) = &a.html {
-            println!("wrote {}", path.display());
+            super::out::line(&format!("wrote {}", path.display()))?;
         }
     }
     Ok(if report.passed() {
