@@ -4,7 +4,9 @@
 //!
 //! The goal (issue: "well under a second") is checked by reading the table, not by a timed test.
 use kinglet_converter::dataset::Dataset;
-use kinglet_converter::graph::{Activation, DenseLayer, FloatModel, OutputKind, Scaler, ScalerKind};
+use kinglet_converter::graph::{
+    Activation, DenseLayer, FloatModel, OutputKind, Scaler, ScalerKind,
+};
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use std::time::Instant;
@@ -22,26 +24,47 @@ impl Rng {
 }
 
 fn dense(rng: &mut Rng, inputs: usize, outputs: usize, activation: Activation) -> DenseLayer {
-    let w = (0..inputs * outputs).map(|_| (rng.next() - 0.5) * 0.1).collect();
+    let w = (0..inputs * outputs)
+        .map(|_| (rng.next() - 0.5) * 0.1)
+        .collect();
     let b = (0..outputs).map(|_| (rng.next() - 0.5) * 0.1).collect();
-    DenseLayer { inputs, outputs, weights: w, bias: b, activation }
+    DenseLayer {
+        inputs,
+        outputs,
+        weights: w,
+        bias: b,
+        activation,
+    }
 }
 
 fn main() {
     let mut rng = Rng(0x5EED);
     let model = FloatModel {
         input_len: 784,
-        scaler: Some(Scaler { kind: ScalerKind::Uniform, offset: vec![0.0], scale: vec![1.0 / 255.0] }),
-        layers: vec![dense(&mut rng, 784, 128, Activation::Relu), dense(&mut rng, 128, 10, Activation::Linear)],
+        scaler: Some(Scaler {
+            kind: ScalerKind::Uniform,
+            offset: vec![0.0],
+            scale: vec![1.0 / 255.0],
+        }),
+        layers: vec![
+            dense(&mut rng, 784, 128, Activation::Relu),
+            dense(&mut rng, 128, 10, Activation::Linear),
+        ],
         output: OutputKind::Softmax,
         labels: vec![],
     };
-    let params: usize = model.layers.iter().map(|l| l.inputs * l.outputs + l.outputs).sum();
+    let params: usize = model
+        .layers
+        .iter()
+        .map(|l| l.inputs * l.outputs + l.outputs)
+        .sum();
     let rows = 1000;
     let data = Dataset {
         rows,
         width: 784,
-        features: (0..rows * 784).map(|_| (rng.next() * 255.0).round()).collect(),
+        features: (0..rows * 784)
+            .map(|_| (rng.next() * 255.0).round())
+            .collect(),
         labels: None,
         source: "generated".into(),
     };
@@ -57,12 +80,27 @@ fn main() {
         t.sort_by(f64::total_cmp);
         (t[reps / 2], t[0], t[reps - 1])
     };
-    let int8 = time(&|| pack_int8(&model, &data, RangeMethod::MinMax).map(|p| p.blob.len()).unwrap_or(0));
-    let pct = time(&|| pack_int8(&model, &data, RangeMethod::Percentile(99.99)).map(|p| p.blob.len()).unwrap_or(0));
+    let int8 = time(&|| {
+        pack_int8(&model, &data, RangeMethod::MinMax)
+            .map(|p| p.blob.len())
+            .unwrap_or(0)
+    });
+    let pct = time(&|| {
+        pack_int8(&model, &data, RangeMethod::Percentile(99.99))
+            .map(|p| p.blob.len())
+            .unwrap_or(0)
+    });
     let f32p = time(&|| pack_f32(&model).map(|b| b.len()).unwrap_or(0));
     println!("pack benchmark: {params} parameters, {rows} calibration rows, {reps} runs each (median, min, max)");
-    println!("{:<28} {:>10} {:>10} {:>10}", "case", "median s", "min s", "max s");
-    for (name, (med, min, max)) in [("int8, min/max ranges", int8), ("int8, percentile 99.99", pct), ("f32", f32p)] {
+    println!(
+        "{:<28} {:>10} {:>10} {:>10}",
+        "case", "median s", "min s", "max s"
+    );
+    for (name, (med, min, max)) in [
+        ("int8, min/max ranges", int8),
+        ("int8, percentile 99.99", pct),
+        ("f32", f32p),
+    ] {
         println!("{name:<28} {med:>10.4} {min:>10.4} {max:>10.4}");
     }
 }

@@ -66,8 +66,18 @@ impl Scaler {
         raw.iter()
             .enumerate()
             .map(|(i, &x)| {
-                let off = self.offset.get(i).or(self.offset.first()).copied().unwrap_or(0.0);
-                let sc = self.scale.get(i).or(self.scale.first()).copied().unwrap_or(1.0);
+                let off = self
+                    .offset
+                    .get(i)
+                    .or(self.offset.first())
+                    .copied()
+                    .unwrap_or(0.0);
+                let sc = self
+                    .scale
+                    .get(i)
+                    .or(self.scale.first())
+                    .copied()
+                    .unwrap_or(1.0);
                 (x - off) * sc
             })
             .collect()
@@ -95,7 +105,10 @@ impl FloatModel {
         for layer in &self.layers {
             let mut y = Vec::with_capacity(layer.outputs);
             for o in 0..layer.outputs {
-                let row = layer.weights.get(o * layer.inputs..(o + 1) * layer.inputs).unwrap_or(&[]);
+                let row = layer
+                    .weights
+                    .get(o * layer.inputs..(o + 1) * layer.inputs)
+                    .unwrap_or(&[]);
                 let dot: f64 = row.iter().zip(&x).map(|(&w, &v)| f64::from(w) * v).sum();
                 let v = dot + f64::from(layer.bias.get(o).copied().unwrap_or(0.0));
                 y.push(match layer.activation {

@@ -2,14 +2,14 @@
 //! quantise it to int8, pack it into the runtime's binary format, and report on it.
 #![deny(missing_docs)]
 
+pub mod atomic;
+pub mod dataset;
+pub mod emit_rust;
+pub mod fit;
 pub mod graph;
 pub mod import;
-pub mod dataset;
-pub mod scaler_file;
 pub mod pack;
 pub mod quantise;
-pub mod atomic;
 pub mod report;
+pub mod scaler_file;
 pub mod vet;
-pub mod fit;
-pub mod emit_rust;

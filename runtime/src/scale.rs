@@ -19,7 +19,11 @@ use crate::le;
 pub fn quantize_linear(x: f32, scale: f32, zero_point: i8) -> i8 {
     const ROUND: f32 = 12_582_912.0; // 1.5 · 2^23
     let y = x / scale;
-    let r = if y.abs() < 4_194_304.0 { (y + ROUND) - ROUND } else { y };
+    let r = if y.abs() < 4_194_304.0 {
+        (y + ROUND) - ROUND
+    } else {
+        y
+    };
     // `as` saturates (and maps NaN to 0); the clamp makes the intent explicit.
     (r + f32::from(zero_point)).clamp(-128.0, 127.0) as i8
 }

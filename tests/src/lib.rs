@@ -30,7 +30,10 @@ pub fn read_float_csv(rel: &str) -> Vec<Vec<f64>> {
         .map(|rec| {
             rec.unwrap_or_else(|e| panic!("{rel}: {e}"))
                 .iter()
-                .map(|v| v.parse::<f64>().unwrap_or_else(|e| panic!("{rel}: {v}: {e}")))
+                .map(|v| {
+                    v.parse::<f64>()
+                        .unwrap_or_else(|e| panic!("{rel}: {v}: {e}"))
+                })
                 .collect()
         })
         .collect()

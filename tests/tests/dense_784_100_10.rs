@@ -34,7 +34,11 @@ fn check_f32_pack(name: &str, params: usize) {
     assert!(c.expected.source.contains("ReferenceEvaluator"));
     let model = import_file(&path(&format!("tests/fixtures/onnx/{}", c.model))).unwrap();
     // Parameter count: in·out + out per dense layer (common practice, no source).
-    let counted: usize = model.layers.iter().map(|l| l.inputs * l.outputs + l.outputs).sum();
+    let counted: usize = model
+        .layers
+        .iter()
+        .map(|l| l.inputs * l.outputs + l.outputs)
+        .sum();
     assert_eq!((counted, c.params), (params, params));
     let blob = pack_f32(&model).unwrap();
     let m = Model::parse(&blob).unwrap();
@@ -46,7 +50,10 @@ fn check_f32_pack(name: &str, params: usize) {
             worst = worst.max((f64::from(*s) - w).abs());
         }
     }
-    assert!(worst < 1e-5, "{name}: max |runtime f32 - ReferenceEvaluator| = {worst:e}");
+    assert!(
+        worst < 1e-5,
+        "{name}: max |runtime f32 - ReferenceEvaluator| = {worst:e}"
+    );
 }
 
 #[test]

@@ -15,7 +15,10 @@ use kinglet_tests::{path, read_float_csv, run};
 fn heldout() -> kinglet_converter::dataset::Dataset {
     load_csv(
         &path("examples/digits/heldout.csv"),
-        &CsvOptions { label: Some(LabelColumn::Name("label".into())), has_header: None },
+        &CsvOptions {
+            label: Some(LabelColumn::Name("label".into())),
+            has_header: None,
+        },
     )
     .unwrap()
 }
@@ -42,12 +45,22 @@ fn float_pack_matches_scikit_learn_predict_proba() {
 #[test]
 fn int8_pack_agrees_with_float_and_keeps_accuracy() {
     let model = import_file(&path("examples/digits/model.onnx")).unwrap();
-    let calib = load_csv(&path("examples/digits/calibration.csv"), &CsvOptions::default()).unwrap();
+    let calib = load_csv(
+        &path("examples/digits/calibration.csv"),
+        &CsvOptions::default(),
+    )
+    .unwrap();
     let f = pack_f32(&model).unwrap();
     let q = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob;
     let (mf, mq) = (Model::parse(&f).unwrap(), Model::parse(&q).unwrap());
     let data = heldout();
-    let labels: Vec<usize> = data.labels.as_ref().unwrap().iter().map(|l| l.parse().unwrap()).collect();
+    let labels: Vec<usize> = data
+        .labels
+        .as_ref()
+        .unwrap()
+        .iter()
+        .map(|l| l.parse().unwrap())
+        .collect();
     let (mut agree, mut right_f, mut right_q) = (0, 0, 0);
     for (r, &label) in labels.iter().enumerate() {
         let (cf, _) = run(&mf, data.row(r));
@@ -58,12 +71,21 @@ fn int8_pack_agrees_with_float_and_keeps_accuracy() {
     }
     let n = data.rows as f64;
     let drop_pp = 100.0 * (right_f as f64 - right_q as f64) / n;
-    eprintln!("agreement {agree}/{}, float {right_f}, int8 {right_q}, drop {drop_pp:.2} pp", data.rows);
-    assert!(agree as f64 >= 0.99 * n, "top-1 agreement {agree}/{}", data.rows);
+    eprintln!(
+        "agreement {agree}/{}, float {right_f}, int8 {right_q}, drop {drop_pp:.2} pp",
+        data.rows
+    );
+    assert!(
+        agree as f64 >= 0.99 * n,
+        "top-1 agreement {agree}/{}",
+        data.rows
+    );
     assert!(drop_pp <= 1.0, "accuracy drop {drop_pp} pp");
     // The float accuracy is scikit-learn's: reference_metrics.json holds its exact count.
-    let metrics: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(path("examples/digits/reference_metrics.json")).unwrap()).unwrap();
+    let metrics: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(path("examples/digits/reference_metrics.json")).unwrap(),
+    )
+    .unwrap();
     assert_eq!(right_f as u64, metrics["correct"].as_u64().unwrap());
 }
 
@@ -72,7 +94,11 @@ fn integer_pixel_path_matches_the_float_input_path() {
     // Pixels 0..16 as u8 take the integer-only input path; the float path quantises the same
     // values with QuantizeLinear rounding. They may differ by one step on rounding ties only.
     let model = import_file(&path("examples/digits/model.onnx")).unwrap();
-    let calib = load_csv(&path("examples/digits/calibration.csv"), &CsvOptions::default()).unwrap();
+    let calib = load_csv(
+        &path("examples/digits/calibration.csv"),
+        &CsvOptions::default(),
+    )
+    .unwrap();
     let q = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob;
     let m = Model::parse(&q).unwrap();
     let data = heldout();
@@ -85,7 +111,9 @@ fn integer_pixel_path_matches_the_float_input_path() {
         let mut first_f = Vec::new();
         m.infer_traced(Input::F32(row), &mut arena, &mut s, &mut |st| {
             if st.index == 0 {
-                first_f = (0..st.values.len()).map(|i| st.values.int8(i).unwrap()).collect();
+                first_f = (0..st.values.len())
+                    .map(|i| st.values.int8(i).unwrap())
+                    .collect();
             }
         })
         .unwrap();
@@ -93,15 +121,24 @@ fn integer_pixel_path_matches_the_float_input_path() {
         let pi = m
             .infer_traced(Input::U8(&pixels), &mut arena, &mut s, &mut |st| {
                 if st.index == 0 {
-                    first_i = (0..st.values.len()).map(|i| st.values.int8(i).unwrap()).collect();
+                    first_i = (0..st.values.len())
+                        .map(|i| st.values.int8(i).unwrap())
+                        .collect();
                 }
             })
             .unwrap();
         for (a, b) in first_f.iter().zip(&first_i) {
-            assert!((i16::from(*a) - i16::from(*b)).abs() <= 1, "row {r}: {a} vs {b}");
+            assert!(
+                (i16::from(*a) - i16::from(*b)).abs() <= 1,
+                "row {r}: {a} vs {b}"
+            );
         }
         let (cf, _) = run(&m, row);
         same += usize::from(cf == pi.class);
     }
-    assert!(same as f64 >= 0.99 * data.rows as f64, "{same}/{}", data.rows);
+    assert!(
+        same as f64 >= 0.99 * data.rows as f64,
+        "{same}/{}",
+        data.rows
+    );
 }

@@ -20,7 +20,9 @@ use kinglet_tests::path;
 
 fn rows(rel: &str) -> Vec<Vec<String>> {
     let mut r = csv::Reader::from_path(path(rel)).unwrap();
-    r.records().map(|x| x.unwrap().iter().map(String::from).collect()).collect()
+    r.records()
+        .map(|x| x.unwrap().iter().map(String::from).collect())
+        .collect()
 }
 
 #[test]
@@ -29,7 +31,14 @@ fn requantisation_matches_numpy_reference() {
     assert!(cases.len() >= 2000);
     for (i, c) in cases.iter().enumerate() {
         let v: Vec<i64> = c.iter().map(|s| s.parse().unwrap()).collect();
-        let got = requantize(v[0] as i32, v[1] as i32, v[2] as i8, v[3] as i8, v[4] as i8, v[5] as i8);
+        let got = requantize(
+            v[0] as i32,
+            v[1] as i32,
+            v[2] as i8,
+            v[3] as i8,
+            v[4] as i8,
+            v[5] as i8,
+        );
         assert_eq!(i64::from(got), v[6], "case {} (line {}): {c:?}", i, i + 2);
     }
 }
@@ -54,7 +63,11 @@ fn input_quantisation_matches_onnx_quantize_linear() {
         let scale: f32 = c[1].parse().unwrap();
         let zp: i8 = c[2].parse().unwrap();
         let want: i8 = c[3].parse().unwrap();
-        assert_eq!(quantize_linear(x, scale, zp), want, "x {x:e} scale {scale:e} zp {zp}");
+        assert_eq!(
+            quantize_linear(x, scale, zp),
+            want,
+            "x {x:e} scale {scale:e} zp {zp}"
+        );
     }
 }
 
@@ -66,14 +79,20 @@ struct SoftmaxCase {
 
 #[test]
 fn softmax_matches_numpy_float64() {
-    let cases: Vec<SoftmaxCase> =
-        serde_json::from_str(&std::fs::read_to_string(path("tests/fixtures/softmax_cases.json")).unwrap()).unwrap();
+    let cases: Vec<SoftmaxCase> = serde_json::from_str(
+        &std::fs::read_to_string(path("tests/fixtures/softmax_cases.json")).unwrap(),
+    )
+    .unwrap();
     for c in &cases {
         let mut s = c.logits.clone();
         softmax(&mut s);
         for (got, want) in s.iter().zip(&c.probs) {
             // Absolute tolerance: f32 arithmetic against float64 (some probabilities underflow).
-            assert!((f64::from(*got) - want).abs() < 2e-7, "{:?}: {got} vs {want}", c.logits);
+            assert!(
+                (f64::from(*got) - want).abs() < 2e-7,
+                "{:?}: {got} vs {want}",
+                c.logits
+            );
         }
     }
 }
@@ -93,8 +112,10 @@ struct DenseCase {
 
 #[test]
 fn int8_dense_matches_numpy_int64() {
-    let cases: Vec<DenseCase> =
-        serde_json::from_str(&std::fs::read_to_string(path("tests/fixtures/dense_int8_cases.json")).unwrap()).unwrap();
+    let cases: Vec<DenseCase> = serde_json::from_str(
+        &std::fs::read_to_string(path("tests/fixtures/dense_int8_cases.json")).unwrap(),
+    )
+    .unwrap();
     assert!(cases.len() >= 20);
     for c in &cases {
         let w: Vec<u8> = c.weights.iter().map(|&v| v as u8).collect();

@@ -13,11 +13,21 @@ use kinglet_tests::{path, read_float_csv, run};
 #[test]
 fn vibration_float_and_int8_packs() {
     let model = import_file(&path("examples/vibration/model.onnx")).unwrap();
-    assert_eq!(model.labels, ["normal", "imbalance", "bearing_wear", "loose_mount"]);
-    let opts = CsvOptions { label: Some(LabelColumn::Name("label".into())), has_header: None };
+    assert_eq!(
+        model.labels,
+        ["normal", "imbalance", "bearing_wear", "loose_mount"]
+    );
+    let opts = CsvOptions {
+        label: Some(LabelColumn::Name("label".into())),
+        has_header: None,
+    };
     let data = load_csv(&path("examples/vibration/heldout.csv"), &opts).unwrap();
     let truth = resolve_labels(data.labels.as_ref().unwrap(), &model.labels, 4).unwrap();
-    let calib = load_csv(&path("examples/vibration/calibration.csv"), &CsvOptions::default()).unwrap();
+    let calib = load_csv(
+        &path("examples/vibration/calibration.csv"),
+        &CsvOptions::default(),
+    )
+    .unwrap();
     let f = pack_f32(&model).unwrap();
     let q = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob;
     let (mf, mq) = (Model::parse(&f).unwrap(), Model::parse(&q).unwrap());
@@ -37,5 +47,8 @@ fn vibration_float_and_int8_packs() {
     assert!(worst < 1e-5, "{worst:e}");
     assert_eq!(right_f, 592, "train.py reports 592/600 for the float model");
     assert!(agree >= 594, "agreement {agree}/600 (≥ 99%)");
-    assert!(right_f - right_q.min(right_f) <= 6, "int8 loses more than 1 pp");
+    assert!(
+        right_f - right_q.min(right_f) <= 6,
+        "int8 loses more than 1 pp"
+    );
 }

@@ -17,7 +17,8 @@ pub struct Args {
 }
 
 pub fn run(a: Args) -> Result<Outcome> {
-    let bytes = std::fs::read(&a.blob).with_context(|| format!("cannot read {}", a.blob.display()))?;
+    let bytes =
+        std::fs::read(&a.blob).with_context(|| format!("cannot read {}", a.blob.display()))?;
     let model = Model::parse(&bytes).map_err(|e| anyhow!("{}: {e}", a.blob.display()))?;
     let report = BlobReport::of(&model);
     if a.json {

@@ -59,24 +59,37 @@ pub struct Args {
 }
 
 fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<Dataset> {
-    let is_npy = path.extension().is_some_and(|e| e.eq_ignore_ascii_case("npy"));
+    let is_npy = path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("npy"));
     let data = if is_npy {
         load_npy(path, None)?
     } else {
-        load_csv(path, &CsvOptions { label, has_header: None })?
+        load_csv(
+            path,
+            &CsvOptions {
+                label,
+                has_header: None,
+            },
+        )?
     };
     Ok(data)
 }
 
 fn default_out(model: &Path, float: bool) -> PathBuf {
-    let stem = model.file_stem().and_then(|s| s.to_str()).unwrap_or("model");
+    let stem = model
+        .file_stem()
+        .and_then(|s| s.to_str())
+        .unwrap_or("model");
     PathBuf::from(format!("{stem}.{}.kgl", if float { "f32" } else { "int8" }))
 }
 
 pub fn run(a: Args) -> Result<Outcome> {
-    let mut model = import_file(&a.model).with_context(|| format!("cannot import {}", a.model.display()))?;
+    let mut model =
+        import_file(&a.model).with_context(|| format!("cannot import {}", a.model.display()))?;
     if let Some(p) = &a.scaler {
-        attach_scaler(&mut model, load_scaler_file(p)?).with_context(|| format!("--scaler {}", p.display()))?;
+        attach_scaler(&mut model, load_scaler_file(p)?)
+            .with_context(|| format!("--scaler {}", p.display()))?;
     } else if let Some(d) = a.divide_by {
         attach_scaler(&mut model, uniform_divisor(d)?)?;
     }
@@ -85,7 +98,11 @@ pub fn run(a: Args) -> Result<Outcome> {
             bail!("the model already carries class labels; drop --labels");
         }
         if labels.len() != model.classes() {
-            bail!("--labels gives {} labels for a model with {} classes", labels.len(), model.classes());
+            bail!(
+                "--labels gives {} labels for a model with {} classes",
+                labels.len(),
+                model.classes()
+            );
         }
         model.labels = labels;
     }
@@ -105,8 +122,14 @@ pub fn run(a: Args) -> Result<Outcome> {
             Range::Minmax => RangeMethod::MinMax,
             Range::Percentile => RangeMethod::Percentile(a.percentile),
         };
-        let p = pack_int8(&model, &data, method).with_context(|| format!("cannot pack {}", a.model.display()))?;
-        notes.push(format!("calibrated on {} rows of {} ({})", p.calibration_rows, path.display(), p.method));
+        let p = pack_int8(&model, &data, method)
+            .with_context(|| format!("cannot pack {}", a.model.display()))?;
+        notes.push(format!(
+            "calibrated on {} rows of {} ({})",
+            p.calibration_rows,
+            path.display(),
+            p.method
+        ));
         p.blob
     };
     // Parse what we are about to write with the runtime's own reader.

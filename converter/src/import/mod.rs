@@ -11,7 +11,10 @@ use crate::graph::FloatModel;
 /// Imports a model file, choosing the importer by extension: `.onnx` for ONNX, `.json` for the
 /// plain description (`docs/plain-model-format.md`).
 pub fn import_file(path: &Path) -> Result<FloatModel> {
-    let ext = path.extension().and_then(|e| e.to_str()).map(str::to_ascii_lowercase);
+    let ext = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(str::to_ascii_lowercase);
     match ext.as_deref() {
         Some("onnx") => Ok(onnx::import_onnx_file(path)?),
         Some("json") => Ok(plain::import_plain_file(path)?),

@@ -17,7 +17,10 @@ pub fn pack_f32(model: &FloatModel) -> Result<Vec<u8>> {
     let owned = OwnedModel {
         input_len: model.input_len,
         precision: Precision::F32,
-        scaler: model.scaler.as_ref().map(|s| (s.offset.clone(), s.scale.clone())),
+        scaler: model
+            .scaler
+            .as_ref()
+            .map(|s| (s.offset.clone(), s.scale.clone())),
         input_quant: None,
         layers: model
             .layers
@@ -46,8 +49,14 @@ pub struct Int8Pack {
 /// Calibrates on `data` (raw feature rows) with `method` and packs the int8 blob.
 pub fn pack_int8(model: &FloatModel, data: &Dataset, method: RangeMethod) -> Result<Int8Pack> {
     let float_blob = pack_f32(model)?;
-    let float_model = Model::parse(&float_blob).map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
+    let float_model = Model::parse(&float_blob)
+        .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
     let ranges = calibrate(&float_model, data, method)?;
     let blob = quantise(model, &ranges)?.encode()?;
-    Ok(Int8Pack { blob, method, ranges, calibration_rows: data.rows })
+    Ok(Int8Pack {
+        blob,
+        method,
+        ranges,
+        calibration_rows: data.rows,
+    })
 }

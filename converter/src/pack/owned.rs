@@ -2,8 +2,8 @@
 use anyhow::{anyhow, bail, Result};
 use kinglet_runtime::encode::{encode, max_encoded_len};
 use kinglet_runtime::format::{
-    Activation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind, Precision, ScalerDesc,
-    WeightLayout, MAX_LAYERS,
+    Activation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind, Precision,
+    ScalerDesc, WeightLayout, MAX_LAYERS,
 };
 
 /// Little-endian bytes of a slice of `f32`.
@@ -60,14 +60,45 @@ pub struct OwnedLayer {
 
 impl OwnedLayer {
     /// An int8 layer.
-    pub fn int8(inputs: usize, outputs: usize, activation: Activation, w: &[i8], b: &[i32], q: OwnedLayerQuant) -> Self {
-        let bytes = [f32_bytes(&q.weight_scale), i32_bytes(&q.multiplier), i8_bytes(&q.shift)];
-        OwnedLayer { inputs, outputs, activation, weights: i8_bytes(w), bias: i32_bytes(b), quant: Some((q, bytes)) }
+    pub fn int8(
+        inputs: usize,
+        outputs: usize,
+        activation: Activation,
+        w: &[i8],
+        b: &[i32],
+        q: OwnedLayerQuant,
+    ) -> Self {
+        let bytes = [
+            f32_bytes(&q.weight_scale),
+            i32_bytes(&q.multiplier),
+            i8_bytes(&q.shift),
+        ];
+        OwnedLayer {
+            inputs,
+            outputs,
+            activation,
+            weights: i8_bytes(w),
+            bias: i32_bytes(b),
+            quant: Some((q, bytes)),
+        }
     }
 
     /// An f32 layer.
-    pub fn f32(inputs: usize, outputs: usize, activation: Activation, w: &[f32], b: &[f32]) -> Self {
-        OwnedLayer { inputs, outputs, activation, weights: f32_bytes(w), bias: f32_bytes(b), quant: None }
+    pub fn f32(
+        inputs: usize,
+        outputs: usize,
+        activation: Activation,
+        w: &[f32],
+        b: &[f32],
+    ) -> Self {
+        OwnedLayer {
+            inputs,
+            outputs,
+            activation,
+            weights: f32_bytes(w),
+            bias: f32_bytes(b),
+            quant: None,
+        }
     }
 }
 
@@ -121,7 +152,9 @@ impl OwnedModel {
         let data = self
             .layers
             .iter()
-            .map(|l| super::layout::reorder(self.precision, l.inputs, l.outputs, &l.weights, target))
+            .map(|l| {
+                super::layout::reorder(self.precision, l.inputs, l.outputs, &l.weights, target)
+            })
             .collect::<Result<Vec<_>>>()?;
         let blocked = vec![target == WeightLayout::Blocked4x4; data.len()];
         super::layout::encode_aligned(&data, &blocked, |fields| self.encode_fields(target, fields))
@@ -130,14 +163,24 @@ impl OwnedModel {
     /// Encodes with the given weight fields (already in `target`, alignment bytes included).
     fn encode_fields(&self, target: WeightLayout, fields: &[Vec<u8>]) -> Result<Vec<u8>> {
         if self.layers.len() > MAX_LAYERS {
-            bail!("the model has {} dense layers; the format holds at most {MAX_LAYERS}", self.layers.len());
+            bail!(
+                "the model has {} dense layers; the format holds at most {MAX_LAYERS}",
+                self.layers.len()
+            );
         }
         if let Some(bad) = self.labels.iter().find(|l| l.contains('\n')) {
             bail!("class label {bad:?} contains a line break");
         }
-        let scaler_bytes = self.scaler.as_ref().map(|(o, s)| (f32_bytes(o), f32_bytes(s)));
+        let scaler_bytes = self
+            .scaler
+            .as_ref()
+            .map(|(o, s)| (f32_bytes(o), f32_bytes(s)));
         let iq_bytes = self.input_quant.as_ref().map(|q| {
-            (i32_bytes(&q.int_mult), i64_bytes(&q.int_add), q.int_shift.clone())
+            (
+                i32_bytes(&q.int_mult),
+                i64_bytes(&q.int_add),
+                q.int_shift.clone(),
+            )
         });
         let labels = self.labels.join("\n");
         let mut layers = heapless::Vec::<LayerDesc<'_>, MAX_LAYERS>::new();
@@ -157,23 +200,31 @@ impl OwnedModel {
                     output_zero_point: q.output_zero_point,
                 }),
             };
-            layers.push(desc).map_err(|_| anyhow!("layer {k}: too many layers"))?;
+            layers
+                .push(desc)
+                .map_err(|_| anyhow!("layer {k}: too many layers"))?;
         }
-        let desc = ModelDesc {
-            input_len: wire_u32(self.input_len, "input width")?,
-            precision: self.precision,
-            scaler: scaler_bytes.as_ref().map(|(o, s)| ScalerDesc { offset: o, scale: s }),
-            input_quant: self.input_quant.as_ref().zip(iq_bytes.as_ref()).map(|(q, (m, a, s))| InputQuantDesc {
-                scale: q.scale,
-                zero_point: q.zero_point,
-                int_mult: m,
-                int_add: a,
-                int_shift: s,
-            }),
-            layers,
-            output: self.output,
-            labels: &labels,
-        };
+        let desc =
+            ModelDesc {
+                input_len: wire_u32(self.input_len, "input width")?,
+                precision: self.precision,
+                scaler: scaler_bytes.as_ref().map(|(o, s)| ScalerDesc {
+                    offset: o,
+                    scale: s,
+                }),
+                input_quant: self.input_quant.as_ref().zip(iq_bytes.as_ref()).map(
+                    |(q, (m, a, s))| InputQuantDesc {
+                        scale: q.scale,
+                        zero_point: q.zero_point,
+                        int_mult: m,
+                        int_add: a,
+                        int_shift: s,
+                    },
+                ),
+                layers,
+                output: self.output,
+                labels: &labels,
+            };
         let mut out = vec![0u8; max_encoded_len(&desc)];
         let n = encode(&desc, &mut out).map_err(|e| anyhow!("{e}"))?;
         out.truncate(n);

@@ -34,7 +34,11 @@ pub struct TensorRange {
 
 /// The ranges of tensor 0 (the scaled input) and of each layer's output (after its activation),
 /// over every row of `data`. `float_model` is the f32 pack of the model being quantised.
-pub fn calibrate(float_model: &Model<'_>, data: &Dataset, method: RangeMethod) -> Result<Vec<TensorRange>> {
+pub fn calibrate(
+    float_model: &Model<'_>,
+    data: &Dataset,
+    method: RangeMethod,
+) -> Result<Vec<TensorRange>> {
     if data.rows == 0 {
         bail!("calibration set {} has no rows", data.source);
     }
@@ -77,7 +81,10 @@ fn range_of(mut v: Vec<f32>, method: RangeMethod) -> TensorRange {
                 let rank = ((q / 100.0) * (v.len() - 1) as f64).round() as usize;
                 v.get(rank.min(v.len() - 1)).copied().unwrap_or(0.0)
             };
-            TensorRange { min: at(100.0 - p), max: at(p) }
+            TensorRange {
+                min: at(100.0 - p),
+                max: at(p),
+            }
         }
     }
 }
@@ -89,9 +96,21 @@ mod tests {
     #[test]
     fn min_max_and_percentile_ranges() {
         let v: Vec<f32> = (0..=1000).map(|i| i as f32).collect();
-        assert_eq!(range_of(v.clone(), RangeMethod::MinMax), TensorRange { min: 0.0, max: 1000.0 });
+        assert_eq!(
+            range_of(v.clone(), RangeMethod::MinMax),
+            TensorRange {
+                min: 0.0,
+                max: 1000.0
+            }
+        );
         let r = range_of(v, RangeMethod::Percentile(99.0));
-        assert_eq!(r, TensorRange { min: 10.0, max: 990.0 });
+        assert_eq!(
+            r,
+            TensorRange {
+                min: 10.0,
+                max: 990.0
+            }
+        );
         let mut outlier = vec![1.0f32; 999];
         outlier.push(1e6);
         assert_eq!(range_of(outlier, RangeMethod::Percentile(99.9)).max, 1.0);

@@ -16,9 +16,16 @@ use params::{activation_quant, decompose_multiplier, quantize_weight, weight_sca
 /// Quantises `model` given the calibrated range of each tensor (input, then each layer output).
 pub fn quantise(model: &FloatModel, ranges: &[TensorRange]) -> Result<OwnedModel> {
     if ranges.len() != model.layers.len() + 1 {
-        bail!("internal: {} ranges for {} tensors", ranges.len(), model.layers.len() + 1);
+        bail!(
+            "internal: {} ranges for {} tensors",
+            ranges.len(),
+            model.layers.len() + 1
+        );
     }
-    let q: Vec<AffineQuant> = ranges.iter().map(|r| activation_quant(r.min, r.max)).collect();
+    let q: Vec<AffineQuant> = ranges
+        .iter()
+        .map(|r| activation_quant(r.min, r.max))
+        .collect();
     let mut layers = Vec::with_capacity(model.layers.len());
     for (k, l) in model.layers.iter().enumerate() {
         let (qi, qo) = match (q.get(k), q.get(k + 1)) {
@@ -27,11 +34,17 @@ pub fn quantise(model: &FloatModel, ranges: &[TensorRange]) -> Result<OwnedModel
         };
         layers.push(quantise_layer(k, l, qi, qo)?);
     }
-    let q_in = q.first().copied().ok_or_else(|| anyhow!("internal: no input range"))?;
+    let q_in = q
+        .first()
+        .copied()
+        .ok_or_else(|| anyhow!("internal: no input range"))?;
     Ok(OwnedModel {
         input_len: model.input_len,
         precision: Precision::Int8,
-        scaler: model.scaler.as_ref().map(|s| (s.offset.clone(), s.scale.clone())),
+        scaler: model
+            .scaler
+            .as_ref()
+            .map(|s| (s.offset.clone(), s.scale.clone())),
         input_quant: Some(integer_input(model, q_in)?),
         layers,
         output: model.output,
@@ -39,7 +52,12 @@ pub fn quantise(model: &FloatModel, ranges: &[TensorRange]) -> Result<OwnedModel
     })
 }
 
-fn quantise_layer(k: usize, l: &crate::graph::DenseLayer, qi: AffineQuant, qo: AffineQuant) -> Result<OwnedLayer> {
+fn quantise_layer(
+    k: usize,
+    l: &crate::graph::DenseLayer,
+    qi: AffineQuant,
+    qo: AffineQuant,
+) -> Result<OwnedLayer> {
     let mut w_q = Vec::with_capacity(l.weights.len());
     let mut bias = Vec::with_capacity(l.outputs);
     let mut lq = OwnedLayerQuant {
@@ -83,7 +101,14 @@ fn quantise_layer(k: usize, l: &crate::graph::DenseLayer, qi: AffineQuant, qo: A
         lq.multiplier.push(m);
         lq.shift.push(s);
     }
-    Ok(OwnedLayer::int8(l.inputs, l.outputs, l.activation, &w_q, &bias, lq))
+    Ok(OwnedLayer::int8(
+        l.inputs,
+        l.outputs,
+        l.activation,
+        &w_q,
+        &bias,
+        lq,
+    ))
 }
 
 /// Fixed-point tables for raw integer inputs: `q = round(a·x + b)` with `a = scale / s_in`,
@@ -93,18 +118,29 @@ fn integer_input(model: &FloatModel, q: AffineQuant) -> Result<OwnedInputQuant> 
         Some(s) => (s.offset.clone(), s.scale.clone()),
         None => (vec![0.0], vec![1.0]),
     };
-    let mut t = OwnedInputQuant { scale: q.scale, zero_point: q.zero_point, int_mult: vec![], int_add: vec![], int_shift: vec![] };
+    let mut t = OwnedInputQuant {
+        scale: q.scale,
+        zero_point: q.zero_point,
+        int_mult: vec![],
+        int_add: vec![],
+        int_shift: vec![],
+    };
     for (f, (&off, &sc)) in offset.iter().zip(&scale).enumerate() {
         let a = f64::from(sc) / f64::from(q.scale);
         let b = f64::from(q.zero_point) - f64::from(off) * f64::from(sc) / f64::from(q.scale);
         let mut s = 62u8;
-        while s > 0 && (a.abs() * 2f64.powi(i32::from(s)) > f64::from(i32::MAX) || b.abs() * 2f64.powi(i32::from(s)) > 2f64.powi(61)) {
+        while s > 0
+            && (a.abs() * 2f64.powi(i32::from(s)) > f64::from(i32::MAX)
+                || b.abs() * 2f64.powi(i32::from(s)) > 2f64.powi(61))
+        {
             s -= 1;
         }
         let mult = (a * 2f64.powi(i32::from(s))).round();
         let add = (b * 2f64.powi(i32::from(s))).round();
         if mult.abs() > f64::from(i32::MAX) || add.abs() > 2f64.powi(62) {
-            bail!("feature {f}: scaler factor {sc} cannot be represented on the integer input path");
+            bail!(
+                "feature {f}: scaler factor {sc} cannot be represented on the integer input path"
+            );
         }
         t.int_mult.push(mult as i32);
         t.int_add.push(add as i64);

@@ -20,7 +20,10 @@ pub fn activation_quant(min: f32, max: f32) -> AffineQuant {
     }
     let scale = (hi - lo) / 255.0;
     let zp = (-128.0 - lo / scale).round().clamp(-128.0, 127.0);
-    AffineQuant { scale: scale as f32, zero_point: zp as i8 }
+    AffineQuant {
+        scale: scale as f32,
+        zero_point: zp as i8,
+    }
 }
 
 /// Symmetric per-output-channel weight scale: `max |w| / 127` over the row (1.0 for an all-zero
@@ -36,7 +39,9 @@ pub fn weight_scale(row: &[f32]) -> f32 {
 
 /// Rounds `w / scale` to the nearest int8 (ties to even), clamped to `[-127, 127]`.
 pub fn quantize_weight(w: f32, scale: f32) -> i8 {
-    (f64::from(w) / f64::from(scale)).round_ties_even().clamp(-127.0, 127.0) as i8
+    (f64::from(w) / f64::from(scale))
+        .round_ties_even()
+        .clamp(-127.0, 127.0) as i8
 }
 
 /// Splits a positive real multiplier into the runtime's `(multiplier, shift)`:
@@ -97,7 +102,7 @@ mod tests {
         assert_eq!(decompose_multiplier(0.0), None);
         assert_eq!(decompose_multiplier(f64::NAN), None);
         assert_eq!(decompose_multiplier(1e-12), None); // needs shift 40
-        // Just below 1: the mantissa rounds up to 2^31 and is renormalised.
+                                                       // Just below 1: the mantissa rounds up to 2^31 and is renormalised.
         assert_eq!(decompose_multiplier(1.0 - 1e-12), Some((1 << 30, -1)));
     }
 }

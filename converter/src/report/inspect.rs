@@ -108,7 +108,10 @@ impl BlobReport {
                     Precision::F32 => &super::cycles::F32,
                 },
                 model.input_len(),
-                &model.layers().map(|l| (l.desc.inputs as usize, l.desc.outputs as usize)).collect::<Vec<_>>(),
+                &model
+                    .layers()
+                    .map(|l| (l.desc.inputs as usize, l.desc.outputs as usize))
+                    .collect::<Vec<_>>(),
             ),
             flash_bytes: model.blob_bytes(),
             arena_bytes: model.arena_bytes(),

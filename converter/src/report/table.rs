@@ -9,15 +9,30 @@ fn quant(q: Option<(f32, i8)>) -> String {
 
 /// The cycle estimate line: instruction counts from measured rates, an estimate.
 fn cycles(r: &BlobReport) -> String {
-    let parts: Vec<String> = r.cycle_estimate.iter().map(|c| format!("{}: ~{}", c.target, c.instructions)).collect();
-    format!("{} (estimate from instruction counts under QEMU; see BENCHMARKS.md)", parts.join(", "))
+    let parts: Vec<String> = r
+        .cycle_estimate
+        .iter()
+        .map(|c| format!("{}: ~{}", c.target, c.instructions))
+        .collect();
+    format!(
+        "{} (estimate from instruction counts under QEMU; see BENCHMARKS.md)",
+        parts.join(", ")
+    )
 }
 
 /// Renders the report as text.
 pub fn render(r: &BlobReport) -> String {
     let mut t = Table::new();
     t.load_preset(UTF8_BORDERS_ONLY);
-    t.set_header(["layer", "shape", "activation", "parameters", "MACs", "bytes", "output quant"]);
+    t.set_header([
+        "layer",
+        "shape",
+        "activation",
+        "parameters",
+        "MACs",
+        "bytes",
+        "output quant",
+    ]);
     for l in &r.layers {
         t.add_row(vec![
             Cell::new(l.layer).set_alignment(CellAlignment::Right),
@@ -29,10 +44,22 @@ pub fn render(r: &BlobReport) -> String {
             Cell::new(quant(l.output_quant)),
         ]);
     }
-    let labels = if r.labels.is_empty() { "(none)".to_string() } else { r.labels.join(", ") };
+    let labels = if r.labels.is_empty() {
+        "(none)".to_string()
+    } else {
+        r.labels.join(", ")
+    };
     let lines = [
         ("precision", r.precision.clone()),
-        ("input", format!("{} features, scaler: {}, quant: {}", r.inputs, r.scaler, quant(r.input_quant))),
+        (
+            "input",
+            format!(
+                "{} features, scaler: {}, quant: {}",
+                r.inputs,
+                r.scaler,
+                quant(r.input_quant)
+            ),
+        ),
         ("output", format!("{} over {} classes", r.output, r.classes)),
         ("classes", labels),
         ("parameters", r.parameters.to_string()),
