@@ -49,7 +49,12 @@ fuzz_target!(|data: &[u8]| {
         0 => {
             let v: Vec<f32> = (0..count)
                 .map(|i| {
-                    f32::from_le_bytes([byte(4 * i), byte(4 * i + 1), byte(4 * i + 2), byte(4 * i + 3)])
+                    f32::from_le_bytes([
+                        byte(4 * i),
+                        byte(4 * i + 1),
+                        byte(4 * i + 2),
+                        byte(4 * i + 3),
+                    ])
                 })
                 .collect();
             oracle::run_checked(&model, Input::F32(&v), arena, scores);

@@ -66,7 +66,14 @@ fuzz_target!(|data: &[u8]| {
     match kind {
         0 => {
             let v: Vec<f32> = (0..n)
-                .map(|i| f32::from_le_bytes([byte(4 * i), byte(4 * i + 1), byte(4 * i + 2), byte(4 * i + 3)]))
+                .map(|i| {
+                    f32::from_le_bytes([
+                        byte(4 * i),
+                        byte(4 * i + 1),
+                        byte(4 * i + 2),
+                        byte(4 * i + 3),
+                    ])
+                })
                 .collect();
             oracle::run_checked(&model, Input::F32(&v), a, s);
         }

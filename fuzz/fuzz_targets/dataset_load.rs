@@ -44,9 +44,16 @@ fuzz_target!(|data: &[u8]| {
         return;
     };
     let check = |d: &kinglet_converter::dataset::Dataset| {
-        assert_eq!(d.features.len(), d.rows * d.width, "ragged dataset accepted");
+        assert_eq!(
+            d.features.len(),
+            d.rows * d.width,
+            "ragged dataset accepted"
+        );
         assert!(d.rows > 0 && d.width > 0, "empty dataset accepted");
-        assert!(d.features.iter().all(|v| v.is_finite()), "non-finite feature accepted");
+        assert!(
+            d.features.iter().all(|v| v.is_finite()),
+            "non-finite feature accepted"
+        );
         if let Some(l) = &d.labels {
             assert_eq!(l.len(), d.rows);
         }
@@ -59,10 +66,22 @@ fuzz_target!(|data: &[u8]| {
             }
             let opts = match s {
                 0 => CsvOptions::default(),
-                1 => CsvOptions { label: Some(LabelColumn::Index(0)), has_header: None },
-                2 => CsvOptions { label: Some(LabelColumn::Name("label".into())), has_header: None },
-                3 => CsvOptions { label: Some(LabelColumn::Index(2)), has_header: Some(false) },
-                _ => CsvOptions { label: None, has_header: Some(true) },
+                1 => CsvOptions {
+                    label: Some(LabelColumn::Index(0)),
+                    has_header: None,
+                },
+                2 => CsvOptions {
+                    label: Some(LabelColumn::Name("label".into())),
+                    has_header: None,
+                },
+                3 => CsvOptions {
+                    label: Some(LabelColumn::Index(2)),
+                    has_header: Some(false),
+                },
+                _ => CsvOptions {
+                    label: None,
+                    has_header: Some(true),
+                },
             };
             if let Ok(d) = load_csv(&p, &opts) {
                 check(&d);
@@ -85,7 +104,10 @@ fuzz_target!(|data: &[u8]| {
             if let Ok(s) = parse_scaler_json(text) {
                 assert!(!s.offset.is_empty() && !s.scale.is_empty());
                 assert!(s.offset.iter().chain(&s.scale).all(|v| v.is_finite()));
-                assert!(s.scale.iter().all(|&v| v != 0.0), "zero scale accepted: {s:?}");
+                assert!(
+                    s.scale.iter().all(|&v| v != 0.0),
+                    "zero scale accepted: {s:?}"
+                );
                 let mut m = three_inputs();
                 if attach_scaler(&mut m, s).is_ok() {
                     kinglet_fuzz::convert::pack_and_run(&m, body);

@@ -22,9 +22,16 @@ fn npy(descr: &str, shape: &str, payload: &[u8]) -> Vec<u8> {
 fn dir() -> &'static PathBuf {
     static DIR: OnceLock<PathBuf> = OnceLock::new();
     DIR.get_or_init(|| {
-        let d = tempfile::tempdir().map(|t| t.keep()).unwrap_or_else(|_| std::env::temp_dir());
-        let w: Vec<u8> = (0..12).flat_map(|i| (i as f32 * 0.25 - 1.0).to_le_bytes()).collect();
-        let b: Vec<u8> = [0.5f64, -0.5, 0.0].iter().flat_map(|x| x.to_le_bytes()).collect();
+        let d = tempfile::tempdir()
+            .map(|t| t.keep())
+            .unwrap_or_else(|_| std::env::temp_dir());
+        let w: Vec<u8> = (0..12)
+            .flat_map(|i| (i as f32 * 0.25 - 1.0).to_le_bytes())
+            .collect();
+        let b: Vec<u8> = [0.5f64, -0.5, 0.0]
+            .iter()
+            .flat_map(|x| x.to_le_bytes())
+            .collect();
         let _ = std::fs::write(d.join("w.npy"), npy("<f4", "(4, 3)", &w));
         let _ = std::fs::write(d.join("b.npy"), npy("<f8", "(3,)", &b));
         let _ = std::fs::write(d.join("i.npy"), npy("|i1", "(2, 2)", &[1, 2, 0xff, 0x80]));

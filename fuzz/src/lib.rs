@@ -6,14 +6,17 @@ pub mod mutate;
 pub mod oracle;
 pub mod owned;
 
-use kinglet_runtime::format::{Activation, OutputKind, Precision};
+use kinglet_runtime::format::{Activation, OutputKind, Precision, WeightLayout};
 use owned::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 
-/// Real packed blobs (`kinglet pack` of `examples/vibration` and `examples/digits`).
-pub const BASE_BLOBS: [&[u8]; 3] = [
+/// Real packed blobs (`kinglet pack` of `examples/vibration` and `examples/digits`): three in
+/// format version 1 (output-major weights), two in version 2 (Blocked4x4 weights).
+pub const BASE_BLOBS: [&[u8]; 5] = [
     include_bytes!("../bases/vib.int8.kgl"),
     include_bytes!("../bases/vib.f32.kgl"),
     include_bytes!("../bases/digits.int8.kgl"),
+    include_bytes!("../bases/vib.int8.v2.kgl"),
+    include_bytes!("../bases/vib.f32.v2.kgl"),
 ];
 
 fn le<T: Copy, const N: usize>(v: &[T], f: impl Fn(T) -> [u8; N]) -> Vec<u8> {
@@ -48,6 +51,7 @@ pub fn tiny_int8() -> OwnedModel {
                 inputs: 3,
                 outputs: 4,
                 activation: Activation::Relu,
+                layout: WeightLayout::OutputMajor,
                 weights: le(&[1i8, -2, 3, 127, -128, 0, 5, 5, 5, -1, -1, -1], |x| {
                     [x as u8]
                 }),
@@ -58,6 +62,7 @@ pub fn tiny_int8() -> OwnedModel {
                 inputs: 4,
                 outputs: 2,
                 activation: Activation::Linear,
+                layout: WeightLayout::OutputMajor,
                 weights: le(&[1i8, 2, 3, 4, -4, -3, -2, -1], |x| [x as u8]),
                 bias: le(&[0i32, 7], i32::to_le_bytes),
                 quant: Some(q(2, 2)),
@@ -80,6 +85,7 @@ pub fn tiny_f32() -> OwnedModel {
                 inputs: 2,
                 outputs: 3,
                 activation: Activation::Relu,
+                layout: WeightLayout::OutputMajor,
                 weights: le(&[1.0f32, -1.0, 0.5, 0.5, -2.0, 1.0], f32::to_le_bytes),
                 bias: le(&[0.0f32, 0.1, 0.2], f32::to_le_bytes),
                 quant: None,
@@ -88,6 +94,7 @@ pub fn tiny_f32() -> OwnedModel {
                 inputs: 3,
                 outputs: 1,
                 activation: Activation::Linear,
+                layout: WeightLayout::OutputMajor,
                 weights: le(&[1.0f32, 2.0, -1.0], f32::to_le_bytes),
                 bias: le(&[-0.5f32], f32::to_le_bytes),
                 quant: None,
@@ -101,16 +108,14 @@ pub fn tiny_f32() -> OwnedModel {
 /// Base model `i` (wrapping): the real blobs first, then the two synthetic ones.
 pub fn base(i: usize) -> OwnedModel {
     let n = BASE_BLOBS.len() + 2;
-    match i % n {
-        0..=2 => {
-            let blob = BASE_BLOBS[i % n];
-            match kinglet_runtime::Model::parse(blob) {
-                Ok(m) => OwnedModel::from_desc(m.desc()),
-                Err(e) => panic!("base blob {i} no longer parses: {e}"),
-            }
-        }
-        3 => tiny_int8(),
-        _ => tiny_f32(),
+    let k = i % n;
+    match BASE_BLOBS.get(k) {
+        Some(blob) => match kinglet_runtime::Model::parse(blob) {
+            Ok(m) => OwnedModel::from_desc(m.desc()),
+            Err(e) => panic!("base blob {k} no longer parses: {e}"),
+        },
+        None if k == BASE_BLOBS.len() => tiny_int8(),
+        None => tiny_f32(),
     }
 }
 

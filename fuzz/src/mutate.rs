@@ -3,7 +3,7 @@
 //! bound, a multiplier at the edge of its range) so that validation is exercised rule by rule
 //! and accepted tables reach inference.
 use arbitrary::{Result, Unstructured};
-use kinglet_runtime::format::{Activation, OutputKind, Precision};
+use kinglet_runtime::format::{Activation, OutputKind, Precision, WeightLayout};
 
 use crate::owned::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 
@@ -143,7 +143,8 @@ pub fn reshape(m: &mut OwnedModel, k: Option<usize>, w: u32) {
                 let d = default_quant(wu);
                 let keep = q.shift.len().min(wu);
                 q.weight_scale.truncate(4 * keep);
-                q.weight_scale.extend_from_slice(&d.weight_scale[4 * keep..]);
+                q.weight_scale
+                    .extend_from_slice(&d.weight_scale[4 * keep..]);
                 q.multiplier.truncate(4 * keep);
                 q.multiplier.extend_from_slice(&d.multiplier[4 * keep..]);
                 q.shift.truncate(keep);
@@ -152,7 +153,11 @@ pub fn reshape(m: &mut OwnedModel, k: Option<usize>, w: u32) {
             k + 1
         }
     };
-    if let Some(l) = m.layers.get_mut(next).filter(|l| l.outputs <= MAX_EDIT_WIDTH) {
+    if let Some(l) = m
+        .layers
+        .get_mut(next)
+        .filter(|l| l.outputs <= MAX_EDIT_WIDTH)
+    {
         // Re-lay the weights row by row so each row keeps its first values.
         let old_in = l.inputs as usize;
         let rows = l.outputs as usize;
@@ -183,7 +188,10 @@ fn bias_at_bound(m: &mut OwnedModel, k: usize, c: usize, delta: i64, negative: b
     }
     let c = c % rows;
     let row = l.weights.get(c * inputs..(c + 1) * inputs).unwrap_or(&[]);
-    let sum: i64 = row.iter().map(|&w| i64::from((w as i8).unsigned_abs())).sum();
+    let sum: i64 = row
+        .iter()
+        .map(|&w| i64::from((w as i8).unsigned_abs()))
+        .sum();
     let b = (i64::from(i32::MAX) - 128 * sum + delta).clamp(0, i64::from(i32::MAX));
     let b = if negative { -b } else { b } as i32;
     set_elem(&mut l.bias, c, b.to_le_bytes());
@@ -314,6 +322,7 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
                     inputs: w,
                     outputs: w,
                     activation: Activation::Relu,
+                    layout: WeightLayout::OutputMajor,
                     weights: vec![0; (w * w) as usize * eb],
                     bias: vec![0; 4 * w as usize],
                     quant: l.quant.as_ref().map(|_| default_quant(w as usize)),
@@ -333,7 +342,10 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
         }
         25 => {
             let n = u.int_in_range(0..=12)?;
-            m.labels = (0..n).map(|i| format!("c{i}")).collect::<Vec<_>>().join("\n");
+            m.labels = (0..n)
+                .map(|i| format!("c{i}"))
+                .collect::<Vec<_>>()
+                .join("\n");
         }
         26 => m.labels = u.arbitrary::<String>()?,
         27 => {
@@ -369,17 +381,21 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
                 }
             }
         }
+        29 => {
+            // Flip a layer's weight layout (the bytes stay: mostly a length or range fault).
+            if let Some(l) = m.layers.get_mut(u.choose_index(nl)?) {
+                l.layout = match l.layout {
+                    WeightLayout::OutputMajor => WeightLayout::Blocked4x4,
+                    _ => WeightLayout::OutputMajor,
+                };
+            }
+        }
         _ => {}
     }
     Ok(())
 }
 
-fn mutate_layer(
-    l: &mut OwnedLayer,
-    op: u8,
-    u: &mut Unstructured<'_>,
-    p: Precision,
-) -> Result<()> {
+fn mutate_layer(l: &mut OwnedLayer, op: u8, u: &mut Unstructured<'_>, p: Precision) -> Result<()> {
     match op {
         0 => {
             l.activation = if l.activation == Activation::Relu {
@@ -407,7 +423,8 @@ fn mutate_layer(
         3 => {
             let n = l.weights.len();
             let d: i8 = u.int_in_range(-5..=5)?;
-            l.weights.resize((n as i64 + i64::from(d)).max(0) as usize, 0);
+            l.weights
+                .resize((n as i64 + i64::from(d)).max(0) as usize, 0);
         }
         4 => {
             let n = l.bias.len();
@@ -416,7 +433,11 @@ fn mutate_layer(
         }
         5 => {
             if let Some(q) = &mut l.quant {
-                set_elem(&mut q.multiplier, u.arbitrary()?, pick_i32(u)?.to_le_bytes());
+                set_elem(
+                    &mut q.multiplier,
+                    u.arbitrary()?,
+                    pick_i32(u)?.to_le_bytes(),
+                );
             }
         }
         6 => {
@@ -427,7 +448,11 @@ fn mutate_layer(
         }
         7 => {
             if let Some(q) = &mut l.quant {
-                set_elem(&mut q.weight_scale, u.arbitrary()?, pick_f32(u)?.to_le_bytes());
+                set_elem(
+                    &mut q.weight_scale,
+                    u.arbitrary()?,
+                    pick_f32(u)?.to_le_bytes(),
+                );
             }
         }
         8 => {
@@ -445,7 +470,9 @@ fn mutate_layer(
                 match u.int_in_range(0..=2)? {
                     0 => q.shift.pop().map(drop).unwrap_or(()),
                     1 => q.multiplier.push(0),
-                    _ => q.weight_scale.truncate(q.weight_scale.len().saturating_sub(4)),
+                    _ => q
+                        .weight_scale
+                        .truncate(q.weight_scale.len().saturating_sub(4)),
                 }
             } else {
                 l.quant = Some(default_quant(l.outputs as usize));

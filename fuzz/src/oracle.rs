@@ -58,7 +58,12 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores
                 s.iter().all(|v| v.is_finite()),
                 "non-finite scores {s:?} from an accepted model"
             );
-            assert!(p.class < model.classes(), "class {} of {}", p.class, model.classes());
+            assert!(
+                p.class < model.classes(),
+                "class {} of {}",
+                p.class,
+                model.classes()
+            );
             assert!(p.score.is_finite());
             match model.desc().output {
                 OutputKind::Softmax => {

@@ -32,6 +32,8 @@ pub struct OwnedLayer {
     pub outputs: u32,
     /// Activation.
     pub activation: Activation,
+    /// Order of the weights.
+    pub layout: WeightLayout,
     /// Weights (i8 or f32 LE).
     pub weights: Vec<u8>,
     /// Bias (i32 or f32 LE).
@@ -95,6 +97,7 @@ impl OwnedModel {
                     inputs: l.inputs,
                     outputs: l.outputs,
                     activation: l.activation,
+                    layout: l.layout,
                     weights: l.weights.to_vec(),
                     bias: l.bias.to_vec(),
                     quant: l.quant.map(|q| OwnedQuant {
@@ -119,7 +122,7 @@ impl OwnedModel {
                 inputs: l.inputs,
                 outputs: l.outputs,
                 activation: l.activation,
-                layout: WeightLayout::OutputMajor,
+                layout: l.layout,
                 weights: &l.weights,
                 bias: &l.bias,
                 quant: l.quant.as_ref().map(|q| LayerQuantDesc {
