@@ -4,14 +4,14 @@
 # inputs. Needs the nightly toolchain and cargo-fuzz; says SKIPPED and exits 0 without them
 # (KINGLET_FUZZ_INSTALL=1 installs cargo-fuzz first; KINGLET_REQUIRE_FUZZ=1 makes a skip an error).
 #
-#   scripts/fuzz-smoke.sh [SECONDS_PER_TARGET]    (default 15; env FUZZ_SECONDS as well)
+#   scripts/fuzz-smoke.sh [SECONDS_PER_TARGET]    (default 10; env FUZZ_SECONDS as well)
 #
 # Built without AddressSanitizer (the code under test is safe Rust; a panic, an overflow caught
 # by debug assertions, a time-out or a memory blow-up is what a smoke run looks for) so that the
 # build fits in CI's budget. Long campaigns: see fuzz/README.md.
 set -euo pipefail
 cd "$(dirname "$0")/.."
-secs="${1:-${FUZZ_SECONDS:-15}}"
+secs="${1:-${FUZZ_SECONDS:-10}}"
 targets=(blob_infer blob_mutate onnx_import plain_import dataset_load)
 skip() {
     echo "fuzz-smoke: SKIPPED: $*"
