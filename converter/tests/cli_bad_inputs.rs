@@ -786,3 +786,24 @@ fn c49_failed_pack_keeps_an_existing_output() {
     );
     assert_eq!(c.read("m.kgl"), before);
 }
+
+#[test]
+fn c50_vet_labels_out_of_range() {
+    // `kinglet vet` (its own bad inputs are in cli_vet.rs): a label the 2-class model does not
+    // have, on data row 2.
+    let c = Case::new().packed("m.kgl").with("labels_out_of_range.csv");
+    let out = c.run(&["pack", "model_2in.json", "--float", "-o", "m.f32.kgl"]);
+    assert_eq!(out.status.code(), Some(0));
+    c.fails(
+        &[
+            "vet",
+            "m.f32.kgl",
+            "m.kgl",
+            "--data",
+            "labels_out_of_range.csv",
+            "--label",
+            "label",
+        ],
+        &["labels_out_of_range.csv", "data row 2", "\"5\""],
+    );
+}
