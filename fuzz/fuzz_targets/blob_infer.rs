@@ -3,7 +3,8 @@
 //! Input layout: `flags, arena_lo, arena_hi, kind, scores, count, vlen_lo, vlen_hi`, then
 //! `vlen` bytes of input values, then the blob. Flag bit 0 reseals the header (total length and
 //! CRC made right, so byte mutations reach the layer table), bit 1 uses the model's own arena
-//! size, bit 2 its own score count. `count` 0 means the model's input width; the value bytes are
+//! size, bit 2 its own score count, bit 3 runs the extreme inputs too, bit 4 renders the
+//! `kinglet inspect` report. `count` 0 means the model's input width; the value bytes are
 //! repeated to fill the input.
 #![no_main]
 use kinglet_fuzz::{oracle, owned};
@@ -30,6 +31,12 @@ fuzz_target!(|data: &[u8]| {
     // Everything the header promises agrees with the parsed model.
     assert_eq!(kinglet_runtime::arena_bytes(&blob), model.arena_bytes());
     assert_eq!(kinglet_runtime::blob_len(&blob), blob.len());
+    // `kinglet inspect` reports on any blob the reader accepts (table and JSON).
+    if flags & 16 != 0 {
+        let report = kinglet_converter::report::BlobReport::of(&model);
+        assert!(!kinglet_converter::report::table::render(&report).is_empty());
+        assert!(serde_json::to_string(&report).is_ok());
+    }
     let arena = if flags & 2 != 0 {
         model.arena_bytes()
     } else {
