@@ -78,7 +78,10 @@ static void on_translate(qemu_plugin_id_t id, struct qemu_plugin_tb *tb) {
     size_t n = qemu_plugin_tb_n_insns(tb);
     for (size_t i = 0; i < n; i++) {
         struct qemu_plugin_insn *insn = qemu_plugin_tb_get_insn(tb, i);
-        if (qemu_plugin_insn_size(insn) == 2) {
+        /* `>= 2`, not `== 2`: QEMU 7.2 reports a 16-bit Thumb instruction in the last halfword
+         * before a page boundary as 4 bytes long (it took the next halfword for the second half
+         * of a 32-bit one). 0x46xx is never the first halfword of a 32-bit instruction. */
+        if (qemu_plugin_insn_size(insn) >= 2) {
             const uint8_t *b = qemu_plugin_insn_data(insn);
             unsigned op = (unsigned)b[0] | ((unsigned)b[1] << 8);
             if (op == MARK_START)

@@ -28,7 +28,7 @@
 //! requantisation after Jacob et al., 2018), [`output`] (softmax, sigmoid, argmax) and
 //! [`arena`] (buffer planning).
 #![cfg_attr(not(test), no_std)]
-// `deny`, not `forbid`: the Cortex-M4 kernels (`dense::dsp`, the one module with `asm!`)
+// `deny`, not `forbid`: the Cortex-M kernels (`dense::asm`, the one module with `asm!`)
 // allow it locally.
 #![deny(unsafe_code)]
 #![deny(missing_docs)]

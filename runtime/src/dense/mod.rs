@@ -8,24 +8,27 @@
 //!
 //! | target | int8 | f32 |
 //! |---|---|---|
-//! | `thumbv7em-*` (Cortex-M4/M7) | [`dsp`]: `SMLAD` on `SXTB16`/`UXTB16`-unpacked pairs, 4 rows per pass | `eabihf`: [`dsp`] `VLDM`/`VMLA` (not fused); else portable |
-//! | `thumbv6m-*`, `thumbv7m-*`, `thumbv8m.base-*` (Cortex-M0/M0+/M3/M23) | [`m0`]: unrolled byte loads and `MULS`, 4 rows per pass | portable |
+//! | `thumbv7em-*` (Cortex-M4/M7) | `asm::m4`: `SMLAD` on `SXTB16`/`UXTB16`-unpacked pairs, 4 rows per pass | `eabihf`: `asm::m4` `VLDM`/`VMLA` (not fused); else portable |
+//! | `thumbv6m-*`, `thumbv7m-*`, `thumbv8m.base-*` (Cortex-M0/M0+/M3/M23) | `asm::m0`: unrolled byte loads and `MULS`, accumulators in high registers, 4 rows per pass | portable |
 //! | anything else | portable | portable |
 //!
-//! [`m0`] is plain safe Rust and compiled everywhere, so the host tests run it too.
+//! All `asm!` lives in `asm` (only compiled for those targets). [`m0`] is the same Armv6-M
+//! kernel shape in plain safe Rust, compiled everywhere, so the host tests run it and the
+//! shared block loop (`fixed::blocks_i8`) too.
 //! Setting `KINGLET_KERNEL=portable` when building forces the portable kernels. Every kernel
 //! gives bit-identical outputs to the portable one (`runtime/tests/kernels_prop.rs` on the host,
-//! and the on-target self-check of `kernel-bench/`). The fast kernels for
-//! [`dsp`] need the weight data 4-byte aligned; the packer aligns it within the blob, so a blob
+//! and the on-target self-check of `kernel-bench/`). The fast kernels of
+//! `asm::m4` need the weight data 4-byte aligned; the packer aligns it within the blob, so a blob
 //! placed at a 4-byte aligned address gets them, and any other falls back to a slower kernel
 //! with the same results.
 pub mod fixed;
 pub mod layout;
 pub mod portable;
 
-#[cfg(kinglet_kernel = "dsp")]
+/// The `asm!` kernels; the crate's only module where `unsafe` is allowed.
+#[cfg(any(kinglet_kernel = "dsp", kinglet_kernel = "m0"))]
 #[allow(unsafe_code)]
-pub mod dsp;
+pub mod asm;
 
 pub mod m0;
 
@@ -66,9 +69,9 @@ pub const KERNEL: &str = if cfg!(kinglet_kernel = "dsp") {
 #[inline]
 pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     #[cfg(kinglet_kernel = "dsp")]
-    return dsp::dense_i8_blocked(p, input, output);
+    return asm::m4::dense_i8_blocked(p, input, output);
     #[cfg(kinglet_kernel = "m0")]
-    return m0::dense_i8_blocked(p, input, output);
+    return asm::m0::dense_i8_blocked(p, input, output);
     #[allow(unreachable_code)]
     portable::dense_i8_blocked(p, input, output)
 }
@@ -85,7 +88,7 @@ pub fn dense_f32_blocked(
     output: &mut [u8],
 ) {
     #[cfg(all(kinglet_kernel = "dsp", kinglet_fpu))]
-    return dsp::dense_f32_blocked(inputs, weights, bias, relu, input, output);
+    return asm::m4::dense_f32_blocked(inputs, weights, bias, relu, input, output);
     #[allow(unreachable_code)]
     portable::dense_f32_blocked(inputs, weights, bias, relu, input, output)
 }

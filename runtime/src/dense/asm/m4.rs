@@ -1,36 +1,10 @@
 //! Kernels for Cortex-M4/M7 (Armv7E-M with the DSP extension), and the FPU f32 kernel for the
-//! hard-float targets. This is the runtime's only module with `unsafe` code.
-//!
-//! # Why `unsafe`
-//!
-//! The dual 16-bit multiply-accumulate `SMLAD` and the byte unpacking `SXTB16`/`UXTB16` have
-//! no stable Rust intrinsics (the ACLE intrinsics in `core::arch::arm` are unstable), and the
-//! compiler does not find them on its own; `VMLA` (non-fused multiply-accumulate) likewise. So
-//! the inner loops are written with `asm!`, which is `unsafe`.
-//!
-//! # Invariants the `asm!` blocks rely on
-//!
-//! Every block reads memory only, never writes it, and stays inside the two slices it is given:
-//! - the weight pointer walks `n` groups of 16 elements (16 bytes int8, 64 bytes f32) and the
-//!   input pointer `n` groups of 4 elements, where `n` is the smaller of the two slices' group
-//!   counts, computed in safe code right before the block; the block is skipped when `n` is 0;
-//! - `LDM`/`VLDM` (which fault on unaligned addresses) are only used when the weight pointer is
-//!   4-byte aligned, checked in safe code; otherwise int8 uses `LDR` (unaligned loads are
-//!   architecturally allowed on Armv7-M with the reset value of `CCR.UNALIGN_TRP`) and f32 the
-//!   portable kernel;
-//! - inputs are read with `LDR`, so their alignment does not matter;
-//! - every register the block writes is declared as an output or clobber, except the FPU
-//!   registers, which the block saves and restores itself (`VPUSH`/`VPOP`: `s`-register
-//!   operands need a double-precision FPU in `asm!`, which a Cortex-M4F does not have).
-//!
-//! The accumulation is exact integer arithmetic modulo 2^32 (int8) and the same sequence of
-//! rounded multiplies and adds per row as the portable kernel (f32), so the results are
-//! bit-identical to [`super::portable`].
+//! hard-float targets. See [`super`] for why they are `asm!` and the invariants they keep.
 use core::arch::asm;
 
-use super::layout::{self, BLOCK_ROWS, GROUP, GROUP_ELEMS};
-use super::portable::{excess_correction, finish_block, group_i8, row_params};
-use super::DenseI8;
+use crate::dense::fixed::blocks_i8;
+use crate::dense::layout::{self, BLOCK_ROWS, GROUP, GROUP_ELEMS};
+use crate::dense::DenseI8;
 
 /// One 4-input group for 4 rows. `$load` loads the next two rows' weight words into r4, r5.
 macro_rules! group_i8 {
@@ -78,14 +52,14 @@ macro_rules! loop_i8 {
     };
 }
 
-/// Adds the full groups of one block (`w`, excess-128 weights) times `x` into `acc`.
+/// The full groups of one block (`w`, excess-128 weights) times `x`: the 4 accumulators.
 #[inline(always)]
-fn groups_i8(w: &[[u8; GROUP_ELEMS]], x: &[[u8; GROUP]], acc: &mut [i32; BLOCK_ROWS]) {
+fn groups_i8(w: &[[u8; GROUP_ELEMS]], x: &[[u8; GROUP]]) -> [i32; BLOCK_ROWS] {
     let n = w.len().min(x.len());
+    let [mut a0, mut a1, mut a2, mut a3] = [0i32; BLOCK_ROWS];
     if n == 0 {
-        return;
+        return [a0, a1, a2, a3];
     }
-    let [mut a0, mut a1, mut a2, mut a3] = *acc;
     let (wp, xp) = (w.as_ptr(), x.as_ptr());
     if (wp as usize).is_multiple_of(4) {
         // SAFETY: see the module documentation: `n` groups of both slices, aligned for LDM.
@@ -110,35 +84,51 @@ fn groups_i8(w: &[[u8; GROUP_ELEMS]], x: &[[u8; GROUP]], acc: &mut [i32; BLOCK_R
             );
         }
     }
-    *acc = [a0, a1, a2, a3];
+    [a0, a1, a2, a3]
+}
+
+/// `128 · Σ x` over the first `n` inputs, as [`crate::dense::portable::excess_correction`]:
+/// `USADA8` adds the 4 bytes of a word flipped to excess-128 (`x + 128`).
+#[inline(always)]
+fn excess_correction(input: &[u8], n: usize) -> i32 {
+    let x = input.get(..n).unwrap_or(input);
+    let (words, rest) = x.as_chunks::<4>();
+    let mut sum = rest.iter().map(|&v| i32::from(v as i8)).sum::<i32>();
+    let k = words.len();
+    if k > 0 {
+        let mut s = 0i32;
+        // SAFETY: see the module documentation of `super`: `k ≥ 1` words of `words`, read with
+        // unaligned-capable LDR.
+        unsafe {
+            asm!(
+                "add {end}, {p}, {k}, lsl #2",
+                "1:",
+                "ldr {t}, [{p}], #4",
+                "eor {t}, {t}, #0x80808080",
+                "usada8 {s}, {t}, {zero}, {s}",
+                "cmp {p}, {end}",
+                "bne 1b",
+                p = inout(reg) words.as_ptr() => _,
+                k = in(reg) k,
+                end = out(reg) _,
+                t = out(reg) _,
+                s = inout(reg) s,
+                zero = in(reg) 0u32,
+                options(readonly, nostack),
+            );
+        }
+        sum = sum
+            .wrapping_add(s)
+            .wrapping_sub((k as i32).wrapping_mul(512));
+    }
+    sum.wrapping_mul(128)
 }
 
 /// Runs an int8 dense layer with `Blocked4x4` weights; the same results as
-/// [`super::portable::dense_i8_blocked`].
+/// [`crate::dense::portable::dense_i8_blocked`].
 pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
-    let n = p.inputs;
-    let Some((_, data)) = layout::split(p.weights, n, output.len(), 1) else {
-        return;
-    };
-    let x = input.get(..n).unwrap_or(&[]);
-    let (full, tail) = x.as_chunks::<GROUP>();
-    let correction = excess_correction(x, n);
-    let mut params = row_params(p);
-    let block_len = layout::padded(n) * BLOCK_ROWS;
-    for (block, out) in data
-        .chunks_exact(block_len.max(1))
-        // `&mut`: zipping the plain `ChunksMut` takes core's random-access `Zip::new`, which is
-        // not inlined here and keeps a division-by-zero panic path (scripts/no-panic-check.sh).
-        .zip(&mut output.chunks_mut(BLOCK_ROWS))
-    {
-        let groups = block.as_chunks::<GROUP_ELEMS>().0;
-        let mut acc = [0i32; BLOCK_ROWS];
-        groups_i8(groups, full, &mut acc);
-        if let Some(g) = groups.get(full.len()) {
-            group_i8(g, tail, &mut acc);
-        }
-        finish_block(p, acc, correction, &mut params, out);
-    }
+    let correction = excess_correction(input, p.inputs);
+    blocks_i8(p, input, output, correction, groups_i8);
 }
 
 /// One f32 group: 4 inputs (loaded into s4-s7 by `$x`), 16 weights into s8-s23, 16 `VMLA`.
@@ -225,7 +215,7 @@ fn groups_f32(w: &[[u8; GROUP_ELEMS * 4]], x: &[[u8; GROUP * 4]], acc: &mut [f32
 }
 
 /// Runs an f32 dense layer with `Blocked4x4` weights; the same results as
-/// [`super::portable::dense_f32_blocked`]. Falls back to it when the weight data is not 4-byte
+/// [`crate::dense::portable::dense_f32_blocked`]. Falls back to it when the weight data is not 4-byte
 /// aligned.
 #[cfg(kinglet_fpu)]
 pub fn dense_f32_blocked(
@@ -242,7 +232,9 @@ pub fn dense_f32_blocked(
         return;
     };
     if !(data.as_ptr() as usize).is_multiple_of(4) {
-        return super::portable::dense_f32_blocked(inputs, weights, bias, relu, input, output);
+        return crate::dense::portable::dense_f32_blocked(
+            inputs, weights, bias, relu, input, output,
+        );
     }
     let x = input.get(..n * 4).unwrap_or(&[]);
     let (full, tail) = x.as_chunks::<{ GROUP * 4 }>();
