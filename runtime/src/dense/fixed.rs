@@ -91,39 +91,35 @@ pub(crate) fn blocks_i8(
     };
     let x = input.get(..n).unwrap_or(&[]);
     let (full, tail) = x.as_chunks::<GROUP>();
-    let accumulate = |block: &[u8]| {
+    let (bias, bias_rest) = p.bias.as_chunks::<16>();
+    let (mult, mult_rest) = p.multiplier.as_chunks::<16>();
+    let (shift, shift_rest) = p.shift.as_chunks::<4>();
+    let mut params = bias.iter().zip(mult).zip(shift);
+    // The parameters of a last block of fewer than 4 rows, zero-padded (once per layer).
+    let last = (padded(bias_rest), padded(mult_rest), padded(shift_rest));
+    for (block, out) in data
+        .chunks_exact((layout::padded(n) * BLOCK_ROWS).max(1))
+        // `&mut`: zipping the plain `ChunksMut` takes core's random-access `Zip::new`, which is
+        // not inlined here and keeps a division-by-zero panic path (scripts/no-panic-check.sh).
+        .zip(&mut output.chunks_mut(BLOCK_ROWS))
+    {
         let g = block.as_chunks::<GROUP_ELEMS>().0;
         let mut acc = groups(g, full);
         if let Some(last) = g.get(full.len()) {
             super::portable::group_i8(last, tail, &mut acc);
         }
-        acc
-    };
-    let mut blocks = data.chunks_exact((layout::padded(n) * BLOCK_ROWS).max(1));
-    let (bias, bias_rest) = p.bias.as_chunks::<16>();
-    let (mult, mult_rest) = p.multiplier.as_chunks::<16>();
-    let (shift, shift_rest) = p.shift.as_chunks::<4>();
-    let (outs, out_rest) = output.as_chunks_mut::<BLOCK_ROWS>();
-    let params = bias
-        .iter()
-        .zip(mult)
-        .zip(shift)
-        .map(|((b, m), s)| (b, m, s));
-    // `&mut`: zipping the plain iterators takes core's random-access `Zip::new`, which is not
-    // inlined here and keeps a division-by-zero panic path (scripts/no-panic-check.sh).
-    // `outs` first: when it runs out, `blocks` has not been advanced past the last block.
-    for ((out, block), q) in outs.iter_mut().zip(&mut blocks).zip(params) {
-        *out = finish(p, accumulate(block), correction, q);
-    }
-    if out_rest.is_empty() {
-        return;
-    }
-    let Some(block) = blocks.next() else {
-        return;
-    };
-    let q = (&padded(bias_rest), &padded(mult_rest), &padded(shift_rest));
-    let y = finish(p, accumulate(block), correction, q);
-    for (d, v) in out_rest.iter_mut().zip(y) {
-        *d = v;
+        // Whole 4-row parameter chunks, except in a last block of fewer than 4 rows.
+        let q = params
+            .next()
+            .map_or((&last.0, &last.1, &last.2), |((b, m), s)| (b, m, s));
+        let y = finish(p, acc, correction, q);
+        match out.first_chunk_mut::<BLOCK_ROWS>() {
+            Some(o) => *o = y,
+            None => {
+                for (d, v) in out.iter_mut().zip(y) {
+                    *d = v;
+                }
+            }
+        }
     }
 }

@@ -42,3 +42,89 @@ pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     let correction = excess_correction(input, p.inputs);
     super::fixed::blocks_i8(p, input, output, correction, block_groups);
 }
+
+/// Runs an f32 dense layer with `Blocked4x4` weights, one block at a time; the same results as
+/// [`super::portable::dense_f32_blocked`] (each row adds its products in input order from
+/// `+0.0`, then the bias). The soft-float targets use it: it is several times smaller than the
+/// portable kernel, which interleaves two blocks for speed on hosts.
+pub fn dense_f32_blocked(
+    inputs: usize,
+    weights: &[u8],
+    bias: &[u8],
+    relu: bool,
+    input: &[u8],
+    output: &mut [u8],
+) {
+    let n = inputs;
+    let outs = output.as_chunks_mut::<4>().0;
+    let Some((_, data)) = super::layout::split(weights, n, outs.len(), 4) else {
+        return;
+    };
+    let x = input.get(..n * 4).unwrap_or(&[]);
+    let block_len = super::layout::padded(n) * BLOCK_ROWS * 4;
+    let mut biases = crate::le::f32s(bias);
+    for (block, out) in data
+        .chunks_exact(block_len.max(1))
+        // `&mut`: see `super::fixed::blocks_i8`.
+        .zip(&mut outs.chunks_mut(BLOCK_ROWS))
+    {
+        let mut acc = [0.0f32; BLOCK_ROWS];
+        for (g, xg) in block.chunks_exact(GROUP_ELEMS * 4).zip(x.chunks(GROUP * 4)) {
+            for (a, row) in acc.iter_mut().zip(g.chunks_exact(GROUP * 4)) {
+                for (w, x) in crate::le::f32s(row).zip(crate::le::f32s(xg)) {
+                    *a += w * x;
+                }
+            }
+        }
+        for (o, (a, b)) in out.iter_mut().zip(acc.into_iter().zip(&mut biases)) {
+            let mut v = a + b;
+            if relu && v < 0.0 {
+                v = 0.0;
+            }
+            *o = v.to_le_bytes();
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::dense::{layout, portable};
+
+    /// Small deterministic generator (xorshift32) for test data.
+    fn next(s: &mut u32) -> u32 {
+        *s ^= *s << 13;
+        *s ^= *s >> 17;
+        *s ^= *s << 5;
+        *s
+    }
+
+    #[test]
+    fn f32_blocked_matches_the_portable_output_major_kernel() {
+        let mut s = 0x1234_5678u32;
+        for n in 1..=13 {
+            for m in 1..=9 {
+                let w: Vec<f32> = (0..n * m)
+                    .map(|_| (next(&mut s) % 2001) as f32 / 1000.0 - 1.0)
+                    .collect();
+                let om: Vec<u8> = w.iter().flat_map(|v| v.to_le_bytes()).collect();
+                let pad = (next(&mut s) % 4) as usize;
+                let mut field = vec![0u8; pad + 4 * layout::elements(n, m)];
+                assert!(layout::block_f32(n, m, &w, &mut field[pad..]));
+                let x: Vec<u8> = (0..n)
+                    .flat_map(|_| ((next(&mut s) % 2001) as f32 / 100.0 - 10.0).to_le_bytes())
+                    .collect();
+                let b: Vec<u8> = (0..m)
+                    .flat_map(|_| ((next(&mut s) % 201) as f32 / 10.0 - 10.0).to_le_bytes())
+                    .collect();
+                for relu in [false, true] {
+                    let mut want = vec![0u8; 4 * m];
+                    portable::dense_f32(n, &om, &b, relu, &x, &mut want);
+                    let mut got = vec![1u8; 4 * m];
+                    dense_f32_blocked(n, &field, &b, relu, &x, &mut got);
+                    assert_eq!(got, want, "{n}x{m} relu {relu}");
+                }
+            }
+        }
+    }
+}

@@ -8,8 +8,8 @@
 //!
 //! | target | int8 | f32 |
 //! |---|---|---|
-//! | `thumbv7em-*` (Cortex-M4/M7) | `asm::m4`: `SMLAD` on `SXTB16`/`UXTB16`-unpacked pairs, 4 rows per pass | `eabihf`: `asm::m4` `VLDM`/`VMLA` (not fused); else portable |
-//! | `thumbv6m-*`, `thumbv7m-*`, `thumbv8m.base-*` (Cortex-M0/M0+/M3/M23) | `asm::m0`: unrolled byte loads and `MULS`, accumulators in high registers, 4 rows per pass | portable |
+//! | `thumbv7em-*` (Cortex-M4/M7) | `asm::m4`: `SMLAD` on `SXTB16`/`UXTB16`-unpacked pairs, 4 rows per pass | `eabihf`: `asm::m4` `VLDM`/`VMLA` (not fused); else [`m0`] (one block at a time, small) |
+//! | `thumbv6m-*`, `thumbv7m-*`, `thumbv8m.base-*` (Cortex-M0/M0+/M3/M23) | `asm::m0`: unrolled byte loads and `MULS`, accumulators in high registers, 4 rows per pass | [`m0`] (one block at a time, small) |
 //! | anything else | portable | portable |
 //!
 //! All `asm!` lives in `asm` (only compiled for those targets). [`m0`] is the same Armv6-M
@@ -89,6 +89,9 @@ pub fn dense_f32_blocked(
 ) {
     #[cfg(all(kinglet_kernel = "dsp", kinglet_fpu))]
     return asm::m4::dense_f32_blocked(inputs, weights, bias, relu, input, output);
+    // Soft-float targets: the one-block kernel, for flash.
+    #[cfg(all(any(kinglet_kernel = "dsp", kinglet_kernel = "m0"), not(kinglet_fpu)))]
+    return m0::dense_f32_blocked(inputs, weights, bias, relu, input, output);
     #[allow(unreachable_code)]
     portable::dense_f32_blocked(inputs, weights, bias, relu, input, output)
 }

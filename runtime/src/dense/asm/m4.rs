@@ -215,8 +215,8 @@ fn groups_f32(w: &[[u8; GROUP_ELEMS * 4]], x: &[[u8; GROUP * 4]], acc: &mut [f32
 }
 
 /// Runs an f32 dense layer with `Blocked4x4` weights; the same results as
-/// [`crate::dense::portable::dense_f32_blocked`]. Falls back to it when the weight data is not 4-byte
-/// aligned.
+/// [`crate::dense::portable::dense_f32_blocked`]. Weight data that is not 4-byte aligned takes
+/// a plain Rust loop (slower, same results).
 #[cfg(kinglet_fpu)]
 pub fn dense_f32_blocked(
     inputs: usize,
@@ -231,13 +231,12 @@ pub fn dense_f32_blocked(
     let Some((_, data)) = layout::split(weights, n, outs.len(), 4) else {
         return;
     };
-    if !(data.as_ptr() as usize).is_multiple_of(4) {
-        return crate::dense::portable::dense_f32_blocked(
-            inputs, weights, bias, relu, input, output,
-        );
-    }
     let x = input.get(..n * 4).unwrap_or(&[]);
-    let (full, tail) = x.as_chunks::<{ GROUP * 4 }>();
+    let (full, _) = x.as_chunks::<{ GROUP * 4 }>();
+    // The `asm!` loop needs aligned weights (`VLDM`); otherwise every group takes the Rust loop
+    // below, which adds in the same order.
+    let aligned = (data.as_ptr() as usize).is_multiple_of(4);
+    let asm_groups = if aligned { full } else { &[] };
     let block_len = layout::padded(n) * BLOCK_ROWS * 4;
     let mut biases = crate::le::f32s(bias);
     for (block, out) in data
@@ -247,10 +246,14 @@ pub fn dense_f32_blocked(
     {
         let groups = block.as_chunks::<{ GROUP_ELEMS * 4 }>().0;
         let mut acc = [0.0f32; BLOCK_ROWS];
-        groups_f32(groups, full, &mut acc);
-        if let Some(g) = groups.get(full.len()) {
+        groups_f32(groups, asm_groups, &mut acc);
+        let rest = groups
+            .iter()
+            .zip(x.chunks(GROUP * 4))
+            .skip(asm_groups.len());
+        for (g, xg) in rest {
             for (a, row) in acc.iter_mut().zip(g.chunks_exact(GROUP * 4)) {
-                for (w, x) in crate::le::f32s(row).zip(crate::le::f32s(tail)) {
+                for (w, x) in crate::le::f32s(row).zip(crate::le::f32s(xg)) {
                     *a += w * x;
                 }
             }
