@@ -29,16 +29,16 @@ pub struct Rates {
 pub const INT8: [Rates; 2] = [
     Rates {
         target: "Cortex-M4 (DSP)",
-        per_mac: 1.40,
-        per_row: 118.0,
+        per_mac: 1.38,
+        per_row: 93.0,
         per_input: 73.0,
         per_class: 93.0,
         fixed: 300.0,
     },
     Rates {
         target: "Cortex-M0",
-        per_mac: 8.03,
-        per_row: 228.0,
+        per_mac: 3.59,
+        per_row: 189.0,
         per_input: 1216.0,
         per_class: 1676.0,
         fixed: 1000.0,

@@ -144,12 +144,11 @@ struct Goal {
 
 /// Values BENCHMARKS.md records for goals not met yet: `--check` holds them as regression
 /// limits (with [`MARGIN`]) until a better kernel meets the goal.
-const RECORDED: [(&str, f64); 5] = [
-    ("m4 int8 784x100 instr/MAC", 1.56),
-    ("m4 digits whole / Σ layers", 1.28),
-    ("m4 runtime .text (int8 path) bytes", 10900.0),
-    ("m0 int8 784x100 instr/MAC", 8.32),
-    ("m0 runtime .text (int8 path) bytes", 13100.0),
+const RECORDED: [(&str, f64); 3] = [
+    // Rose from 1.28 as the layers got faster; the rest (input scaling, softmax) is unchanged.
+    ("m4 digits whole / Σ layers", 1.30),
+    ("m4 runtime .text (int8 path) bytes", 10450.0),
+    ("m0 runtime .text (int8 path) bytes", 13300.0),
 ];
 
 impl Goal {
@@ -221,8 +220,9 @@ fn print(runs: &[Run]) {
             if r.count(name, "naive").is_none() {
                 continue;
             }
+            // Soft-float targets run the one-block Rust f32 kernel of `dense/m0.rs`.
             let kernel = if name.starts_with("f32") && r.kernel != "dsp" {
-                "portable"
+                "m0 (Rust, one block)"
             } else {
                 &r.kernel
             };
