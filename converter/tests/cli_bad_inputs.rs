@@ -807,3 +807,29 @@ fn c50_vet_labels_out_of_range() {
         &["labels_out_of_range.csv", "data row 2", "\"5\""],
     );
 }
+
+#[test]
+fn c51_npy_header_longer_than_the_file() {
+    // Regression (found by fuzzing `dataset_load`): a 55-byte `.npy` whose format-3.0 preamble
+    // declares a 3.6 GB header made the reader allocate that much before reading it.
+    let mut b = b"\x93NUMPY\x03\x00".to_vec();
+    b.extend_from_slice(&0xD884_FF8Au32.to_le_bytes());
+    b.extend_from_slice(b"{'descr': '<f4', 'fortran_order': False, }\n");
+    Case::new()
+        .with("model_2in.json")
+        .put("rows.npy", &b)
+        .fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--calibration",
+                "rows.npy",
+                "-o",
+                "m.kgl",
+            ],
+            &[
+                "rows.npy",
+                "the header is declared as 3632594826 bytes but only",
+            ],
+        );
+}

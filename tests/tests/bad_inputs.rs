@@ -835,3 +835,26 @@ fn r31_bias_too_large_for_its_weights() {
         "{e}"
     );
 }
+
+#[test]
+fn r32_npy_header_longer_than_the_file() {
+    // Found by fuzzing `dataset_load`: the `.npy` reader allocated the header length the
+    // preamble declares (here 3.6 GB, format 3.0) before reading it. Format 1.0 too.
+    let dir = tempfile::tempdir().unwrap();
+    for (version, len) in [
+        (3u8, 0xD884_FF8Au32.to_le_bytes().to_vec()),
+        (1, vec![0xFF, 0xFF]),
+    ] {
+        let mut b = vec![0x93];
+        b.extend_from_slice(b"NUMPY");
+        b.extend_from_slice(&[version, 0]);
+        b.extend_from_slice(&len);
+        b.extend_from_slice(b"{'descr': '<f4', 'fortran_order': False, 'shape': (1, 1), }\n");
+        let p = dir.path().join(format!("v{version}.npy"));
+        std::fs::write(&p, &b).unwrap();
+        let e = kinglet_converter::dataset::load_npy(&p, None).unwrap_err();
+        let msg = format!("{e:#}");
+        assert!(msg.contains("the header is declared as"), "{msg}");
+        assert!(msg.contains(&format!("v{version}.npy")), "{msg}");
+    }
+}

@@ -102,8 +102,33 @@ pub(crate) fn read_npy(path: &Path) -> Result<NpyArray, NpyArrayError> {
     parse_npy(&bytes)
 }
 
+/// Refuses a header longer than the file. The reader allocates the header length the preamble
+/// declares (a u16 at byte 8 in format 1.0, a u32 in 2.0 and 3.0) before reading it, so a
+/// 60-byte file declaring a 2 GB header must be stopped here (found by fuzzing `dataset_load`).
+fn check_header_len(bytes: &[u8]) -> Result<(), NpyArrayError> {
+    if !bytes.starts_with(b"\x93NUMPY") {
+        return Ok(()); // the reader reports the bad magic
+    }
+    let (declared, start) = match bytes.get(6) {
+        Some(1) => (bytes.get(8..10).map(|b| u64::from(u16::from_le_bytes([b[0], b[1]]))), 10),
+        Some(2 | 3) => (
+            bytes.get(8..12).map(|b| u64::from(u32::from_le_bytes([b[0], b[1], b[2], b[3]]))),
+            12,
+        ),
+        _ => return Ok(()), // the reader reports the unknown version
+    };
+    let follows = bytes.len().saturating_sub(start) as u64;
+    match declared {
+        Some(n) if n > follows => Err(NpyArrayError::Header(format!(
+            "the header is declared as {n} bytes but only {follows} follow"
+        ))),
+        _ => Ok(()),
+    }
+}
+
 /// Parses the bytes of a `.npy` file.
 pub(crate) fn parse_npy(bytes: &[u8]) -> Result<NpyArray, NpyArrayError> {
+    check_header_len(bytes)?;
     let mut rest = bytes;
     let header =
         NpyHeader::from_reader(&mut rest).map_err(|e| NpyArrayError::Header(e.to_string()))?;
