@@ -1,7 +1,7 @@
 //! The blob's body: the layer table and quantisation parameters, serialised with postcard.
 //!
 //! Every tensor is a borrowed byte slice into the blob (zero-copy) holding little-endian
-//! elements. `FORMAT.md` §3 describes each field; [`crate::validate`] enforces §5.
+//! elements. `FORMAT.md` §3 describes each field; the reader (`validate.rs`) enforces §5.
 use serde::{Deserialize, Serialize};
 
 /// Most dense layers a blob may hold (bounds the layer table, a `heapless::Vec`).

@@ -1,5 +1,5 @@
 //! int8 kernel for Cortex-M0/M0+ in plain safe Rust, compiled everywhere: the reference for
-//! the Thumb-1 `asm!` kernel ([`super::asm`], which the Armv6-M-class targets use) and a
+//! the Thumb-1 `asm!` kernel (`dense::asm`, which the Armv6-M-class targets use) and a
 //! host-tested user of the shared block loop `super::fixed::blocks_i8`.
 //!
 //! Armv6-M has no unaligned word loads and no multiply-accumulate, and a signed byte load
