@@ -833,3 +833,61 @@ fn c51_npy_header_longer_than_the_file() {
             ],
         );
 }
+
+#[test]
+fn c52_npy_header_nested_too_deep() {
+    // Regression (found by fuzzing `dataset_load`): the `.npy` header parser slowed down steeply
+    // with bracket nesting; a 118-byte header nesting 37 deep took 14 s.
+    let text = format!("{{'descr': {}'<f4'{}, }}\n", "[".repeat(40), "]".repeat(40));
+    let mut b = b"\x93NUMPY\x01\x00".to_vec();
+    b.extend_from_slice(&(text.len() as u16).to_le_bytes());
+    b.extend_from_slice(text.as_bytes());
+    let start = std::time::Instant::now();
+    Case::new()
+        .with("model_2in.json")
+        .put("rows.npy", &b)
+        .fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--calibration",
+                "rows.npy",
+                "-o",
+                "m.kgl",
+            ],
+            &[
+                "rows.npy",
+                "the header nests brackets 41 deep; at most 8 are accepted",
+            ],
+        );
+    assert!(start.elapsed().as_secs() < 5, "took {:?}", start.elapsed());
+}
+
+#[test]
+fn c53_npy_header_over_the_size_limit() {
+    // numpy's reader refuses headers over 10,000 bytes by default; so does this one.
+    let mut text = "{'descr': '<f4', 'fortran_order': False, 'shape': (1, 1), }".to_string();
+    text.push_str(&" ".repeat(20_000));
+    text.push('\n');
+    let mut b = b"\x93NUMPY\x02\x00".to_vec();
+    b.extend_from_slice(&(text.len() as u32).to_le_bytes());
+    b.extend_from_slice(text.as_bytes());
+    b.extend_from_slice(&[0; 4]);
+    Case::new()
+        .with("model_2in.json")
+        .put("rows.npy", &b)
+        .fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--calibration",
+                "rows.npy",
+                "-o",
+                "m.kgl",
+            ],
+            &[
+                "rows.npy",
+                "the header is 20060 bytes; at most 10000 are accepted",
+            ],
+        );
+}
