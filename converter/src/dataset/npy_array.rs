@@ -121,9 +121,16 @@ fn check_header(bytes: &[u8]) -> Result<(), NpyArrayError> {
         return Ok(()); // the reader reports the bad magic
     }
     let (declared, start) = match bytes.get(6) {
-        Some(1) => (bytes.get(8..10).map(|b| u64::from(u16::from_le_bytes([b[0], b[1]]))), 10),
+        Some(1) => (
+            bytes
+                .get(8..10)
+                .map(|b| u64::from(u16::from_le_bytes([b[0], b[1]]))),
+            10,
+        ),
         Some(2 | 3) => (
-            bytes.get(8..12).map(|b| u64::from(u32::from_le_bytes([b[0], b[1], b[2], b[3]]))),
+            bytes
+                .get(8..12)
+                .map(|b| u64::from(u32::from_le_bytes([b[0], b[1], b[2], b[3]]))),
             12,
         ),
         _ => return Ok(()), // the reader reports the unknown version
