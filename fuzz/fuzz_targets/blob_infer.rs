@@ -8,7 +8,7 @@
 //! repeated to fill the input.
 #![no_main]
 use kinglet_fuzz::{oracle, owned};
-use kinglet_runtime::{Input, Model};
+use kinglet_runtime::Model;
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
@@ -51,32 +51,7 @@ fuzz_target!(|data: &[u8]| {
         0 => model.input_len(),
         c => usize::from(c),
     };
-    let byte = |i: usize| values.get(i % values.len().max(1)).copied().unwrap_or(0);
-    match head[3] % 3 {
-        0 => {
-            let v: Vec<f32> = (0..count)
-                .map(|i| {
-                    f32::from_le_bytes([
-                        byte(4 * i),
-                        byte(4 * i + 1),
-                        byte(4 * i + 2),
-                        byte(4 * i + 3),
-                    ])
-                })
-                .collect();
-            oracle::run_checked(&model, Input::F32(&v), arena, scores);
-        }
-        1 => {
-            let v: Vec<i16> = (0..count)
-                .map(|i| i16::from_le_bytes([byte(2 * i), byte(2 * i + 1)]))
-                .collect();
-            oracle::run_checked(&model, Input::I16(&v), arena, scores);
-        }
-        _ => {
-            let v: Vec<u8> = (0..count).map(byte).collect();
-            oracle::run_checked(&model, Input::U8(&v), arena, scores);
-        }
-    }
+    oracle::run_from_bytes(&model, head[3], count, values, arena, scores);
     if flags & 8 != 0 {
         oracle::run_extremes(&model);
     }

@@ -8,7 +8,7 @@
 use arbitrary::Unstructured;
 use kinglet_fuzz::{base, mutate, oracle, owned, BASES};
 use kinglet_runtime::encode::{encode, max_encoded_len};
-use kinglet_runtime::{Input, Model};
+use kinglet_runtime::Model;
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
@@ -61,31 +61,6 @@ fuzz_target!(|data: &[u8]| {
     let n = model.input_len();
     let kind = u.int_in_range(0..=2u8).unwrap_or(0);
     let rest = u.take_rest();
-    let byte = |i: usize| rest.get(i % rest.len().max(1)).copied().unwrap_or(0);
     let (a, s) = (model.arena_bytes(), model.output_len());
-    match kind {
-        0 => {
-            let v: Vec<f32> = (0..n)
-                .map(|i| {
-                    f32::from_le_bytes([
-                        byte(4 * i),
-                        byte(4 * i + 1),
-                        byte(4 * i + 2),
-                        byte(4 * i + 3),
-                    ])
-                })
-                .collect();
-            oracle::run_checked(&model, Input::F32(&v), a, s);
-        }
-        1 => {
-            let v: Vec<i16> = (0..n)
-                .map(|i| i16::from_le_bytes([byte(2 * i), byte(2 * i + 1)]))
-                .collect();
-            oracle::run_checked(&model, Input::I16(&v), a, s);
-        }
-        _ => {
-            let v: Vec<u8> = (0..n).map(byte).collect();
-            oracle::run_checked(&model, Input::U8(&v), a, s);
-        }
-    }
+    oracle::run_from_bytes(&model, kind, n, rest, a, s);
 });

@@ -104,3 +104,41 @@ pub fn run_extremes(model: &Model<'_>) {
         .collect();
     run_checked(model, Input::I16(&alt), arena, scores);
 }
+
+/// Builds `count` inputs of the kind `kind % 3` (0: f32, 1: i16, 2: u8) from `bytes` (cycled,
+/// little-endian) and runs them with [`run_checked`].
+pub fn run_from_bytes(
+    model: &Model<'_>,
+    kind: u8,
+    count: usize,
+    bytes: &[u8],
+    arena_len: usize,
+    scores_len: usize,
+) {
+    let byte = |i: usize| bytes.get(i % bytes.len().max(1)).copied().unwrap_or(0);
+    match kind % 3 {
+        0 => {
+            let v: Vec<f32> = (0..count)
+                .map(|i| {
+                    f32::from_le_bytes([
+                        byte(4 * i),
+                        byte(4 * i + 1),
+                        byte(4 * i + 2),
+                        byte(4 * i + 3),
+                    ])
+                })
+                .collect();
+            run_checked(model, Input::F32(&v), arena_len, scores_len);
+        }
+        1 => {
+            let v: Vec<i16> = (0..count)
+                .map(|i| i16::from_le_bytes([byte(2 * i), byte(2 * i + 1)]))
+                .collect();
+            run_checked(model, Input::I16(&v), arena_len, scores_len);
+        }
+        _ => {
+            let v: Vec<u8> = (0..count).map(byte).collect();
+            run_checked(model, Input::U8(&v), arena_len, scores_len);
+        }
+    }
+}
