@@ -80,9 +80,12 @@ pub fn encode(desc: &ModelDesc<'_>, out: &mut [u8]) -> Result<usize, EncodeError
 
 #[cfg(test)]
 mod tests {
-    use crate::testutil::{tiny_f32, tiny_int8};
+    #[cfg(feature = "f32")]
+    use crate::testutil::tiny_f32;
+    use crate::testutil::tiny_int8;
     use crate::Model;
 
+    #[cfg(feature = "f32")]
     fn hex(b: &[u8]) -> String {
         b.iter().map(|x| format!("{x:02x}")).collect()
     }
@@ -91,6 +94,7 @@ mod tests {
     /// A change here is a format change: bump `FORMAT_VERSION` and keep the old blob readable
     /// or rejected on purpose.
     #[test]
+    #[cfg(feature = "f32")]
     fn expected_bytes_of_the_small_f32_model() {
         let blob = tiny_f32().blob();
         let expected = concat!(

@@ -155,6 +155,8 @@ pub enum FormatError {
         /// Output channel.
         channel: u32,
     },
+    /// An f32 model, and this runtime was built without the `f32` feature (int8 only).
+    F32NotBuiltIn,
     /// The header's arena size is not the size the layer table needs.
     ArenaMismatch {
         /// The header's value.
@@ -241,6 +243,9 @@ impl fmt::Display for FormatError {
             AccumulatorOverflow { layer, channel } => write!(
                 f,
                 "layer {layer}: int32 accumulator could overflow at channel {channel}"
+            ),
+            F32NotBuiltIn => f.write_str(
+                "f32 model, but this runtime was built without the `f32` feature (int8 models only)",
             ),
             ArenaMismatch { header, computed } => write!(
                 f,

@@ -53,6 +53,17 @@ impl Precision {
             Precision::F32 => 4,
         }
     }
+
+    /// [`Precision::activation_bytes`] for a model this build accepts: without the `f32`
+    /// feature, `Model::parse` refuses f32 models before this is used, so it is the constant 1
+    /// and the compiler drops the f32 sizes from the int8-only runtime.
+    pub(crate) const fn accepted_bytes(self) -> usize {
+        if cfg!(feature = "f32") {
+            self.activation_bytes()
+        } else {
+            1
+        }
+    }
 }
 
 /// Order of the weight matrix in `LayerDesc::weights`.

@@ -6,7 +6,7 @@ use crate::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision, Wei
 use crate::header::{Header, HEADER_LEN};
 use crate::output::{argmax, sigmoid, softmax};
 use crate::requant::activation_range;
-use crate::scale::{integer_params, quantize_integer, quantize_linear, Scaler};
+use crate::scale::{integer_params, quantise_floats, quantize_integer, Scaler};
 use crate::stage::{Activations, Stage};
 use crate::{le, validate};
 
@@ -214,7 +214,7 @@ impl<'a> Model<'a> {
             .split_at_mut_checked(self.plan.ping)
             .ok_or(too_small)?;
         let scores = scores.get_mut(..out_len).ok_or(too_small)?;
-        let elem = self.desc.precision.activation_bytes();
+        let elem = self.desc.precision.accepted_bytes();
         let first = ping.get_mut(..n * elem).ok_or(too_small)?;
         let mut quant = self.load_input(input, first)?;
         trace(&Stage {
@@ -245,12 +245,23 @@ impl<'a> Model<'a> {
         } else {
             &*pong
         };
-        let values = view(quant, last);
-        for (i, s) in scores.iter_mut().enumerate() {
-            *s = values.real(i).unwrap_or(0.0);
-        }
-        if self.desc.precision == Precision::F32 && !scores.iter().all(|s| s.is_finite()) {
-            return Err(RunError::NonFiniteOutput);
+        match quant {
+            Some((scale, zero_point)) => {
+                // `Activations::real`, without its per-element variant match.
+                let zp = f32::from(zero_point);
+                for (s, &q) in scores.iter_mut().zip(last) {
+                    *s = (f32::from(q as i8) - zp) * scale;
+                }
+            }
+            None if cfg!(feature = "f32") => {
+                for (s, v) in scores.iter_mut().zip(le::f32s(last)) {
+                    *s = v;
+                }
+                if !scores.iter().all(|s| s.is_finite()) {
+                    return Err(RunError::NonFiniteOutput);
+                }
+            }
+            None => {}
         }
         match self.desc.output {
             OutputKind::Softmax => softmax(scores),
@@ -278,12 +289,6 @@ impl<'a> Model<'a> {
 
     /// Scales (and for int8, quantises) the raw input into `dst`.
     fn load_input(&self, input: Input<'_>, dst: &mut [u8]) -> Result<Quant, RunError> {
-        let scaler = Scaler::new(self.desc.scaler);
-        if let Input::F32(v) = input {
-            if let Some(i) = v.iter().position(|x| !x.is_finite()) {
-                return Err(RunError::NonFiniteInput { index: i as u32 });
-            }
-        }
         match (&self.desc.input_quant, self.desc.precision) {
             (Some(q), Precision::Int8) => {
                 let integer = |i: usize, x: i32| {
@@ -291,11 +296,7 @@ impl<'a> Model<'a> {
                     quantize_integer(x, m, a, s) as u8
                 };
                 match input {
-                    Input::F32(v) => {
-                        for (i, (d, &x)) in dst.iter_mut().zip(v).enumerate() {
-                            *d = quantize_linear(scaler.apply(i, x), q.scale, q.zero_point) as u8;
-                        }
-                    }
+                    Input::F32(v) => quantise_floats(self.desc.scaler, q, v, dst)?,
                     Input::I16(v) => {
                         for (i, (d, &x)) in dst.iter_mut().zip(v).enumerate() {
                             *d = integer(i, i32::from(x));
@@ -309,7 +310,14 @@ impl<'a> Model<'a> {
                 }
                 Ok(Some((q.scale, q.zero_point)))
             }
-            _ => {
+            // Without the `f32` feature, `parse` has refused f32 models.
+            _ if cfg!(feature = "f32") => {
+                if let Input::F32(v) = input {
+                    if let Some(i) = v.iter().position(|x| !x.is_finite()) {
+                        return Err(RunError::NonFiniteInput { index: i as u32 });
+                    }
+                }
+                let scaler = Scaler::new(self.desc.scaler);
                 for i in 0..input.len() {
                     let x = match input {
                         Input::F32(v) => v.get(i).copied().unwrap_or(0.0),
@@ -320,6 +328,7 @@ impl<'a> Model<'a> {
                 }
                 Ok(None)
             }
+            _ => Ok(None),
         }
     }
 }
@@ -381,6 +390,8 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
             }
             Some((q.output_scale, q.output_zero_point))
         }
+        // Without the `f32` feature, `parse` has refused f32 models.
+        None if !cfg!(feature = "f32") => None,
         None => {
             let relu = layer.activation == Activation::Relu;
             let kernel = match layer.layout {
@@ -446,6 +457,7 @@ mod tests {
     }
 
     #[test]
+    #[cfg(feature = "f32")]
     fn f32_sigmoid_forward_pass_hand_worked() {
         let blob = tiny_f32().blob();
         let m = Model::parse(&blob).unwrap();
@@ -510,6 +522,9 @@ mod tests {
         assert!(m
             .infer(Input::I16(&[i16::MIN, i16::MAX, 0]), &mut big, &mut scores)
             .is_ok());
+        if !cfg!(feature = "f32") {
+            return;
+        }
         let f = tiny_f32().blob();
         let mf = Model::parse(&f).unwrap();
         let mut a = vec![0u8; mf.arena_bytes()];
@@ -521,7 +536,12 @@ mod tests {
 
     #[test]
     fn every_single_byte_corruption_is_rejected() {
-        for owned in [tiny_int8(), tiny_f32()] {
+        let models = if cfg!(feature = "f32") {
+            vec![tiny_int8(), tiny_f32()]
+        } else {
+            vec![tiny_int8()]
+        };
+        for owned in models {
             let blob = owned.blob();
             for i in 0..blob.len() {
                 for mask in [0x01u8, 0x10, 0x80, 0xFF] {

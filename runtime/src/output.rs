@@ -2,7 +2,14 @@
 
 /// Softmax in place, max-subtracted for range (`exp` from libm). An empty slice is left as is.
 pub fn softmax(scores: &mut [f32]) {
-    let max = scores.iter().copied().fold(f32::NEG_INFINITY, f32::max);
+    // `>` rather than `f32::max`: the same result (NaN never wins either way) without a call to
+    // `fmaxf` per score on targets without `VMAXNM`.
+    let mut max = f32::NEG_INFINITY;
+    for &s in scores.iter() {
+        if s > max {
+            max = s;
+        }
+    }
     let mut sum = 0.0f32;
     for s in scores.iter_mut() {
         *s = libm::expf(*s - max);

@@ -5,6 +5,7 @@
 //! counts, `u8` pixels) on an int8 model take [`quantize_integer`] instead: a per-feature
 //! fixed-point map derived by the converter from the same scaler, with no float at all, so a
 //! board without an FPU keeps float out of the hot path.
+use crate::error::RunError;
 use crate::format::{InputQuantDesc, ScalerDesc};
 use crate::le;
 
@@ -13,19 +14,72 @@ use crate::le;
 ///
 /// Rounding uses the IEEE-754 round-to-nearest-even addition itself: for `|y| < 2^22`, adding and
 /// subtracting `1.5 · 2^23` leaves `y` rounded to an integer with ties to even (the sum lies in
-/// `[2^23, 2^24)`, where one unit in the last place is 1). Larger magnitudes saturate anyway. This
-/// is two additions instead of a software `rintf`, and gives the same result on every target.
+/// `[2^23, 2^24)`, where one unit in the last place is 1). For larger `|y|` the result is within
+/// one unit of `y` and saturates, as it must. This is two additions instead of a software
+/// `rintf`, and gives the same result on every target. The zero point is added and the result
+/// clamped in integers (`SSAT` on Cortex-M4). A NaN (which [`crate::Model::infer`] never passes:
+/// it rejects non-finite features) maps to the zero point.
 #[inline]
 pub fn quantize_linear(x: f32, scale: f32, zero_point: i8) -> i8 {
     const ROUND: f32 = 12_582_912.0; // 1.5 · 2^23
-    let y = x / scale;
-    let r = if y.abs() < 4_194_304.0 {
-        (y + ROUND) - ROUND
-    } else {
-        y
-    };
-    // `as` saturates (and maps NaN to 0); the clamp makes the intent explicit.
-    (r + f32::from(zero_point)).clamp(-128.0, 127.0) as i8
+    let r = (x / scale + ROUND) - ROUND;
+    // `as` saturates; below -256 or above 255 the sum saturates whatever the zero point.
+    ((r as i32).clamp(-256, 255) + i32::from(zero_point)).clamp(-128, 127) as i8
+}
+
+/// Scales (saved scaler) and quantises float features `x` into `dst`, one int8 per feature,
+/// exactly as [`quantize_linear`]`((x[i] - offset[i]) * scale[i], ...)`. Stops at the first
+/// non-finite feature. One pass, with the uniform and per-feature scalers in separate loops so
+/// the per-element work is load, subtract, multiply, divide, round, clamp, store.
+pub(crate) fn quantise_floats(
+    scaler: Option<ScalerDesc<'_>>,
+    q: &InputQuantDesc<'_>,
+    x: &[f32],
+    dst: &mut [u8],
+) -> Result<(), RunError> {
+    let (qs, zp) = (q.scale, q.zero_point);
+    let same = core::iter::repeat(&[0u8; 4]);
+    match scaler {
+        None => quantise_each(x, dst, qs, zp, same.clone().zip(same), |v, _| v),
+        Some(s) if s.offset.len() == 4 => {
+            let off = le::f32_at(s.offset, 0).unwrap_or(0.0);
+            let sc = le::f32_at(s.scale, 0).unwrap_or(1.0);
+            quantise_each(x, dst, qs, zp, same.clone().zip(same), |v, _| {
+                (v - off) * sc
+            })
+        }
+        Some(s) => {
+            // One zipped pass over features, offsets and scales: a single loop counter.
+            let per = s
+                .offset
+                .as_chunks::<4>()
+                .0
+                .iter()
+                .zip(s.scale.as_chunks::<4>().0);
+            quantise_each(x, dst, qs, zp, per, |v, (off, sc)| {
+                (v - f32::from_le_bytes(*off)) * f32::from_le_bytes(*sc)
+            })
+        }
+    }
+}
+
+/// The loop of [`quantise_floats`] for one scaler shape: `map(x, params)` is the scaled value.
+#[inline(always)]
+fn quantise_each<'p>(
+    x: &[f32],
+    dst: &mut [u8],
+    scale: f32,
+    zero_point: i8,
+    params: impl Iterator<Item = (&'p [u8; 4], &'p [u8; 4])>,
+    map: impl Fn(f32, (&'p [u8; 4], &'p [u8; 4])) -> f32,
+) -> Result<(), RunError> {
+    for (i, ((d, &v), p)) in dst.iter_mut().zip(x).zip(params).enumerate() {
+        if !v.is_finite() {
+            return Err(RunError::NonFiniteInput { index: i as u32 });
+        }
+        *d = quantize_linear(map(v, p), scale, zero_point) as u8;
+    }
+    Ok(())
 }
 
 /// Integer-only input quantisation: `saturate((x * mult + add + 2^(shift-1)) >> shift)`
@@ -108,6 +162,125 @@ mod tests {
                 let want = (libm::rintf(y)).clamp(-128.0, 127.0) as i8;
                 assert_eq!(quantize_linear(y, 1.0, 0), want, "y = {y}");
             }
+        }
+    }
+
+    /// The float-clamp formula `quantize_linear` had before the integer clamp: the same byte
+    /// for every finite input.
+    fn float_clamp(x: f32, scale: f32, zero_point: i8) -> i8 {
+        let y = x / scale;
+        let r = if y.abs() < 4_194_304.0 {
+            (y + 12_582_912.0) - 12_582_912.0
+        } else {
+            y
+        };
+        (r + f32::from(zero_point)).clamp(-128.0, 127.0) as i8
+    }
+
+    #[test]
+    fn integer_clamp_matches_float_clamp() {
+        // xorshift32 (Marsaglia, 2003), seeded.
+        let mut state = 0x5eed_u32;
+        let mut next_u32 = || {
+            state ^= state << 13;
+            state ^= state >> 17;
+            state ^= state << 5;
+            state
+        };
+        let zps = [-128i8, -77, -1, 0, 1, 64, 127];
+        let specials = [
+            0.0f32,
+            -0.0,
+            0.5,
+            127.5,
+            128.5,
+            -128.5,
+            -129.5,
+            255.5,
+            256.5,
+            -256.5,
+            383.5,
+            4_194_303.5,
+            4_194_304.0,
+            -4_194_304.0,
+            8_388_608.0,
+            -12_582_912.0,
+            3e38,
+            -3e38,
+            f32::INFINITY,
+            f32::NEG_INFINITY,
+            f32::MIN_POSITIVE,
+            1e-45,
+        ];
+        for &zp in &zps {
+            for &x in &specials {
+                assert_eq!(
+                    quantize_linear(x, 1.0, zp),
+                    float_clamp(x, 1.0, zp),
+                    "x {x}"
+                );
+            }
+            for _ in 0..20_000 {
+                let x = f32::from_bits(next_u32());
+                let scale = f32::from_bits(0x3000_0000 + (next_u32() >> 6));
+                if x.is_finite() {
+                    assert_eq!(
+                        quantize_linear(x, scale, zp),
+                        float_clamp(x, scale, zp),
+                        "x {x} scale {scale} zp {zp}"
+                    );
+                }
+                let near = (next_u32() % 1200) as f32 * 0.5 - 600.0;
+                assert_eq!(quantize_linear(near, 1.0, zp), float_clamp(near, 1.0, zp));
+            }
+        }
+    }
+
+    #[test]
+    fn quantise_floats_is_scaler_then_quantize_linear() {
+        let q_tables = (vec![0u8; 4], vec![0u8; 8], vec![0u8]);
+        let q = InputQuantDesc {
+            scale: 0.037,
+            zero_point: -5,
+            int_mult: &q_tables.0,
+            int_add: &q_tables.1,
+            int_shift: &q_tables.2,
+        };
+        let x: Vec<f32> = (0..37).map(|i| (i as f32 - 11.3) * 0.77).collect();
+        let per_off: Vec<u8> = (0..37)
+            .flat_map(|i| (i as f32 * 0.1).to_le_bytes())
+            .collect();
+        let per_sc: Vec<u8> = (0..37)
+            .flat_map(|i| (0.5 + i as f32 * 0.03).to_le_bytes())
+            .collect();
+        let (one_off, one_sc) = (1.5f32.to_le_bytes(), 0.25f32.to_le_bytes());
+        let scalers = [
+            None,
+            Some(ScalerDesc {
+                offset: &one_off,
+                scale: &one_sc,
+            }),
+            Some(ScalerDesc {
+                offset: &per_off,
+                scale: &per_sc,
+            }),
+        ];
+        for scaler in scalers {
+            let mut got = vec![0u8; x.len()];
+            quantise_floats(scaler, &q, &x, &mut got).unwrap();
+            let s = Scaler::new(scaler);
+            let want: Vec<u8> = x
+                .iter()
+                .enumerate()
+                .map(|(i, &v)| quantize_linear(s.apply(i, v), q.scale, q.zero_point) as u8)
+                .collect();
+            assert_eq!(got, want);
+            let mut bad = x.clone();
+            bad[20] = f32::NAN;
+            assert_eq!(
+                quantise_floats(scaler, &q, &bad, &mut got),
+                Err(RunError::NonFiniteInput { index: 20 })
+            );
         }
     }
 

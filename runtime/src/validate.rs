@@ -46,6 +46,8 @@ fn finite(bytes: &[u8], layer: Option<u8>, tensor: TensorKind) -> Result<(), For
 /// A quantisation scale must be finite and positive, and small enough that the largest real
 /// value its int8 tensor holds, `(q - zero_point) * s` with `|q - zero_point|` up to
 /// `max(127 - zp, zp + 128)`, is finite too (else a dequantised score would be infinite).
+/// Not inlined: it has several call sites, and parse time does not matter (flash does).
+#[inline(never)]
 fn good_scale(s: f32, zero_point: i8, layer: Option<u8>) -> Result<(), FormatError> {
     let steps = f32::from((127 - i16::from(zero_point)).max(i16::from(zero_point) + 128));
     if s.is_finite() && s > 0.0 && (s * steps).is_finite() {
@@ -89,7 +91,7 @@ fn check_layer(
     if inputs != prev {
         return Err(FormatError::ShapeMismatch { layer: k });
     }
-    let elem = precision.activation_bytes();
+    let elem = precision.accepted_bytes();
     let weights = match l.layout {
         WeightLayout::OutputMajor => {
             expect_len(l.weights, inputs * outputs * elem, at, TensorKind::Weights)?;
@@ -99,7 +101,8 @@ fn check_layer(
     };
     expect_len(l.bias, 4 * outputs, at, TensorKind::Bias)?;
     match (precision, &l.quant) {
-        (Precision::F32, None) => {
+        // Without the `f32` feature, `check` has already refused f32 models.
+        (Precision::F32, None) if cfg!(feature = "f32") => {
             finite(weights, at, TensorKind::Weights)?;
             finite(l.bias, at, TensorKind::Bias)?;
         }
@@ -166,7 +169,7 @@ fn check_blocked(
     precision: Precision,
     at: Option<u8>,
 ) -> Result<&[u8], FormatError> {
-    let elem = precision.activation_bytes();
+    let elem = precision.accepted_bytes();
     let bad = FormatError::TensorLength {
         layer: at,
         tensor: TensorKind::Weights,
@@ -178,13 +181,13 @@ fn check_blocked(
     };
     let rows = layout::padded(outputs);
     let cols = layout::padded(inputs);
-    let padding = (0..rows)
-        .flat_map(|o| (0..cols).map(move |i| (o, i)))
-        .filter(|&(o, i)| o >= outputs || i >= inputs);
-    for (o, i) in padding {
-        let at_byte = layout::index(o, i, inputs) * elem;
-        if data.get(at_byte..at_byte + elem) != Some(zero) {
-            return Err(FormatError::NonZeroPadding { layer: at });
+    for o in 0..rows {
+        for i in 0..cols {
+            let at_byte = layout::index(o, i, inputs) * elem;
+            let padding = o >= outputs || i >= inputs;
+            if padding && data.get(at_byte..at_byte + elem) != Some(zero) {
+                return Err(FormatError::NonZeroPadding { layer: at });
+            }
         }
     }
     if pad.iter().any(|&b| b != 0) {
@@ -195,6 +198,9 @@ fn check_blocked(
 
 /// Checks a decoded layer table; returns the arena plan it needs.
 pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ArenaPlan, FormatError> {
+    if d.precision == Precision::F32 && !cfg!(feature = "f32") {
+        return Err(FormatError::F32NotBuiltIn);
+    }
     let input_len = width(d.input_len, None)?;
     if let Some(s) = &d.scaler {
         let n = s.offset.len() / 4;
@@ -241,7 +247,7 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ArenaPlan, FormatError> {
     Ok(ArenaPlan::new(
         input_len,
         d.layers.iter().map(|l| l.outputs as usize),
-        d.precision.activation_bytes(),
+        d.precision.accepted_bytes(),
     ))
 }
 
@@ -270,7 +276,12 @@ mod tests {
     #[test]
     fn valid_models_pass() {
         assert_eq!(parse(&tiny_int8()), Ok(()));
-        assert_eq!(parse(&tiny_f32()), Ok(()));
+        let f32_model = if cfg!(feature = "f32") {
+            Ok(())
+        } else {
+            Err(E::F32NotBuiltIn)
+        };
+        assert_eq!(parse(&tiny_f32()), f32_model);
     }
 
     #[test]
@@ -448,7 +459,11 @@ mod tests {
         );
         assert_eq!(
             with(|m| m.precision = Precision::F32),
-            Err(E::PrecisionMismatch { layer: None })
+            Err(if cfg!(feature = "f32") {
+                E::PrecisionMismatch { layer: None }
+            } else {
+                E::F32NotBuiltIn
+            })
         );
         // |bias| + 128 · Σ|w| must fit in i32.
         assert_eq!(
@@ -572,6 +587,9 @@ mod tests {
                 found: 3
             })
         );
+        if !cfg!(feature = "f32") {
+            return;
+        }
         let mut f = tiny_f32();
         f.layers[0].weights = f32s(&[1.0, f32::NAN, 0.5, 0.5, -2.0, 1.0]);
         assert_eq!(
