@@ -282,6 +282,11 @@ mod tests {
             Err(E::F32NotBuiltIn)
         };
         assert_eq!(parse(&tiny_f32()), f32_model);
+        // docs/bad-inputs.md R33 (tested with `--no-default-features`).
+        assert_eq!(
+            E::F32NotBuiltIn.to_string(),
+            "f32 model, but this runtime was built without the `f32` feature (int8 models only)"
+        );
     }
 
     #[test]

@@ -13,19 +13,19 @@ use super::Measured;
 /// Cortex-M0 / M0+ (`thumbv6m-none-eabi`, no FPU: float is software).
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
-    runtime_text: 14528,
+    runtime_text: 14760,
     runtime_rodata: 1383,
     stack_parse: 2972,
-    stack_infer: 756,
+    stack_infer: 812,
     model_struct: 560,
 };
 
 /// Cortex-M4F / M7 class (`thumbv7em-none-eabihf`, single-precision FPU).
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
-    runtime_text: 12216,
+    runtime_text: 11644,
     runtime_rodata: 1383,
     stack_parse: 2868,
-    stack_infer: 576,
+    stack_infer: 668,
     model_struct: 560,
 };
