@@ -35,27 +35,31 @@ callers() {
 }
 
 status=0
+# Each target twice: the default runtime, and the int8-only one (without its `f32` feature).
+for build in default int8-only; do
 for target in thumbv6m-none-eabi thumbv7em-none-eabihf; do
     rustup target add "$target" >/dev/null 2>&1 || true
-    dir="$base/no-panic/$target"
-    CARGO_TARGET_DIR="$base/no-panic" cargo build -q --release --manifest-path scripts/no-panic-probe/Cargo.toml --target "$target"
-    elf="$base/no-panic/$target/release/kinglet-no-panic-probe"
+    flags=()
+    [ "$build" = int8-only ] && flags=(--no-default-features)
+    CARGO_TARGET_DIR="$base/no-panic-$build" cargo build -q --release --manifest-path scripts/no-panic-probe/Cargo.toml --target "$target" "${flags[@]}"
+    elf="$base/no-panic-$build/$target/release/kinglet-no-panic-probe"
     found=$("$NM" -C "$elf" | grep -E "$pattern" || true)
     text=$("$tools/llvm-size" "$elf" 2>/dev/null | awk 'NR==2 {print $1}' || echo "?")
     if [ -n "$found" ]; then
-        echo "no-panic-check: $target: panic paths reachable from parse/inference:" >&2
+        echo "no-panic-check: $target ($build): panic paths reachable from parse/inference:" >&2
         echo "$found" >&2
         echo "  called from:" >&2
         callers "$elf" >&2
         status=1
     else
-        echo "no-panic-check: $target: no panic symbol in the release probe (.text $text bytes)"
+        echo "no-panic-check: $target ($build): no panic symbol in the release probe (.text $text bytes)"
     fi
-    if [ "$report" = 1 ]; then
+    if [ "$report" = 1 ] && [ "$build" = default ]; then
         RUSTFLAGS="-C overflow-checks=on" CARGO_TARGET_DIR="$base/no-panic-ovf" cargo build -q --release \
             --manifest-path scripts/no-panic-probe/Cargo.toml --target "$target"
         echo "  with -C overflow-checks=on, overflow checks remain in:"
         callers "$base/no-panic-ovf/$target/release/kinglet-no-panic-probe"
     fi
+done
 done
 exit $status
