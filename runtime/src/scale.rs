@@ -38,23 +38,8 @@ pub(crate) fn quantise_floats(
     dst: &mut [u8],
 ) -> Result<(), RunError> {
     let (qs, zp) = (q.scale, q.zero_point);
-    let same = core::iter::repeat(&[0u8; 4]);
-    // No scaler is the uniform map (x - 0) · 1, which is x exactly for every finite x (-0.0
-    // included): one loop fewer in flash for two instructions per feature.
-    let uniform = match scaler {
-        None => Some((0.0, 1.0)),
-        Some(s) if s.offset.len() == 4 => Some((
-            le::f32_at(s.offset, 0).unwrap_or(0.0),
-            le::f32_at(s.scale, 0).unwrap_or(1.0),
-        )),
-        Some(_) => None,
-    };
-    match (scaler, uniform) {
-        (_, Some((off, sc))) => quantise_each(x, dst, qs, zp, same.clone().zip(same), |v, _| {
-            (v - off) * sc
-        }),
-        (None, None) => Ok(()),
-        (Some(s), None) => {
+    match scaler {
+        Some(s) if s.offset.len() != 4 => {
             // One zipped pass over features, offsets and scales: a single loop counter.
             let per = s
                 .offset
@@ -66,18 +51,31 @@ pub(crate) fn quantise_floats(
                 (v - f32::from_le_bytes(*off)) * f32::from_le_bytes(*sc)
             })
         }
+        _ => {
+            // No scaler is the uniform map (x - 0) · 1, which is x exactly for every finite x
+            // (-0.0 included): one loop fewer in flash for two instructions per feature.
+            let (off, sc) = scaler.map_or((0.0, 1.0), |s| {
+                (
+                    le::f32_at(s.offset, 0).unwrap_or(0.0),
+                    le::f32_at(s.scale, 0).unwrap_or(1.0),
+                )
+            });
+            quantise_each(x, dst, qs, zp, core::iter::repeat(()), |v, ()| {
+                (v - off) * sc
+            })
+        }
     }
 }
 
-/// The loop of [`quantise_floats`] for one scaler shape: `map(x, params)` is the scaled value.
+/// The loop of [`quantise_floats`] for one scaler shape: `map(x, param)` is the scaled value.
 #[inline(always)]
-fn quantise_each<'p>(
+fn quantise_each<P>(
     x: &[f32],
     dst: &mut [u8],
     scale: f32,
     zero_point: i8,
-    params: impl Iterator<Item = (&'p [u8; 4], &'p [u8; 4])>,
-    map: impl Fn(f32, (&'p [u8; 4], &'p [u8; 4])) -> f32,
+    params: impl Iterator<Item = P>,
+    map: impl Fn(f32, P) -> f32,
 ) -> Result<(), RunError> {
     for (i, ((d, &v), p)) in dst.iter_mut().zip(x).zip(params).enumerate() {
         if !v.is_finite() {
