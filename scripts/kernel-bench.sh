@@ -59,7 +59,7 @@ for t in m4 m0; do
     -plugin "$out/kcount.so,out=$out/$t.counts" -kernel "$elf/bench" > "$out/$t.log" \
     || { echo "kernel-bench: the $t firmware failed:" >&2; tail -5 "$out/$t.log" >&2; exit 1; }
   grep -E "^selfcheck:" "$out/$t.log" | sed "s/^/$t /"
-  specs+=("$t:$out/$t.log:$out/$t.counts:$elf/size_base:$elf/size_int8:$elf/size_int8_only")
+  specs+=("$t:$out/$t.log:$out/$t.counts:$elf/size_base:$elf/size_int8:$elf/size_int8_only:$elf/size_classify")
 done
 
 echo "== results (QEMU $(qemu-system-arm --version | head -1 | sed 's/.*version //'))"

@@ -1,6 +1,7 @@
 //! What must hold after `Model::parse` accepted a blob: inference never panics, refuses bad
 //! calls with the right typed error, and otherwise returns finite scores that are probabilities
-//! when the output is softmax or sigmoid.
+//! when the output is softmax or sigmoid; `classify` refuses the same calls and picks infer's
+//! class whenever infer's top score is unique.
 use kinglet_runtime::{Input, Model, OutputKind, RunError};
 
 /// Runs `input` through `model` with an arena of `arena_len` bytes and `scores_len` scores, and
@@ -23,6 +24,14 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores
         stages += 1;
     });
     let out_len = model.output_len();
+    check_classify(
+        model,
+        input,
+        arena_len,
+        (n_in, nonfinite_at),
+        &r,
+        scores.get(..out_len).unwrap_or(&[]),
+    );
     match r {
         Err(RunError::InputLength { expected, got }) => {
             assert_eq!(expected as usize, model.input_len());
@@ -81,6 +90,49 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores
                     assert_eq!(p.score, s[p.class]);
                     assert!(s.iter().all(|&v| v <= p.score));
                 }
+            }
+        }
+    }
+}
+
+/// `classify` on the same call as `infer` (`r`, which wrote `scores`): the same refusals,
+/// except that it has no scores to be short of, and infer's class whenever infer's top score
+/// is unique (a tie there can be float rounding that the integer argmax does not have).
+fn check_classify(
+    model: &Model<'_>,
+    input: Input<'_>,
+    arena_len: usize,
+    (n_in, nonfinite_at): (usize, Option<usize>),
+    r: &Result<kinglet_runtime::Prediction, RunError>,
+    scores: &[f32],
+) {
+    let mut arena = vec![0u8; arena_len];
+    let c = model.classify(input, &mut arena);
+    if n_in != model.input_len() {
+        assert!(matches!(c, Err(RunError::InputLength { .. })), "{c:?}");
+    } else if arena_len < model.arena_bytes() {
+        assert!(matches!(c, Err(RunError::ArenaTooSmall { .. })), "{c:?}");
+    } else if let Some(i) = nonfinite_at {
+        assert_eq!(c, Err(RunError::NonFiniteInput { index: i as u32 }));
+    } else if c == Err(RunError::NonFiniteOutput) {
+        assert_eq!(model.precision(), kinglet_runtime::Precision::F32);
+    } else {
+        let class = c.unwrap_or_else(|e| panic!("classify refused a good call: {e:?}"));
+        assert!(
+            class < model.classes(),
+            "class {class} of {}",
+            model.classes()
+        );
+        if let Ok(p) = r {
+            let unique = match model.desc().output {
+                OutputKind::Sigmoid => p.score != 0.5,
+                _ => scores.iter().filter(|&&v| v == p.score).count() == 1,
+            };
+            if unique {
+                assert_eq!(
+                    class, p.class,
+                    "classify vs infer ({p:?}, scores {scores:?})"
+                );
             }
         }
     }

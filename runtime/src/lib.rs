@@ -43,6 +43,7 @@
 )]
 
 pub mod arena;
+mod classify;
 pub mod dense;
 #[cfg(any(test, feature = "encode"))]
 pub mod encode;

@@ -189,62 +189,17 @@ impl<'a> Model<'a> {
         scores: &mut [f32],
         trace: &mut F,
     ) -> Result<Prediction, RunError> {
-        let n = self.input_len();
-        if input.len() != n {
-            return Err(RunError::InputLength {
-                expected: n as u32,
-                got: input.len() as u32,
-            });
-        }
+        self.check_input_len(&input)?;
         let out_len = self.output_len();
-        if scores.len() < out_len {
+        let got = scores.len() as u32;
+        let Some(scores) = scores.get_mut(..out_len) else {
             return Err(RunError::ScoresTooSmall {
                 needed: out_len as u32,
-                got: scores.len() as u32,
+                got,
             });
-        }
-        let too_small = RunError::ArenaTooSmall {
-            needed: self.plan.total() as u32,
-            got: u32::try_from(arena.len()).unwrap_or(u32::MAX),
         };
-        if arena.len() < self.plan.total() {
-            return Err(too_small);
-        }
-        let (ping, pong) = arena
-            .split_at_mut_checked(self.plan.ping)
-            .ok_or(too_small)?;
-        let scores = scores.get_mut(..out_len).ok_or(too_small)?;
-        let elem = self.desc.precision.accepted_bytes();
-        let first = ping.get_mut(..n * elem).ok_or(too_small)?;
-        let mut quant = self.load_input(input, first)?;
-        trace(&Stage {
-            index: 0,
-            values: view(quant, first),
-        });
-
-        for (k, layer) in self.desc.layers.iter().enumerate() {
-            let (src, dst): (&[u8], &mut [u8]) = if k.is_multiple_of(2) {
-                (&*ping, &mut *pong)
-            } else {
-                (&*pong, &mut *ping)
-            };
-            let src = src.get(..layer.inputs as usize * elem).ok_or(too_small)?;
-            let dst = dst
-                .get_mut(..layer.outputs as usize * elem)
-                .ok_or(too_small)?;
-            quant = run_layer(layer, src, dst);
-            trace(&Stage {
-                index: k + 1,
-                values: view(quant, dst),
-            });
-        }
-
+        let (quant, last) = self.forward(input, arena, trace)?;
         // Dequantise (or copy) the last tensor into the scores.
-        let last = if self.desc.layers.len().is_multiple_of(2) {
-            &*ping
-        } else {
-            &*pong
-        };
         match quant {
             Some((scale, zero_point)) => {
                 // `Activations::real`, without its per-element variant match.
@@ -285,6 +240,70 @@ impl<'a> Model<'a> {
         }
         let (class, score) = argmax(scores).unwrap_or((0, 0.0));
         Ok(Prediction { class, score })
+    }
+
+    /// `InputLength` unless `input` has the model's input width.
+    pub(crate) fn check_input_len(&self, input: &Input<'_>) -> Result<(), RunError> {
+        let n = self.input_len();
+        if input.len() == n {
+            Ok(())
+        } else {
+            Err(RunError::InputLength {
+                expected: n as u32,
+                got: input.len() as u32,
+            })
+        }
+    }
+
+    /// The input stage and every layer, in `arena`: returns the last layer's quantisation and
+    /// the arena half that starts with its output tensor. The caller has checked the input
+    /// width.
+    pub(crate) fn forward<'x, F: FnMut(&Stage<'_>)>(
+        &self,
+        input: Input<'_>,
+        arena: &'x mut [u8],
+        trace: &mut F,
+    ) -> Result<(Quant, &'x [u8]), RunError> {
+        let too_small = RunError::ArenaTooSmall {
+            needed: self.plan.total() as u32,
+            got: u32::try_from(arena.len()).unwrap_or(u32::MAX),
+        };
+        if arena.len() < self.plan.total() {
+            return Err(too_small);
+        }
+        let (ping, pong) = arena
+            .split_at_mut_checked(self.plan.ping)
+            .ok_or(too_small)?;
+        let elem = self.desc.precision.accepted_bytes();
+        let first = ping.get_mut(..self.input_len() * elem).ok_or(too_small)?;
+        let mut quant = self.load_input(input, first)?;
+        trace(&Stage {
+            index: 0,
+            values: view(quant, first),
+        });
+
+        for (k, layer) in self.desc.layers.iter().enumerate() {
+            let (src, dst): (&[u8], &mut [u8]) = if k.is_multiple_of(2) {
+                (&*ping, &mut *pong)
+            } else {
+                (&*pong, &mut *ping)
+            };
+            let src = src.get(..layer.inputs as usize * elem).ok_or(too_small)?;
+            let dst = dst
+                .get_mut(..layer.outputs as usize * elem)
+                .ok_or(too_small)?;
+            quant = run_layer(layer, src, dst);
+            trace(&Stage {
+                index: k + 1,
+                values: view(quant, dst),
+            });
+        }
+        let last: &'x [u8] = if self.desc.layers.len().is_multiple_of(2) {
+            ping
+        } else {
+            pong
+        };
+        Ok((quant, last))
     }
 
     /// Scales (and for int8, quantises) the raw input into `dst`.
@@ -355,7 +374,7 @@ fn split_labels(all: &str) -> impl Iterator<Item = &str> {
 }
 
 /// Scale and zero point of an int8 tensor; `None` for f32.
-type Quant = Option<(f32, i8)>;
+pub(crate) type Quant = Option<(f32, i8)>;
 
 /// A view of `data` with the quantisation `q`.
 fn view(q: Quant, data: &[u8]) -> Activations<'_> {

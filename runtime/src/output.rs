@@ -44,6 +44,18 @@ pub fn argmax(scores: &[f32]) -> Option<(usize, f32)> {
     best
 }
 
+/// Index of the largest of the int8 values `q` (bytes holding `i8`); ties resolve to the lowest
+/// index; 0 for an empty slice.
+pub fn argmax_i8(q: &[u8]) -> usize {
+    let mut best = (0, i8::MIN);
+    for (i, &v) in q.iter().enumerate() {
+        if v as i8 > best.1 || i == 0 {
+            best = (i, v as i8);
+        }
+    }
+    best.0
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -77,6 +89,15 @@ mod tests {
         assert_eq!(argmax(&[f32::NAN, 0.2, 0.1]), Some((1, 0.2)));
         assert_eq!(argmax(&[]), None);
         assert_eq!(argmax(&[f32::NAN]), None);
+    }
+
+    #[test]
+    fn argmax_i8_reads_signed_bytes_and_ties_to_the_lowest() {
+        let q = |v: &[i8]| v.iter().map(|&x| x as u8).collect::<Vec<u8>>();
+        assert_eq!(argmax_i8(&q(&[-5, 3, -128, 3, 127, 127])), 4);
+        assert_eq!(argmax_i8(&q(&[-128, -128])), 0);
+        assert_eq!(argmax_i8(&q(&[-1, 0])), 1);
+        assert_eq!(argmax_i8(&[]), 0);
     }
 
     #[test]

@@ -49,11 +49,40 @@ fn finite(bytes: &[u8], layer: Option<u8>, tensor: TensorKind) -> Result<(), For
 /// Not inlined: it has several call sites, and parse time does not matter (flash does).
 #[inline(never)]
 fn good_scale(s: f32, zero_point: i8, layer: Option<u8>) -> Result<(), FormatError> {
-    let steps = f32::from((127 - i16::from(zero_point)).max(i16::from(zero_point) + 128));
-    if s.is_finite() && s > 0.0 && (s * steps).is_finite() {
+    let steps = (127 - i16::from(zero_point)).max(i16::from(zero_point) + 128);
+    if scale_fits(s.to_bits(), steps.unsigned_abs()) {
         Ok(())
     } else {
         Err(FormatError::BadScale { layer })
+    }
+}
+
+/// Whether the f32 with bits `b` is finite and positive and its product with `steps`
+/// (`1..=255`) rounds to a finite f32: `s.is_finite() && s > 0.0 && (s * steps).is_finite()`,
+/// in integer arithmetic, so that parsing needs no float routine on a core without an FPU.
+///
+/// `s = m · 2^e` exactly (`m` the 24-bit significand). IEEE-754 round-to-nearest-even turns
+/// a product into infinity exactly when it is at least `f32::MAX` plus half its last-place
+/// unit, `(2^25 - 1) · 2^103` (the tie rounds to the even neighbour, `2^128`).
+fn scale_fits(b: u32, steps: u16) -> bool {
+    // Sign bit set (negative or -0.0), +0.0, infinity and NaN.
+    if b == 0 || b >= 0x7F80_0000 {
+        return false;
+    }
+    let (exp, frac) = (b >> 23, u64::from(b & 0x007F_FFFF));
+    let (m, e) = if exp == 0 {
+        (frac, -149)
+    } else {
+        (frac | 1 << 23, exp as i32 - 150)
+    };
+    let product = m * u64::from(steps); // < 2^32
+    let limit = (1u64 << 25) - 1;
+    match 103 - e {
+        // (2^25 - 1) · 2^8 already exceeds every product.
+        8.. => true,
+        k @ 0..=7 => product < limit << k,
+        // e = 104, the largest exponent: compare product · 2 with the limit.
+        _ => product << 1 < limit,
     }
 }
 
@@ -271,6 +300,60 @@ mod tests {
         let mut m = tiny_int8();
         f(&mut m);
         parse(&m)
+    }
+
+    /// `scale_fits` against the float formula it replaces, around each product's overflow
+    /// boundary, on random bit patterns and on the special values (x86-64 f32 multiplication
+    /// is IEEE-754 correctly rounded, so the host is the reference).
+    #[test]
+    fn integer_scale_check_matches_the_float_one() {
+        let float = |b: u32, steps: u16| {
+            let s = f32::from_bits(b);
+            s.is_finite() && s > 0.0 && (s * f32::from(steps)).is_finite()
+        };
+        let mut state = 0x1234_5678_u32; // xorshift32 (Marsaglia, 2003)
+        let mut next = || {
+            state ^= state << 13;
+            state ^= state >> 17;
+            state ^= state << 5;
+            state
+        };
+        let specials = [
+            0u32,
+            1,
+            2,
+            0x007F_FFFF,
+            0x0080_0000,
+            0x3F80_0000,
+            0x7F7F_FFFF,
+            0x7F80_0000,
+            0x7FC0_0000,
+            0x8000_0000,
+            0x8000_0001,
+            0xBF80_0000,
+            0xFF80_0000,
+            0xFFFF_FFFF,
+        ];
+        for steps in 1..=255u16 {
+            let edge = (f32::MAX / f32::from(steps)).to_bits();
+            let around = (edge.saturating_sub(3000)..=edge.saturating_add(3000).min(0x7F80_0000))
+                .chain(specials);
+            for b in around {
+                assert_eq!(
+                    super::scale_fits(b, steps),
+                    float(b, steps),
+                    "bits {b:#010x} steps {steps}"
+                );
+            }
+            for _ in 0..2000 {
+                let b = next();
+                assert_eq!(
+                    super::scale_fits(b, steps),
+                    float(b, steps),
+                    "bits {b:#010x} steps {steps}"
+                );
+            }
+        }
     }
 
     #[test]

@@ -5,6 +5,7 @@
 //!   the packer does) and as an output-major twin `*.om.kgl` with the same numbers;
 //! - `kb-gen twin IN OUT` writes the output-major twin of a packed blob;
 //! - `kb-gen text-size ELF` prints the bytes of the ELF's `.text` section;
+//! - `kb-gen soft-routines ELF` lists the software float and division routines it links;
 //! - `kb-gen report ...` pairs the firmware's `kb` lines with the plugin's counts and prints
 //!   the tables (see `report.rs`).
 mod blobs;
@@ -18,8 +19,11 @@ fn main() -> ExitCode {
         Some("synth") if args.len() == 2 => blobs::synth(&args[1]),
         Some("twin") if args.len() == 3 => blobs::twin_file(&args[1], &args[2]),
         Some("text-size") if args.len() == 2 => text_size(&args[1]).map(|n| println!("{n}")),
+        Some("soft-routines") if args.len() == 2 => {
+            soft_routines(&args[1]).map(|v| v.iter().for_each(|n| println!("{n}")))
+        }
         Some("report") => report::run(&args[1..]),
-        _ => Err("usage: kb-gen synth DIR | twin IN OUT | text-size ELF | report ...".into()),
+        _ => Err("usage: kb-gen synth DIR | twin IN OUT | text-size ELF | soft-routines ELF | report ...".into()),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
@@ -39,4 +43,35 @@ fn text_size(path: &str) -> Result<u64, String> {
         .section_by_name(".text")
         .ok_or(format!("{path}: no .text section"))?;
     Ok(text.size())
+}
+
+/// Software float and integer-division routines (compiler-builtins, libm) the ELF links: what
+/// an integer-only path on a core without FPU or divider must not pull in.
+fn soft_routines(path: &str) -> Result<Vec<String>, String> {
+    use object::{Object, ObjectSymbol};
+    let data = std::fs::read(path).map_err(|e| format!("{path}: {e}"))?;
+    let file = object::File::parse(&*data).map_err(|e| format!("{path}: {e}"))?;
+    // The `__aeabi_*` entry points and compiler-builtins' own (v0-mangled) names.
+    let soft = |n: &str| {
+        let aeabi = n.strip_prefix("__aeabi_").unwrap_or("");
+        aeabi.starts_with('f')
+            || aeabi.starts_with('d')
+            || aeabi.ends_with("2f")
+            || aeabi.contains("div")
+            || [
+                "sf3", "df3", "sf2", "df2", "divsi3", "divdi3", "modsi3", "moddi3",
+            ]
+            .iter()
+            .any(|e| n.contains(e))
+            || n.contains("specialized_div_rem")
+            || n.contains("4libm4math")
+    };
+    let mut found: Vec<String> = file
+        .symbols()
+        .filter_map(|sym| sym.name().ok().map(str::to_owned))
+        .filter(|n| soft(n))
+        .collect();
+    found.sort();
+    found.dedup();
+    Ok(found)
 }

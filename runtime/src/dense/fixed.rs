@@ -97,11 +97,8 @@ pub(crate) fn blocks_i8(
     let mut params = bias.iter().zip(mult).zip(shift);
     // The parameters of a last block of fewer than 4 rows, zero-padded (once per layer).
     let last = (padded(bias_rest), padded(mult_rest), padded(shift_rest));
-    for (block, out) in data
-        .chunks_exact((layout::padded(n) * BLOCK_ROWS).max(1))
-        // `&mut`: zipping the plain `ChunksMut` takes core's random-access `Zip::new`, which is
-        // not inlined here and keeps a division-by-zero panic path (scripts/no-panic-check.sh).
-        .zip(&mut output.chunks_mut(BLOCK_ROWS))
+    for (block, out) in
+        super::pieces(data, layout::padded(n) * BLOCK_ROWS).zip(output.chunks_mut(BLOCK_ROWS))
     {
         let g = block.as_chunks::<GROUP_ELEMS>().0;
         let mut acc = groups(g, full);

@@ -34,6 +34,19 @@ pub mod m0;
 
 pub use portable::{dense_f32, dense_i8};
 
+/// Consecutive `size`-byte pieces of `data` (a shorter rest is dropped), as `chunks_exact`
+/// gives, but without the division `chunks_exact` makes for its length: a Cortex-M0 has no
+/// divide instruction, and that one division links 400 bytes of `__aeabi_uidivmod` into an
+/// int8 firmware that needs no other. `size` 0 gives empty pieces forever; callers zip it.
+pub(crate) fn pieces(data: &[u8], size: usize) -> impl Iterator<Item = &[u8]> {
+    let mut rest = data;
+    core::iter::from_fn(move || {
+        let (piece, tail) = rest.split_at_checked(size)?;
+        rest = tail;
+        Some(piece)
+    })
+}
+
 /// Parameters of one int8 dense layer, borrowed from the blob.
 #[derive(Debug, Clone, Copy)]
 pub struct DenseI8<'a> {

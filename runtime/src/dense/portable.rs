@@ -12,9 +12,12 @@ use crate::requant::requantize;
 ///
 /// Accumulates in i32; [`crate::Model::parse`] proved that no int8 input can overflow it.
 pub fn dense_i8(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
-    let rows = p.weights.chunks_exact(p.inputs.max(1));
+    // `chunks`, by `&mut`, rather than `chunks_exact`: neither it nor the zip computes the
+    // number of rows, a division that would link a software divide on a Cortex-M0 (see
+    // `super::pieces`). Validation made every row exactly `inputs` long.
+    let mut rows = p.weights.chunks(p.inputs.max(1));
     let params = le::i32s(p.bias).zip(le::i32s(p.multiplier)).zip(p.shift);
-    for ((row, out), ((bias, mult), &shift)) in rows.zip(output.iter_mut()).zip(params) {
+    for ((row, out), ((bias, mult), &shift)) in (&mut rows).zip(output.iter_mut()).zip(params) {
         let mut acc = bias;
         for (&w, &x) in row.iter().zip(input) {
             acc += i32::from(w as i8) * i32::from(x as i8);

@@ -1,8 +1,9 @@
 //! The runtime's whole public inference path in one bare-metal binary: parse a blob the
-//! optimiser cannot see into (`black_box`), then run every input kind through `infer` and
-//! `infer_traced`. With `panic = "abort"`, a looping panic handler and LTO, every panic path
-//! the runtime can still reach leaves a call to a `core::panicking` (or slice-index, unwrap,
-//! expect) symbol in the ELF; `scripts/no-panic-check.sh` lists them and who calls them.
+//! optimiser cannot see into (`black_box`), then run every input kind through `infer`,
+//! `infer_traced` and `classify`. With `panic = "abort"`, a looping panic handler and LTO,
+//! every panic path the runtime can still reach leaves a call to a `core::panicking` (or
+//! slice-index, unwrap, expect) symbol in the ELF; `scripts/no-panic-check.sh` lists them and
+//! who calls them.
 #![no_std]
 #![no_main]
 
@@ -40,6 +41,7 @@ pub extern "C" fn _start() -> ! {
                 let arena = black_box(&mut arena[..]);
                 let scores = black_box(&mut scores[..]);
                 black_box(model.infer(input, arena, scores).ok());
+                black_box(model.classify(input, arena).ok());
                 black_box(
                     model
                         .infer_traced(input, arena, scores, &mut |s| {

@@ -184,6 +184,25 @@ fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut 
         "{} predictions differ",
         name
     );
+    // The integer input path (the same features as i16 counts): `infer`, and `classify`, which
+    // stays in integers to the class.
+    let mut counts = [0i16; 64];
+    for (c, f) in counts.iter_mut().zip(&features[..n]) {
+        *c = *f as i16;
+    }
+    let ints = Input::I16(&counts[..n]);
+    case(name, "model-infer-i16", macs, || {
+        pred = Some(mb.infer(black_box(ints), &mut arena.0, &mut scores));
+    });
+    let mut class = None;
+    case(name, "model-classify-i16", macs, || {
+        class = Some(mb.classify(black_box(ints), &mut arena.0));
+    });
+    assert!(
+        pred.is_some_and(|p| p.is_ok_and(|p| class == Some(Ok(p.class)))),
+        "{} classify differs from infer",
+        name
+    );
     for (k, l) in mb.desc().layers.iter().enumerate() {
         let (src, dst) = arena.0.split_at_mut(256);
         fill(&mut src[..l.inputs as usize], rng);
