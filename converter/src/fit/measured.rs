@@ -13,19 +13,19 @@ use super::Measured;
 /// Cortex-M0 / M0+ (`thumbv6m-none-eabi`, no FPU: float is software).
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
-    runtime_text: 14740,
+    runtime_text: 14732,
     runtime_rodata: 1383,
-    stack_parse: 2972,
-    stack_infer: 812,
+    stack_parse: 2932,
+    stack_infer: 820,
     model_struct: 560,
 };
 
 /// Cortex-M4F / M7 class (`thumbv7em-none-eabihf`, single-precision FPU).
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
-    runtime_text: 11644,
+    runtime_text: 11752,
     runtime_rodata: 1383,
     stack_parse: 2868,
-    stack_infer: 668,
+    stack_infer: 660,
     model_struct: 560,
 };
