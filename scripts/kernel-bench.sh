@@ -49,9 +49,13 @@ for t in m4 m0; do
   esac
   echo "== $t: building the firmware ($triple, opt-level s) and running it under QEMU ($machine)"
   (cd kernel-bench && KB_BLOBS="$blobs" CARGO_TARGET_DIR="$out" cargo build -q --release -p kinglet-firmware-bench --target $triple)
-  # Built on its own so that its `default-features = false` runtime is not unified with the
-  # benchmark's (int8 + f32): the int8-only code-size probe.
-  (cd kernel-bench && CARGO_TARGET_DIR="$out" cargo build -q --release -p kinglet-size-probe --target $triple)
+  # The code-size probes, built on their own so that their runtime's features are not unified
+  # with the benchmark's: int8-only, and with the `f32` feature (the default runtime).
+  for build in int8 f32; do
+    flags=(); [ $build = f32 ] && flags=(--features f32)
+    (cd kernel-bench && CARGO_TARGET_DIR="$out/size-$build" cargo build -q --release -p kinglet-size-probe --target $triple "${flags[@]}")
+  done
+  s8="$out/size-int8/$triple/release"; sf="$out/size-f32/$triple/release"
   elf="$out/$triple/release"
   rm -f "$out/$t.counts"
   timeout 600 qemu-system-arm -machine $machine -cpu $cpu -nographic -monitor none -serial none \
@@ -59,7 +63,7 @@ for t in m4 m0; do
     -plugin "$out/kcount.so,out=$out/$t.counts" -kernel "$elf/bench" > "$out/$t.log" \
     || { echo "kernel-bench: the $t firmware failed:" >&2; tail -5 "$out/$t.log" >&2; exit 1; }
   grep -E "^selfcheck:" "$out/$t.log" | sed "s/^/$t /"
-  specs+=("$t:$out/$t.log:$out/$t.counts:$elf/size_base:$elf/size_int8:$elf/size_int8_only:$elf/size_classify")
+  specs+=("$t:$out/$t.log:$out/$t.counts:$s8/size_base:$sf/size_infer:$s8/size_infer:$s8/size_classify")
 done
 
 echo "== results (QEMU $(qemu-system-arm --version | head -1 | sed 's/.*version //'))"

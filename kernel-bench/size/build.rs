@@ -1,20 +1,6 @@
-//! Puts the memory map of the target's QEMU machine where cortex-m-rt's `link.x` looks for it
-//! (the same maps as `kinglet-firmware-bench`).
-use std::path::PathBuf;
+//! The QEMU machine's memory map for the probes (`../memory/link.rs`, shared with `fw`).
+include!("../memory/link.rs");
 
 fn main() {
-    let dir = PathBuf::from(std::env::var("CARGO_MANIFEST_DIR").unwrap_or_default());
-    let out = PathBuf::from(std::env::var("OUT_DIR").unwrap_or_default());
-    let target = std::env::var("TARGET").unwrap_or_default();
-    let memory = if target.starts_with("thumbv6m") {
-        "microbit.x"
-    } else {
-        "mps2-an386.x"
-    };
-    let src = dir.join("../memory").join(memory);
-    std::fs::copy(&src, out.join("memory.x"))
-        .unwrap_or_else(|e| panic!("copying {}: {e}", src.display()));
-    println!("cargo:rerun-if-changed={}", src.display());
-    println!("cargo:rustc-link-search={}", out.display());
-    println!("cargo:rustc-link-arg-bins=-Tlink.x");
+    link_memory_map();
 }
