@@ -105,6 +105,8 @@ for t in "${targets[@]}"; do
   if run "$t" classify "$work/classify-$t.txt"; then :; else fail "$t: classify exited non-zero"; fi
   head -3 "$work/classify-$t.txt"; echo "  ..."; tail -1 "$work/classify-$t.txt"
   grep -q '^classify: 64 windows' "$work/classify-$t.txt" || fail "$t: classify did not process 64 windows"
+  grep -q "Model::classify gives infer's class on 64 of 64" "$work/classify-$t.txt" \
+    || fail "$t: Model::classify disagreed with infer"
 
   step "$t: a fault fails fast"
   start=$(date +%s)

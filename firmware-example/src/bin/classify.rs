@@ -83,7 +83,7 @@ fn classify_all<S: WindowSource, P: StatefulOutputPin>(
 ) -> bool {
     let mut window: Window = [[0; WINDOW]; AXES];
     let mut scores = [0f32; CLASSES];
-    let (mut n, mut agree, mut peak) = (0usize, 0usize, 0usize);
+    let (mut n, mut agree, mut peak, mut same) = (0usize, 0usize, 0usize, 0usize);
     while source.next_window(&mut window).is_ok() {
         let features = window_features(&window);
         let (result, used) =
@@ -98,6 +98,8 @@ fn classify_all<S: WindowSource, P: StatefulOutputPin>(
                 return false;
             }
         };
+        // The class alone, by the integer argmax of the last layer: must be `infer`'s.
+        same += usize::from(model.classify(Input::F32(&features), arena) == Ok(p.class));
         if show_class(pins, p.class).is_err() {
             return fail("could not drive the class pins");
         }
@@ -126,8 +128,8 @@ fn classify_all<S: WindowSource, P: StatefulOutputPin>(
     let mut l = console::LineBuf::new();
     let _ = write!(
         l,
-        "classify: {n} windows, {agree} agree with the recorded class; peak stack of one inference (features excluded): {peak} bytes"
+        "classify: {n} windows, {agree} agree with the recorded class; peak stack of one inference (features excluded): {peak} bytes; Model::classify gives infer's class on {same} of {n}"
     );
     console::line(&l);
-    n > 0
+    n > 0 && same == n
 }
