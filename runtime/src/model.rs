@@ -1,6 +1,6 @@
 //! The validated model and the forward pass.
 use crate::arena::ArenaPlan;
-use crate::dense::{dense_f32, dense_f32_blocked, dense_i8, dense_i8_blocked, DenseI8};
+use crate::dense::{dense_f32, dense_f32_blocked, dense_i8, dense_i8_blocked, DenseF32, DenseI8};
 use crate::error::{FormatError, RunError};
 use crate::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout};
 use crate::header::{Header, HEADER_LEN};
@@ -412,19 +412,16 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
         // Without the `f32` feature, `parse` has refused f32 models.
         None if !cfg!(feature = "f32") => None,
         None => {
-            let relu = layer.activation == Activation::Relu;
-            let kernel = match layer.layout {
-                WeightLayout::OutputMajor => dense_f32,
-                WeightLayout::Blocked4x4 => dense_f32_blocked,
+            let p = DenseF32 {
+                inputs: layer.inputs as usize,
+                weights: layer.weights,
+                bias: layer.bias,
+                relu: layer.activation == Activation::Relu,
             };
-            kernel(
-                layer.inputs as usize,
-                layer.weights,
-                layer.bias,
-                relu,
-                src,
-                dst,
-            );
+            match layer.layout {
+                WeightLayout::OutputMajor => dense_f32(&p, src, dst),
+                WeightLayout::Blocked4x4 => dense_f32_blocked(&p, src, dst),
+            }
             None
         }
     }

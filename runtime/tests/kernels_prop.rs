@@ -3,7 +3,7 @@
 //! On the host this runs the portable blocked kernels, the Cortex-M0 kernel's Rust, the
 //! kernel [`dense_i8_blocked`] dispatches to, and the kernels' requantisation; the `asm!`
 //! kernels themselves run in the on-target self-check of `kernel-bench/`.
-use kinglet_runtime::dense::{self, fixed, layout, m0, portable, DenseI8};
+use kinglet_runtime::dense::{self, fixed, layout, m0, portable, DenseF32, DenseI8};
 use kinglet_runtime::requant::requantize;
 use proptest::prelude::*;
 
@@ -118,12 +118,12 @@ proptest! {
         let mut field = vec![0u8; pad + 4 * layout::elements(n, m)];
         prop_assert!(layout::block_f32(n, m, &w, &mut field[pad..]));
         let mut want = vec![0u8; 4 * m];
-        portable::dense_f32(n, &om, &bb, relu, &xb, &mut want);
+        portable::dense_f32(&DenseF32 { inputs: n, weights: &om, bias: &bb, relu }, &xb, &mut want);
         let mut got = vec![0u8; 4 * m];
-        portable::dense_f32_blocked(n, &field, &bb, relu, &xb, &mut got);
+        portable::dense_f32_blocked(&DenseF32 { inputs: n, weights: &field, bias: &bb, relu }, &xb, &mut got);
         prop_assert_eq!(&got, &want);
         let mut got = vec![0u8; 4 * m];
-        dense::dense_f32_blocked(n, &field, &bb, relu, &xb, &mut got);
+        dense::dense_f32_blocked(&DenseF32 { inputs: n, weights: &field, bias: &bb, relu }, &xb, &mut got);
         prop_assert_eq!(&got, &want);
     }
 

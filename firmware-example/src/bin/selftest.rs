@@ -13,7 +13,7 @@
 use core::fmt::Write;
 use cortex_m_rt::entry;
 use kinglet_firmware_example::{board, console};
-use kinglet_runtime::dense::{dense_f32, dense_i8, DenseI8};
+use kinglet_runtime::dense::{dense_f32, dense_i8, DenseF32, DenseI8};
 use kinglet_runtime::output::{argmax, sigmoid, softmax};
 use kinglet_runtime::requant::{
     requantize, rounding_divide_by_pot, saturating_rounding_doubling_high_mul,
@@ -187,13 +187,31 @@ fn dense_f32_cases(t: &mut Tally) {
     let b: [u8; 8] = f32_bytes([0.5, -10.0]);
     let x: [u8; 8] = f32_bytes([3.0, 4.0]);
     let mut out = [0u8; 8];
-    dense_f32(2, &w, &b, false, &x, &mut out);
+    dense_f32(
+        &DenseF32 {
+            inputs: 2,
+            weights: &w,
+            bias: &b,
+            relu: false,
+        },
+        &x,
+        &mut out,
+    );
     let y = (f32_at(&out, 0), f32_at(&out, 1));
     t.check(
         y == (11.5, -11.0),
         format_args!("FAIL dense f32 linear: {y:?}"),
     );
-    dense_f32(2, &w, &b, true, &x, &mut out);
+    dense_f32(
+        &DenseF32 {
+            inputs: 2,
+            weights: &w,
+            bias: &b,
+            relu: true,
+        },
+        &x,
+        &mut out,
+    );
     let y = (f32_at(&out, 0), f32_at(&out, 1));
     t.check(y == (11.5, 0.0), format_args!("FAIL dense f32 relu: {y:?}"));
 
@@ -216,7 +234,16 @@ fn dense_f32_cases(t: &mut Tally) {
         xb[i * 4..][..4].copy_from_slice(&(xv(i) as f32).to_le_bytes());
     }
     let mut yb = [0u8; O * 4];
-    dense_f32(I, &wb, &bb, false, &xb, &mut yb);
+    dense_f32(
+        &DenseF32 {
+            inputs: I,
+            weights: &wb,
+            bias: &bb,
+            relu: false,
+        },
+        &xb,
+        &mut yb,
+    );
     for o in 0..O {
         let exact: i32 = (0..I).map(|i| wv(o, i) * xv(i)).sum::<i32>() + o as i32 * 3 - 10;
         let got = f32_at(&yb, o);

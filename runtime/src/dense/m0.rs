@@ -9,7 +9,7 @@
 //! once per layer (see [`super::portable::excess_correction`]).
 use super::layout::{BLOCK_ROWS, GROUP, GROUP_ELEMS};
 use super::portable::excess_correction;
-use super::DenseI8;
+use super::{DenseF32, DenseI8};
 
 /// Adds one input's products with the 4 rows of a group: weights `g[k]`, `g[4 + k]`, ...
 #[inline(always)]
@@ -47,22 +47,14 @@ pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
 /// [`super::portable::dense_f32_blocked`] (each row adds its products in input order from
 /// `+0.0`, then the bias). The soft-float targets use it: it is several times smaller than the
 /// portable kernel, which interleaves two blocks for speed on hosts.
-pub fn dense_f32_blocked(
-    inputs: usize,
-    weights: &[u8],
-    bias: &[u8],
-    relu: bool,
-    input: &[u8],
-    output: &mut [u8],
-) {
-    let n = inputs;
+pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
     let outs = output.as_chunks_mut::<4>().0;
-    let Some((_, data)) = super::layout::split(weights, n, outs.len(), 4) else {
+    let Some(super::blocked_f32::Cut { data, x, block_len }) =
+        super::blocked_f32::cut(p, outs.len(), input)
+    else {
         return;
     };
-    let x = input.get(..n * 4).unwrap_or(&[]);
-    let block_len = super::layout::padded(n) * BLOCK_ROWS * 4;
-    let mut biases = crate::le::f32s(bias);
+    let mut biases = crate::le::f32s(p.bias);
     for (block, out) in data
         .chunks_exact(block_len.max(1))
         // `&mut`: see `super::fixed::blocks_i8`.
@@ -76,13 +68,7 @@ pub fn dense_f32_blocked(
                 }
             }
         }
-        for (o, (a, b)) in out.iter_mut().zip(acc.into_iter().zip(&mut biases)) {
-            let mut v = a + b;
-            if relu && v < 0.0 {
-                v = 0.0;
-            }
-            *o = v.to_le_bytes();
-        }
+        super::blocked_f32::finish(&acc, &mut biases, p.relu, out);
     }
 }
 
@@ -119,9 +105,27 @@ mod tests {
                     .collect();
                 for relu in [false, true] {
                     let mut want = vec![0u8; 4 * m];
-                    portable::dense_f32(n, &om, &b, relu, &x, &mut want);
+                    portable::dense_f32(
+                        &DenseF32 {
+                            inputs: n,
+                            weights: &om,
+                            bias: &b,
+                            relu,
+                        },
+                        &x,
+                        &mut want,
+                    );
                     let mut got = vec![1u8; 4 * m];
-                    dense_f32_blocked(n, &field, &b, relu, &x, &mut got);
+                    dense_f32_blocked(
+                        &DenseF32 {
+                            inputs: n,
+                            weights: &field,
+                            bias: &b,
+                            relu,
+                        },
+                        &x,
+                        &mut got,
+                    );
                     assert_eq!(got, want, "{n}x{m} relu {relu}");
                 }
             }

@@ -21,6 +21,7 @@
 //! `asm::m4` need the weight data 4-byte aligned; the packer aligns it within the blob, so a blob
 //! placed at a 4-byte aligned address gets them, and any other falls back to a slower kernel
 //! with the same results.
+mod blocked_f32;
 pub mod fixed;
 pub mod layout;
 pub mod portable;
@@ -89,22 +90,29 @@ pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     portable::dense_i8_blocked(p, input, output)
 }
 
+/// Parameters of one f32 dense layer, borrowed from the blob.
+#[derive(Debug, Clone, Copy)]
+pub struct DenseF32<'a> {
+    /// Input width.
+    pub inputs: usize,
+    /// The weight field in the layer's layout, little-endian f32 (for [`dense_f32`],
+    /// `[outputs][inputs]`).
+    pub weights: &'a [u8],
+    /// `outputs` little-endian f32 biases.
+    pub bias: &'a [u8],
+    /// Clamp negative outputs to 0 (a fused ReLU).
+    pub relu: bool,
+}
+
 /// Runs an f32 dense layer with `Blocked4x4` weights on the fastest kernel of this build;
 /// `output.len() / 4` is the layer's output width.
 #[inline]
-pub fn dense_f32_blocked(
-    inputs: usize,
-    weights: &[u8],
-    bias: &[u8],
-    relu: bool,
-    input: &[u8],
-    output: &mut [u8],
-) {
+pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
     #[cfg(all(kinglet_kernel = "dsp", kinglet_fpu))]
-    return asm::m4::dense_f32_blocked(inputs, weights, bias, relu, input, output);
+    return asm::m4::dense_f32_blocked(p, input, output);
     // Soft-float targets: the one-block kernel, for flash.
     #[cfg(all(any(kinglet_kernel = "dsp", kinglet_kernel = "m0"), not(kinglet_fpu)))]
-    return m0::dense_f32_blocked(inputs, weights, bias, relu, input, output);
+    return m0::dense_f32_blocked(p, input, output);
     #[allow(unreachable_code)]
-    portable::dense_f32_blocked(inputs, weights, bias, relu, input, output)
+    portable::dense_f32_blocked(p, input, output)
 }

@@ -4,7 +4,7 @@
 //! Validation guarantees the slice lengths agree with the shapes; should they not, the zipped
 //! iterators simply stop early — they never index out of bounds.
 use super::layout::{self, BLOCK_ROWS, GROUP, GROUP_ELEMS};
-use super::DenseI8;
+use super::{DenseF32, DenseI8};
 use crate::le;
 use crate::requant::requantize;
 
@@ -26,26 +26,22 @@ pub fn dense_i8(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     }
 }
 
-/// Runs an f32 dense layer over little-endian f32 bytes; `relu` clamps negatives to 0.
-pub fn dense_f32(
-    inputs: usize,
-    weights: &[u8],
-    bias: &[u8],
-    relu: bool,
-    input: &[u8],
-    output: &mut [u8],
-) {
+/// Runs an f32 dense layer with output-major weights over little-endian f32 bytes; `p.relu`
+/// clamps negatives to 0.
+pub fn dense_f32(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
     // The last `max(4)` lets the optimiser see the chunk size is non-zero, which removes
     // `chunks_exact`'s panic path (scripts/no-panic-check.sh).
-    let rows = weights.chunks_exact(inputs.max(1).saturating_mul(4).max(4));
+    let rows = p
+        .weights
+        .chunks_exact(p.inputs.max(1).saturating_mul(4).max(4));
     let outs = output.as_chunks_mut::<4>().0.iter_mut();
-    for ((row, out), b) in rows.zip(outs).zip(le::f32s(bias)) {
+    for ((row, out), b) in rows.zip(outs).zip(le::f32s(p.bias)) {
         let mut acc = 0.0f32;
         for (w, x) in le::f32s(row).zip(le::f32s(input)) {
             acc += w * x;
         }
         acc += b;
-        if relu && acc < 0.0 {
+        if p.relu && acc < 0.0 {
             acc = 0.0;
         }
         *out = acc.to_le_bytes();
@@ -159,31 +155,18 @@ fn groups_f32<const B: usize>(groups: [&[u8]; B], x: &[u8], acc: &mut [[f32; BLO
 
 /// Runs an f32 dense layer with [`crate::format::WeightLayout::Blocked4x4`] weights; each row
 /// adds its products in input order from `+0.0`, then the bias, exactly as [`dense_f32`].
-pub fn dense_f32_blocked(
-    inputs: usize,
-    weights: &[u8],
-    bias: &[u8],
-    relu: bool,
-    input: &[u8],
-    output: &mut [u8],
-) {
-    let n = inputs;
+pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
     let outs = output.as_chunks_mut::<4>().0;
-    let Some((_, data)) = layout::split(weights, n, outs.len(), 4) else {
+    let Some(super::blocked_f32::Cut { data, x, block_len }) =
+        super::blocked_f32::cut(p, outs.len(), input)
+    else {
         return;
     };
-    let x = input.get(..n * 4).unwrap_or(&[]);
-    let block_len = (layout::padded(n) * BLOCK_ROWS * 4).max(4);
+    let block_len = block_len.max(4);
     let group_len = GROUP_ELEMS * 4;
-    let mut biases = le::f32s(bias);
+    let mut biases = le::f32s(p.bias);
     let mut finish = |acc: &[f32; BLOCK_ROWS], out: &mut [[u8; 4]]| {
-        for (o, (a, b)) in out.iter_mut().zip(acc.iter().zip(&mut biases)) {
-            let mut v = a + b;
-            if relu && v < 0.0 {
-                v = 0.0;
-            }
-            *o = v.to_le_bytes();
-        }
+        super::blocked_f32::finish(acc, &mut biases, p.relu, out)
     };
     // Two blocks (8 rows) per pass, then a last single block if the count is odd.
     // Saturating and `max`: the optimiser then sees a non-zero chunk and a cut inside it, so
@@ -266,10 +249,28 @@ mod tests {
         let b = bytes_f32(&[0.5, -10.0]);
         let x = bytes_f32(&[3.0, 4.0]);
         let mut out = [0u8; 8];
-        dense_f32(2, &w, &b, false, &x, &mut out);
+        dense_f32(
+            &DenseF32 {
+                inputs: 2,
+                weights: &w,
+                bias: &b,
+                relu: false,
+            },
+            &x,
+            &mut out,
+        );
         assert_eq!(le::f32_at(&out, 0), Some(11.5));
         assert_eq!(le::f32_at(&out, 1), Some(-11.0));
-        dense_f32(2, &w, &b, true, &x, &mut out);
+        dense_f32(
+            &DenseF32 {
+                inputs: 2,
+                weights: &w,
+                bias: &b,
+                relu: true,
+            },
+            &x,
+            &mut out,
+        );
         assert_eq!(le::f32_at(&out, 1), Some(0.0));
     }
 
@@ -288,6 +289,15 @@ mod tests {
         let mut out = [9u8; 2];
         dense_i8(&p, &[1], &mut out);
         assert_eq!(out, [9, 9]);
-        dense_f32(0, &[], &[], true, &[], &mut out);
+        dense_f32(
+            &DenseF32 {
+                inputs: 0,
+                weights: &[],
+                bias: &[],
+                relu: true,
+            },
+            &[],
+            &mut out,
+        );
     }
 }

@@ -8,7 +8,7 @@ use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
 use kinglet_firmware_bench::blobs::{self, Aligned};
 use kinglet_firmware_bench::{marker, naive, rng::Rng, selfcheck, stack};
-use kinglet_runtime::dense::{self, portable, DenseI8};
+use kinglet_runtime::dense::{self, portable, DenseF32, DenseI8};
 use kinglet_runtime::format::{LayerDesc, WeightLayout};
 use kinglet_runtime::requant::activation_range;
 use kinglet_runtime::{Input, Model};
@@ -127,14 +127,13 @@ fn f32_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rn
         )
     });
     case(name, "portable", n * m, || {
-        portable::dense_f32(
-            n,
-            black_box(lo.weights),
-            lo.bias,
+        let p = DenseF32 {
+            inputs: n,
+            weights: black_box(lo.weights),
+            bias: lo.bias,
             relu,
-            black_box(x),
-            &mut out[..4 * m],
-        )
+        };
+        portable::dense_f32(&p, black_box(x), &mut out[..4 * m])
     });
     assert!(
         out[..4 * m] == reference[..4 * m],
@@ -142,14 +141,13 @@ fn f32_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rn
         name
     );
     case(name, "kernel", n * m, || {
-        dense::dense_f32_blocked(
-            n,
-            black_box(lb.weights),
-            lb.bias,
+        let p = DenseF32 {
+            inputs: n,
+            weights: black_box(lb.weights),
+            bias: lb.bias,
             relu,
-            black_box(x),
-            &mut out[..4 * m],
-        )
+        };
+        dense::dense_f32_blocked(&p, black_box(x), &mut out[..4 * m])
     });
     assert!(
         out[..4 * m] == reference[..4 * m],

@@ -3,7 +3,9 @@
 use core::arch::asm;
 
 use crate::dense::fixed::blocks_i8;
-use crate::dense::layout::{self, BLOCK_ROWS, GROUP, GROUP_ELEMS};
+use crate::dense::layout::{BLOCK_ROWS, GROUP, GROUP_ELEMS};
+#[cfg(kinglet_fpu)]
+use crate::dense::DenseF32;
 use crate::dense::DenseI8;
 
 /// One 4-input group for 4 rows. `$load` loads the next two rows' weight words into r4, r5.
@@ -218,27 +220,19 @@ fn groups_f32(w: &[[u8; GROUP_ELEMS * 4]], x: &[[u8; GROUP * 4]], acc: &mut [f32
 /// [`crate::dense::portable::dense_f32_blocked`]. Weight data that is not 4-byte aligned takes
 /// a plain Rust loop (slower, same results).
 #[cfg(kinglet_fpu)]
-pub fn dense_f32_blocked(
-    inputs: usize,
-    weights: &[u8],
-    bias: &[u8],
-    relu: bool,
-    input: &[u8],
-    output: &mut [u8],
-) {
-    let n = inputs;
+pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
     let outs = output.as_chunks_mut::<4>().0;
-    let Some((_, data)) = layout::split(weights, n, outs.len(), 4) else {
+    let Some(crate::dense::blocked_f32::Cut { data, x, block_len }) =
+        crate::dense::blocked_f32::cut(p, outs.len(), input)
+    else {
         return;
     };
-    let x = input.get(..n * 4).unwrap_or(&[]);
     let (full, _) = x.as_chunks::<{ GROUP * 4 }>();
     // The `asm!` loop needs aligned weights (`VLDM`); otherwise every group takes the Rust loop
     // below, which adds in the same order.
     let aligned = (data.as_ptr() as usize).is_multiple_of(4);
     let asm_groups = if aligned { full } else { &[] };
-    let block_len = layout::padded(n) * BLOCK_ROWS * 4;
-    let mut biases = crate::le::f32s(bias);
+    let mut biases = crate::le::f32s(p.bias);
     for (block, out) in data
         .chunks_exact(block_len.max(1))
         .zip(&mut outs.chunks_mut(BLOCK_ROWS))
@@ -258,12 +252,6 @@ pub fn dense_f32_blocked(
                 }
             }
         }
-        for (o, (a, b)) in out.iter_mut().zip(acc.into_iter().zip(&mut biases)) {
-            let mut v = a + b;
-            if relu && v < 0.0 {
-                v = 0.0;
-            }
-            *o = v.to_le_bytes();
-        }
+        crate::dense::blocked_f32::finish(&acc, &mut biases, p.relu, out);
     }
 }
