@@ -9,6 +9,7 @@ use crate::requant::activation_range;
 use crate::scale::{integer_params, quantise_floats, quantize_integer, Scaler};
 use crate::stage::{Activations, Stage};
 use crate::{le, validate};
+use serde::Deserialize;
 
 /// Raw input values, in the units the model's scaler expects.
 #[derive(Debug, Clone, Copy)]
@@ -85,8 +86,11 @@ impl<'a> Model<'a> {
     pub fn parse(blob: &'a [u8]) -> Result<Self, FormatError> {
         let header = Header::read(blob)?;
         let body = blob.get(HEADER_LEN..).unwrap_or(&[]);
-        let (desc, rest) =
-            postcard::take_from_bytes::<ModelDesc<'a>>(body).map_err(|_| FormatError::Malformed)?;
+        // `Deserializer` directly rather than `take_from_bytes`: one tuple fewer to move the
+        // layer table through (stack and `memcpy`).
+        let mut de = postcard::Deserializer::from_bytes(body);
+        let desc = ModelDesc::deserialize(&mut de).map_err(|_| FormatError::Malformed)?;
+        let rest = de.finalize().map_err(|_| FormatError::Malformed)?;
         if !rest.is_empty() {
             return Err(FormatError::TrailingBytes);
         }

@@ -13,9 +13,9 @@ use super::Measured;
 /// Cortex-M0 / M0+ (`thumbv6m-none-eabi`, no FPU: float is software).
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
-    runtime_text: 14644,
+    runtime_text: 14592,
     runtime_rodata: 1383,
-    stack_parse: 2932,
+    stack_parse: 2924,
     stack_infer: 596,
     model_struct: 560,
 };
@@ -23,7 +23,7 @@ pub const CORTEX_M0: Measured = Measured {
 /// Cortex-M4F / M7 class (`thumbv7em-none-eabihf`, single-precision FPU).
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
-    runtime_text: 11612,
+    runtime_text: 11584,
     runtime_rodata: 1383,
     stack_parse: 2868,
     stack_infer: 532,
