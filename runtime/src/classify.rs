@@ -98,7 +98,7 @@ mod tests {
     }
 
     #[test]
-    fn int8_classify_is_infers_class() {
+    fn int8_classify_gives_infers_class() {
         // Every third point under Miri (scripts/miri.sh), where each inference is interpreted.
         let step = if cfg!(miri) { 3 } else { 1 };
         let grid: Vec<[i16; 3]> = (0..343)
@@ -125,7 +125,7 @@ mod tests {
 
     #[test]
     #[cfg(feature = "f32")]
-    fn f32_sigmoid_classify_is_infers_class() {
+    fn f32_sigmoid_classify_gives_infers_class() {
         let blob = crate::testutil::tiny_f32().blob();
         let m = Model::parse(&blob).unwrap();
         let grid: Vec<[f32; 2]> = (0..400)

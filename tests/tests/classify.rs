@@ -47,7 +47,7 @@ fn argmax(v: &[f64]) -> usize {
 }
 
 #[test]
-fn digits_classify_is_infers_class_on_every_path() {
+fn digits_classify_gives_infers_class_on_every_path() {
     let (f, q) = packs("digits");
     let (mf, mq) = (Model::parse(&f).unwrap(), Model::parse(&q).unwrap());
     let data = load("digits", "heldout.csv", true);
@@ -86,7 +86,7 @@ fn digits_classify_is_infers_class_on_every_path() {
 }
 
 #[test]
-fn vibration_classify_is_infers_class() {
+fn vibration_classify_gives_infers_class() {
     let (f, q) = packs("vibration");
     let (mf, mq) = (Model::parse(&f).unwrap(), Model::parse(&q).unwrap());
     let data = load("vibration", "heldout.csv", true);
