@@ -69,7 +69,7 @@ fn load(spec: &str) -> Result<Run, String> {
     };
     // The detector's own check: on the Cortex-M0 the int8-only `infer` probe does use software
     // float (dequantisation, softmax), so finding nothing there means the detector is broken.
-    if run.kernel_hint_m0(int8_only)? {
+    if run.detector_blind(int8_only)? {
         return Err(format!(
             "{int8_only}: no software float routine found where softmax needs one; the detector in kb-gen is broken"
         ));
@@ -125,7 +125,7 @@ fn load(spec: &str) -> Result<Run, String> {
 
 impl Run {
     /// Whether this is the Cortex-M0 run and `int8_only` links no software float routine.
-    fn kernel_hint_m0(&self, int8_only: &str) -> Result<bool, String> {
+    fn detector_blind(&self, int8_only: &str) -> Result<bool, String> {
         Ok(self.target == "m0"
             && !crate::soft_routines(int8_only)?
                 .iter()
