@@ -117,13 +117,14 @@ proptest! {
         let (om, xb, bb) = (bytes(&w), bytes(&x), bytes(&b));
         let mut field = vec![0u8; pad + 4 * layout::elements(n, m)];
         prop_assert!(layout::block_f32(n, m, &w, &mut field[pad..]));
+        let blocked = DenseF32 { inputs: n, weights: &field, bias: &bb, relu };
         let mut want = vec![0u8; 4 * m];
-        portable::dense_f32(&DenseF32 { inputs: n, weights: &om, bias: &bb, relu }, &xb, &mut want);
+        portable::dense_f32(&DenseF32 { weights: &om, ..blocked }, &xb, &mut want);
         let mut got = vec![0u8; 4 * m];
-        portable::dense_f32_blocked(&DenseF32 { inputs: n, weights: &field, bias: &bb, relu }, &xb, &mut got);
+        portable::dense_f32_blocked(&blocked, &xb, &mut got);
         prop_assert_eq!(&got, &want);
         let mut got = vec![0u8; 4 * m];
-        dense::dense_f32_blocked(&DenseF32 { inputs: n, weights: &field, bias: &bb, relu }, &xb, &mut got);
+        dense::dense_f32_blocked(&blocked, &xb, &mut got);
         prop_assert_eq!(&got, &want);
     }
 

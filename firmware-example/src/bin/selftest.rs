@@ -187,16 +187,13 @@ fn dense_f32_cases(t: &mut Tally) {
     let b: [u8; 8] = f32_bytes([0.5, -10.0]);
     let x: [u8; 8] = f32_bytes([3.0, 4.0]);
     let mut out = [0u8; 8];
-    dense_f32(
-        &DenseF32 {
-            inputs: 2,
-            weights: &w,
-            bias: &b,
-            relu: false,
-        },
-        &x,
-        &mut out,
-    );
+    let linear = DenseF32 {
+        inputs: 2,
+        weights: &w,
+        bias: &b,
+        relu: false,
+    };
+    dense_f32(&linear, &x, &mut out);
     let y = (f32_at(&out, 0), f32_at(&out, 1));
     t.check(
         y == (11.5, -11.0),
@@ -204,10 +201,8 @@ fn dense_f32_cases(t: &mut Tally) {
     );
     dense_f32(
         &DenseF32 {
-            inputs: 2,
-            weights: &w,
-            bias: &b,
             relu: true,
+            ..linear
         },
         &x,
         &mut out,

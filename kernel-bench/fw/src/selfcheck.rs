@@ -149,41 +149,24 @@ fn f32_case(rng: &mut Rng) -> bool {
     }
     let relu = rng.next_u32() % 2 == 0;
     let (b, om) = (&bias[..4 * m], &om[..4 * n * m]);
+    let blocked = DenseF32 {
+        inputs: n,
+        weights: field,
+        bias: b,
+        relu,
+    };
+    let output_major = DenseF32 {
+        weights: om,
+        ..blocked
+    };
     let mut reference = [0u8; 4 * MAX_OUT];
-    portable::dense_f32(
-        &DenseF32 {
-            inputs: n,
-            weights: om,
-            bias: b,
-            relu,
-        },
-        x,
-        &mut reference[..4 * m],
-    );
+    portable::dense_f32(&output_major, x, &mut reference[..4 * m]);
     let mut ok = true;
     let mut out = [0u8; 4 * MAX_OUT];
-    dense::dense_f32_blocked(
-        &DenseF32 {
-            inputs: n,
-            weights: field,
-            bias: b,
-            relu,
-        },
-        x,
-        &mut out[..4 * m],
-    );
+    dense::dense_f32_blocked(&blocked, x, &mut out[..4 * m]);
     ok &= out[..4 * m] == reference[..4 * m];
     let mut out = [0u8; 4 * MAX_OUT];
-    portable::dense_f32_blocked(
-        &DenseF32 {
-            inputs: n,
-            weights: field,
-            bias: b,
-            relu,
-        },
-        x,
-        &mut out[..4 * m],
-    );
+    portable::dense_f32_blocked(&blocked, x, &mut out[..4 * m]);
     ok &= out[..4 * m] == reference[..4 * m];
     let mut out = [0u8; 4 * MAX_OUT];
     naive::dense_f32(n, om, b, relu, x, &mut out[..4 * m]);

@@ -104,28 +104,20 @@ mod tests {
                     .flat_map(|_| ((next(&mut s) % 201) as f32 / 10.0 - 10.0).to_le_bytes())
                     .collect();
                 for relu in [false, true] {
+                    let blocked = DenseF32 {
+                        inputs: n,
+                        weights: &field,
+                        bias: &b,
+                        relu,
+                    };
                     let mut want = vec![0u8; 4 * m];
-                    portable::dense_f32(
-                        &DenseF32 {
-                            inputs: n,
-                            weights: &om,
-                            bias: &b,
-                            relu,
-                        },
-                        &x,
-                        &mut want,
-                    );
+                    let output_major = DenseF32 {
+                        weights: &om,
+                        ..blocked
+                    };
+                    portable::dense_f32(&output_major, &x, &mut want);
                     let mut got = vec![1u8; 4 * m];
-                    dense_f32_blocked(
-                        &DenseF32 {
-                            inputs: n,
-                            weights: &field,
-                            bias: &b,
-                            relu,
-                        },
-                        &x,
-                        &mut got,
-                    );
+                    dense_f32_blocked(&blocked, &x, &mut got);
                     assert_eq!(got, want, "{n}x{m} relu {relu}");
                 }
             }

@@ -249,24 +249,19 @@ mod tests {
         let b = bytes_f32(&[0.5, -10.0]);
         let x = bytes_f32(&[3.0, 4.0]);
         let mut out = [0u8; 8];
-        dense_f32(
-            &DenseF32 {
-                inputs: 2,
-                weights: &w,
-                bias: &b,
-                relu: false,
-            },
-            &x,
-            &mut out,
-        );
+        let linear = DenseF32 {
+            inputs: 2,
+            weights: &w,
+            bias: &b,
+            relu: false,
+        };
+        dense_f32(&linear, &x, &mut out);
         assert_eq!(le::f32_at(&out, 0), Some(11.5));
         assert_eq!(le::f32_at(&out, 1), Some(-11.0));
         dense_f32(
             &DenseF32 {
-                inputs: 2,
-                weights: &w,
-                bias: &b,
                 relu: true,
+                ..linear
             },
             &x,
             &mut out,
