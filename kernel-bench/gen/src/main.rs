@@ -66,8 +66,11 @@ fn soft_routines(path: &str) -> Result<Vec<String>, String> {
             || n.contains("specialized_div_rem")
             || n.contains("4libm4math")
     };
+    // Code symbols only: the file symbols carry codegen-unit hashes ("...-cgu.0") that can
+    // contain any of the patterns (a hash with "df3" in it was one).
     let mut found: Vec<String> = file
         .symbols()
+        .filter(|sym| sym.kind() == object::SymbolKind::Text)
         .filter_map(|sym| sym.name().ok().map(str::to_owned))
         .filter(|n| soft(n))
         .collect();
