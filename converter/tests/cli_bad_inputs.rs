@@ -175,6 +175,24 @@ fn pack_with_rows(rows: &str, wants: &[&str]) -> String {
     )
 }
 
+/// `pack model_2in.json --calibration rows.npy`, with `bytes` written as `rows.npy`.
+fn pack_with_npy(bytes: &[u8], wants: &[&str]) -> String {
+    Case::new()
+        .with("model_2in.json")
+        .put("rows.npy", bytes)
+        .fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--calibration",
+                "rows.npy",
+                "-o",
+                "m.kgl",
+            ],
+            wants,
+        )
+}
+
 fn pack_float(model: &str, wants: &[&str]) -> String {
     Case::new()
         .with(model)
@@ -376,20 +394,7 @@ fn c17_calibration_csv_not_utf8() {
 #[test]
 fn c18_truncated_npy_calibration() {
     let full = npy("<f4", "(3, 2)", &[0u8; 24]);
-    Case::new()
-        .with("model_2in.json")
-        .put("rows.npy", &full[..full.len() - 5])
-        .fails(
-            &[
-                "pack",
-                "model_2in.json",
-                "--calibration",
-                "rows.npy",
-                "-o",
-                "m.kgl",
-            ],
-            &["rows.npy"],
-        );
+    pack_with_npy(&full[..full.len() - 5], &["rows.npy"]);
 }
 
 #[test]
@@ -398,20 +403,10 @@ fn c19_nan_in_npy_calibration() {
         .iter()
         .flat_map(|v| v.to_le_bytes())
         .collect();
-    Case::new()
-        .with("model_2in.json")
-        .put("rows.npy", &npy("<f4", "(2, 2)", &vals))
-        .fails(
-            &[
-                "pack",
-                "model_2in.json",
-                "--calibration",
-                "rows.npy",
-                "-o",
-                "m.kgl",
-            ],
-            &["rows.npy", "row index 1, column index 0: NaN"],
-        );
+    pack_with_npy(
+        &npy("<f4", "(2, 2)", &vals),
+        &["rows.npy", "row index 1, column index 0: NaN"],
+    );
 }
 
 #[test]
@@ -815,23 +810,13 @@ fn c51_npy_header_longer_than_the_file() {
     let mut b = b"\x93NUMPY\x03\x00".to_vec();
     b.extend_from_slice(&0xD884_FF8Au32.to_le_bytes());
     b.extend_from_slice(b"{'descr': '<f4', 'fortran_order': False, }\n");
-    Case::new()
-        .with("model_2in.json")
-        .put("rows.npy", &b)
-        .fails(
-            &[
-                "pack",
-                "model_2in.json",
-                "--calibration",
-                "rows.npy",
-                "-o",
-                "m.kgl",
-            ],
-            &[
-                "rows.npy",
-                "the header is declared as 3632594826 bytes but only",
-            ],
-        );
+    pack_with_npy(
+        &b,
+        &[
+            "rows.npy",
+            "the header is declared as 3632594826 bytes but only",
+        ],
+    );
 }
 
 #[test]
@@ -843,23 +828,13 @@ fn c52_npy_header_nested_too_deep() {
     b.extend_from_slice(&(text.len() as u16).to_le_bytes());
     b.extend_from_slice(text.as_bytes());
     let start = std::time::Instant::now();
-    Case::new()
-        .with("model_2in.json")
-        .put("rows.npy", &b)
-        .fails(
-            &[
-                "pack",
-                "model_2in.json",
-                "--calibration",
-                "rows.npy",
-                "-o",
-                "m.kgl",
-            ],
-            &[
-                "rows.npy",
-                "the header nests brackets 41 deep; at most 8 are accepted",
-            ],
-        );
+    pack_with_npy(
+        &b,
+        &[
+            "rows.npy",
+            "the header nests brackets 41 deep; at most 8 are accepted",
+        ],
+    );
     assert!(start.elapsed().as_secs() < 5, "took {:?}", start.elapsed());
 }
 
@@ -873,21 +848,11 @@ fn c53_npy_header_over_the_size_limit() {
     b.extend_from_slice(&(text.len() as u32).to_le_bytes());
     b.extend_from_slice(text.as_bytes());
     b.extend_from_slice(&[0; 4]);
-    Case::new()
-        .with("model_2in.json")
-        .put("rows.npy", &b)
-        .fails(
-            &[
-                "pack",
-                "model_2in.json",
-                "--calibration",
-                "rows.npy",
-                "-o",
-                "m.kgl",
-            ],
-            &[
-                "rows.npy",
-                "the header is 20060 bytes; at most 10000 are accepted",
-            ],
-        );
+    pack_with_npy(
+        &b,
+        &[
+            "rows.npy",
+            "the header is 20060 bytes; at most 10000 are accepted",
+        ],
+    );
 }
