@@ -4,10 +4,12 @@
 
 pub mod atomic;
 pub mod dataset;
+pub mod echo;
 pub mod emit_rust;
 pub mod fit;
 pub mod graph;
 pub mod import;
+pub mod output_guard;
 pub mod pack;
 pub mod quantise;
 pub mod report;

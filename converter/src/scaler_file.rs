@@ -109,7 +109,7 @@ pub enum ScalerFileError {
         feature: usize,
     },
     /// A negative standard deviation.
-    #[error("feature {feature} (0-based) has std {value}: a standard deviation must be positive")]
+    #[error("feature {feature} (0-based) has std {}: a standard deviation must be positive", crate::echo::number(*value))]
     NegativeStd {
         /// 0-based feature index.
         feature: usize,
@@ -118,7 +118,8 @@ pub enum ScalerFileError {
     },
     /// max equal to min.
     #[error(
-        "feature {feature} (0-based) has min = max = {value}: a constant feature cannot be min-max scaled; drop it or set max to min + 1 (as scikit-learn does)"
+        "feature {feature} (0-based) has min = max = {}: a constant feature cannot be min-max scaled; drop it or set max to min + 1 (as scikit-learn does)",
+        crate::echo::number(*value)
     )]
     EqualMinMax {
         /// 0-based feature index.
@@ -127,7 +128,7 @@ pub enum ScalerFileError {
         value: f64,
     },
     /// max below min.
-    #[error("feature {feature} (0-based) has max {max} below min {min}")]
+    #[error("feature {feature} (0-based) has max {} below min {}", crate::echo::number(*max), crate::echo::number(*min))]
     MaxBelowMin {
         /// 0-based feature index.
         feature: usize,
@@ -140,7 +141,7 @@ pub enum ScalerFileError {
     #[error("\"range\" must be two numbers [low, high] with low < high, found {0}")]
     BadRange(String),
     /// A zero, negative or non-finite divisor.
-    #[error("divisor {0} must be a positive finite number")]
+    #[error("divisor {} must be a positive finite number", crate::echo::number(*.0))]
     BadDivisor(f64),
     /// A factor of zero.
     #[error("\"factor\" is 0{}: every input would become the same value", feature.map(|f| format!(" for feature {f} (0-based)")).unwrap_or_default())]
@@ -149,7 +150,7 @@ pub enum ScalerFileError {
         feature: Option<usize>,
     },
     /// A value (or the scale derived from it) is not a finite f32.
-    #[error("{what} for feature {feature} (0-based) is {value}, which is not a finite f32")]
+    #[error("{what} for feature {feature} (0-based) is {}, which is not a finite f32", crate::echo::number(*value))]
     NotFinite {
         /// The field or derived quantity.
         what: &'static str,

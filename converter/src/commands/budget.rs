@@ -6,6 +6,9 @@ use std::path::PathBuf;
 
 use super::Outcome;
 
+/// The bound on `--flash` and `--ram`, in KiB: [`fit::MAX_BYTES`].
+const MAX_KIB: u64 = fit::MAX_BYTES / 1024;
+
 /// Arguments of `kinglet budget`.
 #[derive(Debug, clap::Args)]
 pub struct Args {
@@ -14,17 +17,17 @@ pub struct Args {
     /// A built-in part profile: m0-16k, m0plus-32k, m4f-64k, m4f-128k, m4f-256k, m4f-320k.
     #[arg(long, conflicts_with_all = ["flash", "ram", "core"], required_unless_present_all = ["flash", "ram"])]
     board: Option<String>,
-    /// Flash of a custom part, in KiB (with --ram).
-    #[arg(long, requires = "ram")]
+    /// Flash of a custom part, in KiB (with --ram; at most 4194304, the 4 GiB a Cortex-M addresses).
+    #[arg(long, requires = "ram", value_parser = clap::value_parser!(u64).range(1..=MAX_KIB))]
     flash: Option<u64>,
-    /// RAM of a custom part, in KiB (with --flash).
-    #[arg(long, requires = "flash")]
+    /// RAM of a custom part, in KiB (with --flash; at most 4194304).
+    #[arg(long, requires = "flash", value_parser = clap::value_parser!(u64).range(1..=MAX_KIB))]
     ram: Option<u64>,
     /// Core of a custom part, for the measured runtime code and stack [default: m0, the larger]
     #[arg(long, value_enum, requires = "flash")]
     core: Option<Core>,
-    /// Stack bytes to reserve instead of the runtime's measured peak.
-    #[arg(long)]
+    /// Stack bytes to reserve instead of the runtime's measured peak (at most 4294967296).
+    #[arg(long, value_parser = clap::value_parser!(u64).range(0..=fit::MAX_BYTES))]
     stack: Option<u64>,
     /// Print JSON instead of a table.
     #[arg(long)]
@@ -73,7 +76,7 @@ pub fn run(a: Args) -> Result<Outcome> {
     let bytes =
         std::fs::read(&a.blob).with_context(|| format!("cannot read {}", a.blob.display()))?;
     let model = Model::parse(&bytes).map_err(|e| anyhow!("{}: {e}", a.blob.display()))?;
-    let b = fit::budget(&a.blob.display().to_string(), &model, &t);
+    let b = fit::budget(&a.blob.display().to_string(), &model, &t)?;
     let text = if a.json {
         serde_json::to_string_pretty(&render::json(&b))? + "\n"
     } else {
@@ -132,6 +135,12 @@ mod tests {
         let a = parse(&["m.kgl", "--flash", "64", "--ram", "8", "--core", "m4f"]).unwrap();
         let t = target(&a).unwrap();
         assert_eq!((t.flash, t.ram, t.core), (65536, 8192, Core::M4f));
+        for too_big in ["18446744073709551615", "4294967297"] {
+            assert!(parse(&["m.kgl", "--board", "m0-16k", "--stack", too_big]).is_err());
+        }
+        assert!(parse(&["m.kgl", "--board", "m0-16k", "--stack", "4294967296"]).is_ok());
+        assert!(parse(&["m.kgl", "--flash", "4194305", "--ram", "8"]).is_err());
+        assert!(parse(&["m.kgl", "--flash", "64", "--ram", "0"]).is_err());
         let e = target(&parse(&["m.kgl", "--board", "m9-1k"]).unwrap()).unwrap_err();
         assert!(format!("{e}").contains("m4f-64k"), "{e}");
     }

@@ -1,5 +1,6 @@
 //! `kinglet emit-rust`: write a packed blob as a Rust source file.
 use anyhow::{anyhow, Context, Result};
+use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::{atomic::write_atomic, emit_rust::render};
 use kinglet_runtime::Model;
 use std::path::PathBuf;
@@ -17,6 +18,10 @@ pub struct Args {
 }
 
 pub fn run(a: Args) -> Result<Outcome> {
+    check_distinct(
+        &[Named::new("the output (-o)", &a.out)],
+        &[Named::new("the blob", &a.blob)],
+    )?;
     let bytes =
         std::fs::read(&a.blob).with_context(|| format!("cannot read {}", a.blob.display()))?;
     let model = Model::parse(&bytes).map_err(|e| anyhow!("{}: {e}", a.blob.display()))?;

@@ -3,6 +3,8 @@ use anyhow::{anyhow, bail, Context, Result};
 use kinglet_converter::atomic::write_atomic;
 use kinglet_converter::dataset::{load_csv, load_npy, CsvOptions, Dataset, LabelColumn};
 use kinglet_converter::import::import_file;
+use kinglet_converter::import::plain::referenced_files;
+use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_converter::report::{table, BlobReport};
@@ -85,6 +87,32 @@ fn default_out(model: &Path, float: bool) -> PathBuf {
 }
 
 pub fn run(a: Args) -> Result<Outcome> {
+    let out = a
+        .out
+        .clone()
+        .unwrap_or_else(|| default_out(&a.model, a.float));
+    let mut inputs = vec![Named::new("the model", &a.model)];
+    if let Some(p) = &a.calibration {
+        inputs.push(Named::new("--calibration", p));
+    }
+    if let Some(p) = &a.scaler {
+        inputs.push(Named::new("--scaler", p));
+    }
+    let weight_files = if a
+        .model
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("json"))
+    {
+        referenced_files(&a.model)
+    } else {
+        Vec::new()
+    };
+    inputs.extend(
+        weight_files
+            .iter()
+            .map(|p| Named::new("a weight file of the model", p)),
+    );
+    check_distinct(&[Named::new("the output (-o)", &out)], &inputs)?;
     let mut model =
         import_file(&a.model).with_context(|| format!("cannot import {}", a.model.display()))?;
     if let Some(p) = &a.scaler {
@@ -106,7 +134,6 @@ pub fn run(a: Args) -> Result<Outcome> {
         }
         model.labels = labels;
     }
-    let out = a.out.unwrap_or_else(|| default_out(&a.model, a.float));
     let mut notes = Vec::new();
     let blob = if a.float {
         if a.calibration.is_some() {

@@ -3,6 +3,7 @@ use anyhow::{anyhow, bail, Context, Result};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use kinglet_converter::atomic::write_atomic;
 use kinglet_converter::dataset::{load_csv, load_npy, CsvOptions, Dataset, LabelColumn};
+use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::vet::load::load_float;
 use kinglet_converter::vet::render_text::TextOptions;
 use kinglet_converter::vet::{
@@ -120,6 +121,17 @@ fn check_limit(name: &str, v: Option<f64>) -> Result<()> {
 }
 
 pub fn run(a: Args) -> Result<Outcome> {
+    if let Some(html) = &a.html {
+        let mut inputs = vec![
+            Named::new("the float model", &a.float_model),
+            Named::new("the int8 blob", &a.int8_blob),
+            Named::new("--data", &a.data),
+        ];
+        if let Some(p) = &a.label_file {
+            inputs.push(Named::new("--label-file", p));
+        }
+        check_distinct(&[Named::new("--html", html)], &inputs)?;
+    }
     check_limit("--max-drop", a.max_drop)?;
     check_limit("--min-agreement", a.min_agreement)?;
     let int8_bytes = std::fs::read(&a.int8_blob)

@@ -51,7 +51,7 @@ pub enum DatasetError {
         expected: usize,
     },
     /// A feature field is not a number.
-    #[error("{}: line {line}, column {column}: {value:?} is not a number", path.display())]
+    #[error("{}: line {line}, column {column}: {} is not a number", path.display(), crate::echo::quoted(value))]
     NonNumeric {
         /// The file.
         path: PathBuf,
@@ -63,7 +63,7 @@ pub enum DatasetError {
         value: String,
     },
     /// A CSV feature is NaN, infinite, or too large for f32.
-    #[error("{}: line {line}, column {column}: {value} (features must be finite f32 numbers)", path.display())]
+    #[error("{}: line {line}, column {column}: {} (features must be finite f32 numbers)", path.display(), crate::echo::text(value))]
     NotFiniteCsv {
         /// The file.
         path: PathBuf,
@@ -75,7 +75,7 @@ pub enum DatasetError {
         value: String,
     },
     /// An `.npy` feature is NaN, infinite, or too large for f32.
-    #[error("{}: row index {row}, column index {column}: {value} (features must be finite f32 numbers)", path.display())]
+    #[error("{}: row index {row}, column index {column}: {} (features must be finite f32 numbers)", path.display(), crate::echo::number(*value))]
     NotFiniteNpy {
         /// The file.
         path: PathBuf,

@@ -9,7 +9,13 @@ pub mod measured;
 pub mod profile;
 pub mod render;
 
+use anyhow::{bail, Result};
 use serde::Serialize;
+
+/// The largest size any budget figure may have: a Cortex-M core addresses 4 GiB in all, so no
+/// flash, RAM or stack can be larger. Every size option is bounded by it, which keeps each sum
+/// of a few items far inside `u64` (the sums are checked all the same).
+pub const MAX_BYTES: u64 = 1 << 32;
 
 pub use profile::{Core, Profile, PROFILES};
 
@@ -55,14 +61,19 @@ pub struct Region {
 }
 
 impl Region {
-    fn new(name: &str, items: Vec<Item>, capacity: u64) -> Self {
-        let used = items.iter().map(|i| i.bytes).sum();
-        Region {
+    fn new(name: &str, items: Vec<Item>, capacity: u64) -> Result<Self> {
+        let Some(used) = items
+            .iter()
+            .try_fold(0u64, |sum, i| sum.checked_add(i.bytes))
+        else {
+            bail!("the {name} items add up to more than 2^64 bytes");
+        };
+        Ok(Region {
             name: name.into(),
             items,
             used,
             capacity,
-        }
+        })
     }
 
     /// Whether the items fit.
@@ -70,9 +81,10 @@ impl Region {
         self.used <= self.capacity
     }
 
-    /// Bytes left for the application (negative: over by that much).
-    pub fn headroom(&self) -> i64 {
-        self.capacity as i64 - self.used as i64
+    /// Bytes left for the application (negative: over by that much). Both sides are `u64`, so
+    /// their difference always fits an `i128`.
+    pub fn headroom(&self) -> i128 {
+        i128::from(self.capacity) - i128::from(self.used)
     }
 
     /// Share of the capacity used, in percent.
@@ -144,7 +156,22 @@ pub struct Target {
 }
 
 /// Counts `model` (from the file `name`) against `target`.
-pub fn budget(name: &str, model: &kinglet_runtime::Model<'_>, target: &Target) -> Budget {
+///
+/// # Errors
+/// When a size in `target` is over [`MAX_BYTES`] (the caller's options are bounded by it), or
+/// a region's items would not add up in `u64`.
+pub fn budget(name: &str, model: &kinglet_runtime::Model<'_>, target: &Target) -> Result<Budget> {
+    for (what, v) in [
+        ("flash", Some(target.flash)),
+        ("RAM", Some(target.ram)),
+        ("stack", target.stack),
+    ] {
+        if let Some(v) = v.filter(|&v| v > MAX_BYTES) {
+            bail!(
+                "{what} of {v} bytes is more than a Cortex-M core can address ({MAX_BYTES} bytes)"
+            );
+        }
+    }
     let m = target.core.measured();
     let flash = vec![
         Item {
@@ -191,14 +218,14 @@ pub fn budget(name: &str, model: &kinglet_runtime::Model<'_>, target: &Target) -
             source: "measured".into(),
         },
     ];
-    Budget {
+    Ok(Budget {
         model: name.into(),
         profile: target.profile.clone(),
         part: target.part.clone(),
         core: target.core,
-        flash: Region::new("flash", flash, target.flash),
-        ram: Region::new("RAM", ram, target.ram),
-    }
+        flash: Region::new("flash", flash, target.flash)?,
+        ram: Region::new("RAM", ram, target.ram)?,
+    })
 }
 
 #[cfg(test)]
@@ -239,7 +266,7 @@ mod tests {
         let b = blob("digits.kgl");
         let model = Model::parse(&b).unwrap();
         let m = Core::M0.measured();
-        let r = budget("d", &model, &custom(Core::M0, 256, 16, None));
+        let r = budget("d", &model, &custom(Core::M0, 256, 16, None)).unwrap();
         assert_eq!(
             r.flash.used,
             b.len() as u64 + u64::from(m.runtime_text) + u64::from(m.runtime_rodata)
@@ -250,7 +277,7 @@ mod tests {
             model.arena_bytes() as u64 + stack + u64::from(m.model_struct)
         );
         assert!(r.fits() && r.reasons().is_empty());
-        assert_eq!(r.flash.headroom(), 256 * 1024 - r.flash.used as i64);
+        assert_eq!(r.flash.headroom(), 256 * 1024 - i128::from(r.flash.used));
     }
 
     #[test]
@@ -258,7 +285,7 @@ mod tests {
         // The f32 digits blob alone is larger than 16 KiB of flash.
         let b = blob("digits_float.kgl");
         let model = Model::parse(&b).unwrap();
-        let r = budget("f", &model, &custom(Core::M4f, 16, 64, None));
+        let r = budget("f", &model, &custom(Core::M4f, 16, 64, None)).unwrap();
         assert!(!r.fits());
         assert!(!r.flash.fits() && r.ram.fits());
         let reasons = r.reasons();
@@ -271,7 +298,7 @@ mod tests {
     fn stack_override_replaces_the_measured_peak() {
         let b = blob("vibration.kgl");
         let model = Model::parse(&b).unwrap();
-        let r = budget("v", &model, &custom(Core::M0, 256, 1, Some(900)));
+        let r = budget("v", &model, &custom(Core::M0, 256, 1, Some(900))).unwrap();
         let stack = r.ram.items.iter().find(|i| i.what == "stack").unwrap();
         assert_eq!((stack.bytes, stack.source.as_str()), (900, "--stack"));
         // 39 + 900 + the model value must exceed 1 KiB only if the value is over 85 bytes.
@@ -281,5 +308,41 @@ mod tests {
         assert_eq!(j["fits"], r.fits());
         let t = render::table(&r);
         assert!(t.contains("arena") && t.contains("--stack"), "{t}");
+    }
+
+    #[test]
+    fn sizes_past_the_address_space_are_refused_not_wrapped() {
+        // Regression: a stack of u64::MAX wrapped the RAM sum to 598 bytes and said "fits".
+        let b = blob("vibration.kgl");
+        let model = Model::parse(&b).unwrap();
+        for stack in [u64::MAX, u64::MAX - 599, MAX_BYTES + 1] {
+            let e = budget("v", &model, &custom(Core::M4f, 64, 64, Some(stack))).unwrap_err();
+            assert!(e.to_string().contains("stack of"), "{e}");
+        }
+        // At the bound itself the sum is exact and the verdict honest.
+        let r = budget("v", &model, &custom(Core::M0, 16, 16, Some(MAX_BYTES))).unwrap();
+        assert!(!r.fits());
+        assert_eq!(
+            r.ram.used,
+            MAX_BYTES + model.arena_bytes() as u64 + u64::from(Core::M0.measured().model_struct)
+        );
+        assert_eq!(r.ram.headroom(), 16 * 1024 - i128::from(r.ram.used));
+        let reasons = r.reasons();
+        let ram_reason = reasons.iter().find(|t| t.starts_with("RAM")).unwrap();
+        assert!(ram_reason.contains(&format!("({} bytes over)", r.ram.used - 16 * 1024)));
+        // A region whose items overflow u64 is an error, never a wrapped sum.
+        let items = vec![
+            Item {
+                what: "a".into(),
+                bytes: u64::MAX,
+                source: String::new(),
+            },
+            Item {
+                what: "b".into(),
+                bytes: 1,
+                source: String::new(),
+            },
+        ];
+        assert!(Region::new("RAM", items, 1).is_err());
     }
 }

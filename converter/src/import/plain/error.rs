@@ -144,7 +144,7 @@ pub enum PlainImportError {
         expected: usize,
     },
     /// A weight or bias that is NaN, infinite or too large for f32.
-    #[error("layers[{layer}].{field}: {value} at {position} is not a finite f32")]
+    #[error("layers[{layer}].{field}: {} at {position} is not a finite f32", crate::echo::number(*value))]
     NotFinite {
         /// 0-based layer index.
         layer: usize,

@@ -47,6 +47,38 @@ pub fn import_plain_file(path: &Path) -> Result<crate::graph::FloatModel, PlainI
     })
 }
 
+/// The `.npy` files a plain model description at `path` names, resolved against its directory
+/// (empty when the file cannot be read or is not JSON: the import reports that). The CLI uses
+/// it so that an output path never names one of the model's own weight files.
+pub fn referenced_files(path: &Path) -> Vec<std::path::PathBuf> {
+    fn walk(v: &serde_json::Value, base: &Path, out: &mut Vec<std::path::PathBuf>) {
+        match v {
+            serde_json::Value::Object(o) => {
+                for (k, v) in o {
+                    match (k.as_str(), v) {
+                        ("npy", serde_json::Value::String(s)) => out.push(base.join(s)),
+                        _ => walk(v, base, out),
+                    }
+                }
+            }
+            serde_json::Value::Array(a) => a.iter().for_each(|v| walk(v, base, out)),
+            _ => {}
+        }
+    }
+    let base_dir = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
+    };
+    let mut out = Vec::new();
+    if let Some(v) = std::fs::read_to_string(path)
+        .ok()
+        .and_then(|t| serde_json::from_str::<serde_json::Value>(&t).ok())
+    {
+        walk(&v, base_dir, &mut out);
+    }
+    out
+}
+
 fn json_error(e: serde_path_to_error::Error<serde_json::Error>) -> PlainImportError {
     let location = e.path().to_string();
     let source = e.into_inner();
