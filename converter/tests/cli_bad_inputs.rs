@@ -64,6 +64,22 @@ impl Case {
         out
     }
 
+    /// Every file in the directory with its bytes: "nothing written, no input touched".
+    fn snapshot(&self) -> std::collections::BTreeMap<String, Option<Vec<u8>>> {
+        self.listing()
+            .into_iter()
+            .map(|name| {
+                let p = self.dir.path().join(&name);
+                let bytes = if p.is_file() {
+                    Some(std::fs::read(&p).expect("read"))
+                } else {
+                    None
+                };
+                (name, bytes)
+            })
+            .collect()
+    }
+
     fn run(&self, args: &[&str]) -> std::process::Output {
         Command::new(env!("CARGO_BIN_EXE_kinglet"))
             .args(args)
@@ -76,6 +92,7 @@ impl Case {
     /// `kinglet: error: `), which must contain every one of `wants`.
     fn fails(&self, args: &[&str], wants: &[&str]) -> String {
         let before = self.listing();
+        let contents = self.snapshot();
         let out = self.run(args);
         let stderr = String::from_utf8_lossy(&out.stderr).into_owned();
         assert_eq!(out.status.code(), Some(2), "{args:?}: stderr {stderr}");
@@ -110,6 +127,7 @@ impl Case {
             }
         }
         assert_eq!(self.listing(), before, "{args:?}: files left behind");
+        assert!(self.snapshot() == contents, "{args:?}: a file was changed");
         println!("{cause}");
         cause.to_string()
     }
@@ -720,7 +738,10 @@ fn c45_output_directory_missing() {
             "-o",
             "no/such/dir/m.kgl",
         ],
-        &["cannot write to directory no/such/dir"],
+        &[
+            "cannot write no/such/dir/m.kgl",
+            "directory no/such/dir does not exist",
+        ],
     );
 }
 
@@ -728,7 +749,7 @@ fn c45_output_directory_missing() {
 fn c46_output_path_under_a_file() {
     Case::new().with("model_2in.json").with("rows.csv").fails(
         &["pack", "model_2in.json", "--float", "-o", "rows.csv/m.kgl"],
-        &["cannot write to directory rows.csv", "Not a directory"],
+        &["cannot write rows.csv/m.kgl", "rows.csv is not a directory"],
     );
 }
 
@@ -855,4 +876,331 @@ fn c53_npy_header_over_the_size_limit() {
             "the header is 20060 bytes; at most 10000 are accepted",
         ],
     );
+}
+
+// ---- An output never replaces an input (C54–C59) ----
+
+#[test]
+fn c54_pack_output_is_the_model() {
+    // Was: the model became a blob, exit 0.
+    Case::new().with("model_2in.json").fails(
+        &["pack", "model_2in.json", "--float", "-o", "model_2in.json"],
+        &[
+            "the output (-o) model_2in.json is the same file as the model model_2in.json",
+            "give another output path",
+        ],
+    );
+}
+
+#[test]
+fn c55_pack_output_is_the_calibration_file_spelled_otherwise() {
+    Case::new().with("model_2in.json").with("rows.csv").fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "-o",
+            "./rows.csv",
+        ],
+        &["./rows.csv is the same file as --calibration rows.csv"],
+    );
+}
+
+#[cfg(unix)]
+#[test]
+fn c56_pack_output_is_a_symlink_or_hard_link_to_the_model() {
+    let c = Case::new().with("model_2in.json");
+    std::os::unix::fs::symlink("model_2in.json", c.dir.path().join("link.kgl")).unwrap();
+    std::fs::hard_link(
+        c.dir.path().join("model_2in.json"),
+        c.dir.path().join("hard.kgl"),
+    )
+    .unwrap();
+    for out in ["link.kgl", "hard.kgl"] {
+        c.fails(
+            &["pack", "model_2in.json", "--float", "-o", out],
+            &[&format!("{out} is the same file as the model")],
+        );
+    }
+}
+
+#[test]
+fn c57_pack_output_is_a_weight_file_of_a_plain_model() {
+    // The first layer's weights come from w.npy (3 × 2, out_in); -o w.npy would replace them.
+    let weights: Vec<u8> = [1f32, 2., 3., 4., -5., 6.]
+        .iter()
+        .flat_map(|x| x.to_le_bytes())
+        .collect();
+    let model = r#"{"kinglet_model": 1, "input_width": 2,
+ "layers": [
+  {"inputs": 2, "outputs": 3, "activation": "relu", "weights": {"layout": "out_in", "npy": "w.npy"}, "bias": [0.5, 0, 1]},
+  {"inputs": 3, "outputs": 2, "activation": "linear", "weights": [[1, 0, -1], [0.5, 0.5, 0.5]], "bias": [0, 1]}
+ ],
+ "output": "softmax"}"#;
+    let c = Case::new()
+        .put("npy_model.json", model.as_bytes())
+        .put("w.npy", &npy("<f4", "(3, 2)", &weights));
+    // The description is valid: it packs to another name.
+    let ok = c.run(&["pack", "npy_model.json", "--float", "-o", "fine.kgl"]);
+    assert_eq!(ok.status.code(), Some(0), "{ok:?}");
+    c.fails(
+        &["pack", "npy_model.json", "--float", "-o", "w.npy"],
+        &["w.npy is the same file as a weight file of the model"],
+    );
+}
+
+#[test]
+fn c58_emit_rust_output_is_the_blob() {
+    let c = Case::new().packed("v.kgl");
+    c.fails(
+        &["emit-rust", "v.kgl", "-o", "./v.kgl"],
+        &["the output (-o) ./v.kgl is the same file as the blob v.kgl"],
+    );
+}
+
+#[test]
+fn c59_vet_html_is_an_input() {
+    let c = Case::new().packed("v.kgl").with("rows.csv");
+    for (html, input) in [
+        ("v.kgl", "the int8 blob v.kgl"),
+        ("rows.csv", "--data rows.csv"),
+        ("model_2in.json", "the float model model_2in.json"),
+    ] {
+        c.fails(
+            &[
+                "vet",
+                "model_2in.json",
+                "v.kgl",
+                "--data",
+                "rows.csv",
+                "--html",
+                html,
+            ],
+            &[&format!("--html {html} is the same file as {input}")],
+        );
+    }
+}
+
+// ---- budget: no wrapped sums (C60–C61) ----
+
+#[test]
+fn c60_budget_size_options_are_bounded() {
+    let c = Case::new().packed("v.kgl");
+    for stack in ["18446744073709551615", "18446744073709551016", "4294967297"] {
+        c.fails(
+            &["budget", "v.kgl", "--board", "m4f-64k", "--stack", stack],
+            &["--stack", "is not in 0..=4294967296"],
+        );
+    }
+    c.fails(
+        &["budget", "v.kgl", "--flash", "4194305", "--ram", "8"],
+        &["--flash", "is not in 1..=4194304"],
+    );
+}
+
+#[test]
+fn c61_budget_at_the_bound_is_an_honest_no() {
+    // Was: --stack u64::MAX wrapped the RAM sum to 598 bytes and said "fits".
+    let c = Case::new().packed("v.kgl");
+    let out = c.run(&[
+        "budget",
+        "v.kgl",
+        "--board",
+        "m0-16k",
+        "--stack",
+        "4294967296",
+        "--json",
+    ]);
+    assert_eq!(out.status.code(), Some(1), "{out:?}");
+    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(j["fits"], false);
+    let used = j["ram"]["used"].as_u64().unwrap();
+    assert!(used > 4294967296, "{j}");
+    assert_eq!(j["ram"]["headroom"].as_i64().unwrap(), 16384 - used as i64);
+    let text = c.run(&[
+        "budget",
+        "v.kgl",
+        "--board",
+        "m0-16k",
+        "--stack",
+        "4294967296",
+    ]);
+    let text = String::from_utf8_lossy(&text.stdout);
+    assert!(
+        text.contains(&format!("({} bytes over)", used - 16384)),
+        "{text}"
+    );
+}
+
+// ---- Messages (C62–C67) ----
+
+#[test]
+fn c62_huge_csv_field_is_cut_in_the_message() {
+    let field = "7".repeat(1_000_000);
+    let rows = format!("a,b\n1,2\n{field},4\n");
+    let c = Case::new()
+        .with("model_2in.json")
+        .put("huge.csv", rows.as_bytes());
+    let cause = c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "huge.csv",
+            "-o",
+            "m.kgl",
+        ],
+        &["huge.csv: line 3, column 'a'", "(1000000 characters)"],
+    );
+    assert!(cause.len() < 200, "{} bytes", cause.len());
+}
+
+#[test]
+fn c63_huge_float64_is_printed_short() {
+    let payload: Vec<u8> = [1f64, 2., 1e300, 4.]
+        .iter()
+        .flat_map(|x| x.to_le_bytes())
+        .collect();
+    let cause = pack_with_npy(
+        &npy("<f8", "(2, 2)", &payload),
+        &["rows.npy: row index 1, column index 0: 1e300"],
+    );
+    assert!(cause.len() < 200, "{cause}");
+}
+
+#[test]
+fn c64_vet_checks_widths_before_labels() {
+    // Rows of another model (3 features, label "7"): the width is the first thing wrong.
+    let c = Case::new()
+        .packed("v.kgl")
+        .put("other.csv", b"f0,f1,f2,label\n1,2,3,7\n4,5,6,7\n");
+    c.fails(
+        &[
+            "vet",
+            "model_2in.json",
+            "v.kgl",
+            "--data",
+            "other.csv",
+            "--label",
+            "label",
+        ],
+        &["other.csv: 3 features per row, but the model takes 2 inputs"],
+    );
+}
+
+#[test]
+fn c65_calibration_label_with_npy_is_refused() {
+    let payload: Vec<u8> = [1f32, 2., 3., 4.]
+        .iter()
+        .flat_map(|x| x.to_le_bytes())
+        .collect();
+    let c = Case::new()
+        .with("model_2in.json")
+        .put("rows.npy", &npy("<f4", "(2, 2)", &payload));
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.npy",
+            "--calibration-label",
+            "0",
+            "-o",
+            "m.kgl",
+        ],
+        &[
+            "--calibration-label names a CSV column",
+            "rows.npy is a .npy file",
+        ],
+    );
+}
+
+#[test]
+fn c66_empty_label_is_refused() {
+    for labels in ["a,", ",b", "a, "] {
+        Case::new().with("model_2in.json").fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--float",
+                "--labels",
+                labels,
+                "-o",
+                "m.kgl",
+            ],
+            &["--labels: label", "is empty"],
+        );
+    }
+}
+
+#[test]
+fn c67_usage_errors_are_one_line_for_every_subcommand() {
+    let c = Case::new().packed("v.kgl");
+    for args in [
+        &["pack", "model_2in.json", "--flot"][..],
+        &["pack"],
+        &["pack", "model_2in.json", "--range", "median"],
+        &["inspect"],
+        &["inspect", "v.kgl", "--color"],
+        &["vet", "model_2in.json", "v.kgl"],
+        &[
+            "vet",
+            "model_2in.json",
+            "v.kgl",
+            "--data",
+            "rows.csv",
+            "--show",
+            "-1",
+        ],
+        &["budget", "v.kgl"],
+        &["budget", "v.kgl", "--board", "m0-16k", "--stack", "lots"],
+        &["emit-rust", "v.kgl"],
+        &["frobnicate"],
+    ] {
+        c.fails(args, &["(see --help)"]);
+    }
+    // --help and --version stay as clap prints them, on stdout, exit 0.
+    for args in [&["--help"][..], &["pack", "--help"], &["--version"]] {
+        let out = c.run(args);
+        assert_eq!(out.status.code(), Some(0), "{args:?}");
+        assert!(out.stderr.is_empty() && !out.stdout.is_empty(), "{args:?}");
+    }
+}
+
+// ---- A killed write (C68) ----
+
+#[cfg(target_os = "linux")]
+#[test]
+fn c68_temporary_of_a_killed_write_is_removed_by_the_next_run() {
+    // `ulimit -f 1` lets a process write 1 KiB (bash) or 512 B (dash); emit-rust writes more,
+    // so the kernel kills it with SIGXFSZ mid-write and its temporary stays behind.
+    let c = Case::new().packed("v.kgl");
+    let exe = env!("CARGO_BIN_EXE_kinglet");
+    let killed = Command::new("sh")
+        .arg("-c")
+        .arg(format!(
+            "ulimit -f 1; exec '{exe}' emit-rust v.kgl -o model.rs"
+        ))
+        .current_dir(c.dir.path())
+        .output()
+        .unwrap();
+    assert_ne!(killed.status.code(), Some(0), "{killed:?}");
+    let temps = |c: &Case| {
+        c.listing()
+            .into_iter()
+            .filter(|n| n.starts_with(".model.rs.kinglet-") && n.ends_with(".tmp"))
+            .count()
+    };
+    assert_eq!(
+        temps(&c),
+        1,
+        "the killed write left its temporary: {:?}",
+        c.listing()
+    );
+    assert!(!c.dir.path().join("model.rs").exists());
+    let ok = c.run(&["emit-rust", "v.kgl", "-o", "model.rs"]);
+    assert_eq!(ok.status.code(), Some(0), "{ok:?}");
+    assert_eq!(temps(&c), 0, "the next run removed it: {:?}", c.listing());
+    assert!(c.dir.path().join("model.rs").exists());
 }

@@ -65,6 +65,9 @@ fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<Dataset> {
         .extension()
         .is_some_and(|e| e.eq_ignore_ascii_case("npy"));
     let data = if is_npy {
+        if label.is_some() {
+            bail!("--calibration-label names a CSV column, and {} is a .npy file of features only: drop --calibration-label", path.display());
+        }
         load_npy(path, None)?
     } else {
         load_csv(
@@ -124,6 +127,9 @@ pub fn run(a: Args) -> Result<Outcome> {
     if let Some(labels) = a.labels {
         if !model.labels.is_empty() {
             bail!("the model already carries class labels; drop --labels");
+        }
+        if let Some(i) = labels.iter().position(|l| l.trim().is_empty()) {
+            bail!("--labels: label {} (0-based) is empty; give one non-empty name per class, comma-separated", i);
         }
         if labels.len() != model.classes() {
             bail!(

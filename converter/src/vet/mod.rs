@@ -52,6 +52,8 @@ pub fn vet(
     if data.rows == 0 {
         bail!("{}: no rows to compare", data.source);
     }
+    // Widths first: rows of another model's data fail here, before their labels are judged.
+    data.check_width(pair.int8.input_len())?;
     let labels = dataset_labels(data, pair)?;
     if criteria.max_drop_pp.is_some() && labels.is_none() {
         bail!(
