@@ -6,6 +6,7 @@ pub mod atomic;
 pub mod dataset;
 pub mod echo;
 pub mod emit_rust;
+pub mod error_line;
 pub mod fit;
 pub mod graph;
 pub mod import;

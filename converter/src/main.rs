@@ -18,7 +18,11 @@ fn main() -> ExitCode {
         Ok(commands::Outcome::Pass) => ExitCode::SUCCESS,
         Ok(commands::Outcome::CheckFailed) => ExitCode::from(1),
         Err(e) => {
-            eprintln!("kinglet: error: {}", cut_long_words(&one_line(&e)));
+            // Each library error states only its own level; the chain is printed once.
+            eprintln!(
+                "kinglet: error: {}",
+                cut_long_words(&kinglet_converter::error_line::one_line(e.as_ref()))
+            );
             ExitCode::from(2)
         }
     }
@@ -89,24 +93,6 @@ fn cut_long_words(line: &str) -> String {
 
 /// Longest word of an error line left whole (paths in deep directories stay readable).
 const MAX_WORD: usize = 240;
-
-/// The error and its causes on one line, outermost first. Many library errors already carry
-/// their source in their own message, so a cause whose text the line already holds is left
-/// out (printing the plain chain repeated it, up to three times).
-fn one_line(e: &anyhow::Error) -> String {
-    let mut line = String::new();
-    for cause in e.chain() {
-        let text = cause.to_string();
-        if line.contains(&text) {
-            continue;
-        }
-        if !line.is_empty() {
-            line.push_str(": ");
-        }
-        line.push_str(&text);
-    }
-    line
-}
 
 #[cfg(test)]
 mod tests {

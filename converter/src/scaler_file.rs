@@ -40,7 +40,7 @@ use crate::graph::{FloatModel, Scaler, ScalerKind};
 #[derive(Debug, thiserror::Error)]
 pub enum ScalerFileError {
     /// The file could not be read.
-    #[error("{}: cannot read the file: {source}", path.display())]
+    #[error("{}: cannot read the file", path.display())]
     Io {
         /// The file.
         path: PathBuf,
@@ -49,7 +49,7 @@ pub enum ScalerFileError {
         source: std::io::Error,
     },
     /// An error inside a named file.
-    #[error("{}: {source}", path.display())]
+    #[error("{}", path.display())]
     InFile {
         /// The file.
         path: PathBuf,
@@ -58,10 +58,10 @@ pub enum ScalerFileError {
         source: Box<ScalerFileError>,
     },
     /// The text is not valid JSON.
-    #[error("not valid JSON: {0}")]
+    #[error("not valid JSON")]
     Syntax(#[source] serde_json::Error),
     /// The text does not fit the scaler fields.
-    #[error("at `{location}`: {source}")]
+    #[error("at `{location}`")]
     Json {
         /// Where in the document (`.` for the top level).
         location: String,
@@ -486,6 +486,7 @@ pub fn attach_scaler(model: &mut FloatModel, scaler: Scaler) -> Result<(), Scale
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::error_line::ErrorLine;
     use crate::graph::{Activation, DenseLayer, OutputKind};
 
     fn parse(s: &str) -> Result<Scaler, ScalerFileError> {
@@ -504,7 +505,7 @@ mod tests {
     fn zero_std_message() {
         let e = parse(r#"{"mean": [0, 0, 0, 0], "std": [1, 1, 1, 0]}"#)
             .unwrap_err()
-            .to_string();
+            .line();
         assert_eq!(
             e,
             "feature 3 (0-based) has std 0: a constant feature cannot be standardised; drop it or set its std to 1"
@@ -552,13 +553,11 @@ mod tests {
             let e = parse(&format!(r#"{{"min": [0], "max": [1], "range": {r}}}"#)).unwrap_err();
             assert!(matches!(e, ScalerFileError::BadRange(_)), "{r}: {e}");
         }
-        let e = parse(r#"{"min": [0, 1], "max": [1]}"#)
-            .unwrap_err()
-            .to_string();
+        let e = parse(r#"{"min": [0, 1], "max": [1]}"#).unwrap_err().line();
         assert_eq!(e, "\"min\" has 2 values but \"max\" has 1");
-        let e = parse(r#"{"max": [1]}"#).unwrap_err().to_string();
+        let e = parse(r#"{"max": [1]}"#).unwrap_err().line();
         assert_eq!(e, "\"max\" needs \"min\" as well");
-        let e = parse(r#"{"range": [0, 1]}"#).unwrap_err().to_string();
+        let e = parse(r#"{"range": [0, 1]}"#).unwrap_err().line();
         assert_eq!(e, "\"range\" needs \"min\" as well");
     }
 
@@ -604,7 +603,7 @@ mod tests {
         assert_eq!(s.apply(&[2.0, 2.0]), vec![1.0, 10.0]);
         let e = parse(r#"{"factor": [1, 2], "offset": [1, 2, 3]}"#).unwrap_err();
         assert!(matches!(e, ScalerFileError::LengthMismatch { .. }), "{e}");
-        let e = parse(r#"{"factor": [1, 0]}"#).unwrap_err().to_string();
+        let e = parse(r#"{"factor": [1, 0]}"#).unwrap_err().line();
         assert_eq!(
             e,
             "\"factor\" is 0 for feature 1 (0-based): every input would become the same value"
@@ -653,14 +652,14 @@ mod tests {
         assert!(matches!(parse("{}"), Err(ScalerFileError::NoForm)));
         let e = parse(r#"{"mean": [0], "std": [1], "divide_by": 2}"#)
             .unwrap_err()
-            .to_string();
+            .line();
         assert_eq!(
             e,
             "fields of different scaler forms mixed: mean/std, divide_by; give exactly one form"
         );
-        let e = parse(r#"{"mean": [0]}"#).unwrap_err().to_string();
+        let e = parse(r#"{"mean": [0]}"#).unwrap_err().line();
         assert_eq!(e, "\"mean\" needs \"std\" as well");
-        let e = parse(r#"{"mean": [], "std": []}"#).unwrap_err().to_string();
+        let e = parse(r#"{"mean": [], "std": []}"#).unwrap_err().line();
         assert_eq!(e, "\"mean\" is an empty list");
         let e = parse(r#"{"mean": [0, 1], "std": [1]}"#).unwrap_err();
         assert!(
@@ -678,16 +677,14 @@ mod tests {
 
     #[test]
     fn unknown_field_and_bad_json_say_where() {
-        let e = parse(r#"{"mean": [0], "scale": [1]}"#)
-            .unwrap_err()
-            .to_string();
+        let e = parse(r#"{"mean": [0], "scale": [1]}"#).unwrap_err().line();
         assert!(e.contains("unknown field `scale`"), "{e}");
         assert!(e.contains("line 1"), "{e}");
         let e = parse(r#"{"mean": [0, "x"], "std": [1, 1]}"#)
             .unwrap_err()
-            .to_string();
+            .line();
         assert!(e.starts_with("at `mean[1]`"), "{e}");
-        let e = parse("{\"divide_by\": 2,}").unwrap_err().to_string();
+        let e = parse("{\"divide_by\": 2,}").unwrap_err().line();
         assert_eq!(e, "not valid JSON: trailing comma at line 1 column 17");
         assert!(matches!(parse("{"), Err(ScalerFileError::Syntax(_))));
         assert!(matches!(parse("[1, 2]"), Err(ScalerFileError::Json { .. })));
@@ -698,7 +695,7 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let p = dir.path().join("s.json");
         std::fs::write(&p, r#"{"divide_by": 0}"#).unwrap();
-        let e = load_scaler_file(&p).unwrap_err().to_string();
+        let e = load_scaler_file(&p).unwrap_err().line();
         assert_eq!(
             e,
             format!(
@@ -741,7 +738,7 @@ mod tests {
         attach_scaler(&mut m, uniform_divisor(2.0).unwrap()).unwrap();
 
         let mut m = model(4);
-        let e = attach_scaler(&mut m, per_feature).unwrap_err().to_string();
+        let e = attach_scaler(&mut m, per_feature).unwrap_err().line();
         assert_eq!(
             e,
             "the scaler has 3 values per list, but the model takes 4 inputs (a scaler has 1 value or one per input)"

@@ -9,7 +9,7 @@ use super::npy_array::NpyArrayError;
 #[derive(Debug, thiserror::Error)]
 pub enum DatasetError {
     /// The file could not be opened or read.
-    #[error("{}: cannot read the file: {source}", path.display())]
+    #[error("{}: cannot read the file", path.display())]
     Io {
         /// The file.
         path: PathBuf,
@@ -18,7 +18,7 @@ pub enum DatasetError {
         source: std::io::Error,
     },
     /// The CSV reader failed (for example on text that is not UTF-8).
-    #[error("{}: {source}", path.display())]
+    #[error("{}", path.display())]
     Csv {
         /// The file.
         path: PathBuf,
@@ -131,7 +131,7 @@ pub enum DatasetError {
         expected: usize,
     },
     /// An `.npy` file could not be read.
-    #[error("{}: {source}", path.display())]
+    #[error("{}", path.display())]
     Npy {
         /// The file.
         path: PathBuf,

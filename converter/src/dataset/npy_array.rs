@@ -9,7 +9,7 @@ use npyz::{DType, NpyFile, NpyHeader, Order, TypeChar};
 #[derive(Debug, thiserror::Error)]
 pub enum NpyArrayError {
     /// The file could not be opened or read.
-    #[error("cannot read the file: {0}")]
+    #[error("cannot read the file")]
     Io(#[source] std::io::Error),
     /// The header is not a valid `.npy` header.
     #[error("not a valid .npy file ({0})")]
@@ -28,7 +28,7 @@ pub enum NpyArrayError {
         found: u64,
     },
     /// The data could not be decoded.
-    #[error("cannot decode the data: {0}")]
+    #[error("cannot decode the data")]
     Decode(#[source] std::io::Error),
 }
 

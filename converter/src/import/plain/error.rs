@@ -10,7 +10,7 @@ use crate::scaler_file::ScalerFileError;
 #[derive(Debug, thiserror::Error)]
 pub enum PlainImportError {
     /// The description file could not be read.
-    #[error("{}: cannot read the file: {source}", path.display())]
+    #[error("{}: cannot read the file", path.display())]
     Io {
         /// The file.
         path: PathBuf,
@@ -19,7 +19,7 @@ pub enum PlainImportError {
         source: std::io::Error,
     },
     /// An error inside a named description file.
-    #[error("{}: {source}", path.display())]
+    #[error("{}", path.display())]
     InFile {
         /// The file.
         path: PathBuf,
@@ -28,10 +28,10 @@ pub enum PlainImportError {
         source: Box<PlainImportError>,
     },
     /// The text is not valid JSON.
-    #[error("not valid JSON: {0}")]
+    #[error("not valid JSON")]
     Syntax(#[source] serde_json::Error),
     /// A field of the wrong type, an unknown field or a missing field.
-    #[error("at `{location}`: {source}")]
+    #[error("at `{location}`")]
     Json {
         /// Where in the document (`layers[1].activation`; `.` for the top level).
         location: String,
@@ -156,7 +156,7 @@ pub enum PlainImportError {
         value: f64,
     },
     /// An `.npy` file that could not be read.
-    #[error("layers[{layer}].{field}: {}: {source}", path.display())]
+    #[error("layers[{layer}].{field}: {}", path.display())]
     Npy {
         /// 0-based layer index.
         layer: usize,
@@ -226,6 +226,6 @@ pub enum PlainImportError {
         second: usize,
     },
     /// The `"scaler"` object is not valid.
-    #[error("scaler: {0}")]
+    #[error("scaler")]
     Scaler(#[source] ScalerFileError),
 }

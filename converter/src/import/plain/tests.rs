@@ -4,6 +4,7 @@ use npyz::Order;
 
 use super::*;
 use crate::dataset::npy_array::tests::write_npy;
+use crate::error_line::ErrorLine;
 use crate::graph::{Activation, FloatModel, OutputKind, ScalerKind};
 
 fn import(json: &str) -> Result<FloatModel, PlainImportError> {
@@ -11,7 +12,7 @@ fn import(json: &str) -> Result<FloatModel, PlainImportError> {
 }
 
 fn err(json: &str) -> String {
-    import(json).unwrap_err().to_string()
+    import(json).unwrap_err().line()
 }
 
 /// A 2-input, 3-hidden, 2-output model; `w0` and `b0` are JSON for layer 0.
@@ -110,7 +111,7 @@ fn npy_problems_name_layer_field_and_file() {
     let dir = tempfile::tempdir().unwrap();
     write_npy(&dir.path().join("k.npy"), &[0.0f32; 6], &[3, 2], Order::C);
     let json = two_layer(r#"{"layout": "in_out", "npy": "k.npy"}"#, "[0, 0, 0]", "");
-    let e = import_plain_str(&json, dir.path()).unwrap_err().to_string();
+    let e = import_plain_str(&json, dir.path()).unwrap_err().line();
     assert!(e.starts_with("layers[0].weights: "), "{e}");
     assert!(
         e.contains("k.npy: shape [3, 2], but layout in_out ([inputs, outputs]) needs [2, 3]"),
@@ -119,7 +120,7 @@ fn npy_problems_name_layer_field_and_file() {
 
     write_npy(&dir.path().join("ki.npy"), &[0i64; 6], &[2, 3], Order::C);
     let json = two_layer(r#"{"layout": "in_out", "npy": "ki.npy"}"#, "[0, 0, 0]", "");
-    let e = import_plain_str(&json, dir.path()).unwrap_err().to_string();
+    let e = import_plain_str(&json, dir.path()).unwrap_err().line();
     assert!(
         e.contains("element type int64; weights and biases must be float32 or float64"),
         "{e}"
@@ -145,7 +146,7 @@ fn npy_problems_name_layer_field_and_file() {
 
     write_npy(&dir.path().join("b.npy"), &[0.0f32; 3], &[1, 3], Order::C);
     let json = two_layer(NESTED_OUT_IN, r#"{"npy": "b.npy"}"#, "");
-    let e = import_plain_str(&json, dir.path()).unwrap_err().to_string();
+    let e = import_plain_str(&json, dir.path()).unwrap_err().line();
     assert!(
         e.starts_with("layers[0].bias: ") && e.contains("shape [1, 3]"),
         "{e}"
@@ -170,7 +171,7 @@ fn nan_and_f32_overflow_weights_are_rejected() {
         Order::C,
     );
     let json = two_layer(r#"{"layout": "out_in", "npy": "k.npy"}"#, "[0, 0, 0]", "");
-    let e = import_plain_str(&json, dir.path()).unwrap_err().to_string();
+    let e = import_plain_str(&json, dir.path()).unwrap_err().line();
     assert_eq!(
         e,
         "layers[0].weights: NaN at output 2, input 1 is not a finite f32"
@@ -363,13 +364,11 @@ fn output_functions_and_labels() {
     assert_eq!(m.labels, vec!["no".to_string(), "yes".to_string()]);
     let s: f64 = m.forward_reference(&[0.3, -0.2]).iter().sum();
     assert!((s - 1.0).abs() < 1e-12);
-    let e = soft(r#", "labels": ["a", "b", "c"]"#)
-        .unwrap_err()
-        .to_string();
+    let e = soft(r#", "labels": ["a", "b", "c"]"#).unwrap_err().line();
     assert_eq!(e, "\"labels\" has 3 names, but the model has 2 classes");
-    let e = soft(r#", "labels": ["a", "a"]"#).unwrap_err().to_string();
+    let e = soft(r#", "labels": ["a", "a"]"#).unwrap_err().line();
     assert_eq!(e, "labels[1] repeats labels[0] (\"a\")");
-    let e = soft(r#", "labels": ["a", " "]"#).unwrap_err().to_string();
+    let e = soft(r#", "labels": ["a", " "]"#).unwrap_err().line();
     assert_eq!(e, "labels[1] is empty");
 
     let e = err(&two_layer(NESTED_OUT_IN, "[0, 0, 0]", "").replace("\"none\"", "\"sigmoid\""));
@@ -388,12 +387,12 @@ fn output_functions_and_labels() {
     assert_eq!(m.forward_reference(&[0.0]), vec![0.5]);
     let e = single("sigmoid", r#", "labels": ["faulty"]"#)
         .unwrap_err()
-        .to_string();
+        .line();
     assert!(
         e.contains("has 1 names, but the model has 2 classes (a sigmoid model has two"),
         "{e}"
     );
-    let e = single("softmax", "").unwrap_err().to_string();
+    let e = single("softmax", "").unwrap_err().line();
     assert!(
         e.contains("softmax\" over a single output is always 1"),
         "{e}"
@@ -462,7 +461,7 @@ fn file_entry_point_names_the_file_and_uses_its_directory() {
     assert_eq!(m.layers[0].bias, vec![0.5, 0.0, 1.0]);
 
     std::fs::write(&p, two_layer(NESTED_OUT_IN, "[0]", "")).unwrap();
-    let e = import_plain_file(&p).unwrap_err().to_string();
+    let e = import_plain_file(&p).unwrap_err().line();
     assert_eq!(
         e,
         format!(
