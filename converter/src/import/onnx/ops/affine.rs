@@ -14,6 +14,11 @@
 //! When `s = 0` an added constant `c != 0` cannot be written as `(x - offset) * scale`; that
 //! is an error.
 
+use super::super::attr;
+use super::super::error::OnnxImportError;
+use super::super::node::Node;
+use super::super::normalise::{Stage, Walk};
+use super::{constant_input, dense, finite, shape};
 use crate::graph::{Scaler, ScalerKind};
 
 /// One step of the scaler, for deciding the [`ScalerKind`].
@@ -186,6 +191,93 @@ impl Affine {
             offset,
             scale,
         }))
+    }
+}
+
+/// The graph walk's handlers of these ops.
+impl<'g> Walk<'g, '_> {
+    pub(in super::super) fn scaler_op(&mut self, n: Node<'g>) -> Result<(), OnnxImportError> {
+        if self.stage != Stage::Prefix {
+            return Err(n.err(format!(
+                "Scaler {}; supported: Scaler before the first dense layer",
+                self.stage_text()
+            )));
+        }
+        if self.shape.len() != 2 {
+            return Err(n.err(format!(
+                "Scaler on data of shape {}; supported: [N, features]",
+                shape::text(&self.shape)
+            )));
+        }
+        let offset = attr::floats(n.proto, "offset")
+            .map_err(|e| n.err(e))?
+            .unwrap_or_else(|| vec![0.0]);
+        let scale = attr::floats(n.proto, "scale")
+            .map_err(|e| n.err(e))?
+            .unwrap_or_else(|| vec![1.0]);
+        let width = self.shape.get(1).copied().flatten();
+        for (what, v) in [("offset", &offset), ("scale", &scale)] {
+            if let Some((i, x)) = v.iter().enumerate().find(|(_, x)| !x.is_finite()) {
+                return Err(n.err(format!(
+                    "attribute {what} has a non-finite value ({x}) at index {i}"
+                )));
+            }
+            let len_ok = v.len() == 1 || width.is_none_or(|w| w == v.len());
+            if v.is_empty() || !len_ok {
+                return Err(n.err(format!(
+                    "attribute {what} has {} values for data of shape {}; supported: 1 value or one per feature",
+                    v.len(),
+                    shape::text(&self.shape)
+                )));
+            }
+        }
+        self.affine
+            .apply_scaler_op(&offset, &scale)
+            .map_err(|e| n.err(e))?;
+        self.first_scaler_node.get_or_insert(n);
+        Ok(())
+    }
+
+    pub(in super::super) fn arith(
+        &mut self,
+        n: Node<'g>,
+        pos: usize,
+    ) -> Result<(), OnnxImportError> {
+        if n.inputs().len() != 2 {
+            return Err(n.err("expected two inputs"));
+        }
+        let other = 1 - pos.min(1);
+        let c = constant_input(self.g, &n, other, "operand")?;
+        let values = finite(&n, &c, "operand")?;
+        match self.stage {
+            Stage::Prefix => {
+                let step = match (n.op(), pos) {
+                    ("Sub", 0) => Step::Sub,
+                    ("Sub", _) => Step::SubFrom,
+                    ("Add", _) => Step::Add,
+                    ("Mul", _) => Step::Mul,
+                    ("Div", 0) => Step::Div,
+                    _ => {
+                        return Err(n.err(
+                            "a constant divided by the data is not an affine map; supported: data / constant",
+                        ))
+                    }
+                };
+                let per = shape::per_feature(&self.shape, &c.dims, values).map_err(|e| n.err(e))?;
+                self.affine.apply(step, per).map_err(|e| n.err(e))?;
+                self.first_scaler_node.get_or_insert(n);
+                Ok(())
+            }
+            Stage::Open if n.op() == "Add" => {
+                let layer = self.layers.last_mut().ok_or_else(|| n.err("internal: no open layer"))?;
+                dense::add_bias(layer, &c).map_err(|e| n.err(e))
+            }
+            _ => Err(n.err(format!(
+                "{} with a constant {}; supported: constant Sub/Add/Mul/Div before the first dense layer (the input scaler) and Add right after MatMul/Gemm (the bias)",
+                n.op(),
+                self.stage_text()
+            ))),
+        }
     }
 }
 

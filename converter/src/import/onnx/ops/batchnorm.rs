@@ -3,6 +3,11 @@
 //! each output row scales: `w' = w * k`, `b' = (b - mean) * k + beta` (the batch-normalisation
 //! inference transform of Ioffe & Szegedy, 2015, with the running statistics).
 
+use super::super::attr;
+use super::super::error::OnnxImportError;
+use super::super::node::Node;
+use super::super::normalise::{Stage, Walk};
+use super::{constant_input, finite};
 use crate::graph::DenseLayer;
 
 /// The per-channel parameters of a `BatchNormalization` node.
@@ -70,6 +75,54 @@ pub fn fold(layer: &mut DenseLayer, bn: BatchNorm<'_>) -> Result<(), String> {
         return Err("folding gives a non-finite weight or bias".into());
     }
     Ok(())
+}
+
+/// The graph walk's handler of these ops.
+impl<'g> Walk<'g, '_> {
+    pub(in super::super) fn batchnorm(
+        &mut self,
+        n: Node<'g>,
+        pos: usize,
+    ) -> Result<(), OnnxImportError> {
+        if self.stage != Stage::Open || pos != 0 {
+            return Err(n.err(format!(
+                "BatchNormalization {}; supported: right after a dense layer, before its activation (folded into it)",
+                self.stage_text()
+            )));
+        }
+        let training = attr::int_or(n.proto, "training_mode", 0).map_err(|e| n.err(e))?;
+        if training != 0 {
+            return Err(n.err("training_mode = 1; supported: inference mode (0)"));
+        }
+        let eps = attr::float_or(n.proto, "epsilon", 1e-5).map_err(|e| n.err(e))?;
+        let params = [
+            constant_input(self.g, &n, 1, "scale")?,
+            constant_input(self.g, &n, 2, "B")?,
+            constant_input(self.g, &n, 3, "input_mean")?,
+            constant_input(self.g, &n, 4, "input_var")?,
+        ];
+        let [gamma, beta, mean, var] = [
+            finite(&n, &params[0], "scale")?,
+            finite(&n, &params[1], "B")?,
+            finite(&n, &params[2], "input_mean")?,
+            finite(&n, &params[3], "input_var")?,
+        ];
+        let layer = self
+            .layers
+            .last_mut()
+            .ok_or_else(|| n.err("internal: no open layer"))?;
+        fold(
+            layer,
+            BatchNorm {
+                gamma,
+                beta,
+                mean,
+                var,
+                eps,
+            },
+        )
+        .map_err(|e| n.err(e))
+    }
 }
 
 #[cfg(test)]

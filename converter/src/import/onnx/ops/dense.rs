@@ -2,7 +2,12 @@
 
 use crate::graph::{Activation, DenseLayer};
 
+use super::super::attr;
+use super::super::error::OnnxImportError;
+use super::super::node::Node;
+use super::super::normalise::Walk;
 use super::super::tensor::Tensor;
+use super::{constant_input, optional_constant};
 
 /// Reads a 2-D float weight matrix `[rows, cols]`.
 fn matrix<'t>(w: &'t Tensor, what: &str) -> Result<(usize, usize, &'t [f32]), String> {
@@ -110,6 +115,54 @@ pub fn from_gemm(
         bias,
         activation: Activation::Linear,
     })
+}
+
+/// The graph walk's handlers of these ops.
+impl<'g> Walk<'g, '_> {
+    pub(in super::super) fn matmul(
+        &mut self,
+        n: Node<'g>,
+        pos: usize,
+    ) -> Result<(), OnnxImportError> {
+        if pos != 0 || n.inputs().len() != 2 {
+            return Err(n.err("the data is not MatMul's first input; supported: MatMul(x, W) with a constant W of shape [in, out]"));
+        }
+        let w = constant_input(self.g, &n, 1, "weight")?;
+        let layer = from_matmul(&w).map_err(|e| n.err(e))?;
+        self.push_layer(&n, layer)
+    }
+
+    pub(in super::super) fn gemm(
+        &mut self,
+        n: Node<'g>,
+        pos: usize,
+    ) -> Result<(), OnnxImportError> {
+        if pos != 0 {
+            return Err(n.err(
+                "the data is not Gemm's input A; supported: Gemm(x, B[, C]) with constant B and C",
+            ));
+        }
+        let p = n.proto;
+        let trans_a = attr::int_or(p, "transA", 0).map_err(|e| n.err(e))?;
+        let trans_b = attr::int_or(p, "transB", 0).map_err(|e| n.err(e))?;
+        if trans_a != 0 {
+            return Err(n.err(format!("transA = {trans_a}; supported: transA = 0")));
+        }
+        if trans_b != 0 && trans_b != 1 {
+            return Err(n.err(format!("transB = {trans_b}; supported: 0 or 1")));
+        }
+        let alpha = attr::float_or(p, "alpha", 1.0).map_err(|e| n.err(e))?;
+        let beta = attr::float_or(p, "beta", 1.0).map_err(|e| n.err(e))?;
+        if !alpha.is_finite() || !beta.is_finite() {
+            return Err(n.err(format!(
+                "alpha = {alpha}, beta = {beta}; supported: finite values"
+            )));
+        }
+        let b = constant_input(self.g, &n, 1, "weight B")?;
+        let c = optional_constant(self.g, &n, 2, "bias C")?;
+        let layer = from_gemm(&b, c.as_ref(), trans_b == 1, alpha, beta).map_err(|e| n.err(e))?;
+        self.push_layer(&n, layer)
+    }
 }
 
 #[cfg(test)]

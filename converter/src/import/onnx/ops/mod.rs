@@ -1,11 +1,13 @@
 //! The pieces of the import, one concept per file, plus helpers shared by the graph walk:
 //! reading a node's constant operands and checking that its extra outputs are unused.
 
+pub mod activation;
 pub mod affine;
 pub mod batchnorm;
 pub mod binary_output;
 pub mod dense;
 pub mod labels;
+pub mod passthrough;
 pub mod shape;
 
 use super::error::OnnxImportError;

@@ -2,6 +2,12 @@
 //! `[N, d1, d2, ...]` into `[N, features]`, and matching per-feature constants against them.
 //! Dim 0 is the batch; `None` marks a dimension whose size is not known.
 
+use super::super::attr;
+use super::super::error::OnnxImportError;
+use super::super::node::Node;
+use super::super::normalise::Walk;
+use super::constant_input;
+
 /// A tracked shape; dim 0 is the batch.
 pub type Shape = Vec<Option<usize>>;
 
@@ -120,6 +126,25 @@ pub fn per_feature<'v>(
         ));
     }
     Ok(values)
+}
+
+/// The graph walk's handlers of these ops.
+impl<'g> Walk<'g, '_> {
+    /// `Flatten`: the data's shape, flattened from `axis`.
+    pub(in super::super) fn flatten(&mut self, n: Node<'g>) -> Result<(), OnnxImportError> {
+        let axis = attr::int_or(n.proto, "axis", 1).map_err(|e| n.err(e))?;
+        self.shape = flatten(&self.shape, axis).map_err(|e| n.err(e))?;
+        Ok(())
+    }
+
+    /// `Reshape` by a constant target shape.
+    pub(in super::super) fn reshape(&mut self, n: Node<'g>) -> Result<(), OnnxImportError> {
+        let t = constant_input(self.g, &n, 1, "shape")?;
+        let target = t.ints().map_err(|e| n.err(e))?;
+        let allow_zero = attr::int_or(n.proto, "allowzero", 0).map_err(|e| n.err(e))? != 0;
+        self.shape = reshape(&self.shape, target, allow_zero).map_err(|e| n.err(e))?;
+        Ok(())
+    }
 }
 
 #[cfg(test)]
