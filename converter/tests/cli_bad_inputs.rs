@@ -1110,8 +1110,8 @@ fn c65_calibration_label_with_npy_is_refused() {
             "m.kgl",
         ],
         &[
-            "--calibration-label names a CSV column",
-            "rows.npy is a .npy file",
+            "--calibration-label: rows.npy is a .npy file of features only",
+            "a label column applies to CSV files",
         ],
     );
 }

@@ -1,7 +1,7 @@
 //! `kinglet pack`: import, (calibrate and quantise,) pack, report.
 use anyhow::{anyhow, bail, Context, Result};
 use kinglet_converter::atomic::write_atomic;
-use kinglet_converter::dataset::{load_csv, load_npy, CsvOptions, Dataset, LabelColumn};
+use kinglet_converter::dataset::{load_file, DatasetError, LabelColumn, LoadOptions};
 use kinglet_converter::import::import_file;
 use kinglet_converter::import::plain::referenced_files;
 use kinglet_converter::output_guard::{check_distinct, Named};
@@ -58,27 +58,6 @@ pub struct Args {
     /// Print the report as JSON.
     #[arg(long)]
     json: bool,
-}
-
-fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<Dataset> {
-    let is_npy = path
-        .extension()
-        .is_some_and(|e| e.eq_ignore_ascii_case("npy"));
-    let data = if is_npy {
-        if label.is_some() {
-            bail!("--calibration-label names a CSV column, and {} is a .npy file of features only: drop --calibration-label", path.display());
-        }
-        load_npy(path, None)?
-    } else {
-        load_csv(
-            path,
-            &CsvOptions {
-                label,
-                has_header: None,
-            },
-        )?
-    };
-    Ok(data)
 }
 
 fn default_out(model: &Path, float: bool) -> PathBuf {
@@ -150,7 +129,19 @@ pub fn run(a: Args) -> Result<Outcome> {
         let path = a.calibration.ok_or_else(|| {
             anyhow!("an int8 pack needs --calibration <rows.csv|rows.npy> (raw feature rows, a few hundred suffice), or use --float")
         })?;
-        let data = load_rows(&path, a.calibration_label)?;
+        let data = load_file(
+            &path,
+            &LoadOptions {
+                label: a.calibration_label,
+                ..LoadOptions::default()
+            },
+        )
+        .map_err(|e| match e {
+            DatasetError::LabelColumnForNpy { .. } => {
+                anyhow::Error::new(e).context("--calibration-label")
+            }
+            e => e.into(),
+        })?;
         let method = match a.range {
             Range::Minmax => RangeMethod::MinMax,
             Range::Percentile => RangeMethod::Percentile(a.percentile),

@@ -2,7 +2,7 @@
 use anyhow::{anyhow, bail, Context, Result};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use kinglet_converter::atomic::write_atomic;
-use kinglet_converter::dataset::{load_csv, load_npy, CsvOptions, Dataset, LabelColumn};
+use kinglet_converter::dataset::{load_file, Dataset, DatasetError, LabelColumn, LoadOptions};
 use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::vet::load::load_float;
 use kinglet_converter::vet::render_text::TextOptions;
@@ -11,7 +11,7 @@ use kinglet_converter::vet::{
 };
 use kinglet_runtime::Model;
 use std::io::IsTerminal;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use super::Outcome;
 
@@ -83,32 +83,24 @@ pub struct Args {
     serial: bool,
 }
 
-fn is_npy(p: &Path) -> bool {
-    p.extension().is_some_and(|e| e.eq_ignore_ascii_case("npy"))
-}
-
 fn load_data(a: &Args) -> Result<Dataset> {
-    if is_npy(&a.data) {
-        if a.label.is_some() {
-            bail!("--label names a CSV column; for .npy features give the labels with --label-file <labels.npy>");
-        }
-        return Ok(load_npy(&a.data, a.label_file.as_deref())?);
-    }
-    if a.label_file.is_some() {
-        bail!("--label-file goes with .npy features; for a CSV name the label column with --label");
-    }
     let has_header = match a.header {
         Header::Auto => None,
         Header::Yes => Some(true),
         Header::No => Some(false),
     };
-    Ok(load_csv(
-        &a.data,
-        &CsvOptions {
-            label: a.label.clone(),
-            has_header,
-        },
-    )?)
+    let opts = LoadOptions {
+        label: a.label.clone(),
+        has_header,
+        label_file: a.label_file.clone(),
+    };
+    load_file(&a.data, &opts).map_err(|e| match e {
+        DatasetError::LabelColumnForNpy { .. } => anyhow::Error::new(e).context(
+            "--label names a CSV column (for .npy features give --label-file <labels.npy>)",
+        ),
+        DatasetError::LabelFileForCsv { .. } => anyhow::Error::new(e).context("--label-file"),
+        e => e.into(),
+    })
 }
 
 fn check_limit(name: &str, v: Option<f64>) -> Result<()> {

@@ -157,6 +157,18 @@ pub enum DatasetError {
         /// Rows in the features file.
         rows: usize,
     },
+    /// A label column given for a `.npy` features file, which has no columns by name.
+    #[error("{} is a .npy file of features only; a label column applies to CSV files", path.display())]
+    LabelColumnForNpy {
+        /// The file.
+        path: PathBuf,
+    },
+    /// A separate labels file given for a CSV, whose labels are one of its columns.
+    #[error("{} is a CSV file; a separate labels file applies to .npy features (name the CSV's label column instead)", path.display())]
+    LabelFileForCsv {
+        /// The file.
+        path: PathBuf,
+    },
     /// A label is neither a class name nor a class index.
     #[error("data row {row} (1-based, header not counted): label {label:?} is {expected}")]
     UnknownLabel {

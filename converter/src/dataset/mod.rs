@@ -12,12 +12,14 @@
 mod csv_load;
 mod error;
 mod labels;
+mod load_file;
 pub(crate) mod npy_array;
 mod npy_load;
 
 pub use csv_load::load_csv;
 pub use error::DatasetError;
 pub use labels::resolve_labels;
+pub use load_file::{is_npy, load_file, LoadOptions};
 pub use npy_array::NpyArrayError;
 pub use npy_load::load_npy;
 
