@@ -5,6 +5,7 @@ use kinglet_converter::dataset::{load_csv, load_npy, CsvOptions, Dataset, LabelC
 use kinglet_converter::import::import_file;
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
+use kinglet_converter::report::calibration::{self, CalibrationReport};
 use kinglet_converter::report::{table, BlobReport};
 use kinglet_converter::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
 use kinglet_runtime::Model;
@@ -108,6 +109,7 @@ pub fn run(a: Args) -> Result<Outcome> {
     }
     let out = a.out.unwrap_or_else(|| default_out(&a.model, a.float));
     let mut notes = Vec::new();
+    let mut calib = None;
     let blob = if a.float {
         if a.calibration.is_some() {
             bail!("--float packs f32 weights and needs no --calibration");
@@ -130,21 +132,32 @@ pub fn run(a: Args) -> Result<Outcome> {
             path.display(),
             p.method
         ));
+        calib = Some(CalibrationReport::of(&p));
         p.blob
     };
     // Parse what we are about to write with the runtime's own reader.
     let parsed = Model::parse(&blob).map_err(|e| anyhow!("internal: packed blob rejected: {e}"))?;
     let report = BlobReport::of(&parsed);
     write_atomic(&out, &blob)?;
+    // Warnings go to stderr (seen also when stdout is JSON or piped), after the write succeeded.
+    for w in calib.iter().flat_map(|c| &c.warnings) {
+        eprintln!("kinglet: warning: {w}");
+    }
     if a.json {
         let mut v = serde_json::to_value(&report)?;
         v["blob"] = serde_json::Value::String(out.display().to_string());
         v["notes"] = serde_json::to_value(&notes)?;
+        if let Some(c) = &calib {
+            v["calibration"] = serde_json::to_value(c)?;
+        }
         super::out::line(&serde_json::to_string_pretty(&v)?)?;
     } else {
         super::out::line(&format!("wrote {} ({} bytes)", out.display(), blob.len()))?;
         for n in &notes {
             super::out::line(n)?;
+        }
+        if let Some(c) = &calib {
+            super::out::emit(&calibration::render(c))?;
         }
         super::out::emit(&table::render(&report))?;
     }
