@@ -42,7 +42,7 @@ pub struct Args {
     /// How each tensor's range is taken from the calibration rows.
     #[arg(long, value_enum, default_value = "minmax")]
     range: Range,
-    /// Percentile for `--range percentile`.
+    /// Percentile for `--range percentile` (numpy's default linear rank; docs/calibration.md).
     #[arg(long, default_value_t = 99.99)]
     percentile: f64,
     /// A scaler saved separately (JSON: mean/std, min/max, or divide_by), when the model has none.

@@ -175,3 +175,60 @@ fn integer_input(model: &FloatModel, q: AffineQuant) -> Result<OwnedInputQuant> 
     }
     Ok(t)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::graph::DenseLayer;
+    use kinglet_runtime::format::{Activation, OutputKind};
+
+    fn identity() -> FloatModel {
+        FloatModel {
+            input_len: 2,
+            scaler: None,
+            layers: vec![DenseLayer {
+                inputs: 2,
+                outputs: 2,
+                weights: vec![1.0, 0.0, 0.0, 1.0],
+                bias: vec![0.0, 0.0],
+                activation: Activation::Linear,
+            }],
+            output: OutputKind::Softmax,
+            labels: vec![],
+        }
+    }
+
+    fn r(min: f32, max: f32) -> TensorRange {
+        TensorRange { min, max }
+    }
+
+    #[test]
+    fn a_range_wider_than_f32_is_refused() {
+        assert!(quantise(&identity(), &[r(-1.0, 1.0), r(-1.0, 1.0)]).is_ok());
+        // [-3e38, 3e38]: steps of 6e38 / 255 = 2.35e36, a width that is not an f32.
+        let e = quantise(&identity(), &[r(-3e38, 3e38), r(-1.0, 1.0)]).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "input: the calibrated range [-3.00e38, 3.00e38] is too wide for int8: its width (255 steps of 2.35e36) overflows f32"
+        );
+        let wide = r(-f32::MAX, f32::MAX);
+        let e = quantise(&identity(), &[r(-1.0, 1.0), wide]).unwrap_err();
+        assert!(e.to_string().starts_with("layer 1 output: "), "{e}");
+        // Just inside: a width of f32::MAX is still an f32.
+        let max = r(0.0, f32::MAX);
+        assert!(quantise(&identity(), &[max, max]).is_ok());
+    }
+
+    #[test]
+    fn a_multiplier_out_of_range_names_the_scales() {
+        // Input steps of 2e6/255, weight steps of 1/127, output steps of 1e-6/255: the
+        // multiplier (2e6/255)(1/127) / (1e-6/255) = 2e12/127 ≈ 1.57e10 is past 2^31.
+        let e = quantise(&identity(), &[r(-1e6, 1e6), r(0.0, 1e-6)]).unwrap_err();
+        let m = e.to_string();
+        assert!(
+            m.starts_with("layer 0, output 0: requantisation multiplier 1.57"),
+            "{m}"
+        );
+        assert!(m.contains("is outside [2^-32, 2^31)"), "{m}");
+    }
+}
