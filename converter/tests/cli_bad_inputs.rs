@@ -891,9 +891,10 @@ fn c54_one_calibration_row_of_3e38() {
     let csv = vibration_rows(50, &[row_of("3e38")]);
     let wants = [
         "cannot pack vib.onnx",
-        "cal.csv: row 51 (1-based, header not counted) lies beyond anything the model can have been trained on",
-        "every first-layer bias",
-        "under one f32 step",
+        "cal.csv: row 51 (1-based, header not counted) is beyond anything the model could have been trained on",
+        "its first-layer input terms (|w·x| ≥ ",
+        "drown every bias (|b| ≤ ",
+        ") below one f32 step",
         "use --range percentile --percentile 98.03 to clip it, or drop the row",
     ];
     pack_vibration("cal.csv", csv.as_bytes(), &[], &wants);
@@ -927,7 +928,7 @@ fn c55_npy_calibration_with_a_row_of_huge_integers() {
         &npy("<i8", "(51, 15)", &payload),
         &[],
         &[
-            "rows.npy: row index 50 lies beyond anything the model can have been trained on",
+            "rows.npy: row index 50 is beyond anything the model could have been trained on",
             "use --range percentile --percentile 98.03 to clip it",
         ],
     );
@@ -952,7 +953,8 @@ fn c56_calibration_rows_in_the_wrong_units() {
         csv.as_bytes(),
         &[],
         &[
-            "cal.csv: rows 1 and 49 more (1-based, header not counted) lie beyond anything",
+            "cal.csv: rows 1 and 49 more (1-based, header not counted) are beyond anything",
+            "their first-layer input terms",
             "check that the file holds raw features in the model's units",
         ],
     );

@@ -105,15 +105,14 @@ fn check_plausible(model: &FloatModel, cal: &Calibration, source: &str) -> Resul
         }
         None => "drop the row or check its units".into(),
     };
-    let (rows, verb) = match lost.rows {
-        1 => (rows_text(source, &[lost.row], 1), "lies"),
-        n => (rows_text(source, &[lost.row], n), "lie"),
+    let (rows, verb, its) = match lost.rows {
+        1 => (rows_text(source, &[lost.row], 1), "is", "its"),
+        n => (rows_text(source, &[lost.row], n), "are", "their"),
     };
     bail!(
-        "{source}: {rows} {verb} beyond anything the model can have been trained on: there every first-layer \
-         bias (|b| ≤ {}) is under one f32 step of its unit's input term (|w·x| ≥ {}), so even the float model \
-         ignores its biases; {fix}",
-        num(lost.largest_bias),
+        "{source}: {rows} {verb} beyond anything the model could have been trained on: {its} first-layer \
+         input terms (|w·x| ≥ {}) drown every bias (|b| ≤ {}) below one f32 step; {fix}",
         num(lost.smallest_term),
+        num(lost.largest_bias),
     )
 }
