@@ -1204,3 +1204,133 @@ fn c68_temporary_of_a_killed_write_is_removed_by_the_next_run() {
     assert_eq!(temps(&c), 0, "the next run removed it: {:?}", c.listing());
     assert!(c.dir.path().join("model.rs").exists());
 }
+
+// ---- Calibration ranges (C69–C72) ----
+/// The header and the first `n` rows of the vibration example's calibration set, then `extra`
+/// rows (15 comma-separated fields each).
+fn vibration_rows(n: usize, extra: &[String]) -> String {
+    let text = std::fs::read_to_string(repo("examples/vibration/calibration.csv")).unwrap();
+    let mut lines: Vec<String> = text.lines().take(n + 1).map(str::to_string).collect();
+    lines.extend(extra.iter().cloned());
+    lines.join("\n") + "\n"
+}
+
+/// One row of 15 equal fields.
+fn row_of(v: &str) -> String {
+    vec![v; 15].join(",")
+}
+
+/// `kinglet pack vib.onnx --calibration <name> <extra...> -o m.kgl` with `bytes` as `<name>`.
+fn pack_vibration(name: &str, bytes: &[u8], extra: &[&str], wants: &[&str]) -> String {
+    let mut args = vec!["pack", "vib.onnx", "--calibration", name];
+    args.extend_from_slice(extra);
+    args.extend_from_slice(&["-o", "m.kgl"]);
+    Case::new()
+        .with_repo("examples/vibration/model.onnx", "vib.onnx")
+        .put(name, bytes)
+        .fails(&args, wants)
+}
+
+#[test]
+fn c69_one_calibration_row_of_3e38() {
+    // Regression: fifty ordinary rows and one row of 3e38 made the input scale 7.6e34, pack
+    // exited 0, and the int8 model scored 25 % (chance) against 98.7 % for the float model.
+    // 51 rows of 15 features: 765 input values, the 15 of row 51 far; the percentile that
+    // leaves them out is ⌊100 · (765 - 1 - 15) / (765 - 1)⌋ to two decimals = 98.03.
+    let csv = vibration_rows(50, &[row_of("3e38")]);
+    let wants = [
+        "cannot pack vib.onnx",
+        "cal.csv: row 51 (1-based, header not counted) is beyond anything the model could have been trained on",
+        "its first-layer input terms (|w·x| ≥ ",
+        "drown every bias (|b| ≤ ",
+        ") below one f32 step",
+        "use --range percentile --percentile 98.03 to clip it, or drop the row",
+    ];
+    pack_vibration("cal.csv", csv.as_bytes(), &[], &wants);
+    // The default percentile (99.99) does not clip 15 values of 765 either; the option named
+    // is then the percentile alone.
+    pack_vibration(
+        "cal.csv",
+        csv.as_bytes(),
+        &["--range", "percentile"],
+        &["cal.csv: row 51", "use --percentile 98.03 to clip it"],
+    );
+}
+
+#[test]
+fn c70_npy_calibration_with_a_row_of_huge_integers() {
+    // The same through a `.npy` of int64: fifty ordinary rows (the vibration calibration rows,
+    // rounded) and one row of i64::MAX (9.2e18 as f32).
+    let text = vibration_rows(50, &[]);
+    let mut payload = Vec::new();
+    for line in text.lines().skip(1) {
+        for f in line.split(',') {
+            let v: f64 = f.parse().unwrap();
+            payload.extend_from_slice(&(v.round() as i64).to_le_bytes());
+        }
+    }
+    for _ in 0..15 {
+        payload.extend_from_slice(&i64::MAX.to_le_bytes());
+    }
+    pack_vibration(
+        "rows.npy",
+        &npy("<i8", "(51, 15)", &payload),
+        &[],
+        &[
+            "rows.npy: row index 50 is beyond anything the model could have been trained on",
+            "use --range percentile --percentile 98.03 to clip it",
+        ],
+    );
+}
+
+#[test]
+fn c71_calibration_rows_in_the_wrong_units() {
+    // Every row 1e9 times too large (features in the wrong units): no percentile helps.
+    let text = vibration_rows(50, &[]);
+    let mut lines = text.lines();
+    let mut csv = format!("{}\n", lines.next().unwrap());
+    for line in lines {
+        let scaled: Vec<String> = line
+            .split(',')
+            .map(|f| format!("{:e}", f.parse::<f64>().unwrap() * 1e9))
+            .collect();
+        csv.push_str(&scaled.join(","));
+        csv.push('\n');
+    }
+    pack_vibration(
+        "cal.csv",
+        csv.as_bytes(),
+        &[],
+        &[
+            "cal.csv: rows 1 and 49 more (1-based, header not counted) are beyond anything",
+            "their first-layer input terms",
+            "check that the file holds raw features in the model's units",
+        ],
+    );
+}
+
+#[test]
+fn c72_calibrated_range_too_wide_for_int8() {
+    // Regression: this packed (exit 0). A first layer without biases is not judged by them,
+    // but a range of [-3e38, 3e38] has int8 steps of 2.4e36 and a width, 255 steps, beyond
+    // f32 (the reader accepts it: it needs only the 128 steps from the zero point finite).
+    let model = r#"{"kinglet_model": 1, "input_width": 2, "layers": [{"inputs": 2, "outputs": 2, "activation": "linear", "weights": [[1, 0], [0, 1]], "bias": [0, 0]}], "output": "softmax"}"#;
+    Case::new()
+        .put("nobias.json", model.as_bytes())
+        .put("wide.csv", b"a,b\n1,2\n3e38,-3e38\n-3e38,3e38\n")
+        .fails(
+            &[
+                "pack",
+                "nobias.json",
+                "--calibration",
+                "wide.csv",
+                "-o",
+                "m.kgl",
+            ],
+            &[
+                "cannot pack nobias.json",
+                "input: the calibrated range [-3.00e38, 3.00e38] is too wide for int8",
+                "its width (255 steps of 2.35e36) overflows f32",
+            ],
+        );
+}

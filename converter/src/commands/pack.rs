@@ -7,6 +7,7 @@ use kinglet_converter::import::plain::referenced_files;
 use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
+use kinglet_converter::report::calibration::{self, CalibrationReport};
 use kinglet_converter::report::{table, BlobReport};
 use kinglet_converter::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
 use kinglet_runtime::Model;
@@ -43,7 +44,7 @@ pub struct Args {
     /// How each tensor's range is taken from the calibration rows.
     #[arg(long, value_enum, default_value = "minmax")]
     range: Range,
-    /// Percentile for `--range percentile`.
+    /// Percentile for `--range percentile` (numpy's default linear rank; docs/calibration.md).
     #[arg(long, default_value_t = 99.99)]
     percentile: f64,
     /// A scaler saved separately (JSON: mean/std, min/max, or divide_by), when the model has none.
@@ -120,6 +121,7 @@ pub fn run(a: Args) -> Result<Outcome> {
         model.labels = labels;
     }
     let mut notes = Vec::new();
+    let mut calib = None;
     let blob = if a.float {
         if a.calibration.is_some() {
             bail!("--float packs f32 weights and needs no --calibration");
@@ -154,21 +156,32 @@ pub fn run(a: Args) -> Result<Outcome> {
             path.display(),
             p.method
         ));
+        calib = Some(CalibrationReport::of(&p));
         p.blob
     };
     // Parse what we are about to write with the runtime's own reader.
     let parsed = Model::parse(&blob).map_err(|e| anyhow!("internal: packed blob rejected: {e}"))?;
     let report = BlobReport::of(&parsed);
     write_atomic(&out, &blob)?;
+    // Warnings go to stderr (seen also when stdout is JSON or piped), after the write succeeded.
+    for w in calib.iter().flat_map(|c| &c.warnings) {
+        eprintln!("kinglet: warning: {w}");
+    }
     if a.json {
         let mut v = serde_json::to_value(&report)?;
         v["blob"] = serde_json::Value::String(out.display().to_string());
         v["notes"] = serde_json::to_value(&notes)?;
+        if let Some(c) = &calib {
+            v["calibration"] = serde_json::to_value(c)?;
+        }
         super::out::line(&serde_json::to_string_pretty(&v)?)?;
     } else {
         super::out::line(&format!("wrote {} ({} bytes)", out.display(), blob.len()))?;
         for n in &notes {
             super::out::line(n)?;
+        }
+        if let Some(c) = &calib {
+            super::out::emit(&calibration::render(c))?;
         }
         super::out::emit(&table::render(&report))?;
     }

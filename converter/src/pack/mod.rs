@@ -2,14 +2,17 @@
 pub mod layout;
 pub mod owned;
 
-use anyhow::Result;
+use anyhow::{bail, Result};
 use kinglet_runtime::format::Precision;
 use kinglet_runtime::Model;
 
 use crate::dataset::Dataset;
 use crate::graph::FloatModel;
-use crate::quantise::calibrate::{calibrate, RangeMethod, TensorRange};
+use crate::quantise::advice::{self, num, percentile_option, rows_text, suggested_percentile};
+use crate::quantise::calibrate::{calibrate, range_of, Calibration, RangeMethod, TensorRange};
+use crate::quantise::plausible::biases_lost;
 use crate::quantise::quantise;
+use crate::quantise::spread::TensorStats;
 use owned::{OwnedLayer, OwnedModel};
 
 /// The f32 blob of `model` (for FPU boards, and the float reference of comparisons).
@@ -44,6 +47,10 @@ pub struct Int8Pack {
     pub ranges: Vec<TensorRange>,
     /// Rows in the calibration set.
     pub calibration_rows: usize,
+    /// What calibration saw in each tensor (clipped values, far values, spread).
+    pub tensors: Vec<TensorStats>,
+    /// One line per range that a few far values set, with the option that clips them.
+    pub warnings: Vec<String>,
 }
 
 /// Calibrates on `data` (raw feature rows) with `method` and packs the int8 blob.
@@ -51,12 +58,61 @@ pub fn pack_int8(model: &FloatModel, data: &Dataset, method: RangeMethod) -> Res
     let float_blob = pack_f32(model)?;
     let float_model = Model::parse(&float_blob)
         .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
-    let ranges = calibrate(&float_model, data, method)?;
-    let blob = quantise(model, &ranges)?.encode()?;
+    let cal = calibrate(&float_model, data, method)?;
+    check_plausible(model, &cal, &data.source)?;
+    let blob = quantise(model, &cal.ranges)?.encode()?;
     Ok(Int8Pack {
         blob,
         method,
-        ranges,
+        warnings: advice::warnings(&cal, &data.source),
+        ranges: cal.ranges,
         calibration_rows: data.rows,
+        tensors: cal.tensors,
     })
+}
+
+/// Refuses an input range that admits a row on which the float model loses every first-layer
+/// bias ([`crate::quantise::plausible`]), naming the row and, when one exists, the percentile
+/// that leaves it out.
+fn check_plausible(model: &FloatModel, cal: &Calibration, source: &str) -> Result<()> {
+    let (Some(first), Some(&range)) = (model.layers.first(), cal.ranges.first()) else {
+        return Ok(());
+    };
+    let Some(lost) = biases_lost(first, &cal.scaled_input, range) else {
+        return Ok(());
+    };
+    let clipped = suggested_percentile(&cal.tensors).filter(|&p| {
+        let mut sorted = cal.scaled_input.clone();
+        sorted.sort_by(f32::total_cmp);
+        biases_lost(
+            first,
+            &cal.scaled_input,
+            range_of(&sorted, RangeMethod::Percentile(p)),
+        )
+        .is_none()
+    });
+    let fix = match clipped {
+        Some(p) if lost.rows == 1 => format!(
+            "use {} to clip it, or drop the row",
+            percentile_option(cal.method, p)
+        ),
+        Some(p) => format!(
+            "use {} to clip them, or drop those rows",
+            percentile_option(cal.method, p)
+        ),
+        None if lost.rows > 1 => {
+            "check that the file holds raw features in the model's units".into()
+        }
+        None => "drop the row or check its units".into(),
+    };
+    let (rows, verb, its) = match lost.rows {
+        1 => (rows_text(source, &[lost.row], 1), "is", "its"),
+        n => (rows_text(source, &[lost.row], n), "are", "their"),
+    };
+    bail!(
+        "{source}: {rows} {verb} beyond anything the model could have been trained on: {its} first-layer \
+         input terms (|w·x| ≥ {}) drown every bias (|b| ≤ {}) below one f32 step; {fix}",
+        num(lost.smallest_term),
+        num(lost.largest_bias),
+    )
 }

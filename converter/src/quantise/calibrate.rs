@@ -1,8 +1,11 @@
 //! Calibration: the range of every activation tensor over a calibration set, observed by running
-//! the float pack through the runtime's own f32 path.
-use anyhow::{bail, Result};
+//! the float pack through the runtime's own f32 path, with the statistics that tell whether a
+//! few values set a range ([`super::spread`]).
+use anyhow::{anyhow, bail, Result};
 use kinglet_runtime::{Input, Model};
 
+use super::percentile::percentile;
+use super::spread::TensorStats;
 use crate::dataset::Dataset;
 
 /// How a tensor's range is taken from the observed values.
@@ -10,7 +13,8 @@ use crate::dataset::Dataset;
 pub enum RangeMethod {
     /// The smallest and largest value seen.
     MinMax,
-    /// The `p`-th and `(100 - p)`-th percentiles (`p` in `(50, 100]`), clipping rare outliers.
+    /// The `(100 - p)`-th and `p`-th percentiles (`p` in `(50, 100]`) of the tensor's values,
+    /// by the rank of [`super::percentile`] (numpy's default), clipping rare outliers.
     Percentile(f64),
 }
 
@@ -32,13 +36,48 @@ pub struct TensorRange {
     pub max: f32,
 }
 
-/// The ranges of tensor 0 (the scaled input) and of each layer's output (after its activation),
-/// over every row of `data`. `float_model` is the f32 pack of the model being quantised.
+/// What calibration found.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Calibration {
+    /// The method the ranges were taken with.
+    pub method: RangeMethod,
+    /// The range of tensor 0 (the scaled input) and of each layer's output (after its
+    /// activation).
+    pub ranges: Vec<TensorRange>,
+    /// Statistics of each tensor, in the same order.
+    pub tensors: Vec<TensorStats>,
+    /// The scaled input of every row, row-major (tensor 0's values, as the first layer sees
+    /// them in the float model).
+    pub scaled_input: Vec<f32>,
+}
+
+/// The name of tensor `index` in messages: `input` (the scaled input), then `layer N output`,
+/// 1-based like the layer table of the pack report.
+pub fn tensor_name(index: usize) -> String {
+    if index == 0 {
+        "input".into()
+    } else {
+        format!("layer {index} output")
+    }
+}
+
+/// Row `r` (0-based) of the calibration file `source` as its loader's messages name rows: the
+/// `.npy` loader by numpy's 0-based row index, the CSV loader by 1-based data row.
+pub fn row_label(source: &str, r: usize) -> String {
+    if source.to_ascii_lowercase().ends_with(".npy") {
+        format!("row index {r}")
+    } else {
+        format!("row {} (1-based, header not counted)", r + 1)
+    }
+}
+
+/// Calibrates every tensor over every row of `data`. `float_model` is the f32 pack of the model
+/// being quantised.
 pub fn calibrate(
     float_model: &Model<'_>,
     data: &Dataset,
     method: RangeMethod,
-) -> Result<Vec<TensorRange>> {
+) -> Result<Calibration> {
     if data.rows == 0 {
         bail!("calibration set {} has no rows", data.source);
     }
@@ -48,8 +87,13 @@ pub fn calibrate(
         }
     }
     data.check_width(float_model.input_len())?;
-    let tensors = float_model.desc().layers.len() + 1;
-    let mut values: Vec<Vec<f32>> = vec![Vec::new(); tensors];
+    let widths: Vec<usize> = std::iter::once(float_model.input_len())
+        .chain(float_model.layers().map(|l| l.desc.outputs as usize))
+        .collect();
+    let mut values: Vec<Vec<f32>> = widths
+        .iter()
+        .map(|w| Vec::with_capacity(w.saturating_mul(data.rows)))
+        .collect();
     let mut arena = vec![0u8; float_model.arena_bytes()];
     let mut scores = vec![0f32; float_model.output_len()];
     for r in 0..data.rows {
@@ -60,32 +104,47 @@ pub fn calibrate(
                     v.extend((0..s.values.len()).filter_map(|i| s.values.real(i)));
                 }
             })
-            .map_err(|e| anyhow::anyhow!("calibration row {}: {e}", r + 1))?;
+            .map_err(|e| anyhow!("{}: {}: {e}", data.source, row_label(&data.source, r)))?;
     }
-    Ok(values.into_iter().map(|v| range_of(v, method)).collect())
+    let mut ranges = Vec::with_capacity(values.len());
+    let mut tensors = Vec::with_capacity(values.len());
+    for (t, (v, &width)) in values.iter().zip(&widths).enumerate() {
+        if v.len() != width * data.rows {
+            bail!(
+                "internal: tensor {t} traced {} values for {} rows of width {width}",
+                v.len(),
+                data.rows
+            );
+        }
+        let mut sorted = v.clone();
+        sorted.sort_by(f32::total_cmp);
+        let range = range_of(&sorted, method);
+        tensors.push(TensorStats::of(tensor_name(t), v, &sorted, width, range));
+        ranges.push(range);
+    }
+    let scaled_input = values.into_iter().next().unwrap_or_default();
+    Ok(Calibration {
+        method,
+        ranges,
+        tensors,
+        scaled_input,
+    })
 }
 
-fn range_of(mut v: Vec<f32>, method: RangeMethod) -> TensorRange {
-    if v.is_empty() {
+/// The range of `sorted` (ascending) by `method`.
+pub fn range_of(sorted: &[f32], method: RangeMethod) -> TensorRange {
+    let (Some(&first), Some(&last)) = (sorted.first(), sorted.last()) else {
         return TensorRange { min: 0.0, max: 0.0 };
-    }
+    };
     match method {
         RangeMethod::MinMax => TensorRange {
-            min: v.iter().copied().fold(f32::INFINITY, f32::min),
-            max: v.iter().copied().fold(f32::NEG_INFINITY, f32::max),
+            min: first,
+            max: last,
         },
-        RangeMethod::Percentile(p) => {
-            v.sort_by(f32::total_cmp);
-            let at = |q: f64| {
-                // Nearest-rank percentile (common practice, no source).
-                let rank = ((q / 100.0) * (v.len() - 1) as f64).round() as usize;
-                v.get(rank.min(v.len() - 1)).copied().unwrap_or(0.0)
-            };
-            TensorRange {
-                min: at(100.0 - p),
-                max: at(p),
-            }
-        }
+        RangeMethod::Percentile(p) => TensorRange {
+            min: percentile(sorted, 100.0 - p),
+            max: percentile(sorted, p),
+        },
     }
 }
 
@@ -97,15 +156,15 @@ mod tests {
     fn min_max_and_percentile_ranges() {
         let v: Vec<f32> = (0..=1000).map(|i| i as f32).collect();
         assert_eq!(
-            range_of(v.clone(), RangeMethod::MinMax),
+            range_of(&v, RangeMethod::MinMax),
             TensorRange {
                 min: 0.0,
                 max: 1000.0
             }
         );
-        let r = range_of(v, RangeMethod::Percentile(99.0));
+        // numpy.percentile(np.arange(1001), [1, 99]) = [10, 990].
         assert_eq!(
-            r,
+            range_of(&v, RangeMethod::Percentile(99.0)),
             TensorRange {
                 min: 10.0,
                 max: 990.0
@@ -113,6 +172,23 @@ mod tests {
         );
         let mut outlier = vec![1.0f32; 999];
         outlier.push(1e6);
-        assert_eq!(range_of(outlier, RangeMethod::Percentile(99.9)).max, 1.0);
+        // numpy: np.percentile(v, 99.9) = 1000.999 (rank 998.001, a thousandth of the way to
+        // the outlier), np.percentile(v, 99.8) = 1.0 (rank 997.002, between two ones).
+        assert_eq!(
+            range_of(&outlier, RangeMethod::Percentile(99.9)).max,
+            1000.999
+        );
+        assert_eq!(range_of(&outlier, RangeMethod::Percentile(99.8)).max, 1.0);
+    }
+
+    #[test]
+    fn the_default_percentile_clips_a_small_set() {
+        // Regression: with the rank rounded on n - 1, 99.99 returned the largest value of any
+        // set of 5,001 values or fewer. 765 values (51 rows of 15): rank 763.92.
+        let mut v: Vec<f32> = (0..764).map(|i| i as f32).collect();
+        v.push(1e6);
+        let r = range_of(&v, RangeMethod::Percentile(99.99));
+        assert!(r.max < 1e6, "{r:?}");
+        assert!(r.min > 0.0, "{r:?}");
     }
 }

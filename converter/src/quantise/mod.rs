@@ -2,14 +2,19 @@
 //! biases with the input zero point folded in, asymmetric per-tensor activations from a
 //! calibration set, fixed-point requantisation multipliers (Jacob et al., 2018), and integer
 //! tables for raw integer inputs. Each layer is proven free of int32 accumulator overflow.
+pub mod advice;
 pub mod calibrate;
 pub mod params;
+pub mod percentile;
+pub mod plausible;
+pub mod spread;
 
 use anyhow::{anyhow, bail, Result};
 use kinglet_runtime::format::Precision;
 
 use crate::graph::FloatModel;
 use crate::pack::owned::{OwnedInputQuant, OwnedLayer, OwnedLayerQuant, OwnedModel};
+use advice::num;
 use calibrate::TensorRange;
 use params::{activation_quant, decompose_multiplier, quantize_weight, weight_scale, AffineQuant};
 
@@ -24,8 +29,24 @@ pub fn quantise(model: &FloatModel, ranges: &[TensorRange]) -> Result<OwnedModel
     }
     let q: Vec<AffineQuant> = ranges
         .iter()
-        .map(|r| activation_quant(r.min, r.max))
-        .collect();
+        .enumerate()
+        .map(|(t, r)| {
+            let q = activation_quant(r.min, r.max);
+            // The reader (FORMAT.md §5) needs every step from the zero point, up to 128 of them,
+            // to stay finite in f32. We refuse more: a range whose width (255 steps) is not a
+            // finite f32, which no calibration set of ordinary numbers produces.
+            if !(q.scale.is_finite() && q.scale > 0.0 && (q.scale * 255.0).is_finite()) {
+                bail!(
+                    "{}: the calibrated range [{}, {}] is too wide for int8: its width (255 steps of {}) overflows f32",
+                    calibrate::tensor_name(t),
+                    num(f64::from(r.min)),
+                    num(f64::from(r.max)),
+                    num(f64::from(q.scale))
+                );
+            }
+            Ok(q)
+        })
+        .collect::<Result<_>>()?;
     let mut layers = Vec::with_capacity(model.layers.len());
     for (k, l) in model.layers.iter().enumerate() {
         let (qi, qo) = match (q.get(k), q.get(k + 1)) {
@@ -92,8 +113,14 @@ fn quantise_layer(
                  the bias is too large for the input scale — check the calibration range"
             );
         }
-        let (m, s) = decompose_multiplier(acc_scale / f64::from(qo.scale)).ok_or_else(|| {
-            anyhow!("layer {k}, output {o}: requantisation multiplier {:e} is out of the representable range", acc_scale / f64::from(qo.scale))
+        let real = acc_scale / f64::from(qo.scale);
+        let (m, s) = decompose_multiplier(real).ok_or_else(|| {
+            anyhow!(
+                "layer {k}, output {o}: requantisation multiplier {real:e} (input scale {:e} × weight scale {s_w:e} / output scale {:e}) \
+                 is outside [2^-32, 2^31), the range a shift of -31 to 31 covers; the calibrated ranges of the layer's input and output are too far apart",
+                qi.scale,
+                qo.scale
+            )
         })?;
         w_q.extend(row_q);
         bias.push(folded as i32);
@@ -147,4 +174,61 @@ fn integer_input(model: &FloatModel, q: AffineQuant) -> Result<OwnedInputQuant> 
         t.int_shift.push(s);
     }
     Ok(t)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::graph::DenseLayer;
+    use kinglet_runtime::format::{Activation, OutputKind};
+
+    fn identity() -> FloatModel {
+        FloatModel {
+            input_len: 2,
+            scaler: None,
+            layers: vec![DenseLayer {
+                inputs: 2,
+                outputs: 2,
+                weights: vec![1.0, 0.0, 0.0, 1.0],
+                bias: vec![0.0, 0.0],
+                activation: Activation::Linear,
+            }],
+            output: OutputKind::Softmax,
+            labels: vec![],
+        }
+    }
+
+    fn r(min: f32, max: f32) -> TensorRange {
+        TensorRange { min, max }
+    }
+
+    #[test]
+    fn a_range_wider_than_f32_is_refused() {
+        assert!(quantise(&identity(), &[r(-1.0, 1.0), r(-1.0, 1.0)]).is_ok());
+        // [-3e38, 3e38]: steps of 6e38 / 255 = 2.35e36, a width that is not an f32.
+        let e = quantise(&identity(), &[r(-3e38, 3e38), r(-1.0, 1.0)]).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "input: the calibrated range [-3.00e38, 3.00e38] is too wide for int8: its width (255 steps of 2.35e36) overflows f32"
+        );
+        let wide = r(-f32::MAX, f32::MAX);
+        let e = quantise(&identity(), &[r(-1.0, 1.0), wide]).unwrap_err();
+        assert!(e.to_string().starts_with("layer 1 output: "), "{e}");
+        // Just inside: a width of f32::MAX is still an f32.
+        let max = r(0.0, f32::MAX);
+        assert!(quantise(&identity(), &[max, max]).is_ok());
+    }
+
+    #[test]
+    fn a_multiplier_out_of_range_names_the_scales() {
+        // Input steps of 2e6/255, weight steps of 1/127, output steps of 1e-6/255: the
+        // multiplier (2e6/255)(1/127) / (1e-6/255) = 2e12/127 ≈ 1.57e10 is past 2^31.
+        let e = quantise(&identity(), &[r(-1e6, 1e6), r(0.0, 1e-6)]).unwrap_err();
+        let m = e.to_string();
+        assert!(
+            m.starts_with("layer 0, output 0: requantisation multiplier 1.57"),
+            "{m}"
+        );
+        assert!(m.contains("is outside [2^-32, 2^31)"), "{m}");
+    }
 }

@@ -1,0 +1,86 @@
+//! How an int8 pack was calibrated, per tensor: the range, the values it clipped, and the values
+//! far from all the others ([`crate::quantise::spread`]); as data (JSON) and as a table.
+use comfy_table::{presets::UTF8_BORDERS_ONLY, Cell, CellAlignment, Table};
+use serde::Serialize;
+
+use crate::pack::Int8Pack;
+use crate::quantise::advice::num;
+use crate::quantise::spread::{TensorStats, CORE_TRIM, DOMINATED_SPREAD};
+
+/// The calibration part of the pack report.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct CalibrationReport {
+    /// `min/max` or `percentile P`.
+    pub method: String,
+    /// How percentiles are ranked.
+    pub percentile_definition: &'static str,
+    /// Calibration rows.
+    pub rows: usize,
+    /// The rule that marks a range as set by a few far values.
+    pub far_rule: String,
+    /// Each tensor: the scaled input, then each layer's output.
+    pub tensors: Vec<TensorStats>,
+    /// One line per range that a few far values set (also printed on stderr).
+    pub warnings: Vec<String>,
+}
+
+impl CalibrationReport {
+    /// The report of `p`.
+    pub fn of(p: &Int8Pack) -> Self {
+        CalibrationReport {
+            method: p.method.to_string(),
+            percentile_definition:
+                "Hyndman & Fan (1996) definition 7, numpy.percentile's default: rank (n - 1) * p / 100, linear between neighbours",
+            rows: p.calibration_rows,
+            far_rule: format!(
+                "far: more than the core's width beyond the core (all values but the {}% (at least one row's worth) lowest and highest); \
+                 dominated: there are far values and the range is at least {DOMINATED_SPREAD} times as wide as the other values",
+                CORE_TRIM * 100.0
+            ),
+            tensors: p.tensors.clone(),
+            warnings: p.warnings.clone(),
+        }
+    }
+}
+
+fn far(t: &TensorStats) -> String {
+    let n = t.far();
+    if n == 0 {
+        return "0".into();
+    }
+    let rows = t.far_row_count;
+    format!("{n} in {rows} row{}", if rows == 1 { "" } else { "s" })
+}
+
+/// The table: one row per tensor.
+pub fn render(r: &CalibrationReport) -> String {
+    let mut t = Table::new();
+    t.load_preset(UTF8_BORDERS_ONLY);
+    t.set_header([
+        "tensor",
+        "values",
+        "range",
+        "clipped (below/above)",
+        "far values",
+        "spread",
+    ]);
+    for s in &r.tensors {
+        t.add_row(vec![
+            Cell::new(&s.tensor),
+            Cell::new(s.values).set_alignment(CellAlignment::Right),
+            Cell::new(format!(
+                "[{}, {}]",
+                num(f64::from(s.min)),
+                num(f64::from(s.max))
+            )),
+            Cell::new(format!("{} / {}", s.clipped_below, s.clipped_above))
+                .set_alignment(CellAlignment::Right),
+            Cell::new(far(s)).set_alignment(CellAlignment::Right),
+            Cell::new(s.spread.map_or_else(|| "-".into(), num)).set_alignment(CellAlignment::Right),
+        ]);
+    }
+    format!(
+        "calibration ({}, {} rows; spread: the range's width over the width of the values that are not far)\n{t}\n",
+        r.method, r.rows
+    )
+}

@@ -1,0 +1,192 @@
+//! `kinglet pack` calibration reports through the real binary: the per-tensor table and JSON
+//! (clipped values, far values, spread), the warnings for a range a few values set, and what
+//! following a warning's advice does to accuracy (`kinglet vet` on the vibration held-out rows).
+//! The bad-input rows that end in an error are in `cli_bad_inputs.rs`; these are the rows of
+//! `docs/bad-inputs.md` that end in a warning or a report (C73, C74).
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn repo(rel: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("..").join(rel)
+}
+
+fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
+
+/// A scratch directory with the vibration model and a calibration file `cal.csv`: the header
+/// and the first 50 rows of the example's calibration set, then `extra` (a whole row).
+struct Setup {
+    dir: tempfile::TempDir,
+}
+
+impl Setup {
+    fn new(extra: Option<&str>) -> Self {
+        let dir = tempfile::tempdir().unwrap();
+        let src = std::fs::read_to_string(repo("examples/vibration/calibration.csv")).unwrap();
+        let mut csv: Vec<String> = src.lines().take(51).map(str::to_string).collect();
+        csv.extend(extra.map(|v| vec![v; 15].join(",")));
+        std::fs::write(dir.path().join("cal.csv"), csv.join("\n") + "\n").unwrap();
+        std::fs::copy(
+            repo("examples/vibration/model.onnx"),
+            dir.path().join("vib.onnx"),
+        )
+        .unwrap();
+        Setup { dir }
+    }
+
+    fn run(&self, args: &[&str]) -> Output {
+        Command::new(env!("CARGO_BIN_EXE_kinglet"))
+            .args(args)
+            .current_dir(self.dir.path())
+            .output()
+            .unwrap()
+    }
+
+    /// `pack vib.onnx --calibration cal.csv <extra> -o <out>`; must exit 0.
+    fn pack(&self, out: &str, extra: &[&str]) -> Output {
+        let mut args = vec!["pack", "vib.onnx", "--calibration", "cal.csv"];
+        args.extend_from_slice(extra);
+        args.extend_from_slice(&["-o", out]);
+        let o = self.run(&args);
+        assert_eq!(o.status.code(), Some(0), "{args:?}: {}", text(&o.stderr));
+        o
+    }
+
+    /// Int8 accuracy of `blob` on the 600 held-out rows, by `kinglet vet --json`.
+    fn int8_accuracy(&self, blob: &str) -> (u64, u64) {
+        let held = repo("examples/vibration/heldout.csv");
+        let o = self.run(&[
+            "vet",
+            "vib.onnx",
+            blob,
+            "--data",
+            held.to_str().unwrap(),
+            "--label",
+            "label",
+            "--json",
+        ]);
+        assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+        let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+        let acc = &v["accuracy"];
+        // examples/vibration/README.md (train.py): the float model gets 592 of 600 right.
+        assert_eq!(acc["float"]["correct"], 592);
+        (
+            acc["int8"]["correct"].as_u64().unwrap(),
+            acc["int8"]["rows"].as_u64().unwrap(),
+        )
+    }
+}
+
+fn warning_lines(o: &Output) -> Vec<String> {
+    text(&o.stderr)
+        .lines()
+        .map(|l| {
+            l.strip_prefix("kinglet: warning: ")
+                .unwrap_or_else(|| panic!("not a warning line: {l}"))
+                .to_string()
+        })
+        .collect()
+}
+
+#[test]
+fn c73_one_far_row_warns_and_the_advice_restores_accuracy() {
+    // A row of 1e6 in every feature: finite, and inside what the first layer's biases make
+    // plausible (so no error), but it sets every tensor's min/max range. Regression: pack used
+    // to say nothing.
+    let s = Setup::new(Some("1e6"));
+    let o = s.pack("minmax.kgl", &["--json"]);
+    let warnings = warning_lines(&o);
+    assert_eq!(warnings.len(), 4, "one per tensor: {warnings:?}");
+    for (w, tensor) in warnings.iter().zip([
+        "input",
+        "layer 1 output",
+        "layer 2 output",
+        "layer 3 output",
+    ]) {
+        assert!(
+            w.starts_with(&format!("cal.csv: {tensor}: the range [")),
+            "{w}"
+        );
+        for part in [
+            "in row 51 (1-based, header not counted)",
+            "times narrower (under one of the 255 int8 steps)",
+            // 765 input values, 15 far: ⌊100 · 749 / 764⌋ to two decimals.
+            "use --range percentile --percentile 98.03 to clip them",
+        ] {
+            assert!(w.contains(part), "{part:?} missing in {w}");
+        }
+    }
+    assert!(
+        warnings[0].contains("is set by 15 of 765 values"),
+        "{}",
+        warnings[0]
+    );
+    // stdout stays one JSON document, which carries the same warnings and the statistics.
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let cal = &v["calibration"];
+    assert_eq!(cal["warnings"], serde_json::json!(warnings));
+    let input = &cal["tensors"][0];
+    assert_eq!(input["tensor"], "input");
+    assert_eq!(input["far_above"], 15);
+    assert_eq!(input["far_rows"], serde_json::json!([50]));
+    assert_eq!(input["dominated"], true);
+    assert!(input["spread"].as_f64().unwrap() > 255.0, "{input}");
+
+    // As the warning says: no warning, and the far row is clipped in every tensor.
+    let o = s.pack(
+        "clipped.kgl",
+        &["--range", "percentile", "--percentile", "98.03", "--json"],
+    );
+    assert!(o.stderr.is_empty(), "{}", text(&o.stderr));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    for t in v["calibration"]["tensors"].as_array().unwrap() {
+        assert_eq!(t["dominated"], false, "{t}");
+        assert!(t["spread"].as_f64().unwrap() <= 1.0, "{t}");
+    }
+
+    // Accuracy on the held-out rows: with min/max every ordinary row falls into one input step
+    // and the int8 model is near chance (4 balanced classes); with the advice it is within
+    // 1.5 points of the float model's 592 (common practice for int8, no source).
+    let (before, rows) = s.int8_accuracy("minmax.kgl");
+    let (after, _) = s.int8_accuracy("clipped.kgl");
+    eprintln!("vibration + one row of 1e6: int8 {before}/{rows} with min/max, {after}/{rows} with percentile 98.03 (float 592)");
+    assert!(before <= 200, "{before}/{rows}");
+    assert!(after >= 583, "{after}/{rows}");
+}
+
+#[test]
+fn c74_the_default_percentile_clips_a_small_set_and_says_so() {
+    // Regression: with the rank rounded on n - 1, percentile 99.99 clipped nothing on any
+    // tensor of 5,000 values or fewer. 50 rows give 750 input values; the linear rank
+    // (n - 1) · 0.9999 = 748.93 falls short of the largest value and (n - 1) · 0.0001 = 0.075
+    // above the smallest, so exactly one value is clipped at each end (all distinct here).
+    let s = Setup::new(None);
+    let o = s.pack("p.kgl", &["--range", "percentile", "--json"]);
+    assert!(o.stderr.is_empty(), "{}", text(&o.stderr));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let cal = &v["calibration"];
+    assert_eq!(cal["method"], "percentile 99.99");
+    let input = &cal["tensors"][0];
+    assert_eq!(input["values"], 750);
+    assert_eq!(
+        (
+            input["clipped_below"].clone(),
+            input["clipped_above"].clone()
+        ),
+        (1.into(), 1.into())
+    );
+    assert!(
+        input["max"].as_f64() < input["observed_max"].as_f64(),
+        "{input}"
+    );
+    // The text report shows the same counts in its calibration table.
+    let o = s.pack("p.kgl", &["--range", "percentile"]);
+    let out = text(&o.stdout);
+    assert!(out.contains("clipped (below/above)"), "{out}");
+    let row = out
+        .lines()
+        .find(|l| l.contains(" input "))
+        .unwrap_or_else(|| panic!("no input row in {out}"));
+    assert!(row.contains("1 / 1"), "{row}");
+}
