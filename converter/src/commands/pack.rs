@@ -1,17 +1,14 @@
-//! `kinglet pack`: import, (calibrate and quantise,) pack, report.
-use anyhow::{anyhow, bail, Context, Result};
+//! `kinglet pack`: arguments into a [`PackRequest`], the library's `pack`, the blob written and
+//! the report printed.
+use anyhow::{anyhow, bail, Result};
 use kinglet_converter::atomic::write_atomic;
-use kinglet_converter::dataset::{load_file, DatasetError, LabelColumn, LoadOptions};
-use kinglet_converter::import::import_file;
-use kinglet_converter::import::plain::referenced_files;
+use kinglet_converter::dataset::LabelColumn;
 use kinglet_converter::output_guard::{check_distinct, Named};
-use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::pack::request::{named, pack, PackRequest, Precision, ScalerSource};
 use kinglet_converter::quantise::calibrate::RangeMethod;
-use kinglet_converter::report::calibration::{self, CalibrationReport};
-use kinglet_converter::report::{table, BlobReport};
-use kinglet_converter::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
-use kinglet_runtime::Model;
-use std::path::{Path, PathBuf};
+use kinglet_converter::report::calibration;
+use kinglet_converter::report::table;
+use std::path::PathBuf;
 
 use super::Outcome;
 
@@ -61,129 +58,66 @@ pub struct Args {
     json: bool,
 }
 
-fn default_out(model: &Path, float: bool) -> PathBuf {
-    let stem = model
-        .file_stem()
-        .and_then(|s| s.to_str())
-        .unwrap_or("model");
-    PathBuf::from(format!("{stem}.{}.kgl", if float { "f32" } else { "int8" }))
-}
-
 pub fn run(a: Args) -> Result<Outcome> {
-    let out = a
-        .out
-        .clone()
-        .unwrap_or_else(|| default_out(&a.model, a.float));
-    let mut inputs = vec![Named::new("the model", &a.model)];
-    if let Some(p) = &a.calibration {
-        inputs.push(Named::new("--calibration", p));
-    }
-    if let Some(p) = &a.scaler {
-        inputs.push(Named::new("--scaler", p));
-    }
-    let weight_files = if a
-        .model
-        .extension()
-        .is_some_and(|e| e.eq_ignore_ascii_case("json"))
-    {
-        referenced_files(&a.model)
-    } else {
-        Vec::new()
+    let scaler = match (&a.scaler, a.divide_by) {
+        (Some(p), _) => Some(ScalerSource::File(p.clone())),
+        (None, Some(d)) => Some(ScalerSource::DivideBy(d)),
+        (None, None) => None,
     };
-    inputs.extend(
-        weight_files
-            .iter()
-            .map(|p| Named::new("a weight file of the model", p)),
-    );
-    check_distinct(&[Named::new("the output (-o)", &out)], &inputs)?;
-    let mut model =
-        import_file(&a.model).with_context(|| format!("cannot import {}", a.model.display()))?;
-    if let Some(p) = &a.scaler {
-        attach_scaler(&mut model, load_scaler_file(p)?)
-            .with_context(|| format!("--scaler {}", p.display()))?;
-    } else if let Some(d) = a.divide_by {
-        attach_scaler(&mut model, uniform_divisor(d)?)?;
-    }
-    if let Some(labels) = a.labels {
-        if !model.labels.is_empty() {
-            bail!("the model already carries class labels; drop --labels");
-        }
-        if let Some(i) = labels.iter().position(|l| l.trim().is_empty()) {
-            bail!("--labels: label {} (0-based) is empty; give one non-empty name per class, comma-separated", i);
-        }
-        if labels.len() != model.classes() {
-            bail!(
-                "--labels gives {} labels for a model with {} classes",
-                labels.len(),
-                model.classes()
-            );
-        }
-        model.labels = labels;
-    }
-    let mut notes = Vec::new();
-    let mut calib = None;
-    let blob = if a.float {
+    let precision = if a.float {
         if a.calibration.is_some() {
             bail!("--float packs f32 weights and needs no --calibration");
         }
-        pack_f32(&model).with_context(|| format!("cannot pack {}", a.model.display()))?
+        Precision::F32
     } else {
-        let path = a.calibration.ok_or_else(|| {
+        let calibration = a.calibration.clone().ok_or_else(|| {
             anyhow!("an int8 pack needs --calibration <rows.csv|rows.npy> (raw feature rows, a few hundred suffice), or use --float")
         })?;
-        let data = load_file(
-            &path,
-            &LoadOptions {
-                label: a.calibration_label,
-                ..LoadOptions::default()
+        Precision::Int8 {
+            calibration,
+            label: a.calibration_label.clone(),
+            method: match a.range {
+                Range::Minmax => RangeMethod::MinMax,
+                Range::Percentile => RangeMethod::Percentile(a.percentile),
             },
-        )
-        .map_err(|e| match e {
-            DatasetError::LabelColumnForNpy { .. } => {
-                anyhow::Error::new(e).context("--calibration-label")
-            }
-            e => e.into(),
-        })?;
-        let method = match a.range {
-            Range::Minmax => RangeMethod::MinMax,
-            Range::Percentile => RangeMethod::Percentile(a.percentile),
-        };
-        let p = pack_int8(&model, &data, method)
-            .with_context(|| format!("cannot pack {}", a.model.display()))?;
-        notes.push(format!(
-            "calibrated on {} rows of {} ({})",
-            p.calibration_rows,
-            path.display(),
-            p.method
-        ));
-        calib = Some(CalibrationReport::of(&p));
-        p.blob
+        }
     };
-    // Parse what we are about to write with the runtime's own reader.
-    let parsed = Model::parse(&blob).map_err(|e| anyhow!("internal: packed blob rejected: {e}"))?;
-    let report = BlobReport::of(&parsed);
-    write_atomic(&out, &blob)?;
+    let req = PackRequest {
+        model: a.model.clone(),
+        scaler,
+        labels: a.labels.clone(),
+        precision,
+    };
+    let out = a.out.clone().unwrap_or_else(|| req.default_out());
+    let inputs = req.inputs();
+    check_distinct(&[Named::new("the output (-o)", &out)], &named(&inputs))?;
+    let packed = pack(&req)?;
+    write_atomic(&out, &packed.blob)?;
     // Warnings go to stderr (seen also when stdout is JSON or piped), after the write succeeded.
-    for w in calib.iter().flat_map(|c| &c.warnings) {
+    for w in packed.calibration.iter().flat_map(|c| &c.warnings) {
         eprintln!("kinglet: warning: {w}");
     }
     if a.json {
-        let mut v = serde_json::to_value(&report)?;
+        let mut v = serde_json::to_value(&packed.report)?;
         v["blob"] = serde_json::Value::String(out.display().to_string());
-        v["notes"] = serde_json::to_value(&notes)?;
-        if let Some(c) = &calib {
+        v["notes"] = serde_json::to_value(&packed.notes)?;
+        if let Some(c) = &packed.calibration {
             v["calibration"] = serde_json::to_value(c)?;
         }
         super::out::line(&serde_json::to_string_pretty(&v)?)?;
     } else {
-        super::out::line(&format!("wrote {} ({} bytes)", out.display(), blob.len()))?;
-        for n in &notes {
+        super::out::line(&format!(
+            "wrote {} ({} bytes)",
+            out.display(),
+            packed.blob.len()
+        ))?;
+        for n in &packed.notes {
             super::out::line(n)?;
         }
-        if let Some(c) = &calib {
+        if let Some(c) = &packed.calibration {
             super::out::emit(&calibration::render(c))?;
         }
-        super::out::emit(&table::render(&report))?;
+        super::out::emit(&table::render(&packed.report))?;
     }
     Ok(Outcome::Pass)
 }

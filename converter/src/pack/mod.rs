@@ -1,6 +1,8 @@
-//! Packing: a [`FloatModel`] into an f32 blob, or, with a calibration set, into an int8 blob.
+//! Packing: a [`FloatModel`] into an f32 blob, or, with a calibration set, into an int8 blob;
+//! [`request::pack`] is the whole `kinglet pack` (import, scaler, labels, pack, report).
 pub mod layout;
 pub mod owned;
+pub mod request;
 
 use anyhow::{bail, Result};
 use kinglet_runtime::format::Precision;

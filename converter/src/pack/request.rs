@@ -1,0 +1,259 @@
+//! The whole of `kinglet pack` as one library call: import the model, attach a scaler and
+//! class labels, calibrate and quantise (or keep f32), and report. The CLI only turns its
+//! arguments into a [`PackRequest`] and prints the [`Packed`] result.
+use anyhow::{anyhow, bail, Context, Result};
+use kinglet_runtime::Model;
+use std::path::{Path, PathBuf};
+
+use crate::dataset::{load_file, DatasetError, LabelColumn, LoadOptions};
+use crate::import::import_file;
+use crate::import::plain::referenced_files;
+use crate::output_guard::Named;
+use crate::quantise::calibrate::RangeMethod;
+use crate::report::calibration::CalibrationReport;
+use crate::report::BlobReport;
+use crate::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
+
+use super::{pack_f32, pack_int8};
+
+/// Where the input scaler comes from, when the model carries none.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ScalerSource {
+    /// A scaler saved as JSON (mean/std, min/max, divide_by, factor/offset).
+    File(PathBuf),
+    /// Every raw input divided by this number (255 for pixels).
+    DivideBy(f32),
+}
+
+/// The weights to write.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Precision {
+    /// f32 weights, no calibration.
+    F32,
+    /// int8, calibrated on raw feature rows.
+    Int8 {
+        /// The rows: CSV or `.npy`.
+        calibration: PathBuf,
+        /// A CSV label column to leave out.
+        label: Option<LabelColumn>,
+        /// How each tensor's range is taken.
+        method: RangeMethod,
+    },
+}
+
+/// Everything `pack` needs to know.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PackRequest {
+    /// The trained model: `.onnx` or a `.json` plain model description.
+    pub model: PathBuf,
+    /// A scaler to attach (the model must have none).
+    pub scaler: Option<ScalerSource>,
+    /// Class labels to store (the model must carry none).
+    pub labels: Option<Vec<String>>,
+    /// f32 or int8.
+    pub precision: Precision,
+}
+
+/// A packed blob and what to tell about it.
+#[derive(Debug, Clone)]
+pub struct Packed {
+    /// The blob's bytes, already accepted by the runtime's reader.
+    pub blob: Vec<u8>,
+    /// What the blob holds.
+    pub report: BlobReport,
+    /// Lines for the user ("calibrated on … rows of …").
+    pub notes: Vec<String>,
+    /// What calibration saw (int8 only), with its warnings.
+    pub calibration: Option<CalibrationReport>,
+}
+
+impl PackRequest {
+    /// Every file the pack reads, named as the user named it: an output must be none of them.
+    pub fn inputs(&self) -> Vec<(String, PathBuf)> {
+        let mut v = vec![("the model".to_string(), self.model.clone())];
+        if self
+            .model
+            .extension()
+            .is_some_and(|e| e.eq_ignore_ascii_case("json"))
+        {
+            v.extend(
+                referenced_files(&self.model)
+                    .into_iter()
+                    .map(|p| ("a weight file of the model".to_string(), p)),
+            );
+        }
+        if let Precision::Int8 { calibration, .. } = &self.precision {
+            v.push(("--calibration".into(), calibration.clone()));
+        }
+        if let Some(ScalerSource::File(p)) = &self.scaler {
+            v.push(("--scaler".into(), p.clone()));
+        }
+        v
+    }
+
+    /// The default output name: the model's stem + `.int8.kgl` or `.f32.kgl`, here.
+    pub fn default_out(&self) -> PathBuf {
+        let stem = self
+            .model
+            .file_stem()
+            .and_then(|s| s.to_str())
+            .unwrap_or("model");
+        let kind = match self.precision {
+            Precision::F32 => "f32",
+            Precision::Int8 { .. } => "int8",
+        };
+        PathBuf::from(format!("{stem}.{kind}.kgl"))
+    }
+}
+
+/// Borrowed [`Named`] views of [`PackRequest::inputs`], for [`crate::output_guard`].
+pub fn named(inputs: &[(String, PathBuf)]) -> Vec<Named<'_>> {
+    inputs.iter().map(|(what, p)| Named::new(what, p)).collect()
+}
+
+fn check_labels(labels: &[String], classes: usize) -> Result<()> {
+    if let Some(i) = labels.iter().position(|l| l.trim().is_empty()) {
+        bail!("--labels: label {i} (0-based) is empty; give one non-empty name per class, comma-separated");
+    }
+    if labels.len() != classes {
+        bail!(
+            "--labels gives {} labels for a model with {classes} classes",
+            labels.len()
+        );
+    }
+    Ok(())
+}
+
+/// Runs the pack `req` describes; writes nothing.
+///
+/// # Errors
+/// Whatever the import, the scaler, the labels, the calibration rows or the quantiser refuse,
+/// each naming the file (and row, column, node or layer) at fault.
+pub fn pack(req: &PackRequest) -> Result<Packed> {
+    let model_path = &req.model;
+    let mut model = import_file(model_path)
+        .with_context(|| format!("cannot import {}", model_path.display()))?;
+    match &req.scaler {
+        Some(ScalerSource::File(p)) => attach_scaler(&mut model, load_scaler_file(p)?)
+            .with_context(|| format!("--scaler {}", p.display()))?,
+        Some(ScalerSource::DivideBy(d)) => attach_scaler(&mut model, uniform_divisor(*d)?)?,
+        None => {}
+    }
+    if let Some(labels) = &req.labels {
+        if !model.labels.is_empty() {
+            bail!("the model already carries class labels; drop --labels");
+        }
+        check_labels(labels, model.classes())?;
+        model.labels = labels.clone();
+    }
+    let mut notes = Vec::new();
+    let mut calibration = None;
+    let blob = match &req.precision {
+        Precision::F32 => {
+            pack_f32(&model).with_context(|| format!("cannot pack {}", model_path.display()))?
+        }
+        Precision::Int8 {
+            calibration: rows,
+            label,
+            method,
+        } => {
+            let data = load_rows(rows, label.clone())?;
+            let p = pack_int8(&model, &data, *method)
+                .with_context(|| format!("cannot pack {}", model_path.display()))?;
+            notes.push(format!(
+                "calibrated on {} rows of {} ({})",
+                p.calibration_rows,
+                rows.display(),
+                p.method
+            ));
+            calibration = Some(CalibrationReport::of(&p));
+            p.blob
+        }
+    };
+    // Parse what is about to be written with the runtime's own reader.
+    let report = {
+        let parsed =
+            Model::parse(&blob).map_err(|e| anyhow!("internal: packed blob rejected: {e}"))?;
+        BlobReport::of(&parsed)
+    };
+    Ok(Packed {
+        blob,
+        report,
+        notes,
+        calibration,
+    })
+}
+
+fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<crate::dataset::Dataset> {
+    load_file(
+        path,
+        &LoadOptions {
+            label,
+            ..LoadOptions::default()
+        },
+    )
+    .map_err(|e| match e {
+        DatasetError::LabelColumnForNpy { .. } => {
+            anyhow::Error::new(e).context("--calibration-label")
+        }
+        e => e.into(),
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn example(rel: &str) -> PathBuf {
+        Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("../examples")
+            .join(rel)
+    }
+
+    #[test]
+    fn packs_the_vibration_example_both_ways() {
+        let f32 = pack(&PackRequest {
+            model: example("vibration/model.onnx"),
+            scaler: None,
+            labels: None,
+            precision: Precision::F32,
+        })
+        .unwrap();
+        assert!(f32.calibration.is_none() && f32.notes.is_empty());
+        let req = PackRequest {
+            model: example("vibration/model.onnx"),
+            scaler: None,
+            labels: None,
+            precision: Precision::Int8 {
+                calibration: example("vibration/calibration.csv"),
+                label: None,
+                method: RangeMethod::MinMax,
+            },
+        };
+        let int8 = pack(&req).unwrap();
+        assert!(int8.blob.len() < f32.blob.len());
+        assert!(
+            int8.notes[0].starts_with("calibrated on "),
+            "{:?}",
+            int8.notes
+        );
+        assert!(int8.calibration.is_some());
+        assert_eq!(req.default_out(), PathBuf::from("model.int8.kgl"));
+        let inputs = req.inputs();
+        assert_eq!(inputs.len(), 2);
+        assert_eq!(inputs[1].0, "--calibration");
+    }
+
+    #[test]
+    fn labels_must_be_one_non_empty_name_per_class() {
+        assert!(check_labels(&["a".into(), "b".into()], 2).is_ok());
+        let e = check_labels(&["a".into(), " ".into()], 2).unwrap_err();
+        assert!(e.to_string().contains("label 1 (0-based) is empty"), "{e}");
+        let e = check_labels(&["a".into()], 2).unwrap_err();
+        assert!(
+            e.to_string()
+                .contains("1 labels for a model with 2 classes"),
+            "{e}"
+        );
+    }
+}
