@@ -3,6 +3,7 @@
 //! exit with code 2, print nothing on stdout and exactly one line `kinglet: error: <cause>` on
 //! stderr naming what is wrong and where, and leave no file behind (no output blob, no
 //! temporary). The runtime and library rows are in `tests/tests/bad_inputs.rs`.
+use kinglet_builder::npy::npy_bytes;
 use std::collections::BTreeSet;
 use std::path::{Path, PathBuf};
 use std::process::Command;
@@ -139,28 +140,6 @@ impl Case {
     }
 }
 
-/// Recomputes the header's length and CRC-32 (ISO-HDLC, the runtime's checksum).
-fn reseal(blob: &mut [u8]) {
-    let len = blob.len() as u32;
-    blob[8..12].copy_from_slice(&len.to_le_bytes());
-    let crc = kinglet_runtime::CHECKSUM.checksum(&blob[16..]);
-    blob[12..16].copy_from_slice(&crc.to_le_bytes());
-}
-
-/// A version-1 `.npy` file (format of numpy's `numpy.lib.format`, version 1.0).
-fn npy(descr: &str, shape: &str, payload: &[u8]) -> Vec<u8> {
-    let mut header = format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape}, }}");
-    while (10 + header.len() + 1) % 64 != 0 {
-        header.push(' ');
-    }
-    header.push('\n');
-    let mut v = b"\x93NUMPY\x01\x00".to_vec();
-    v.extend_from_slice(&(header.len() as u16).to_le_bytes());
-    v.extend_from_slice(header.as_bytes());
-    v.extend_from_slice(payload);
-    v
-}
-
 fn pack_with_rows(rows: &str, wants: &[&str]) -> String {
     Case::new().with("model_2in.json").with(rows).fails(
         &[
@@ -251,8 +230,9 @@ fn c03_inspect_blob_from_a_newer_format_version() {
     let c = Case::new().packed("m.kgl");
     let mut b = c.read("m.kgl");
     let newer = kinglet_runtime::FORMAT_VERSION + 1;
-    b[4..6].copy_from_slice(&newer.to_le_bytes());
-    reseal(&mut b);
+    let at = kinglet_runtime::header::offset::VERSION;
+    b[at..at + 2].copy_from_slice(&newer.to_le_bytes());
+    kinglet_builder::reseal(&mut b).unwrap();
     c.put("newer.kgl", &b).fails(
         &["inspect", "newer.kgl"],
         &[
@@ -393,18 +373,14 @@ fn c17_calibration_csv_not_utf8() {
 
 #[test]
 fn c18_truncated_npy_calibration() {
-    let full = npy("<f4", "(3, 2)", &[0u8; 24]);
+    let full = npy_bytes(&[3, 2], &[0f32; 6]);
     pack_with_npy(&full[..full.len() - 5], &["rows.npy"]);
 }
 
 #[test]
 fn c19_nan_in_npy_calibration() {
-    let vals: Vec<u8> = [1.0f32, 2.0, f32::NAN, 4.0]
-        .iter()
-        .flat_map(|v| v.to_le_bytes())
-        .collect();
     pack_with_npy(
-        &npy("<f4", "(2, 2)", &vals),
+        &npy_bytes(&[2, 2], &[1.0f32, 2.0, f32::NAN, 4.0]),
         &["rows.npy", "row index 1, column index 0: NaN"],
     );
 }
