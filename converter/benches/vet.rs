@@ -6,6 +6,7 @@
 //! `bash tests/python/setup_venv.sh`; set `KINGLET_PYTHON` to use another interpreter). Prints
 //! a table; the goal (our whole comparison in less wall time than numpy's forward pass) is read
 //! from the table, not asserted.
+use kinglet_builder::npy::npy_bytes;
 use kinglet_converter::dataset::Dataset;
 use kinglet_converter::graph::{
     Activation, DenseLayer, FloatModel, OutputKind, Scaler, ScalerKind,
@@ -55,30 +56,11 @@ fn dense(rng: &mut Rng, inputs: usize, outputs: usize, activation: Activation) -
     }
 }
 
-/// Writes a little-endian `.npy` (format version 1.0). Written by hand rather than with npyz's
-/// typestate writer because the format is a 10-line header and this is bench code.
-fn write_npy(path: &Path, descr: &str, shape: &[usize], data: &[u8]) {
-    let dims: Vec<String> = shape.iter().map(|d| d.to_string()).collect();
-    let shape_txt = if shape.len() == 1 {
-        format!("({},)", dims[0])
-    } else {
-        format!("({})", dims.join(", "))
-    };
-    let mut header =
-        format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape_txt}, }}");
-    while (10 + header.len() + 1) % 64 != 0 {
-        header.push(' ');
-    }
-    header.push('\n');
-    let mut out = b"\x93NUMPY\x01\x00".to_vec();
-    out.extend_from_slice(&(header.len() as u16).to_le_bytes());
-    out.extend_from_slice(header.as_bytes());
-    out.extend_from_slice(data);
-    std::fs::write(path, out).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
-}
-
-fn f32_bytes(v: &[f32]) -> Vec<u8> {
-    v.iter().flat_map(|x| x.to_le_bytes()).collect()
+/// Writes `data` as a C-order `.npy` array of `shape`.
+fn write_npy<T: npyz::AutoSerialize>(path: &Path, shape: &[usize], data: &[T]) {
+    let shape: Vec<u64> = shape.iter().map(|&d| d as u64).collect();
+    std::fs::write(path, npy_bytes(&shape, data))
+        .unwrap_or_else(|e| panic!("{}: {e}", path.display()));
 }
 
 fn median(mut t: Vec<f64>) -> f64 {
@@ -144,29 +126,13 @@ fn main() {
     let d = dir.path();
     std::fs::write(d.join("model.f32.kgl"), &f32_blob).expect("write");
     std::fs::write(d.join("model.int8.kgl"), &int8_blob).expect("write");
-    write_npy(
-        &d.join("x.npy"),
-        "<f4",
-        &[ROWS, INPUTS],
-        &f32_bytes(&data.features),
-    );
-    let label_bytes: Vec<u8> = labels.iter().flat_map(|l| l.to_le_bytes()).collect();
-    write_npy(&d.join("labels.npy"), "<i8", &[ROWS], &label_bytes);
+    write_npy(&d.join("x.npy"), &[ROWS, INPUTS], &data.features);
+    write_npy(&d.join("labels.npy"), &[ROWS], &labels);
     let (l1, l2) = (&model.layers[0], &model.layers[1]);
-    write_npy(
-        &d.join("w1.npy"),
-        "<f4",
-        &[HIDDEN, INPUTS],
-        &f32_bytes(&l1.weights),
-    );
-    write_npy(&d.join("b1.npy"), "<f4", &[HIDDEN], &f32_bytes(&l1.bias));
-    write_npy(
-        &d.join("w2.npy"),
-        "<f4",
-        &[CLASSES, HIDDEN],
-        &f32_bytes(&l2.weights),
-    );
-    write_npy(&d.join("b2.npy"), "<f4", &[CLASSES], &f32_bytes(&l2.bias));
+    write_npy(&d.join("w1.npy"), &[HIDDEN, INPUTS], &l1.weights);
+    write_npy(&d.join("b1.npy"), &[HIDDEN], &l1.bias);
+    write_npy(&d.join("w2.npy"), &[CLASSES, HIDDEN], &l2.weights);
+    write_npy(&d.join("b2.npy"), &[CLASSES], &l2.bias);
     std::fs::write(d.join("scale.txt"), format!("{PIXEL_SCALE:e}")).expect("write");
 
     // numpy: forward pass timed inside the process, and the whole process from outside.

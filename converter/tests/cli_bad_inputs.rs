@@ -3,6 +3,7 @@
 //! exit with code 2, print nothing on stdout and exactly one line `kinglet: error: <cause>` on
 //! stderr naming what is wrong and where, and leave no file behind (no output blob, no
 //! temporary). The runtime and library rows are in `tests/tests/bad_inputs.rs`.
+use kinglet_builder::npy::npy_bytes;
 use std::collections::BTreeSet;
 use std::path::{Path, PathBuf};
 use std::process::Command;
@@ -157,28 +158,6 @@ impl Case {
     }
 }
 
-/// Recomputes the header's length and CRC-32 (ISO-HDLC, the runtime's checksum).
-fn reseal(blob: &mut [u8]) {
-    let len = blob.len() as u32;
-    blob[8..12].copy_from_slice(&len.to_le_bytes());
-    let crc = kinglet_runtime::CHECKSUM.checksum(&blob[16..]);
-    blob[12..16].copy_from_slice(&crc.to_le_bytes());
-}
-
-/// A version-1 `.npy` file (format of numpy's `numpy.lib.format`, version 1.0).
-fn npy(descr: &str, shape: &str, payload: &[u8]) -> Vec<u8> {
-    let mut header = format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape}, }}");
-    while (10 + header.len() + 1) % 64 != 0 {
-        header.push(' ');
-    }
-    header.push('\n');
-    let mut v = b"\x93NUMPY\x01\x00".to_vec();
-    v.extend_from_slice(&(header.len() as u16).to_le_bytes());
-    v.extend_from_slice(header.as_bytes());
-    v.extend_from_slice(payload);
-    v
-}
-
 fn pack_with_rows(rows: &str, wants: &[&str]) -> String {
     Case::new().with("model_2in.json").with(rows).fails(
         &[
@@ -269,8 +248,9 @@ fn c03_inspect_blob_from_a_newer_format_version() {
     let c = Case::new().packed("m.kgl");
     let mut b = c.read("m.kgl");
     let newer = kinglet_runtime::FORMAT_VERSION + 1;
-    b[4..6].copy_from_slice(&newer.to_le_bytes());
-    reseal(&mut b);
+    let at = kinglet_runtime::header::offset::VERSION;
+    b[at..at + 2].copy_from_slice(&newer.to_le_bytes());
+    kinglet_builder::reseal(&mut b).unwrap();
     c.put("newer.kgl", &b).fails(
         &["inspect", "newer.kgl"],
         &[
@@ -411,18 +391,14 @@ fn c17_calibration_csv_not_utf8() {
 
 #[test]
 fn c18_truncated_npy_calibration() {
-    let full = npy("<f4", "(3, 2)", &[0u8; 24]);
+    let full = npy_bytes(&[3, 2], &[0f32; 6]);
     pack_with_npy(&full[..full.len() - 5], &["rows.npy"]);
 }
 
 #[test]
 fn c19_nan_in_npy_calibration() {
-    let vals: Vec<u8> = [1.0f32, 2.0, f32::NAN, 4.0]
-        .iter()
-        .flat_map(|v| v.to_le_bytes())
-        .collect();
     pack_with_npy(
-        &npy("<f4", "(2, 2)", &vals),
+        &npy_bytes(&[2, 2], &[1.0f32, 2.0, f32::NAN, 4.0]),
         &["rows.npy", "row index 1, column index 0: NaN"],
     );
 }
@@ -928,10 +904,7 @@ fn c56_pack_output_is_a_symlink_or_hard_link_to_the_model() {
 #[test]
 fn c57_pack_output_is_a_weight_file_of_a_plain_model() {
     // The first layer's weights come from w.npy (3 × 2, out_in); -o w.npy would replace them.
-    let weights: Vec<u8> = [1f32, 2., 3., 4., -5., 6.]
-        .iter()
-        .flat_map(|x| x.to_le_bytes())
-        .collect();
+    let weights = [1f32, 2., 3., 4., -5., 6.];
     let model = r#"{"kinglet_model": 1, "input_width": 2,
  "layers": [
   {"inputs": 2, "outputs": 3, "activation": "relu", "weights": {"layout": "out_in", "npy": "w.npy"}, "bias": [0.5, 0, 1]},
@@ -940,7 +913,7 @@ fn c57_pack_output_is_a_weight_file_of_a_plain_model() {
  "output": "softmax"}"#;
     let c = Case::new()
         .put("npy_model.json", model.as_bytes())
-        .put("w.npy", &npy("<f4", "(3, 2)", &weights));
+        .put("w.npy", &npy_bytes(&[3, 2], &weights));
     // The description is valid: it packs to another name.
     let ok = c.run(&["pack", "npy_model.json", "--float", "-o", "fine.kgl"]);
     assert_eq!(ok.status.code(), Some(0), "{ok:?}");
@@ -1058,12 +1031,9 @@ fn c62_huge_csv_field_is_cut_in_the_message() {
 
 #[test]
 fn c63_huge_float64_is_printed_short() {
-    let payload: Vec<u8> = [1f64, 2., 1e300, 4.]
-        .iter()
-        .flat_map(|x| x.to_le_bytes())
-        .collect();
+    let payload = [1f64, 2., 1e300, 4.];
     let cause = pack_with_npy(
-        &npy("<f8", "(2, 2)", &payload),
+        &npy_bytes(&[2, 2], &payload),
         &["rows.npy: row index 1, column index 0: 1e300"],
     );
     assert!(cause.len() < 200, "{cause}");
@@ -1091,13 +1061,10 @@ fn c64_vet_checks_widths_before_labels() {
 
 #[test]
 fn c65_calibration_label_with_npy_is_refused() {
-    let payload: Vec<u8> = [1f32, 2., 3., 4.]
-        .iter()
-        .flat_map(|x| x.to_le_bytes())
-        .collect();
+    let payload = [1f32, 2., 3., 4.];
     let c = Case::new()
         .with("model_2in.json")
-        .put("rows.npy", &npy("<f4", "(2, 2)", &payload));
+        .put("rows.npy", &npy_bytes(&[2, 2], &payload));
     c.fails(
         &[
             "pack",
@@ -1266,15 +1233,15 @@ fn c70_npy_calibration_with_a_row_of_huge_integers() {
     for line in text.lines().skip(1) {
         for f in line.split(',') {
             let v: f64 = f.parse().unwrap();
-            payload.extend_from_slice(&(v.round() as i64).to_le_bytes());
+            payload.push(v.round() as i64);
         }
     }
     for _ in 0..15 {
-        payload.extend_from_slice(&i64::MAX.to_le_bytes());
+        payload.push(i64::MAX);
     }
     pack_vibration(
         "rows.npy",
-        &npy("<i8", "(51, 15)", &payload),
+        &npy_bytes(&[51, 15], &payload),
         &[],
         &[
             "rows.npy: row index 50 is beyond anything the model could have been trained on",

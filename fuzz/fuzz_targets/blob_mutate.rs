@@ -6,7 +6,7 @@
 //! and sigmoid), and round-trips through the validating encoder byte for byte.
 #![no_main]
 use arbitrary::Unstructured;
-use kinglet_fuzz::{base, mutate, oracle, owned, BASES};
+use kinglet_fuzz::{base, mutate, oracle, BASES};
 use kinglet_runtime::encode::{encode, max_encoded_len};
 use kinglet_runtime::Model;
 use libfuzzer_sys::fuzz_target;
@@ -33,14 +33,14 @@ fuzz_target!(|data: &[u8]| {
     if std::env::var_os("KINGLET_FUZZ_DEBUG").is_some() {
         eprintln!("{m:#?}");
     }
-    let desc = m.desc();
+    let desc = m.as_desc();
     let planned = m.planned_arena();
     let arena_field = match u.int_in_range(0..=15u8).unwrap_or(0) {
         0 => planned.wrapping_add(1),
         1 => planned.saturating_sub(1),
         _ => planned,
     };
-    let blob = owned::raw_blob(&desc, arena_field);
+    let blob = kinglet_builder::raw_blob(&desc, arena_field);
     let verdict = Model::parse(&blob);
     // The validating encoder agrees with the reader.
     let mut out = vec![0u8; max_encoded_len(&desc).max(blob.len())];

@@ -2,22 +2,10 @@
 //! holding a few small arrays (`w.npy` 4×3 float32, `b.npy` 3 float64, `i.npy` int8 2×2,
 //! `bad.npy` a truncated file), so the fuzzer can reach the npy branch by name.
 #![no_main]
+use kinglet_builder::npy::npy_bytes;
 use libfuzzer_sys::fuzz_target;
 use std::path::PathBuf;
 use std::sync::OnceLock;
-
-fn npy(descr: &str, shape: &str, payload: &[u8]) -> Vec<u8> {
-    let mut header = format!("{{'descr': '{descr}', 'fortran_order': False, 'shape': {shape}, }}");
-    while (10 + header.len() + 1) % 64 != 0 {
-        header.push(' ');
-    }
-    header.push('\n');
-    let mut v = b"\x93NUMPY\x01\x00".to_vec();
-    v.extend_from_slice(&(header.len() as u16).to_le_bytes());
-    v.extend_from_slice(header.as_bytes());
-    v.extend_from_slice(payload);
-    v
-}
 
 fn dir() -> &'static PathBuf {
     static DIR: OnceLock<PathBuf> = OnceLock::new();
@@ -25,17 +13,13 @@ fn dir() -> &'static PathBuf {
         let d = tempfile::tempdir()
             .map(|t| t.keep())
             .unwrap_or_else(|_| std::env::temp_dir());
-        let w: Vec<u8> = (0..12)
-            .flat_map(|i| (i as f32 * 0.25 - 1.0).to_le_bytes())
-            .collect();
-        let b: Vec<u8> = [0.5f64, -0.5, 0.0]
-            .iter()
-            .flat_map(|x| x.to_le_bytes())
-            .collect();
-        let _ = std::fs::write(d.join("w.npy"), npy("<f4", "(4, 3)", &w));
-        let _ = std::fs::write(d.join("b.npy"), npy("<f8", "(3,)", &b));
-        let _ = std::fs::write(d.join("i.npy"), npy("|i1", "(2, 2)", &[1, 2, 0xff, 0x80]));
-        let _ = std::fs::write(d.join("bad.npy"), &npy("<f4", "(4, 3)", &w)[..70]);
+        let w: Vec<f32> = (0..12).map(|i| i as f32 * 0.25 - 1.0).collect();
+        let w = npy_bytes(&[4, 3], &w);
+        let _ = std::fs::write(d.join("w.npy"), &w);
+        let _ = std::fs::write(d.join("b.npy"), npy_bytes(&[3], &[0.5f64, -0.5, 0.0]));
+        let _ = std::fs::write(d.join("i.npy"), npy_bytes(&[2, 2], &[1i8, 2, -1, -128]));
+        // The header and 6 of the 48 data bytes.
+        let _ = std::fs::write(d.join("bad.npy"), &w[..w.len() - 42]);
         d
     })
 }

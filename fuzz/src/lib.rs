@@ -1,13 +1,13 @@
-//! Shared pieces of the fuzz targets: an editable layer table with a raw (non-validating)
-//! encoder, the invariants an accepted model must keep at inference, the structure-aware
-//! mutations, and the base models they start from.
+//! Shared pieces of the fuzz targets: the invariants an accepted model must keep at inference,
+//! the structure-aware mutations of an editable layer table (`kinglet_builder::OwnedModel`, with
+//! its raw, non-validating writer), and the base models they start from.
 pub mod convert;
 pub mod mutate;
 pub mod oracle;
-pub mod owned;
 
-use kinglet_runtime::format::{Activation, OutputKind, Precision, WeightLayout};
-use owned::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
+use kinglet_builder::sample::tiny_f32;
+use kinglet_builder::{le, OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
+use kinglet_runtime::format::{Activation, OutputKind, Precision};
 
 /// Real packed blobs (`kinglet pack` of `examples/vibration` and `examples/digits`): three in
 /// format version 1 (output-major weights), two in version 2 (Blocked4x4 weights).
@@ -19,93 +19,47 @@ pub const BASE_BLOBS: [&[u8]; 5] = [
     include_bytes!("../bases/vib.f32.v2.kgl"),
 ];
 
-fn le<T: Copy, const N: usize>(v: &[T], f: impl Fn(T) -> [u8; N]) -> Vec<u8> {
-    v.iter().flat_map(|&x| f(x)).collect()
-}
-
 /// A 3 → 4 → 2 int8 softmax model with labels and a per-feature scaler.
 pub fn tiny_int8() -> OwnedModel {
-    let q = |n: usize, shift: u8| OwnedQuant {
-        weight_scale: le(&vec![0.01f32; n], f32::to_le_bytes),
-        multiplier: le(&vec![1i32 << 30; n], i32::to_le_bytes),
-        shift: vec![shift; n],
-        output_scale: 0.1,
-        output_zero_point: -5,
+    let q = |n: usize, shift: i8| {
+        OwnedQuant::new(&vec![0.01; n], &vec![1 << 30; n], &vec![shift; n], 0.1, -5)
     };
     OwnedModel {
         input_len: 3,
         precision: Precision::Int8,
-        scaler: Some((
-            le(&[0.0f32, 1.0, 2.0], f32::to_le_bytes),
-            le(&[1.0f32, 0.5, 0.25], f32::to_le_bytes),
+        scaler: Some((le::f32s(&[0.0, 1.0, 2.0]), le::f32s(&[1.0, 0.5, 0.25]))),
+        input_quant: Some(OwnedInput::new(
+            0.1,
+            -10,
+            &[10 << 16, 5 << 16, (5 << 16) / 2],
+            &[-10 << 16, -15 << 16, -15 << 16],
+            &[16, 16, 16],
         )),
-        input_quant: Some(OwnedInput {
-            scale: 0.1,
-            zero_point: -10,
-            int_mult: le(&[10i32 << 16, 5 << 16, (5 << 16) / 2], i32::to_le_bytes),
-            int_add: le(&[-10i64 << 16, -15 << 16, -15 << 16], i64::to_le_bytes),
-            int_shift: vec![16, 16, 16],
-        }),
         layers: vec![
-            OwnedLayer {
-                inputs: 3,
-                outputs: 4,
-                activation: Activation::Relu,
-                layout: WeightLayout::OutputMajor,
-                weights: le(&[1i8, -2, 3, 127, -128, 0, 5, 5, 5, -1, -1, -1], |x| {
-                    [x as u8]
-                }),
-                bias: le(&[10i32, -20, 30, 400], i32::to_le_bytes),
-                quant: Some(q(4, 3)),
-            },
-            OwnedLayer {
-                inputs: 4,
-                outputs: 2,
-                activation: Activation::Linear,
-                layout: WeightLayout::OutputMajor,
-                weights: le(&[1i8, 2, 3, 4, -4, -3, -2, -1], |x| [x as u8]),
-                bias: le(&[0i32, 7], i32::to_le_bytes),
-                quant: Some(q(2, 2)),
-            },
+            OwnedLayer::int8(
+                3,
+                4,
+                Activation::Relu,
+                &[1, -2, 3, 127, -128, 0, 5, 5, 5, -1, -1, -1],
+                &[10, -20, 30, 400],
+                q(4, 3),
+            ),
+            OwnedLayer::int8(
+                4,
+                2,
+                Activation::Linear,
+                &[1, 2, 3, 4, -4, -3, -2, -1],
+                &[0, 7],
+                q(2, 2),
+            ),
         ],
         output: OutputKind::Softmax,
         labels: "off\non".into(),
     }
 }
 
-/// A 2 → 3 → 1 f32 sigmoid model.
-pub fn tiny_f32() -> OwnedModel {
-    OwnedModel {
-        input_len: 2,
-        precision: Precision::F32,
-        scaler: None,
-        input_quant: None,
-        layers: vec![
-            OwnedLayer {
-                inputs: 2,
-                outputs: 3,
-                activation: Activation::Relu,
-                layout: WeightLayout::OutputMajor,
-                weights: le(&[1.0f32, -1.0, 0.5, 0.5, -2.0, 1.0], f32::to_le_bytes),
-                bias: le(&[0.0f32, 0.1, 0.2], f32::to_le_bytes),
-                quant: None,
-            },
-            OwnedLayer {
-                inputs: 3,
-                outputs: 1,
-                activation: Activation::Linear,
-                layout: WeightLayout::OutputMajor,
-                weights: le(&[1.0f32, 2.0, -1.0], f32::to_le_bytes),
-                bias: le(&[-0.5f32], f32::to_le_bytes),
-                quant: None,
-            },
-        ],
-        output: OutputKind::Sigmoid,
-        labels: String::new(),
-    }
-}
-
-/// Base model `i` (wrapping): the real blobs first, then the two synthetic ones.
+/// Base model `i` (wrapping): the real blobs first, then the two synthetic ones (the second is
+/// `kinglet_builder::sample::tiny_f32`, a 2 → 3 → 1 f32 sigmoid model).
 pub fn base(i: usize) -> OwnedModel {
     let n = BASE_BLOBS.len() + 2;
     let k = i % n;

@@ -5,7 +5,7 @@
 use arbitrary::{Result, Unstructured};
 use kinglet_runtime::format::{Activation, OutputKind, Precision, WeightLayout};
 
-use crate::owned::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
+use kinglet_builder::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 
 /// Widest layer a mutation re-lays tensors for (keeps the harness's allocations small; wider
 /// declared widths are still produced, with tensors that do not match them).

@@ -66,8 +66,9 @@ impl Model<'_> {
 
 #[cfg(test)]
 mod tests {
-    use crate::testutil::{tiny_int8, OwnedModel};
     use crate::{Input, Model};
+    use kinglet_builder::sample::tiny_int8;
+    use kinglet_builder::OwnedModel;
 
     /// `tiny_int8` with a one-output sigmoid head (the first row of its last layer).
     fn tiny_int8_sigmoid() -> OwnedModel {
@@ -80,7 +81,7 @@ mod tests {
         q.weight_scale.truncate(4);
         q.multiplier.truncate(4);
         q.shift.truncate(1);
-        m.output = crate::OutputKind::Sigmoid;
+        m.output = kinglet_builder::OutputKind::Sigmoid;
         m
     }
 
@@ -108,7 +109,7 @@ mod tests {
         let floats: Vec<[f32; 3]> = grid.iter().map(|g| g.map(|v| f32::from(v) * 0.7)).collect();
         let bytes: Vec<[u8; 3]> = grid.iter().map(|g| g.map(|v| (v + 3) as u8)).collect();
         for owned in [tiny_int8(), tiny_int8_sigmoid()] {
-            let blob = owned.blob();
+            let blob = owned.encode_to_vec().unwrap();
             let m = Model::parse(&blob).unwrap();
             let mut inputs: Vec<Input<'_>> = grid.iter().map(|g| Input::I16(g)).collect();
             inputs.extend(floats.iter().map(|f| Input::F32(f)));
@@ -126,7 +127,7 @@ mod tests {
     #[test]
     #[cfg(feature = "f32")]
     fn f32_sigmoid_classify_gives_infers_class() {
-        let blob = crate::testutil::tiny_f32().blob();
+        let blob = kinglet_builder::sample::tiny_f32().encode_to_vec().unwrap();
         let m = Model::parse(&blob).unwrap();
         let grid: Vec<[f32; 2]> = (0..400)
             .map(|k| [(k % 20) as f32 * 0.3 - 3.0, (k / 20) as f32 * 0.3 - 3.0])

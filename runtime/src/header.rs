@@ -14,8 +14,12 @@ pub const OLDEST_VERSION: u16 = 1;
 /// The version a writer puts on a blob with this layer table: 2 if any layer uses the
 /// `Blocked4x4` layout, else 1 (so readers of version 1 still read it).
 pub fn version_for(desc: &crate::format::ModelDesc<'_>) -> u16 {
-    let blocked = desc
-        .layers
+    version_for_layers(&desc.layers)
+}
+
+/// [`version_for`] of a table with these layers.
+pub fn version_for_layers(layers: &[crate::format::LayerDesc<'_>]) -> u16 {
+    let blocked = layers
         .iter()
         .any(|l| l.layout == crate::format::WeightLayout::Blocked4x4);
     if blocked {
@@ -28,8 +32,24 @@ pub fn version_for(desc: &crate::format::ModelDesc<'_>) -> u16 {
 /// Length of the fixed header in bytes.
 pub const HEADER_LEN: usize = 20;
 
+/// Byte offsets of the header's fields (`FORMAT.md` §2).
+pub mod offset {
+    /// The magic, 4 bytes.
+    pub const MAGIC: usize = 0;
+    /// The format version, `u16`.
+    pub const VERSION: usize = 4;
+    /// The reserved flags, `u16`.
+    pub const FLAGS: usize = 6;
+    /// The blob's total length, `u32`.
+    pub const TOTAL_LEN: usize = 8;
+    /// The CRC, `u32`.
+    pub const CRC: usize = 12;
+    /// The arena size, `u32` (the first checksummed field).
+    pub const ARENA: usize = 16;
+}
+
 /// Byte offset where the checksummed region starts (the arena field and the body).
-pub const CHECKED_FROM: usize = 16;
+pub const CHECKED_FROM: usize = offset::ARENA;
 
 /// The checksum: CRC-32/ISO-HDLC (the CRC of zlib, PNG and Ethernet).
 pub const CHECKSUM: crc::Crc<u32> = crc::Crc::<u32>::new(&crc::CRC_32_ISO_HDLC);
@@ -92,7 +112,7 @@ pub const fn arena_bytes(blob: &[u8]) -> usize {
     if blob.len() < HEADER_LEN || !has_magic(blob) {
         return 0;
     }
-    u32_at(blob, 16) as usize
+    u32_at(blob, offset::ARENA) as usize
 }
 
 /// Total length of the blob as its header states (0 without a Kinglet header). Use it to cut a
@@ -101,7 +121,7 @@ pub const fn blob_len(blob: &[u8]) -> usize {
     if blob.len() < HEADER_LEN || !has_magic(blob) {
         return 0;
     }
-    u32_at(blob, 8) as usize
+    u32_at(blob, offset::TOTAL_LEN) as usize
 }
 
 impl Header {
@@ -122,11 +142,11 @@ impl Header {
             return Err(FormatError::BadMagic);
         }
         let h = Header {
-            version: u16_at(blob, 4),
-            flags: u16_at(blob, 6),
-            total_len: u32_at(blob, 8),
-            crc: u32_at(blob, 12),
-            arena_bytes: u32_at(blob, 16),
+            version: u16_at(blob, offset::VERSION),
+            flags: u16_at(blob, offset::FLAGS),
+            total_len: u32_at(blob, offset::TOTAL_LEN),
+            crc: u32_at(blob, offset::CRC),
+            arena_bytes: u32_at(blob, offset::ARENA),
         };
         if !(OLDEST_VERSION..=FORMAT_VERSION).contains(&h.version) {
             return Err(FormatError::UnsupportedVersion { found: h.version });
@@ -232,19 +252,19 @@ mod tests {
             Err(FormatError::BadMagic)
         );
         let mut v3 = good;
-        v3[4] = 3;
+        v3[offset::VERSION] = 3;
         assert_eq!(
             Header::read(&v3),
             Err(FormatError::UnsupportedVersion { found: 3 })
         );
         let mut v0 = good;
-        v0[4] = 0;
+        v0[offset::VERSION] = 0;
         assert_eq!(
             Header::read(&v0),
             Err(FormatError::UnsupportedVersion { found: 0 })
         );
         let mut flags = good;
-        flags[6] = 1;
+        flags[offset::FLAGS] = 1;
         assert_eq!(Header::read(&flags), Err(FormatError::ReservedFlags));
         let mut long = [0u8; 21];
         long[..20].copy_from_slice(&good);
@@ -256,7 +276,7 @@ mod tests {
             })
         );
         let mut len = good;
-        len[8] = 30;
+        len[offset::TOTAL_LEN] = 30;
         assert_eq!(
             Header::read(&len),
             Err(FormatError::TooShort {
@@ -265,7 +285,7 @@ mod tests {
             })
         );
         let mut crc = good;
-        crc[12] ^= 1;
+        crc[offset::CRC] ^= 1;
         assert!(matches!(
             Header::read(&crc),
             Err(FormatError::ChecksumMismatch { .. })

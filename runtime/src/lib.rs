@@ -56,8 +56,6 @@ pub mod output;
 pub mod requant;
 pub mod scale;
 mod stage;
-#[cfg(test)]
-mod testutil;
 mod validate;
 
 pub use error::{Error, FormatError, RunError, TensorKind};

@@ -434,7 +434,7 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::testutil::{tiny_f32, tiny_int8};
+    use kinglet_builder::sample::{tiny_f32, tiny_int8};
 
     fn trace_int8(model: &Model<'_>, input: Input<'_>) -> (Prediction, Vec<Vec<i8>>) {
         let mut arena = vec![0u8; model.arena_bytes()];
@@ -455,7 +455,7 @@ mod tests {
     #[test]
     fn int8_forward_pass_hand_worked() {
         let owned = tiny_int8();
-        let blob = owned.blob();
+        let blob = owned.encode_to_vec().unwrap();
         let m = Model::parse(&blob).unwrap();
         assert_eq!(m.arena_bytes(), 7); // ping: max(3, 2), pong: 4
         assert_eq!(crate::arena_bytes(&blob), 7);
@@ -479,7 +479,7 @@ mod tests {
     #[test]
     #[cfg(feature = "f32")]
     fn f32_sigmoid_forward_pass_hand_worked() {
-        let blob = tiny_f32().blob();
+        let blob = tiny_f32().encode_to_vec().unwrap();
         let m = Model::parse(&blob).unwrap();
         assert_eq!(m.arena_bytes(), 2 * 4 + 3 * 4);
         let mut arena = vec![0u8; m.arena_bytes()];
@@ -506,7 +506,7 @@ mod tests {
 
     #[test]
     fn run_errors_are_typed() {
-        let blob = tiny_int8().blob();
+        let blob = tiny_int8().encode_to_vec().unwrap();
         let m = Model::parse(&blob).unwrap();
         let mut arena = [0u8; 7];
         let mut scores = [0f32; 2];
@@ -545,7 +545,7 @@ mod tests {
         if !cfg!(feature = "f32") {
             return;
         }
-        let f = tiny_f32().blob();
+        let f = tiny_f32().encode_to_vec().unwrap();
         let mf = Model::parse(&f).unwrap();
         let mut a = vec![0u8; mf.arena_bytes()];
         assert_eq!(
@@ -562,7 +562,7 @@ mod tests {
             vec![tiny_int8()]
         };
         for owned in models {
-            let blob = owned.blob();
+            let blob = owned.encode_to_vec().unwrap();
             for i in 0..blob.len() {
                 for mask in [0x01u8, 0x10, 0x80, 0xFF] {
                     let mut bad = blob.clone();
@@ -590,7 +590,7 @@ mod tests {
 
     #[test]
     fn layer_views_count_parameters() {
-        let blob = tiny_int8().blob();
+        let blob = tiny_int8().encode_to_vec().unwrap();
         let m = Model::parse(&blob).unwrap();
         let v: Vec<_> = m
             .layers()

@@ -283,17 +283,19 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ArenaPlan, FormatError> {
 #[cfg(test)]
 mod tests {
     use crate::error::{FormatError as E, TensorKind as T};
-    use crate::format::{Activation, OutputKind, Precision};
-    use crate::testutil::{f32s, i32s, raw_blob, tiny_f32, tiny_int8, OwnedLayer, OwnedModel};
+    use crate::header::offset;
     use crate::Model;
+    use kinglet_builder::le::{f32s, i32s};
+    use kinglet_builder::sample::{tiny_f32, tiny_int8};
+    use kinglet_builder::{
+        raw_blob_with_layers, reseal, Activation, OutputKind, OwnedLayer, OwnedModel, Precision,
+        WeightLayout,
+    };
 
-    /// Parses `m` encoded without the encoder's checks, with the arena field it needs (or 0
-    /// when the plan cannot be computed).
+    /// Parses `m` encoded without the encoder's checks, with the arena field the planner gives
+    /// it (checked only once every other rule has passed).
     fn parse(m: &OwnedModel) -> Result<(), E> {
-        let d = m.desc();
-        let arena = super::check(&d).map_or(0, |p| p.total() as u32);
-        let blob = raw_blob(&d, arena);
-        Model::parse(&blob).map(|_| ())
+        Model::parse(&m.raw_blob()).map(|_| ())
     }
 
     fn with(f: impl FnOnce(&mut OwnedModel)) -> Result<(), E> {
@@ -409,18 +411,7 @@ mod tests {
                 tensor: T::Bias
             })
         );
-        // Nine layers: the table holds eight. A mirror of ModelDesc with an unbounded Vec has the
-        // same wire layout.
-        #[derive(serde::Serialize)]
-        struct Wide<'a> {
-            input_len: u32,
-            precision: Precision,
-            scaler: Option<crate::format::ScalerDesc<'a>>,
-            input_quant: Option<crate::format::InputQuantDesc<'a>>,
-            layers: &'a [crate::format::LayerDesc<'a>],
-            output: OutputKind,
-            labels: &'a str,
-        }
+        // Nine layers: the table holds eight.
         let mut m = tiny_int8();
         let l = m.layers[1].clone();
         m.layers.truncate(1);
@@ -438,34 +429,11 @@ mod tests {
             q.shift = vec![1; 4];
         }
         m.labels = String::new();
-        let eight = m.desc(); // heapless keeps the first eight
+        let eight = m.as_desc(); // a table keeps the first eight
         assert_eq!(eight.layers.len(), 8);
         let mut all: Vec<_> = eight.layers.iter().copied().collect();
         all.push(all[7]);
-        let wide = Wide {
-            input_len: 3,
-            precision: Precision::Int8,
-            scaler: eight.scaler,
-            input_quant: eight.input_quant,
-            layers: &all,
-            output: OutputKind::Softmax,
-            labels: "",
-        };
-        let mut buf = vec![0u8; 4096];
-        let n = ::postcard::to_slice(&wide, &mut buf).unwrap().len();
-        let mut blob = vec![0u8; 20];
-        blob.extend_from_slice(&buf[..n]);
-        let h = crate::header::Header {
-            version: 1,
-            flags: 0,
-            total_len: blob.len() as u32,
-            crc: 0,
-            arena_bytes: 8,
-        };
-        blob[..20].copy_from_slice(&h.to_bytes());
-        let crc = crate::CHECKSUM.checksum(&blob[16..]);
-        blob[12..16].copy_from_slice(&crc.to_le_bytes());
-        let nine = Model::parse(&blob).map(|_| ());
+        let nine = Model::parse(&raw_blob_with_layers(&eight, &all, 8)).map(|_| ());
         assert_eq!(nine, Err(E::Malformed), "more layers than the table holds");
     }
 
@@ -574,18 +542,16 @@ mod tests {
     /// `version`; `poke` edits the field first.
     fn blocked_blob(pad: usize, version: u16, poke: impl Fn(&mut Vec<u8>)) -> Vec<u8> {
         use crate::dense::layout;
-        let m = tiny_int8();
+        let mut m = tiny_int8();
         let w: Vec<i8> = m.layers[0].weights.iter().map(|&b| b as i8).collect();
         let mut field = vec![0u8; pad + layout::elements(3, 4)];
         assert!(layout::block_i8(3, 4, &w, &mut field[pad..]));
         poke(&mut field);
-        let mut d = m.desc();
-        d.layers[0].layout = crate::format::WeightLayout::Blocked4x4;
-        d.layers[0].weights = &field;
-        let mut blob = raw_blob(&d, 7);
-        blob[4..6].copy_from_slice(&version.to_le_bytes());
-        let crc = crate::CHECKSUM.checksum(&blob[16..]);
-        blob[12..16].copy_from_slice(&crc.to_le_bytes());
+        m.layers[0].layout = WeightLayout::Blocked4x4;
+        m.layers[0].weights = field;
+        let mut blob = m.raw_blob();
+        blob[offset::VERSION..offset::VERSION + 2].copy_from_slice(&version.to_le_bytes());
+        reseal(&mut blob).unwrap();
         blob
     }
 
@@ -704,30 +670,24 @@ mod tests {
     #[test]
     fn rejects_arena_trailing_and_garbage() {
         let m = tiny_int8();
-        let d = m.desc();
+        let d = m.as_desc();
         assert_eq!(
-            Model::parse(&raw_blob(&d, 8)).map(|_| ()),
+            Model::parse(&kinglet_builder::raw_blob(&d, 8)).map(|_| ()),
             Err(E::ArenaMismatch {
                 header: 8,
                 computed: 7
             })
         );
         // A valid table followed by one more byte (with a matching header and checksum).
-        let mut blob = raw_blob(&d, 7);
+        let mut blob = m.raw_blob();
         blob.push(0);
-        let len = blob.len() as u32;
-        blob[8..12].copy_from_slice(&len.to_le_bytes());
-        let crc = crate::CHECKSUM.checksum(&blob[16..]);
-        blob[12..16].copy_from_slice(&crc.to_le_bytes());
+        reseal(&mut blob).unwrap();
         assert_eq!(Model::parse(&blob).map(|_| ()), Err(E::TrailingBytes));
         // A body that is not a layer table at all.
-        let mut junk = raw_blob(&d, 7);
-        junk.truncate(20);
+        let mut junk = m.raw_blob();
+        junk.truncate(crate::HEADER_LEN);
         junk.extend([0xFF; 12]);
-        let len = junk.len() as u32;
-        junk[8..12].copy_from_slice(&len.to_le_bytes());
-        let crc = crate::CHECKSUM.checksum(&junk[16..]);
-        junk[12..16].copy_from_slice(&crc.to_le_bytes());
+        reseal(&mut junk).unwrap();
         assert_eq!(Model::parse(&junk).map(|_| ()), Err(E::Malformed));
     }
 }

@@ -3,6 +3,7 @@
 //! On the host this runs the portable blocked kernels, the Cortex-M0 kernel's Rust, the
 //! kernel [`dense_i8_blocked`] dispatches to, and the kernels' requantisation; the `asm!`
 //! kernels themselves run in the on-target self-check of `kernel-bench/`.
+use kinglet_builder::le;
 use kinglet_runtime::dense::{self, fixed, layout, m0, portable, DenseF32, DenseI8};
 use kinglet_runtime::requant::requantize;
 use proptest::prelude::*;
@@ -73,10 +74,8 @@ proptest! {
                 ((c.bias_seed[o].rem_euclid(2 * room + 1) - room) as i32).to_le_bytes()
             })
             .collect();
-        let mult: Vec<u8> = c.mult.iter().flat_map(|v| v.to_le_bytes()).collect();
-        let shift: Vec<u8> = c.shift.iter().map(|&s| s as u8).collect();
-        let om: Vec<u8> = c.w.iter().map(|&v| v as u8).collect();
-        let x: Vec<u8> = c.x.iter().map(|&v| v as u8).collect();
+        let (mult, shift) = (le::i32s(&c.mult), le::i8s(&c.shift));
+        let (om, x) = (le::i8s(&c.w), le::i8s(&c.x));
         let mut field = vec![0u8; c.pad + layout::elements(n, m)];
         prop_assert!(layout::block_i8(n, m, &c.w, &mut field[c.pad..]));
         let base = DenseI8 {
@@ -113,8 +112,7 @@ proptest! {
             any::<bool>(), 0usize..=3,
         ))
     ) {
-        let bytes = |v: &[f32]| -> Vec<u8> { v.iter().flat_map(|f| f.to_le_bytes()).collect() };
-        let (om, xb, bb) = (bytes(&w), bytes(&x), bytes(&b));
+        let (om, xb, bb) = (le::f32s(&w), le::f32s(&x), le::f32s(&b));
         let mut field = vec![0u8; pad + 4 * layout::elements(n, m)];
         prop_assert!(layout::block_f32(n, m, &w, &mut field[pad..]));
         let blocked = DenseF32 { inputs: n, weights: &field, bias: &bb, relu };

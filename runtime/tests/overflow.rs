@@ -10,7 +10,7 @@
 //! accumulator to exactly `i32::MAX` (or `-i32::MAX`).
 mod common;
 
-use common::{Int8Layer, Int8Model};
+use common::{int8_layer, int8_model, quant};
 use kinglet_runtime::requant::requantize;
 use kinglet_runtime::{FormatError, Input, Model};
 use proptest::prelude::*;
@@ -109,9 +109,9 @@ proptest! {
             })
             .collect();
         let w: Vec<i8> = rows.concat();
-        let mut layer = Int8Layer::new(n as u32, w, bias.clone(), shift);
-        layer.output_zero_point = zero_point;
-        let blob = Int8Model::new(n as u32, vec![layer]).blob();
+        let mut layer = int8_layer(n as u32, &w, &bias, shift);
+        quant(&mut layer).output_zero_point = zero_point;
+        let blob = int8_model(n as u32, vec![layer]).raw_blob();
         let m = Model::parse(&blob).expect("a layer within the bound is accepted");
         let mut inputs: Vec<Vec<i16>> = rows.iter().flat_map(|r| adversarial(r)).collect();
         inputs.push((0..n as i16).map(|i| i * 37 - 500).collect());
@@ -136,25 +136,13 @@ proptest! {
         let l = limit(&row);
         prop_assume!(l + extra <= i64::from(i32::MAX));
         let b = if negative { -(l + extra) } else { l + extra };
-        let blob = Int8Model::new(n, vec![Int8Layer::new(n, row.clone(), vec![0, b as i32], 0)
-            .with_rows(&row)])
-            .blob();
+        // Two channels with the same weights `row`.
+        let layer = int8_layer(n, &[row.as_slice(), &row].concat(), &[0, b as i32], 0);
+        let blob = int8_model(n, vec![layer]).raw_blob();
         prop_assert_eq!(
             Model::parse(&blob).map(|_| ()),
             Err(FormatError::AccumulatorOverflow { layer: 0, channel: 1 })
         );
-    }
-}
-
-trait WithRows {
-    fn with_rows(self, row: &[i8]) -> Self;
-}
-
-impl WithRows for Int8Layer {
-    /// Two channels with the same weights `row` (the biases stay as given).
-    fn with_rows(mut self, row: &[i8]) -> Self {
-        self.weights = [row, row].concat();
-        self
     }
 }
 
@@ -173,20 +161,12 @@ fn the_bound_is_reached_exactly() {
         let b = limit(&row) as i32;
         let x = vec![-128i16; n];
         assert_eq!(reference_acc(&row, b, &x), i64::from(i32::MAX));
-        let blob = Int8Model::new(
-            n as u32,
-            vec![Int8Layer::new(n as u32, row.clone(), vec![b], 0)],
-        )
-        .blob();
+        let blob = int8_model(n as u32, vec![int8_layer(n as u32, &row, &[b], 0)]).raw_blob();
         let m = Model::parse(&blob).expect("bias at the bound accepted");
         // Debug build: no overflow panic, and the saturated output is the largest int8.
         assert_eq!(layer_output(&m, &x), vec![127]);
         // One more and validation refuses it.
-        let over = Int8Model::new(
-            n as u32,
-            vec![Int8Layer::new(n as u32, row.clone(), vec![b + 1], 0)],
-        )
-        .blob();
+        let over = int8_model(n as u32, vec![int8_layer(n as u32, &row, &[b + 1], 0)]).raw_blob();
         assert_eq!(
             Model::parse(&over).map(|_| ()),
             Err(FormatError::AccumulatorOverflow {
@@ -196,11 +176,7 @@ fn the_bound_is_reached_exactly() {
         );
         // Negative side: bias -limit with weights -128 and inputs of 127 reaches
         // -limit - 127·128·n = -(i32::MAX) + 128·n, the most negative sum this row allows.
-        let neg = Int8Model::new(
-            n as u32,
-            vec![Int8Layer::new(n as u32, row.clone(), vec![-b], 0)],
-        )
-        .blob();
+        let neg = int8_model(n as u32, vec![int8_layer(n as u32, &row, &[-b], 0)]).raw_blob();
         let m = Model::parse(&neg).expect("negative bias at the bound accepted");
         let acc = reference_acc(&row, -b, &vec![127; n]);
         assert_eq!(acc, -i64::from(i32::MAX) + 128 * n as i64);
@@ -216,11 +192,7 @@ fn widest_layer_at_the_bound() {
     let n = kinglet_runtime::format::MAX_WIDTH as usize;
     let row = vec![127i8; n];
     let b = limit(&row) as i32;
-    let blob = Int8Model::new(
-        n as u32,
-        vec![Int8Layer::new(n as u32, row.clone(), vec![b], 0)],
-    )
-    .blob();
+    let blob = int8_model(n as u32, vec![int8_layer(n as u32, &row, &[b], 0)]).raw_blob();
     let m = Model::parse(&blob).expect("accepted");
     let x = vec![i16::MAX; n];
     assert_eq!(

@@ -2,17 +2,17 @@
 //! names the target that found it.
 mod common;
 
-use common::{Int8Layer, Int8Model};
+use common::{int8_layer, int8_model, quant};
 use kinglet_runtime::{FormatError, Input, Model, OutputKind};
 
 /// A 2 → 2 int8 softmax model whose output scale is `scale` (zero point `zp`).
 fn with_output_scale(scale: f32, zp: i8) -> Vec<u8> {
-    let mut l = Int8Layer::new(2, vec![127, -128, -128, 127], vec![0, 0], -31);
-    l.output_scale = scale;
-    l.output_zero_point = zp;
-    let mut m = Int8Model::new(2, vec![l]);
+    let mut l = int8_layer(2, &[127, -128, -128, 127], &[0, 0], -31);
+    quant(&mut l).output_scale = scale;
+    quant(&mut l).output_zero_point = zp;
+    let mut m = int8_model(2, vec![l]);
     m.output = OutputKind::Softmax;
-    m.blob()
+    m.raw_blob()
 }
 
 /// Found by `blob_mutate`: an int8 layer with output scale 3e38 passed validation ("finite and
@@ -62,15 +62,15 @@ fn output_scale_whose_steps_overflow_f32_is_rejected() {
 /// The labels and their count must be exactly what `str::split('\n')` gives.
 #[test]
 fn labels_split_like_str_split() {
-    let layer = Int8Layer::new(2, vec![1; 6], vec![0; 3], 0);
-    let blob = Int8Model::new(2, vec![layer]).blob();
+    let layer = int8_layer(2, &[1; 6], &[0; 3], 0);
+    let blob = int8_model(2, vec![layer]).raw_blob();
     let parsed = Model::parse(&blob).unwrap();
     let base = parsed.desc().clone();
     let arena = parsed.arena_bytes() as u32;
     for labels in ["x\n\ny", "α\nβ\nγ", "a\nb\n", "\n\n", "one\ntwo\nthree"] {
         let mut d = base.clone();
         d.labels = labels;
-        let blob = common::raw_blob(&d, arena);
+        let blob = kinglet_builder::raw_blob(&d, arena);
         let m = Model::parse(&blob).unwrap_or_else(|e| panic!("{labels:?}: {e}"));
         let want: Vec<&str> = labels.split('\n').collect();
         assert_eq!(m.labels().collect::<Vec<_>>(), want);
@@ -82,7 +82,7 @@ fn labels_split_like_str_split() {
         d.labels = labels;
         let found = labels.split('\n').count() as u32;
         assert_eq!(
-            Model::parse(&common::raw_blob(&d, arena)).map(|_| ()),
+            Model::parse(&kinglet_builder::raw_blob(&d, arena)).map(|_| ()),
             Err(FormatError::LabelCount { expected: 3, found })
         );
     }

@@ -4,21 +4,18 @@
 //! `converter/tests/cli_bad_inputs.rs`.
 //!
 //! The blobs start from a real pack of `examples/vibration` (15 → 24 → 12 → 4, int8 and f32)
-//! and are edited field by field, then written with postcard directly and a correct header
-//! (length and CRC), so each reaches exactly the rule it is about.
+//! and are edited field by field, then written without validation (`kinglet_builder::raw_blob`)
+//! behind a correct header (length and CRC), so each reaches exactly the rule it is about.
+use kinglet_builder::{le, planned_arena, raw_blob, raw_blob_with_layers, OwnedLayer};
 use kinglet_converter::dataset::{load_csv, CsvOptions};
 use kinglet_converter::graph::{DenseLayer, FloatModel};
 use kinglet_converter::import::onnx::import_onnx_file;
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
-use kinglet_runtime::arena::ArenaPlan;
-use kinglet_runtime::format::{
-    LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout, MAX_LAYERS,
-};
-use kinglet_runtime::header::{Header, CHECKED_FROM};
-use kinglet_runtime::{
-    Activation, FormatError, Input, Model, RunError, TensorKind, CHECKSUM, HEADER_LEN,
-};
+use kinglet_runtime::format::{ModelDesc, OutputKind, Precision, WeightLayout, MAX_LAYERS};
+use kinglet_runtime::header::offset::{self, VERSION};
+use kinglet_runtime::header::CHECKED_FROM;
+use kinglet_runtime::{Activation, FormatError, Input, Model, RunError, TensorKind, HEADER_LEN};
 use kinglet_tests::path;
 use std::sync::OnceLock;
 
@@ -49,36 +46,12 @@ fn f32_blob() -> &'static [u8] {
 
 /// Makes the header's length and CRC right for the bytes as they are.
 fn reseal(blob: &mut [u8]) {
-    let len = blob.len() as u32;
-    blob[8..12].copy_from_slice(&len.to_le_bytes());
-    let crc = CHECKSUM.checksum(&blob[CHECKED_FROM..]);
-    blob[12..16].copy_from_slice(&crc.to_le_bytes());
+    kinglet_builder::reseal(blob).expect("a blob at least a header long");
 }
 
 /// `d` written as a blob without validation, with the arena field the planner computes.
 fn raw(d: &ModelDesc<'_>) -> Vec<u8> {
-    let plan = ArenaPlan::new(
-        d.input_len as usize,
-        d.layers.iter().map(|l| l.outputs as usize),
-        d.precision.activation_bytes(),
-    );
-    raw_with_arena(d, plan.total() as u32)
-}
-
-fn raw_with_arena(d: &ModelDesc<'_>, arena: u32) -> Vec<u8> {
-    let body = postcard::to_allocvec(d).expect("postcard writes to a Vec");
-    let mut blob = vec![0u8; HEADER_LEN];
-    blob.extend_from_slice(&body);
-    let h = Header {
-        version: kinglet_runtime::FORMAT_VERSION,
-        flags: 0,
-        total_len: 0,
-        crc: 0,
-        arena_bytes: arena,
-    };
-    blob[..HEADER_LEN].copy_from_slice(&h.to_bytes());
-    reseal(&mut blob);
-    blob
+    raw_blob(d, planned_arena(d))
 }
 
 /// The decoded table of a packed blob, to edit.
@@ -98,14 +71,6 @@ fn rejects(blob: &[u8], want: FormatError) -> String {
             e.to_string()
         }
     }
-}
-
-fn le_f32(v: &[f32]) -> Vec<u8> {
-    v.iter().flat_map(|x| x.to_le_bytes()).collect()
-}
-
-fn le_i32(v: &[i32]) -> Vec<u8> {
-    v.iter().flat_map(|x| x.to_le_bytes()).collect()
 }
 
 #[test]
@@ -172,7 +137,7 @@ fn r02_bit_flipped_blob() {
 fn r03_newer_format_version() {
     let newer = kinglet_runtime::FORMAT_VERSION + 1;
     let mut b = int8_blob().to_vec();
-    b[4..6].copy_from_slice(&newer.to_le_bytes());
+    b[VERSION..VERSION + 2].copy_from_slice(&newer.to_le_bytes());
     let msg = rejects(&b, FormatError::UnsupportedVersion { found: newer });
     assert_eq!(
         msg,
@@ -183,7 +148,7 @@ fn r03_newer_format_version() {
         )
     );
     // Version 0 never existed.
-    b[4..6].copy_from_slice(&0u16.to_le_bytes());
+    b[VERSION..VERSION + 2].copy_from_slice(&0u16.to_le_bytes());
     rejects(&b, FormatError::UnsupportedVersion { found: 0 });
 }
 
@@ -205,7 +170,7 @@ fn r04_wrong_magic() {
 #[test]
 fn r05_reserved_flags_set() {
     let mut b = int8_blob().to_vec();
-    b[6] = 0x01;
+    b[offset::FLAGS] = 0x01;
     assert_eq!(
         rejects(&b, FormatError::ReservedFlags),
         "reserved header flags are set"
@@ -409,7 +374,7 @@ fn r16_multiplier_out_of_range() {
         .map(|c| i32::from_le_bytes(c.try_into().unwrap()))
         .collect();
     m[7] = (1 << 30) - 1;
-    let bytes = le_i32(&m);
+    let bytes = le::i32s(&m);
     let mut d = d0.clone();
     d.layers[1].quant.as_mut().unwrap().multiplier = &bytes;
     assert_eq!(
@@ -478,7 +443,7 @@ fn r18_nan_or_inf_in_weights() {
     }
     // int8 weight scales (reported, and used to dequantise in reports).
     let d0 = table(int8_blob());
-    let ws = le_f32(&[f32::NAN; 24]);
+    let ws = le::f32s(&[f32::NAN; 24]);
     let mut d = d0.clone();
     d.layers[0].quant.as_mut().unwrap().weight_scale = &ws;
     rejects(
@@ -561,7 +526,7 @@ fn r22_accumulator_could_overflow() {
     let mut bias = vec![0i32; 12];
     for (b, ok) in [(limit, true), (limit + 1, false), (-limit - 1, false)] {
         bias[3] = b as i32;
-        let bytes = le_i32(&bias);
+        let bytes = le::i32s(&bias);
         let mut d = d0.clone();
         d.layers[1].bias = &bytes;
         let r = Model::parse(&raw(&d)).map(|_| ());
@@ -581,7 +546,7 @@ fn r23_arena_field_disagrees() {
     let d = table(int8_blob());
     let plan = Model::parse(int8_blob()).unwrap().arena_bytes() as u32;
     let msg = rejects(
-        &raw_with_arena(&d, plan - 1),
+        &raw_blob(&d, plan - 1),
         FormatError::ArenaMismatch {
             header: plan - 1,
             computed: plan,
@@ -598,42 +563,23 @@ fn r23_arena_field_disagrees() {
 
 #[test]
 fn r24_more_layers_than_the_format_holds() {
-    // A mirror of the table with an unbounded layer list has the same wire layout.
-    #[derive(serde::Serialize)]
-    struct Wide<'a> {
-        input_len: u32,
-        precision: Precision,
-        scaler: Option<kinglet_runtime::format::ScalerDesc<'a>>,
-        input_quant: Option<kinglet_runtime::format::InputQuantDesc<'a>>,
-        layers: Vec<LayerDesc<'a>>,
-        output: OutputKind,
-        labels: &'a str,
-    }
     let d = table(f32_blob());
-    let square = LayerDesc {
+    let square = OwnedLayer {
         inputs: 4,
         outputs: 4,
-        weights: &[0; 64],
-        bias: &[0; 16],
-        ..d.layers[2]
+        weights: vec![0; 64],
+        bias: vec![0; 16],
+        ..OwnedLayer::from_desc(&d.layers[2])
     };
     let mut layers: Vec<_> = d.layers.iter().copied().collect();
-    layers.extend(std::iter::repeat_n(square, MAX_LAYERS + 1 - layers.len()));
-    let w = Wide {
-        input_len: d.input_len,
-        precision: d.precision,
-        scaler: d.scaler,
-        input_quant: d.input_quant,
-        layers,
-        output: d.output,
-        labels: d.labels,
-    };
-    let mut b = vec![0u8; HEADER_LEN];
-    b.extend(postcard::to_allocvec(&w).unwrap());
-    b[..4].copy_from_slice(b"KGLT");
-    b[4] = 1;
-    reseal(&mut b);
-    rejects(&b, FormatError::Malformed);
+    layers.extend(std::iter::repeat_n(
+        square.as_desc(),
+        MAX_LAYERS + 1 - layers.len(),
+    ));
+    rejects(
+        &raw_blob_with_layers(&d, &layers, 0),
+        FormatError::Malformed,
+    );
     // The converter says so in words before it gets that far.
     let l = |i, o| DenseLayer {
         inputs: i,
@@ -853,7 +799,7 @@ fn r32_npy_header_longer_than_the_file() {
         let p = dir.path().join(format!("v{version}.npy"));
         std::fs::write(&p, &b).unwrap();
         let e = kinglet_converter::dataset::load_npy(&p, None).unwrap_err();
-        let msg = format!("{e:#}");
+        let msg = kinglet_converter::error_line::one_line(&e);
         assert!(msg.contains("the header is declared as"), "{msg}");
         assert!(msg.contains(&format!("v{version}.npy")), "{msg}");
     }

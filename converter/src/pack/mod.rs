@@ -1,11 +1,14 @@
 //! Packing: a [`FloatModel`] into an f32 blob, or, with a calibration set, into an int8 blob;
 //! [`request::pack`] is the whole `kinglet pack` (import, scaler, labels, pack, report).
-pub mod layout;
-pub mod owned;
+//! Every layer is written in the runtime's `Blocked4x4` layout (4-row blocks, int8 excess-128,
+//! data 4-byte aligned within the blob; `FORMAT.md` §3.1), the order the Cortex-M kernels read,
+//! by `kinglet_builder` with the runtime's own geometry and validating encoder.
 pub mod request;
+pub(crate) mod table;
 
 use anyhow::{bail, Result};
-use kinglet_runtime::format::Precision;
+use kinglet_builder::OwnedLayer;
+use kinglet_runtime::format::{Precision, WeightLayout};
 use kinglet_runtime::Model;
 
 use crate::dataset::Dataset;
@@ -15,27 +18,25 @@ use crate::quantise::calibrate::{calibrate, range_of, Calibration, RangeMethod, 
 use crate::quantise::plausible::biases_lost;
 use crate::quantise::quantise;
 use crate::quantise::spread::TensorStats;
-use owned::{OwnedLayer, OwnedModel};
+use table::{owned_table, wire_u32};
 
 /// The f32 blob of `model` (for FPU boards, and the float reference of comparisons).
 pub fn pack_f32(model: &FloatModel) -> Result<Vec<u8>> {
-    let owned = OwnedModel {
-        input_len: model.input_len,
-        precision: Precision::F32,
-        scaler: model
-            .scaler
-            .as_ref()
-            .map(|s| (s.offset.clone(), s.scale.clone())),
-        input_quant: None,
-        layers: model
-            .layers
-            .iter()
-            .map(|l| OwnedLayer::f32(l.inputs, l.outputs, l.activation, &l.weights, &l.bias))
-            .collect(),
-        output: model.output,
-        labels: model.labels.clone(),
-    };
-    owned.encode()
+    let layers = model
+        .layers
+        .iter()
+        .map(|l| {
+            Ok(OwnedLayer::f32(
+                wire_u32(l.inputs, "layer width")?,
+                wire_u32(l.outputs, "layer width")?,
+                l.activation,
+                &l.weights,
+                &l.bias,
+            ))
+        })
+        .collect::<Result<Vec<_>>>()?;
+    let owned = owned_table(model, Precision::F32, None, layers)?;
+    Ok(owned.encode_in(WeightLayout::Blocked4x4)?)
 }
 
 /// An int8 pack and how it was calibrated.
@@ -62,7 +63,7 @@ pub fn pack_int8(model: &FloatModel, data: &Dataset, method: RangeMethod) -> Res
         .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
     let cal = calibrate(&float_model, data, method)?;
     check_plausible(model, &cal, &data.source)?;
-    let blob = quantise(model, &cal.ranges)?.encode()?;
+    let blob = quantise(model, &cal.ranges)?.encode_in(WeightLayout::Blocked4x4)?;
     Ok(Int8Pack {
         blob,
         method,

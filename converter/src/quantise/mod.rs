@@ -13,9 +13,10 @@ use anyhow::{anyhow, bail, Result};
 use kinglet_runtime::format::Precision;
 
 use crate::graph::FloatModel;
-use crate::pack::owned::{OwnedInputQuant, OwnedLayer, OwnedLayerQuant, OwnedModel};
+use crate::pack::table::{owned_table, wire_u32};
 use advice::num;
 use calibrate::TensorRange;
+use kinglet_builder::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 use params::{activation_quant, decompose_multiplier, quantize_weight, weight_scale, AffineQuant};
 
 /// Quantises `model` given the calibrated range of each tensor (input, then each layer output).
@@ -59,18 +60,8 @@ pub fn quantise(model: &FloatModel, ranges: &[TensorRange]) -> Result<OwnedModel
         .first()
         .copied()
         .ok_or_else(|| anyhow!("internal: no input range"))?;
-    Ok(OwnedModel {
-        input_len: model.input_len,
-        precision: Precision::Int8,
-        scaler: model
-            .scaler
-            .as_ref()
-            .map(|s| (s.offset.clone(), s.scale.clone())),
-        input_quant: Some(integer_input(model, q_in)?),
-        layers,
-        output: model.output,
-        labels: model.labels.clone(),
-    })
+    let input_quant = integer_input(model, q_in)?;
+    owned_table(model, Precision::Int8, Some(input_quant), layers)
 }
 
 fn quantise_layer(
@@ -81,13 +72,9 @@ fn quantise_layer(
 ) -> Result<OwnedLayer> {
     let mut w_q = Vec::with_capacity(l.weights.len());
     let mut bias = Vec::with_capacity(l.outputs);
-    let mut lq = OwnedLayerQuant {
-        weight_scale: Vec::with_capacity(l.outputs),
-        multiplier: Vec::with_capacity(l.outputs),
-        shift: Vec::with_capacity(l.outputs),
-        output_scale: qo.scale,
-        output_zero_point: qo.zero_point,
-    };
+    let mut weight_scales = Vec::with_capacity(l.outputs);
+    let mut multipliers = Vec::with_capacity(l.outputs);
+    let mut shifts = Vec::with_capacity(l.outputs);
     for (o, row) in l.weights.chunks_exact(l.inputs.max(1)).enumerate() {
         let s_w = weight_scale(row);
         let row_q: Vec<i8> = row.iter().map(|&w| quantize_weight(w, s_w)).collect();
@@ -124,34 +111,35 @@ fn quantise_layer(
         })?;
         w_q.extend(row_q);
         bias.push(folded as i32);
-        lq.weight_scale.push(s_w);
-        lq.multiplier.push(m);
-        lq.shift.push(s);
+        weight_scales.push(s_w);
+        multipliers.push(m);
+        shifts.push(s);
     }
+    let quant = OwnedQuant::new(
+        &weight_scales,
+        &multipliers,
+        &shifts,
+        qo.scale,
+        qo.zero_point,
+    );
     Ok(OwnedLayer::int8(
-        l.inputs,
-        l.outputs,
+        wire_u32(l.inputs, "layer width")?,
+        wire_u32(l.outputs, "layer width")?,
         l.activation,
         &w_q,
         &bias,
-        lq,
+        quant,
     ))
 }
 
 /// Fixed-point tables for raw integer inputs: `q = round(a·x + b)` with `a = scale / s_in`,
 /// `b = zp - offset · scale / s_in`, as `(x·mult + add + 2^(s-1)) >> s`.
-fn integer_input(model: &FloatModel, q: AffineQuant) -> Result<OwnedInputQuant> {
+fn integer_input(model: &FloatModel, q: AffineQuant) -> Result<OwnedInput> {
     let (offset, scale) = match &model.scaler {
         Some(s) => (s.offset.clone(), s.scale.clone()),
         None => (vec![0.0], vec![1.0]),
     };
-    let mut t = OwnedInputQuant {
-        scale: q.scale,
-        zero_point: q.zero_point,
-        int_mult: vec![],
-        int_add: vec![],
-        int_shift: vec![],
-    };
+    let (mut int_mult, mut int_add, mut int_shift) = (vec![], vec![], vec![]);
     for (f, (&off, &sc)) in offset.iter().zip(&scale).enumerate() {
         let a = f64::from(sc) / f64::from(q.scale);
         let b = f64::from(q.zero_point) - f64::from(off) * f64::from(sc) / f64::from(q.scale);
@@ -169,11 +157,17 @@ fn integer_input(model: &FloatModel, q: AffineQuant) -> Result<OwnedInputQuant> 
                 "feature {f}: scaler factor {sc} cannot be represented on the integer input path"
             );
         }
-        t.int_mult.push(mult as i32);
-        t.int_add.push(add as i64);
-        t.int_shift.push(s);
+        int_mult.push(mult as i32);
+        int_add.push(add as i64);
+        int_shift.push(s);
     }
-    Ok(t)
+    Ok(OwnedInput::new(
+        q.scale,
+        q.zero_point,
+        &int_mult,
+        &int_add,
+        &int_shift,
+    ))
 }
 
 #[cfg(test)]

@@ -201,14 +201,7 @@ pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    fn bytes_i32(v: &[i32]) -> Vec<u8> {
-        v.iter().flat_map(|x| x.to_le_bytes()).collect()
-    }
-
-    fn bytes_f32(v: &[f32]) -> Vec<u8> {
-        v.iter().flat_map(|x| x.to_le_bytes()).collect()
-    }
+    use kinglet_builder::le::{f32s as bytes_f32, i32s as bytes_i32};
 
     #[test]
     fn int8_dense_hand_worked() {

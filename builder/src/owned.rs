@@ -1,0 +1,337 @@
+//! The owned layer table: every field of `kinglet_runtime::format::ModelDesc` (`FORMAT.md` §3),
+//! tensors as wire bytes that a test or a fuzz target may edit freely, lengths included.
+use kinglet_runtime::format::{
+    Activation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind, Precision,
+    ScalerDesc, WeightLayout, MAX_LAYERS,
+};
+
+use crate::error::BuildError;
+use crate::le;
+
+/// int8 parameters of one layer, as wire bytes.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OwnedQuant {
+    /// `outputs` little-endian `f32` weight scales.
+    pub weight_scale: Vec<u8>,
+    /// `outputs` little-endian `i32` multipliers.
+    pub multiplier: Vec<u8>,
+    /// `outputs` `i8` shifts.
+    pub shift: Vec<u8>,
+    /// Output scale.
+    pub output_scale: f32,
+    /// Output zero point.
+    pub output_zero_point: i8,
+}
+
+impl OwnedQuant {
+    /// From typed values.
+    pub fn new(
+        weight_scale: &[f32],
+        multiplier: &[i32],
+        shift: &[i8],
+        output_scale: f32,
+        output_zero_point: i8,
+    ) -> Self {
+        OwnedQuant {
+            weight_scale: le::f32s(weight_scale),
+            multiplier: le::i32s(multiplier),
+            shift: le::i8s(shift),
+            output_scale,
+            output_zero_point,
+        }
+    }
+}
+
+/// One dense layer, as wire bytes.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OwnedLayer {
+    /// Input width.
+    pub inputs: u32,
+    /// Output width.
+    pub outputs: u32,
+    /// Activation.
+    pub activation: Activation,
+    /// Order of `weights`.
+    pub layout: WeightLayout,
+    /// Weights: `i8`, or little-endian `f32`, in `layout`.
+    pub weights: Vec<u8>,
+    /// Biases: little-endian `i32` or `f32`.
+    pub bias: Vec<u8>,
+    /// int8 parameters (int8 models only).
+    pub quant: Option<OwnedQuant>,
+}
+
+impl OwnedLayer {
+    /// An output-major int8 layer from typed values.
+    pub fn int8(
+        inputs: u32,
+        outputs: u32,
+        activation: Activation,
+        weights: &[i8],
+        bias: &[i32],
+        quant: OwnedQuant,
+    ) -> Self {
+        OwnedLayer {
+            inputs,
+            outputs,
+            activation,
+            layout: WeightLayout::OutputMajor,
+            weights: le::i8s(weights),
+            bias: le::i32s(bias),
+            quant: Some(quant),
+        }
+    }
+
+    /// An output-major f32 layer from typed values.
+    pub fn f32(
+        inputs: u32,
+        outputs: u32,
+        activation: Activation,
+        weights: &[f32],
+        bias: &[f32],
+    ) -> Self {
+        OwnedLayer {
+            inputs,
+            outputs,
+            activation,
+            layout: WeightLayout::OutputMajor,
+            weights: le::f32s(weights),
+            bias: le::f32s(bias),
+            quant: None,
+        }
+    }
+
+    /// Copies a decoded layer.
+    pub fn from_desc(l: &LayerDesc<'_>) -> Self {
+        OwnedLayer {
+            inputs: l.inputs,
+            outputs: l.outputs,
+            activation: l.activation,
+            layout: l.layout,
+            weights: l.weights.to_vec(),
+            bias: l.bias.to_vec(),
+            quant: l.quant.map(|q| OwnedQuant {
+                weight_scale: q.weight_scale.to_vec(),
+                multiplier: q.multiplier.to_vec(),
+                shift: q.shift.to_vec(),
+                output_scale: q.output_scale,
+                output_zero_point: q.output_zero_point,
+            }),
+        }
+    }
+
+    /// The borrowed layer.
+    pub fn as_desc(&self) -> LayerDesc<'_> {
+        LayerDesc {
+            inputs: self.inputs,
+            outputs: self.outputs,
+            activation: self.activation,
+            layout: self.layout,
+            weights: &self.weights,
+            bias: &self.bias,
+            quant: self.quant.as_ref().map(|q| LayerQuantDesc {
+                weight_scale: &q.weight_scale,
+                multiplier: &q.multiplier,
+                shift: &q.shift,
+                output_scale: q.output_scale,
+                output_zero_point: q.output_zero_point,
+            }),
+        }
+    }
+}
+
+/// Input quantisation of an int8 model, as wire bytes.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OwnedInput {
+    /// Scale of the quantised input.
+    pub scale: f32,
+    /// Zero point of the quantised input.
+    pub zero_point: i8,
+    /// Little-endian `i32` integer-path multipliers.
+    pub int_mult: Vec<u8>,
+    /// Little-endian `i64` integer-path addends.
+    pub int_add: Vec<u8>,
+    /// `u8` integer-path shifts.
+    pub int_shift: Vec<u8>,
+}
+
+impl OwnedInput {
+    /// From typed values.
+    pub fn new(
+        scale: f32,
+        zero_point: i8,
+        int_mult: &[i32],
+        int_add: &[i64],
+        int_shift: &[u8],
+    ) -> Self {
+        OwnedInput {
+            scale,
+            zero_point,
+            int_mult: le::i32s(int_mult),
+            int_add: le::i64s(int_add),
+            int_shift: int_shift.to_vec(),
+        }
+    }
+}
+
+/// A whole layer table.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OwnedModel {
+    /// Width of the raw input.
+    pub input_len: u32,
+    /// Precision of every layer.
+    pub precision: Precision,
+    /// The scaler's offset and scale bytes (little-endian `f32`).
+    pub scaler: Option<(Vec<u8>, Vec<u8>)>,
+    /// Input quantisation (int8 models only).
+    pub input_quant: Option<OwnedInput>,
+    /// The layers; a blob holds at most [`MAX_LAYERS`] (see [`OwnedModel::as_desc`]).
+    pub layers: Vec<OwnedLayer>,
+    /// What turns the last layer's outputs into scores.
+    pub output: OutputKind,
+    /// Class labels joined by `\n` (empty: none).
+    pub labels: String,
+}
+
+impl OwnedModel {
+    /// Copies a decoded table.
+    pub fn from_desc(d: &ModelDesc<'_>) -> Self {
+        OwnedModel {
+            input_len: d.input_len,
+            precision: d.precision,
+            scaler: d.scaler.map(|s| (s.offset.to_vec(), s.scale.to_vec())),
+            input_quant: d.input_quant.map(|q| OwnedInput {
+                scale: q.scale,
+                zero_point: q.zero_point,
+                int_mult: q.int_mult.to_vec(),
+                int_add: q.int_add.to_vec(),
+                int_shift: q.int_shift.to_vec(),
+            }),
+            layers: d.layers.iter().map(OwnedLayer::from_desc).collect(),
+            output: d.output,
+            labels: d.labels.to_string(),
+        }
+    }
+
+    /// The borrowed table. A `ModelDesc` holds at most [`MAX_LAYERS`] layers: further ones are
+    /// left out here (a blob with more is written by [`crate::raw_blob_with_layers`]).
+    pub fn as_desc(&self) -> ModelDesc<'_> {
+        let mut layers = heapless::Vec::<LayerDesc<'_>, MAX_LAYERS>::new();
+        for l in self.layers.iter().take(MAX_LAYERS) {
+            let _ = layers.push(l.as_desc());
+        }
+        ModelDesc {
+            input_len: self.input_len,
+            precision: self.precision,
+            scaler: self.scaler.as_ref().map(|(o, s)| ScalerDesc {
+                offset: o,
+                scale: s,
+            }),
+            input_quant: self.input_quant.as_ref().map(|q| InputQuantDesc {
+                scale: q.scale,
+                zero_point: q.zero_point,
+                int_mult: &q.int_mult,
+                int_add: &q.int_add,
+                int_shift: &q.int_shift,
+            }),
+            layers,
+            output: self.output,
+            labels: &self.labels,
+        }
+    }
+
+    /// The arena bytes the runtime's planner gives the (possibly invalid) table of
+    /// [`OwnedModel::as_desc`].
+    pub fn planned_arena(&self) -> u32 {
+        crate::raw::planned_arena(&self.as_desc())
+    }
+
+    /// The valid blob of this table, weights in the layouts the layers have, through the
+    /// runtime's validating encoder.
+    pub fn encode_to_vec(&self) -> Result<Vec<u8>, BuildError> {
+        self.fits()?;
+        encode_desc(&self.as_desc())
+    }
+
+    /// The valid blob of this table with every layer's weights in `target` (converted from the
+    /// layout each has); `Blocked4x4` data is aligned to a multiple of 4 within the blob
+    /// ([`crate::blocked::encode_aligned`]).
+    pub fn encode_in(&self, target: WeightLayout) -> Result<Vec<u8>, BuildError> {
+        self.fits()?;
+        let data = self
+            .layers
+            .iter()
+            .map(|l| crate::blocked::weights_in(self.precision, l, target))
+            .collect::<Result<Vec<_>, _>>()?;
+        let blocked = vec![target == WeightLayout::Blocked4x4; data.len()];
+        crate::blocked::encode_aligned(&data, &blocked, |fields| {
+            let mut d = self.as_desc();
+            for (l, f) in d.layers.iter_mut().zip(fields) {
+                l.layout = target;
+                l.weights = f;
+            }
+            encode_desc(&d)
+        })
+    }
+
+    /// [`OwnedModel::as_desc`] written without validation, with the arena field
+    /// [`OwnedModel::planned_arena`] gives: see [`crate::raw_blob`].
+    pub fn raw_blob(&self) -> Vec<u8> {
+        crate::raw_blob(&self.as_desc(), self.planned_arena())
+    }
+
+    fn fits(&self) -> Result<(), BuildError> {
+        if self.layers.len() > MAX_LAYERS {
+            return Err(BuildError::TooManyLayers(self.layers.len()));
+        }
+        Ok(())
+    }
+}
+
+/// `desc` through the runtime's validating encoder.
+fn encode_desc(desc: &ModelDesc<'_>) -> Result<Vec<u8>, BuildError> {
+    use kinglet_runtime::encode::{encode, max_encoded_len};
+    let mut out = vec![0u8; max_encoded_len(desc)];
+    let n = encode(desc, &mut out).map_err(BuildError::Encode)?;
+    out.truncate(n);
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::sample::{tiny_f32, tiny_int8};
+
+    #[test]
+    fn copies_round_trip_through_blobs() {
+        for m in [tiny_int8(), tiny_f32()] {
+            let blob = m.encode_to_vec().unwrap();
+            let parsed = kinglet_runtime::Model::parse(&blob).unwrap();
+            assert_eq!(parsed.desc(), &m.as_desc());
+            assert_eq!(OwnedModel::from_desc(parsed.desc()), m);
+            assert_eq!(
+                m.raw_blob(),
+                blob,
+                "a valid table: raw and validated writers agree"
+            );
+            assert_eq!(m.planned_arena() as usize, parsed.arena_bytes());
+        }
+    }
+
+    #[test]
+    fn refuses_more_layers_than_a_blob_holds() {
+        let mut m = tiny_f32();
+        let square = OwnedLayer::f32(1, 1, Activation::Linear, &[1.0], &[0.0]);
+        m.layers[1].outputs = 1;
+        m.layers.extend(std::iter::repeat_n(square, MAX_LAYERS - 1));
+        assert_eq!(m.as_desc().layers.len(), MAX_LAYERS);
+        assert_eq!(
+            m.encode_to_vec().unwrap_err().to_string(),
+            "the model has 9 dense layers; the format holds at most 8"
+        );
+        assert_eq!(
+            m.encode_in(WeightLayout::Blocked4x4),
+            Err(BuildError::TooManyLayers(9))
+        );
+    }
+}

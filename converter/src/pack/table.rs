@@ -1,0 +1,40 @@
+//! A [`FloatModel`]'s shapes, scaler and labels in the blob's wire form (an owned layer table of
+//! `kinglet-builder`), refused in the converter's words where the format cannot hold them.
+use anyhow::{anyhow, bail, Result};
+use kinglet_builder::le::f32s;
+use kinglet_builder::{BuildError, OwnedInput, OwnedLayer, OwnedModel};
+use kinglet_runtime::format::{Precision, MAX_LAYERS};
+
+use crate::graph::FloatModel;
+
+/// A width as the format's `u32`.
+pub(crate) fn wire_u32(v: usize, what: &str) -> Result<u32> {
+    u32::try_from(v).map_err(|_| anyhow!("{what} {v} is too large for the format"))
+}
+
+/// The table of `model` with `layers` (already in wire form) in `precision`.
+pub(crate) fn owned_table(
+    model: &FloatModel,
+    precision: Precision,
+    input_quant: Option<OwnedInput>,
+    layers: Vec<OwnedLayer>,
+) -> Result<OwnedModel> {
+    if layers.len() > MAX_LAYERS {
+        return Err(BuildError::TooManyLayers(layers.len()).into());
+    }
+    if let Some(bad) = model.labels.iter().find(|l| l.contains('\n')) {
+        bail!("class label {bad:?} contains a line break");
+    }
+    Ok(OwnedModel {
+        input_len: wire_u32(model.input_len, "input width")?,
+        precision,
+        scaler: model
+            .scaler
+            .as_ref()
+            .map(|s| (f32s(&s.offset), f32s(&s.scale))),
+        input_quant,
+        layers,
+        output: model.output,
+        labels: model.labels.join("\n"),
+    })
+}
