@@ -10,6 +10,7 @@ pub mod error_line;
 pub mod fit;
 pub mod graph;
 pub mod import;
+mod layer_table;
 pub mod output_guard;
 pub mod pack;
 pub mod quantise;

@@ -4,7 +4,6 @@
 //! data 4-byte aligned within the blob; `FORMAT.md` §3.1), the order the Cortex-M kernels read,
 //! by `kinglet_builder` with the runtime's own geometry and validating encoder.
 pub mod request;
-pub(crate) mod table;
 
 use anyhow::{bail, Result};
 use kinglet_builder::OwnedLayer;
@@ -13,12 +12,12 @@ use kinglet_runtime::Model;
 
 use crate::dataset::Dataset;
 use crate::graph::FloatModel;
+use crate::layer_table::{owned_table, wire_u32};
 use crate::quantise::advice::{self, num, percentile_option, rows_text, suggested_percentile};
 use crate::quantise::calibrate::{calibrate, range_of, Calibration, RangeMethod, TensorRange};
 use crate::quantise::plausible::biases_lost;
 use crate::quantise::quantise;
 use crate::quantise::spread::TensorStats;
-use table::{owned_table, wire_u32};
 
 /// The f32 blob of `model` (for FPU boards, and the float reference of comparisons).
 pub fn pack_f32(model: &FloatModel) -> Result<Vec<u8>> {

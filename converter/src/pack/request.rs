@@ -166,7 +166,12 @@ pub fn pack(req: &PackRequest) -> Result<Packed> {
                 rows.display(),
                 p.method
             ));
-            calibration = Some(CalibrationReport::of(&p));
+            calibration = Some(CalibrationReport::new(
+                p.method,
+                p.calibration_rows,
+                p.tensors,
+                p.warnings,
+            ));
             p.blob
         }
     };

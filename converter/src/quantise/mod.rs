@@ -13,7 +13,7 @@ use anyhow::{anyhow, bail, Result};
 use kinglet_runtime::format::Precision;
 
 use crate::graph::FloatModel;
-use crate::pack::table::{owned_table, wire_u32};
+use crate::layer_table::{owned_table, wire_u32};
 use advice::num;
 use calibrate::TensorRange;
 use kinglet_builder::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};

@@ -3,8 +3,8 @@
 use comfy_table::{presets::UTF8_BORDERS_ONLY, Cell, CellAlignment, Table};
 use serde::Serialize;
 
-use crate::pack::Int8Pack;
 use crate::quantise::advice::num;
+use crate::quantise::calibrate::RangeMethod;
 use crate::quantise::spread::{TensorStats, CORE_TRIM, DOMINATED_SPREAD};
 
 /// The calibration part of the pack report.
@@ -25,20 +25,26 @@ pub struct CalibrationReport {
 }
 
 impl CalibrationReport {
-    /// The report of `p`.
-    pub fn of(p: &Int8Pack) -> Self {
+    /// The report of a calibration by `method` on `rows` rows that saw `tensors` and gave
+    /// `warnings` (the parts of a [`crate::pack::Int8Pack`]).
+    pub fn new(
+        method: RangeMethod,
+        rows: usize,
+        tensors: Vec<TensorStats>,
+        warnings: Vec<String>,
+    ) -> Self {
         CalibrationReport {
-            method: p.method.to_string(),
+            method: method.to_string(),
             percentile_definition:
                 "Hyndman & Fan (1996) definition 7, numpy.percentile's default: rank (n - 1) * p / 100, linear between neighbours",
-            rows: p.calibration_rows,
+            rows,
             far_rule: format!(
                 "far: more than the core's width beyond the core (all values but the {}% (at least one row's worth) lowest and highest); \
                  dominated: there are far values and the range is at least {DOMINATED_SPREAD} times as wide as the other values",
                 CORE_TRIM * 100.0
             ),
-            tensors: p.tensors.clone(),
-            warnings: p.warnings.clone(),
+            tensors,
+            warnings,
         }
     }
 }
