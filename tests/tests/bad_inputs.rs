@@ -853,7 +853,7 @@ fn r32_npy_header_longer_than_the_file() {
         let p = dir.path().join(format!("v{version}.npy"));
         std::fs::write(&p, &b).unwrap();
         let e = kinglet_converter::dataset::load_npy(&p, None).unwrap_err();
-        let msg = format!("{e:#}");
+        let msg = kinglet_converter::error_line::one_line(&e);
         assert!(msg.contains("the header is declared as"), "{msg}");
         assert!(msg.contains(&format!("v{version}.npy")), "{msg}");
     }
