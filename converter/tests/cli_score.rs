@@ -256,3 +256,41 @@ fn f32_scores_equal_scikit_learn_predict_proba() {
         eprintln!("{example}: largest |score − predict_proba| {worst:.3e}");
     }
 }
+
+#[test]
+fn vector_lines_carry_integer_inputs_and_default_to_the_file_name() {
+    let o = Command::new(env!("CARGO_BIN_EXE_kinglet"))
+        .arg("score")
+        .arg(repo("firmware-example/models/digits.kgl"))
+        .arg("--data")
+        .arg(repo("examples/digits/heldout.csv"))
+        .args([
+            "--label", "label", "--feed", "u8", "--rows", "448..", "--format", "vectors",
+        ])
+        .arg("--with-inputs")
+        .output()
+        .unwrap();
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let text = String::from_utf8(o.stdout).unwrap();
+    let data = heldout("digits");
+    let lines: Vec<&str> = text.lines().collect();
+    assert_eq!(lines.len(), 2);
+    for (i, line) in lines.iter().enumerate() {
+        assert!(
+            line.starts_with(&format!("heldout {i:03} label=")),
+            "{line}"
+        );
+        let feat = line.split(" feat=").nth(1).unwrap();
+        let pixels: Vec<String> = data
+            .row(448 + i)
+            .iter()
+            .map(|&x| (x as u8).to_string())
+            .collect();
+        assert_eq!(feat, pixels.join(","));
+    }
+}

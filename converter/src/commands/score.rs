@@ -34,7 +34,11 @@ impl std::str::FromStr for RowRange {
 
     fn from_str(s: &str) -> Result<Self, Self::Err> {
         let bad = || {
-            format!("expected START..END or START.. (0-based data rows, END excluded), such as 150..170, not {}", kinglet_converter::echo::quoted(s))
+            format!(
+                "expected START..END or START.. (0-based data rows, END excluded), such as \
+                 150..170, not {}",
+                kinglet_converter::echo::quoted(s)
+            )
         };
         let (a, b) = s.split_once("..").ok_or_else(bad)?;
         let start = a.trim().parse::<usize>().map_err(|_| bad())?;

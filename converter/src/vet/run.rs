@@ -144,17 +144,16 @@ fn eval_row(
         )
         .map_err(|e| ("float", e))?;
     let mut energy = vec![Energy::default(); stages.len()];
+    let mut add_error = |st: &Stage<'_>| {
+        if let (Some(buf), Some(e)) = (stages.get(st.index), energy.get_mut(st.index)) {
+            for (i, &f) in buf.iter().enumerate() {
+                e.add(f, st.values.real(i).unwrap_or(0.0));
+            }
+        }
+    };
     let pq = pair
         .int8
-        .infer_traced(input, &mut s.arena_q, &mut s.scores_q, &mut |st: &Stage<
-            '_,
-        >| {
-            if let (Some(buf), Some(e)) = (stages.get(st.index), energy.get_mut(st.index)) {
-                for (i, &f) in buf.iter().enumerate() {
-                    e.add(f, st.values.real(i).unwrap_or(0.0));
-                }
-            }
-        })
+        .infer_traced(input, &mut s.arena_q, &mut s.scores_q, &mut add_error)
         .map_err(|e| ("int8", e))?;
     let classified = pair
         .int8
