@@ -58,7 +58,7 @@ for f in "$fw"/models/*.kgl "$fw"/models/*.bin; do
   name="$(basename "$f")"
   if ! cmp -s "$f" "$work/models/$name"; then
     fail "firmware-example/models/$name differs from what regenerate.sh makes now: run
-      bash firmware-example/models/regenerate.sh && KINGLET_BLESS=1 cargo test -p kinglet-tests --test firmware_vectors
+      bash firmware-example/models/regenerate.sh && bash tests/fixtures/vectors/regenerate.sh
     and review the diff of tests/fixtures/vectors/"
   fi
 done

@@ -16,4 +16,5 @@ pub mod pack;
 pub mod quantise;
 pub mod report;
 pub mod scaler_file;
+pub mod score;
 pub mod vet;

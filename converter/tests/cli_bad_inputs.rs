@@ -1301,3 +1301,262 @@ fn c72_calibrated_range_too_wide_for_int8() {
             ],
         );
 }
+
+// ---- Integer input paths and `kinglet score` (C80–C89) ----
+
+#[test]
+fn c80_fractional_value_on_an_integer_path() {
+    let c = Case::new()
+        .packed("v.kgl")
+        .put("px.csv", b"a,b\n1,2\n3,2.5\n");
+    for cmd in [
+        &[
+            "score", "v.kgl", "--data", "px.csv", "--feed", "u8", "-o", "s.csv",
+        ][..],
+        &[
+            "vet",
+            "model_2in.json",
+            "v.kgl",
+            "--data",
+            "px.csv",
+            "--feed",
+            "u8",
+            "--html",
+            "r.html",
+        ],
+    ] {
+        c.fails(
+            cmd,
+            &["px.csv: line 3, column 'b': 2.5 is not a whole number (the u8 input path takes whole numbers from 0 to 255)"],
+        );
+    }
+    // Judged by its digits: 1.0000000000000000001 parses to exactly 1.0, but is not whole.
+    let c = c.put("near.csv", b"a,b\n1.0000000000000000001,2\n");
+    c.fails(
+        &["score", "v.kgl", "--data", "near.csv", "--feed", "i16"],
+        &["near.csv: line 2, column 'a': 1.0000000000000000001 is not a whole number (the i16 input path takes whole numbers from -32768 to 32767)"],
+    );
+}
+
+#[test]
+fn c81_integer_out_of_the_types_range() {
+    let c = Case::new()
+        .packed("v.kgl")
+        .put("px.csv", b"a,b\n1,256\n")
+        .put("neg.csv", b"1,-1\n");
+    c.fails(
+        &[
+            "score", "v.kgl", "--data", "px.csv", "--feed", "u8", "-o", "s.csv",
+        ],
+        &["px.csv: line 2, column 'b': 256 is out of range for the u8 input path (0 to 255)"],
+    );
+    c.fails(
+        &[
+            "vet",
+            "model_2in.json",
+            "v.kgl",
+            "--data",
+            "neg.csv",
+            "--feed",
+            "u8",
+            "--html",
+            "r.html",
+        ],
+        &["neg.csv: line 1, column index 1: -1 is out of range for the u8 input path (0 to 255)"],
+    );
+    let c = c.put("big.csv", b"a,b\n40000,0\n");
+    c.fails(
+        &["score", "v.kgl", "--data", "big.csv", "--feed", "i16"],
+        &["big.csv: line 2, column 'a': 40000 is out of range for the i16 input path (-32768 to 32767)"],
+    );
+}
+
+#[test]
+fn c82_npy_values_for_an_integer_path() {
+    let f64s = [1f64, 2., 1e300, 0.];
+    let half = [1f32, 0.5];
+    let i16s = [3i16, -1];
+    let c = Case::new()
+        .packed("v.kgl")
+        .put("huge.npy", &npy_bytes(&[2, 2], &f64s))
+        .put("half.npy", &npy_bytes(&[1, 2], &half))
+        .put("neg.npy", &npy_bytes(&[1, 2], &i16s));
+    c.fails(
+        &["score", "v.kgl", "--data", "huge.npy", "--feed", "i16", "-o", "s.csv"],
+        &["huge.npy: row index 1, column index 0: 1e300 is out of range for the i16 input path (-32768 to 32767)"],
+    );
+    c.fails(
+        &["score", "v.kgl", "--data", "half.npy", "--feed", "u8"],
+        &["half.npy: row index 0, column index 1: 0.5 is not a whole number"],
+    );
+    c.fails(
+        &["vet", "model_2in.json", "v.kgl", "--data", "neg.npy", "--feed", "u8"],
+        &["neg.npy: row index 0, column index 1: -1 is out of range for the u8 input path (0 to 255)"],
+    );
+}
+
+#[test]
+fn c83_score_output_is_an_input() {
+    let c = Case::new().packed("v.kgl");
+    c.fails(
+        &["score", "v.kgl", "--data", "rows.csv", "-o", "./rows.csv"],
+        &["the output (-o) ./rows.csv is the same file as --data rows.csv; writing it would destroy that input"],
+    );
+    c.fails(
+        &["score", "v.kgl", "--data", "rows.csv", "-o", "v.kgl"],
+        &["the output (-o) v.kgl is the same file as the blob v.kgl"],
+    );
+    let payload = [1f32, 2.];
+    let c = c
+        .put("x.npy", &npy_bytes(&[1, 2], &payload))
+        .put("y.npy", &npy_bytes(&[1], &[0i64]));
+    c.fails(
+        &[
+            "score",
+            "v.kgl",
+            "--data",
+            "x.npy",
+            "--label-file",
+            "y.npy",
+            "-o",
+            "y.npy",
+        ],
+        &["the output (-o) y.npy is the same file as --label-file y.npy"],
+    );
+}
+
+#[test]
+fn c84_row_ranges_that_select_nothing_or_too_much() {
+    let c = Case::new().packed("v.kgl");
+    let score = |range: &str, wants: &[&str]| {
+        c.fails(
+            &[
+                "score", "v.kgl", "--data", "rows.csv", "--rows", range, "-o", "s.csv",
+            ],
+            wants,
+        )
+    };
+    score(
+        "2..1",
+        &["--rows: the row range 2..1 selects no rows (the end is excluded and must be after the start)"],
+    );
+    score("1..1", &["the row range 1..1 selects no rows"]);
+    score(
+        "0..5",
+        &["--rows: the row range 0..5 goes past the end: rows.csv has 3 data rows (0 to 2)"],
+    );
+    score("3..", &["the row range 3..3 selects no rows"]);
+    for bad in ["x", "1-2", "1..2..3", "1.5..3"] {
+        score(
+            bad,
+            &[
+                "invalid value",
+                "for '--rows <START..END>': expected START..END or START..",
+                "(see --help)",
+            ],
+        );
+    }
+    c.fails(
+        &["score", "v.kgl", "--data", "rows.csv", "--rows=-1..2"],
+        &[
+            "invalid value '-1..2' for '--rows <START..END>'",
+            "(see --help)",
+        ],
+    );
+}
+
+#[test]
+fn c85_vector_options_need_the_vectors_format_and_a_one_word_name() {
+    let c = Case::new()
+        .packed("v.kgl")
+        .with_repo("tests/fixtures/bad/rows.csv", "my rows.csv");
+    c.fails(
+        &["score", "v.kgl", "--data", "rows.csv", "--name", "set1"],
+        &["--name applies to --format vectors"],
+    );
+    c.fails(
+        &[
+            "score",
+            "v.kgl",
+            "--data",
+            "rows.csv",
+            "--format",
+            "json",
+            "--with-inputs",
+        ],
+        &["--with-inputs applies to --format vectors"],
+    );
+    c.fails(
+        &["score", "v.kgl", "--data", "rows.csv", "--format", "vectors", "--name", "two words", "-o", "v.txt"],
+        &["--name: the vector set name \"two words\" contains ' '; a name is the first word of each line"],
+    );
+    c.fails(
+        &[
+            "score", "v.kgl", "--data", "rows.csv", "--format", "vectors", "--name", "",
+        ],
+        &["--name: the vector set name is empty"],
+    );
+    c.fails(
+        &["score", "v.kgl", "--data", "my rows.csv", "--format", "vectors", "-o", "v.txt"],
+        &["my rows.csv: give the set a name with --name: the vector set name \"my rows\" contains ' '"],
+    );
+}
+
+#[test]
+fn c86_unknown_feed_entry_or_format_is_a_usage_error() {
+    let c = Case::new().packed("v.kgl");
+    for args in [
+        &["score", "v.kgl", "--data", "rows.csv", "--feed", "i8"][..],
+        &["score", "v.kgl", "--data", "rows.csv", "--entry", "predict"],
+        &["score", "v.kgl", "--data", "rows.csv", "--format", "xml"],
+        &["score", "v.kgl"],
+        &[
+            "vet",
+            "model_2in.json",
+            "v.kgl",
+            "--data",
+            "rows.csv",
+            "--feed",
+            "f16",
+        ],
+        &[
+            "vet",
+            "model_2in.json",
+            "v.kgl",
+            "--data",
+            "rows.csv",
+            "--entry",
+            "argmax",
+        ],
+    ] {
+        c.fails(args, &["(see --help)"]);
+    }
+    c.fails(
+        &["score", "v.kgl", "--data", "rows.csv", "--feed", "i8"],
+        &[
+            "invalid value 'i8' for '--feed <FEED>'",
+            "[possible values: f32, i16, u8]",
+        ],
+    );
+}
+
+#[test]
+fn c87_score_bad_blob_wrong_width_unknown_label() {
+    let c = Case::new()
+        .packed("v.kgl")
+        .put("wide.csv", b"a,b,c\n1,2,3\n")
+        .put("labelled.csv", b"a,b,y\n1,2,0\n3,4,7\n");
+    c.fails(
+        &["score", "rows.csv", "--data", "rows.csv", "-o", "s.csv"],
+        &["rows.csv: not a valid model blob: not a Kinglet model: wrong magic bytes"],
+    );
+    c.fails(
+        &["score", "v.kgl", "--data", "wide.csv", "-o", "s.csv"],
+        &["wide.csv: 3 features per row, but the model takes 2 inputs"],
+    );
+    // The label of the file's second data row, even when --rows starts there.
+    c.fails(
+        &["score", "v.kgl", "--data", "labelled.csv", "--label", "y", "--rows", "1..2", "-o", "s.csv"],
+        &["labelled.csv: bad label: data row 2 (1-based, header not counted): label \"7\" is not a class index (0 to 1)"],
+    );
+}

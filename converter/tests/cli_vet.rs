@@ -242,3 +242,40 @@ fn bad_input_is_named() {
         &["--max-drop"],
     );
 }
+
+#[test]
+fn the_measured_path_is_named_in_text_json_and_html() {
+    let s = Setup::new();
+    let heldout = repo("examples/digits/heldout.csv");
+    let html = s.p("path.html");
+    let path = ["--label", "label", "--feed", "u8", "--entry", "classify"];
+    let mut args = path.to_vec();
+    args.extend(["--html", html.to_str().unwrap()]);
+    let o = s.vet(&heldout, &args);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    for part in [
+        "measured through Model::classify(Input::U8)",
+        "runtime f32 path: Model::infer(Input::F32) on the same values",
+        "0 rows where the int8 blob's Model::infer and Model::classify give different classes",
+    ] {
+        assert!(out.contains(part), "missing {part:?} in:\n{out}");
+    }
+    let page = std::fs::read_to_string(&html).unwrap();
+    assert!(page.contains("int8 measured through Model::classify(Input::U8)"));
+    let mut args = path.to_vec();
+    args.push("--json");
+    let v: serde_json::Value = serde_json::from_slice(&s.vet(&heldout, &args).stdout).unwrap();
+    assert_eq!(v["measured"]["feed"], "u8");
+    assert_eq!(v["measured"]["entry"], "classify");
+    assert_eq!(v["measured"]["float_call"], "Model::infer(Input::F32)");
+    assert_eq!(v["entry_split"]["rows"], 0);
+    // The digits pixels are whole numbers 0..=16. On them the blob's integer input stage gives
+    // the int8 tensors its float stage gives (equal per-layer error sums), and classify gives
+    // infer's class on every row, so this path's numbers equal the default path's.
+    let v0: serde_json::Value =
+        serde_json::from_slice(&s.vet(&heldout, &["--label", "label", "--json"]).stdout).unwrap();
+    assert_eq!(v0["measured"]["int8_call"], "Model::infer(Input::F32)");
+    assert_eq!(v["fidelity"], v0["fidelity"]);
+    assert_eq!(v["accuracy"], v0["accuracy"]);
+}

@@ -4,11 +4,12 @@
 //! Cortex-M4F under QEMU (`scripts/firmware.sh` diffs their output against the same files), so
 //! equal lines here and there mean bit-identical results on all three targets.
 //!
-//! The expected files `tests/fixtures/vectors/<set>.txt` are written by this test with
-//! `KINGLET_BLESS=1` after a deliberate change to the runtime, the models or the format — never
-//! by hand. What keeps them honest is checked against the outside world below: the inputs are
-//! the examples' held-out data, the features agree with the numpy reference, and the predicted
-//! classes agree with scikit-learn's.
+//! The expected files `tests/fixtures/vectors/<set>.txt` are written by `kinglet score --format
+//! vectors` (`tests/fixtures/vectors/regenerate.sh`, checked by `converter/tests/score_vectors.rs`)
+//! after a deliberate change to the runtime, the models or the format — never by hand. So the
+//! command and the firmware's own line code agree on every line. What keeps them honest is
+//! checked against the outside world below: the inputs are the examples' held-out data, the
+//! features agree with the numpy reference, and the predicted classes agree with scikit-learn's.
 use kinglet_fw_vectors::{assets, format_vector, Line, VectorSet, SETS};
 use kinglet_runtime::Model;
 use kinglet_tests::path;
@@ -30,19 +31,14 @@ fn run_set(set: &VectorSet) -> (Vec<String>, Vec<usize>) {
 
 #[test]
 fn vectors_match_the_committed_expected_lines() {
-    let bless = std::env::var_os("KINGLET_BLESS").is_some();
     for set in &SETS {
         let (lines, _) = run_set(set);
         let file = path(&format!("tests/fixtures/vectors/{}.txt", set.name));
-        if bless {
-            std::fs::write(&file, lines.join("\n") + "\n").unwrap();
-            continue;
-        }
         let expected = std::fs::read_to_string(&file).unwrap();
         // The firmware embeds the same file at build time; they must not differ.
         assert_eq!(
             expected, set.expected,
-            "{}: rebuild after blessing",
+            "{}: rebuild after tests/fixtures/vectors/regenerate.sh",
             set.name
         );
         let want: Vec<&str> = expected.lines().collect();

@@ -6,6 +6,8 @@ mod emit_rust;
 mod inspect;
 mod out;
 mod pack;
+mod rows;
+mod score;
 mod vet;
 
 /// Puts small trained classifiers onto microcontrollers.
@@ -25,6 +27,9 @@ enum Command {
     Inspect(inspect::Args),
     /// Compare an int8 blob with its float model on rows: accuracy, agreement, per-layer SQNR.
     Vet(vet::Args),
+    /// Run a blob on rows as the firmware does and write each row's class, scores and raw
+    /// outputs (CSV, JSON, or test vectors with exact bits).
+    Score(score::Args),
     /// Check a blob against a part's flash and RAM (built-in profile or custom sizes).
     Budget(budget::Args),
     /// Write a blob as a Rust source file: the bytes as a static array, sizes as constants.
@@ -45,6 +50,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         Command::Pack(a) => pack::run(a),
         Command::Inspect(a) => inspect::run(a),
         Command::Vet(a) => vet::run(a),
+        Command::Score(a) => score::run(a),
         Command::Budget(a) => budget::run(a),
         Command::EmitRust(a) => emit_rust::run(a),
     }

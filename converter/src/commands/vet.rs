@@ -2,7 +2,7 @@
 use anyhow::{anyhow, bail, Context, Result};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use kinglet_converter::atomic::write_atomic;
-use kinglet_converter::dataset::{load_file, Dataset, DatasetError, LabelColumn, LoadOptions};
+use kinglet_converter::dataset::LabelColumn;
 use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::vet::load::load_float;
 use kinglet_converter::vet::render_text::TextOptions;
@@ -13,21 +13,11 @@ use kinglet_runtime::Model;
 use std::io::IsTerminal;
 use std::path::PathBuf;
 
+use super::rows::{EntryArg, FeedArg, Header, RowSource};
 use super::Outcome;
 
 /// Rows from which a progress bar is worth drawing.
 const PROGRESS_FROM_ROWS: usize = 5_000;
-
-/// Whether the CSV's first row is a header.
-#[derive(Debug, Clone, Copy, clap::ValueEnum)]
-enum Header {
-    /// Detect: a header when a field of the first row is not a number.
-    Auto,
-    /// The first row is a header.
-    Yes,
-    /// There is no header.
-    No,
-}
 
 /// What `--max-drop` is compared with.
 #[derive(Debug, Clone, Copy, clap::ValueEnum)]
@@ -58,6 +48,14 @@ pub struct Args {
     /// Whether the CSV's first row is a header.
     #[arg(long, value_enum, default_value = "auto")]
     header: Header,
+    /// The input type the firmware feeds the int8 blob (for i16 and u8 every value must be a
+    /// whole number in the type's range); the float model gets the same values as f32.
+    #[arg(long, value_enum, default_value = "f32")]
+    feed: FeedArg,
+    /// The runtime call whose class counts for the int8 blob (the float model always uses
+    /// `Model::infer`).
+    #[arg(long, value_enum, default_value = "infer")]
+    entry: EntryArg,
     /// Fail (exit code 1) when int8 accuracy is more than this many percentage points below
     /// float accuracy.
     #[arg(long, value_name = "PP")]
@@ -81,26 +79,6 @@ pub struct Args {
     /// Evaluate rows on one thread (the results are the same).
     #[arg(long)]
     serial: bool,
-}
-
-fn load_data(a: &Args) -> Result<Dataset> {
-    let has_header = match a.header {
-        Header::Auto => None,
-        Header::Yes => Some(true),
-        Header::No => Some(false),
-    };
-    let opts = LoadOptions {
-        label: a.label.clone(),
-        has_header,
-        label_file: a.label_file.clone(),
-    };
-    load_file(&a.data, &opts).map_err(|e| match e {
-        DatasetError::LabelColumnForNpy { .. } => anyhow::Error::new(e).context(
-            "--label names a CSV column (for .npy features give --label-file <labels.npy>)",
-        ),
-        DatasetError::LabelFileForCsv { .. } => anyhow::Error::new(e).context("--label-file"),
-        e => e.into(),
-    })
 }
 
 fn check_limit(name: &str, v: Option<f64>) -> Result<()> {
@@ -134,7 +112,14 @@ pub fn run(a: Args) -> Result<Outcome> {
     let float_model = Model::parse(&float.blob)
         .map_err(|e| anyhow!("{}: not a valid model blob: {e}", a.float_model.display()))?;
     let pair = ModelPair::new(float_model, int8)?;
-    let data = load_data(&a)?;
+    let rows = super::rows::load(&RowSource {
+        data: &a.data,
+        label: &a.label,
+        label_file: &a.label_file,
+        header: a.header,
+        feed: a.feed,
+    })?;
+    let data = &rows.data;
 
     let criteria = Criteria {
         max_drop_pp: a.max_drop,
@@ -165,9 +150,15 @@ pub fn run(a: Args) -> Result<Outcome> {
     } else {
         Parallelism::Parallel
     };
-    let mut report = vet::vet(&pair, &data, &sources, &criteria, parallelism, &|n| {
-        bar.inc(n)
-    })?;
+    let mut report = vet::vet_rows(
+        &pair,
+        &rows,
+        a.entry.into(),
+        &sources,
+        &criteria,
+        parallelism,
+        &|n| bar.inc(n),
+    )?;
     bar.finish_and_clear();
     report.notes.splice(0..0, float.notes);
 

@@ -57,12 +57,77 @@ impl<'a> LineCounter<'a> {
     }
 }
 
+/// Where a CSV field is, for messages.
+pub(super) struct FieldAt<'a> {
+    /// The file.
+    pub path: &'a Path,
+    /// 1-based line number, as an editor shows it.
+    pub line: u64,
+    index: usize,
+    names: Option<&'a [String]>,
+}
+
+impl FieldAt<'_> {
+    /// The column: `'name'` with a header, `index N` (0-based) without.
+    pub fn column(&self) -> String {
+        match self.names.and_then(|n| n.get(self.index)) {
+            Some(n) => format!("'{n}'"),
+            None => format!("index {}", self.index),
+        }
+    }
+}
+
+/// The feature fields of a CSV file, each turned into a `T`, with the labels.
+pub(super) struct CsvRows<T> {
+    pub rows: usize,
+    pub width: usize,
+    pub values: Vec<T>,
+    pub labels: Option<Vec<String>>,
+}
+
+/// A feature field as a finite f32.
+fn finite_f32(field: &str, at: &FieldAt<'_>) -> Result<f32, DatasetError> {
+    let v: f32 = field.parse().map_err(|_| DatasetError::NonNumeric {
+        path: at.path.to_path_buf(),
+        line: at.line,
+        column: at.column(),
+        value: field.to_string(),
+    })?;
+    if !v.is_finite() {
+        return Err(DatasetError::NotFiniteCsv {
+            path: at.path.to_path_buf(),
+            line: at.line,
+            column: at.column(),
+            value: field.to_string(),
+        });
+    }
+    Ok(v)
+}
+
 /// Reads CSV text from `input`; `path` is used for messages and the dataset's source.
 pub(super) fn read_csv(
     input: &[u8],
     path: &Path,
     opts: &CsvOptions,
 ) -> Result<Dataset, DatasetError> {
+    let r = read_csv_with(input, path, opts, finite_f32)?;
+    Ok(Dataset {
+        rows: r.rows,
+        width: r.width,
+        features: r.values,
+        labels: r.labels,
+        source: path.display().to_string(),
+    })
+}
+
+/// Reads CSV text from `input`, turning each feature field into a `T` with `field` (which names
+/// the line and column when it refuses one).
+pub(super) fn read_csv_with<T>(
+    input: &[u8],
+    path: &Path,
+    opts: &CsvOptions,
+    mut field: impl FnMut(&str, &FieldAt<'_>) -> Result<T, DatasetError>,
+) -> Result<CsvRows<T>, DatasetError> {
     let csv_err = |source| DatasetError::Csv {
         path: path.to_path_buf(),
         source,
@@ -150,12 +215,8 @@ pub(super) fn read_csv(
             path: path.to_path_buf(),
         });
     }
-    let column_name = |j: usize| match names.as_ref().and_then(|n| n.get(j)) {
-        Some(n) => format!("'{n}'"),
-        None => format!("index {j}"),
-    };
 
-    let mut features = Vec::new();
+    let mut values = Vec::new();
     let mut labels = label_index.map(|_| Vec::new());
     let mut rows = 0usize;
     let mut lines = LineCounter::new(input);
@@ -174,28 +235,20 @@ pub(super) fn read_csv(
                 expected: columns,
             });
         }
-        for (j, field) in record.iter().enumerate() {
+        for (j, text) in record.iter().enumerate() {
             if Some(j) == label_index {
                 if let Some(l) = labels.as_mut() {
-                    l.push(field.to_string());
+                    l.push(text.to_string());
                 }
                 continue;
             }
-            let v: f32 = field.parse().map_err(|_| DatasetError::NonNumeric {
-                path: path.to_path_buf(),
+            let at = FieldAt {
+                path,
                 line,
-                column: column_name(j),
-                value: field.to_string(),
-            })?;
-            if !v.is_finite() {
-                return Err(DatasetError::NotFiniteCsv {
-                    path: path.to_path_buf(),
-                    line,
-                    column: column_name(j),
-                    value: field.to_string(),
-                });
-            }
-            features.push(v);
+                index: j,
+                names: names.as_deref(),
+            };
+            values.push(field(text, &at)?);
         }
         rows += 1;
     }
@@ -204,12 +257,11 @@ pub(super) fn read_csv(
             path: path.to_path_buf(),
         });
     }
-    Ok(Dataset {
+    Ok(CsvRows {
         rows,
         width,
-        features,
+        values,
         labels,
-        source: path.display().to_string(),
     })
 }
 

@@ -86,6 +86,38 @@ pub enum DatasetError {
         /// The value.
         value: f64,
     },
+    /// A feature for an integer input path has a fractional part (or is NaN or infinite).
+    #[error("{}: {place}: {value} is not a whole number (the {ty} input path takes whole numbers from {min} to {max})", path.display())]
+    NotWhole {
+        /// The file.
+        path: PathBuf,
+        /// Where: `line N, column C` (CSV) or `row index R, column index C` (`.npy`).
+        place: String,
+        /// The value, as written (cut when long).
+        value: String,
+        /// The input type's name (`i16`, `u8`).
+        ty: &'static str,
+        /// The type's smallest value.
+        min: i64,
+        /// The type's largest value.
+        max: i64,
+    },
+    /// A whole feature outside the integer input type's range.
+    #[error("{}: {place}: {value} is out of range for the {ty} input path ({min} to {max})", path.display())]
+    OutOfRange {
+        /// The file.
+        path: PathBuf,
+        /// Where: `line N, column C` (CSV) or `row index R, column index C` (`.npy`).
+        place: String,
+        /// The value, as written (cut when long).
+        value: String,
+        /// The input type's name (`i16`, `u8`).
+        ty: &'static str,
+        /// The type's smallest value.
+        min: i64,
+        /// The type's largest value.
+        max: i64,
+    },
     /// The label column given by name is not in the header.
     #[error("{}: no column named {name:?} for the labels; the header has {available}", path.display())]
     LabelColumnNotFound {

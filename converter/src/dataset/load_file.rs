@@ -29,18 +29,8 @@ pub fn is_npy(path: &Path) -> bool {
 /// [`DatasetError::LabelFileForCsv`]: an option that would otherwise be silently ignored), and
 /// every error of [`load_csv`] and [`load_npy`].
 pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Dataset, DatasetError> {
-    if is_npy(path) {
-        if opts.label.is_some() {
-            return Err(DatasetError::LabelColumnForNpy {
-                path: path.to_path_buf(),
-            });
-        }
+    if misplaced_options(path, opts)? {
         return load_npy(path, opts.label_file.as_deref());
-    }
-    if opts.label_file.is_some() {
-        return Err(DatasetError::LabelFileForCsv {
-            path: path.to_path_buf(),
-        });
     }
     load_csv(
         path,
@@ -49,6 +39,22 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Dataset, DatasetErro
             has_header: opts.has_header,
         },
     )
+}
+
+/// Whether `path` is a `.npy` file, after refusing the options that do not apply to its kind.
+pub(super) fn misplaced_options(path: &Path, opts: &LoadOptions) -> Result<bool, DatasetError> {
+    let npy = is_npy(path);
+    if npy && opts.label.is_some() {
+        return Err(DatasetError::LabelColumnForNpy {
+            path: path.to_path_buf(),
+        });
+    }
+    if !npy && opts.label_file.is_some() {
+        return Err(DatasetError::LabelFileForCsv {
+            path: path.to_path_buf(),
+        });
+    }
+    Ok(npy)
 }
 
 #[cfg(test)]

@@ -8,9 +8,14 @@
 //! NPY: a 2-D features array `(rows, features)` of float32, float64 or any integer type (arrays
 //! with more axes are flattened per row in C order, so `(rows, 8, 8)` images become 64 features),
 //! and an optional 1-D labels array of integers or strings.
+//!
+//! Integer rows ([`load_file_integers`]) keep the exact whole values for the runtime's `i16` and
+//! `u8` input paths; a value that is not whole or is out of the type's range is an error naming
+//! its row and column.
 
 mod csv_load;
 mod error;
+mod integers;
 mod labels;
 mod load_file;
 pub(crate) mod npy_array;
@@ -18,6 +23,10 @@ mod npy_load;
 
 pub use csv_load::load_csv;
 pub use error::DatasetError;
+pub use integers::{
+    load_csv_integers, load_file_integers, load_npy_integers, IntegerRows, IntegerType,
+    IntegerValues,
+};
 pub use labels::resolve_labels;
 pub use load_file::{is_npy, load_file, LoadOptions};
 pub use npy_array::NpyArrayError;

@@ -2,7 +2,7 @@
 
 use std::path::Path;
 
-use super::npy_array::{read_npy, NpyValues};
+use super::npy_array::{read_npy, NpyArray, NpyValues};
 use super::{Dataset, DatasetError};
 
 /// Loads a features array and, optionally, a labels array.
@@ -11,48 +11,11 @@ use super::{Dataset, DatasetError};
 /// flattened per row in C order. Labels: shape `(rows,)` (or `(rows, 1)`) of integers or strings.
 /// Values must be finite and fit in f32.
 pub fn load_npy(features: &Path, labels: Option<&Path>) -> Result<Dataset, DatasetError> {
-    let content = |path: &Path, message: String| DatasetError::NpyContent {
-        path: path.to_path_buf(),
-        message,
-    };
-    let arr = read_npy(features).map_err(|source| DatasetError::Npy {
-        path: features.to_path_buf(),
-        source,
-    })?;
-    let (rows, width) = match arr.shape.split_first() {
-        Some((&rows, rest)) if !rest.is_empty() => (rows, rest.iter().product::<usize>()),
-        _ => {
-            return Err(content(
-                features,
-                format!(
-                    "features must be a 2-D array (rows, features), found shape {:?}; \
-                     for a single feature save x.reshape(-1, 1)",
-                    arr.shape
-                ),
-            ))
-        }
-    };
-    if rows == 0 {
-        return Err(content(
-            features,
-            format!("no rows (shape {:?})", arr.shape),
-        ));
-    }
-    if width == 0 {
-        return Err(content(
-            features,
-            format!("no features per row (shape {:?})", arr.shape),
-        ));
-    }
-    let values = arr.values.numbers().ok_or_else(|| {
-        content(
-            features,
-            format!(
-                "features must be numbers (float or integer), found {}",
-                arr.dtype
-            ),
-        )
-    })?;
+    let (rows, width, arr) = read_features(features)?;
+    let values = arr
+        .values
+        .numbers()
+        .ok_or_else(|| not_numbers(features, &arr))?;
     let mut out = Vec::with_capacity(values.len());
     for (k, v) in values.into_iter().enumerate() {
         let f = v as f32;
@@ -79,8 +42,51 @@ pub fn load_npy(features: &Path, labels: Option<&Path>) -> Result<Dataset, Datas
     })
 }
 
+/// The error for a features array of strings.
+pub(super) fn not_numbers(path: &Path, arr: &NpyArray) -> DatasetError {
+    DatasetError::NpyContent {
+        path: path.to_path_buf(),
+        message: format!(
+            "features must be numbers (float or integer), found {}",
+            arr.dtype
+        ),
+    }
+}
+
+/// Reads a features array: rows, features per row (the product of the other axes), the array.
+pub(super) fn read_features(path: &Path) -> Result<(usize, usize, NpyArray), DatasetError> {
+    let content = |message: String| DatasetError::NpyContent {
+        path: path.to_path_buf(),
+        message,
+    };
+    let arr = read_npy(path).map_err(|source| DatasetError::Npy {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    let (rows, width) = match arr.shape.split_first() {
+        Some((&rows, rest)) if !rest.is_empty() => (rows, rest.iter().product::<usize>()),
+        _ => {
+            return Err(content(format!(
+                "features must be a 2-D array (rows, features), found shape {:?}; \
+                 for a single feature save x.reshape(-1, 1)",
+                arr.shape
+            )))
+        }
+    };
+    if rows == 0 {
+        return Err(content(format!("no rows (shape {:?})", arr.shape)));
+    }
+    if width == 0 {
+        return Err(content(format!(
+            "no features per row (shape {:?})",
+            arr.shape
+        )));
+    }
+    Ok((rows, width, arr))
+}
+
 /// Reads a 1-D label array of integers or strings, `rows` long.
-fn load_labels(path: &Path, rows: usize) -> Result<Vec<String>, DatasetError> {
+pub(super) fn load_labels(path: &Path, rows: usize) -> Result<Vec<String>, DatasetError> {
     let arr = read_npy(path).map_err(|source| DatasetError::Npy {
         path: path.to_path_buf(),
         source,

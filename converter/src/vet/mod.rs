@@ -1,5 +1,6 @@
 //! `kinglet vet`: the accuracy comparison of an int8 blob against its float model, on the
-//! host, with the runtime's own kernels on both sides.
+//! host, with the runtime's own kernels on both sides; the int8 blob is fed the way the
+//! firmware feeds it (f32 features or raw `i16` / `u8` integers, `infer` or `classify`).
 //!
 //! - [`run`] evaluates every row through both models (in parallel, with serial results);
 //! - [`metrics`] computes accuracy, confusion matrices, precision and recall, agreement;
@@ -22,9 +23,10 @@ pub mod summary;
 use anyhow::{bail, Context, Result};
 
 use crate::dataset::{resolve_labels, Dataset};
+use crate::score::feed::{Entry, Rows};
 pub use pair::ModelPair;
-pub use run::Parallelism;
-pub use summary::{Criteria, Gate, Sources, VetReport};
+pub use run::{Fed, Parallelism};
+pub use summary::{Criteria, EntrySplit, Gate, Measured, Sources, VetReport};
 
 /// Turns the dataset's labels (class names or indices, as written) into class indices of the
 /// pair's models; `None` when the rows have no labels.
@@ -38,7 +40,8 @@ pub fn dataset_labels(data: &Dataset, pair: &ModelPair<'_>) -> Result<Option<Vec
     Ok(Some(labels))
 }
 
-/// Compares the pair on `data`: evaluates every row and builds the report.
+/// Compares the pair on `data`, fed to both as `Input::F32` through `Model::infer`: evaluates
+/// every row and builds the report.
 ///
 /// `progress` is called with the number of rows finished, from worker threads.
 pub fn vet(
@@ -49,6 +52,43 @@ pub fn vet(
     parallelism: Parallelism,
     progress: &(dyn Fn(u64) + Sync),
 ) -> Result<VetReport> {
+    let fed = Fed {
+        data,
+        integers: None,
+        entry: Entry::Infer,
+    };
+    vet_fed(pair, &fed, sources, criteria, parallelism, progress)
+}
+
+/// [`vet`] through the path a firmware uses: `rows` as loaded for its input type (the int8 blob
+/// gets the exact integers of an integer path, the float model the same values as f32) and
+/// `entry` for the int8 blob's class.
+pub fn vet_rows(
+    pair: &ModelPair<'_>,
+    rows: &Rows,
+    entry: Entry,
+    sources: &Sources,
+    criteria: &Criteria,
+    parallelism: Parallelism,
+    progress: &(dyn Fn(u64) + Sync),
+) -> Result<VetReport> {
+    let fed = Fed {
+        data: &rows.data,
+        integers: rows.integers.as_ref(),
+        entry,
+    };
+    vet_fed(pair, &fed, sources, criteria, parallelism, progress)
+}
+
+fn vet_fed(
+    pair: &ModelPair<'_>,
+    fed: &Fed<'_>,
+    sources: &Sources,
+    criteria: &Criteria,
+    parallelism: Parallelism,
+    progress: &(dyn Fn(u64) + Sync),
+) -> Result<VetReport> {
+    let data = fed.data;
     if data.rows == 0 {
         bail!("{}: no rows to compare", data.source);
     }
@@ -61,11 +101,12 @@ pub fn vet(
             data.source
         );
     }
-    let outcomes = run::evaluate(pair, data, parallelism, progress)?;
+    let outcomes = run::evaluate(pair, fed, parallelism, progress)?;
     Ok(summary::summarise(
         pair,
         &data.source,
         sources,
+        &Measured::new(fed.feed(), fed.entry),
         &outcomes,
         labels.as_deref(),
         criteria,

@@ -48,8 +48,10 @@ pub fn render(r: &VetReport) -> Result<String> {
     let _ = writeln!(h, "<h1>int8 against float: {}</h1>", esc(&r.int8_model));
     let _ = writeln!(
         h,
-        "<p class=\"meta\">float model {} (runtime f32 path) · data {}: {} rows, {} classes, {} output</p>",
+        "<p class=\"meta\">int8 measured through {} · float model {} (runtime f32 path: {} on the same values) · data {}: {} rows, {} classes, {} output</p>",
+        esc(&r.measured.int8_call),
         esc(&r.float_model),
+        esc(&r.measured.float_call),
         esc(&r.data),
         r.rows,
         r.classes,
@@ -105,11 +107,12 @@ pub fn render(r: &VetReport) -> Result<String> {
     let g = &r.agreement;
     let _ = writeln!(
         h,
-        "<p>Top-1 agreement: <b>{} of {}</b> rows ({}); {} differ.<br>Score error ({}): max {:.3e}, mean {:.3e}.</p>",
+        "<p>Top-1 agreement: <b>{} of {}</b> rows ({}); {} differ.<br>The int8 blob's Model::infer and Model::classify give different classes on {} rows.<br>Score error ({}): max {:.3e}, mean {:.3e}.</p>",
         g.agree,
         g.rows,
         pct(g.rate),
         g.disagreements.len(),
+        r.entry_split.rows,
         esc(&r.score_error.unit),
         r.score_error.max_abs,
         r.score_error.mean_abs

@@ -68,8 +68,17 @@ fn confusion(r: &VetReport, c: &Confusion) -> String {
 /// Renders the whole report.
 pub fn render(r: &VetReport, o: &TextOptions) -> String {
     let mut s = String::new();
-    let _ = writeln!(s, "int8 blob    {}", r.int8_model);
-    let _ = writeln!(s, "float model  {} (runtime f32 path)", r.float_model);
+    let m = &r.measured;
+    let _ = writeln!(
+        s,
+        "int8 blob    {}, measured through {}",
+        r.int8_model, m.int8_call
+    );
+    let _ = writeln!(
+        s,
+        "float model  {} (runtime f32 path: {} on the same values)",
+        r.float_model, m.float_call
+    );
     let _ = writeln!(
         s,
         "data         {}: {} rows, {} classes, {} output",
@@ -114,6 +123,36 @@ pub fn render(r: &VetReport, o: &TextOptions) -> String {
         pct(g.rate),
         g.disagreements.len()
     );
+    let split = &r.entry_split;
+    let _ = write!(
+        s,
+        "infer/classify  {} rows where the int8 blob's Model::infer and Model::classify give different classes",
+        split.rows
+    );
+    if split.rows > 0 {
+        let shown: Vec<String> = split
+            .data_rows
+            .iter()
+            .take(o.show_rows)
+            .map(usize::to_string)
+            .collect();
+        let more = if split.data_rows.len() > shown.len() {
+            ", …"
+        } else {
+            ""
+        };
+        let _ = write!(
+            s,
+            " (a tie after infer's float {}): data rows {}{more}",
+            if r.output == "sigmoid" {
+                "sigmoid"
+            } else {
+                "softmax"
+            },
+            shown.join(", ")
+        );
+    }
+    let _ = writeln!(s);
     let e = &r.score_error;
     let _ = writeln!(
         s,

@@ -4,6 +4,11 @@
 //! and the int8 blob (the runtime's integer kernels, bit for bit what a board computes). The
 //! trace of each gives the tensors for the per-layer fidelity sums.
 //!
+//! The int8 blob is fed the way the firmware feeds it ([`Feed`]: `Input::F32`, or the raw
+//! integers through `Input::I16` / `Input::U8`), and also runs [`kinglet_runtime::Model::classify`];
+//! its class is that of the chosen [`Entry`]. The float model is always `infer` on the same
+//! values as f32.
+//!
 //! Rows are independent, so they run in parallel (rayon); each row's result depends only on
 //! the row, results are collected in row order, and every sum over rows is taken afterwards in
 //! row order — so a parallel run gives exactly the numbers of a serial one.
@@ -13,15 +18,20 @@ use rayon::prelude::*;
 
 use super::fidelity::Energy;
 use super::pair::ModelPair;
-use crate::dataset::Dataset;
+use crate::dataset::{Dataset, IntegerValues};
+use crate::score::feed::{input_at, Entry, Feed};
 
 /// What one row gave.
 #[derive(Debug, Clone, PartialEq)]
 pub struct RowOutcome {
     /// Class the float model predicts.
     pub float_class: usize,
-    /// Class the int8 model predicts.
+    /// Class the int8 model predicts through the chosen entry point.
     pub int8_class: usize,
+    /// The int8 model's `infer` class.
+    pub int8_infer_class: usize,
+    /// The int8 model's `classify` class.
+    pub int8_classify_class: usize,
     /// The float model's scores.
     pub float_scores: Vec<f32>,
     /// The int8 model's scores.
@@ -87,11 +97,36 @@ struct RowFailure {
     error: RunError,
 }
 
+/// The rows as the int8 blob is fed: the f32 values, or the exact integers of an integer path.
+#[derive(Debug, Clone, Copy)]
+pub struct Fed<'a> {
+    /// The rows as f32 (what the float model is fed).
+    pub data: &'a Dataset,
+    /// The exact integers the int8 blob is fed, for an integer path.
+    pub integers: Option<&'a IntegerValues>,
+    /// The entry point whose class counts for the int8 blob.
+    pub entry: Entry,
+}
+
+impl Fed<'_> {
+    /// The input type the int8 blob is fed.
+    pub fn feed(&self) -> Feed {
+        match self.integers {
+            None => Feed::F32,
+            Some(IntegerValues::I16(_)) => Feed::I16,
+            Some(IntegerValues::U8(_)) => Feed::U8,
+        }
+    }
+}
+
 fn eval_row(
     pair: &ModelPair<'_>,
-    row: &[f32],
+    fed: &Fed<'_>,
+    r: usize,
     s: &mut Scratch,
 ) -> Result<RowOutcome, (&'static str, RunError)> {
+    let row = fed.data.row(r);
+    let input = input_at(fed.data, fed.integers, r);
     let stages = &mut s.stages;
     let pf = pair
         .float
@@ -109,24 +144,29 @@ fn eval_row(
         )
         .map_err(|e| ("float", e))?;
     let mut energy = vec![Energy::default(); stages.len()];
+    let mut add_error = |st: &Stage<'_>| {
+        if let (Some(buf), Some(e)) = (stages.get(st.index), energy.get_mut(st.index)) {
+            for (i, &f) in buf.iter().enumerate() {
+                e.add(f, st.values.real(i).unwrap_or(0.0));
+            }
+        }
+    };
     let pq = pair
         .int8
-        .infer_traced(
-            Input::F32(row),
-            &mut s.arena_q,
-            &mut s.scores_q,
-            &mut |st: &Stage<'_>| {
-                if let (Some(buf), Some(e)) = (stages.get(st.index), energy.get_mut(st.index)) {
-                    for (i, &f) in buf.iter().enumerate() {
-                        e.add(f, st.values.real(i).unwrap_or(0.0));
-                    }
-                }
-            },
-        )
+        .infer_traced(input, &mut s.arena_q, &mut s.scores_q, &mut add_error)
+        .map_err(|e| ("int8", e))?;
+    let classified = pair
+        .int8
+        .classify(input, &mut s.arena_q)
         .map_err(|e| ("int8", e))?;
     Ok(RowOutcome {
         float_class: pf.class,
-        int8_class: pq.class,
+        int8_class: match fed.entry {
+            Entry::Infer => pq.class,
+            Entry::Classify => classified,
+        },
+        int8_infer_class: pq.class,
+        int8_classify_class: classified,
         float_scores: s.scores_f.clone(),
         int8_scores: s.scores_q.clone(),
         energy,
@@ -135,14 +175,14 @@ fn eval_row(
 
 fn eval_chunk(
     pair: &ModelPair<'_>,
-    data: &Dataset,
+    fed: &Fed<'_>,
     c: usize,
     s: &mut Scratch,
 ) -> Vec<Result<RowOutcome, RowFailure>> {
-    let end = data.rows.min((c + 1) * CHUNK);
+    let end = fed.data.rows.min((c + 1) * CHUNK);
     (c * CHUNK..end)
         .map(|r| {
-            eval_row(pair, data.row(r), s).map_err(|(which, error)| RowFailure {
+            eval_row(pair, fed, r, s).map_err(|(which, error)| RowFailure {
                 row: r,
                 which,
                 error,
@@ -158,10 +198,11 @@ fn eval_chunk(
 /// model that refused it; the error reported is always that of the first such row.
 pub fn evaluate(
     pair: &ModelPair<'_>,
-    data: &Dataset,
+    fed: &Fed<'_>,
     parallelism: Parallelism,
     progress: &(dyn Fn(u64) + Sync),
 ) -> Result<Vec<RowOutcome>> {
+    let data = fed.data;
     data.check_width(pair.int8.input_len())?;
     let chunks = data.rows.div_ceil(CHUNK);
     let per_chunk: Vec<Vec<Result<RowOutcome, RowFailure>>> = match parallelism {
@@ -169,7 +210,7 @@ pub fn evaluate(
             let mut s = Scratch::new(pair);
             (0..chunks)
                 .map(|c| {
-                    let r = eval_chunk(pair, data, c, &mut s);
+                    let r = eval_chunk(pair, fed, c, &mut s);
                     progress(r.len() as u64);
                     r
                 })
@@ -180,7 +221,7 @@ pub fn evaluate(
             .map_init(
                 || Scratch::new(pair),
                 |s, c| {
-                    let r = eval_chunk(pair, data, c, s);
+                    let r = eval_chunk(pair, fed, c, s);
                     progress(r.len() as u64);
                     r
                 },

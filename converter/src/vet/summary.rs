@@ -9,6 +9,7 @@ use super::run::RowOutcome;
 use super::stats::{
     mcnemar_exact, newcombe_paired, PairedCounts, INTERVAL_METHOD, TEST_METHOD, Z_95,
 };
+use crate::score::feed::{Entry, Feed};
 
 /// What the accuracy gate compares with `--max-drop`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -184,6 +185,48 @@ pub struct Predictions {
     pub max_score_diff: Vec<f64>,
 }
 
+/// The firmware path the int8 numbers were measured through.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Measured {
+    /// The input type the int8 blob was fed.
+    pub feed: Feed,
+    /// The entry point whose class counts for the int8 blob.
+    pub entry: Entry,
+    /// The int8 call, for people: `Model::classify(Input::U8)`.
+    pub int8_call: String,
+    /// The float call, for people: always `Model::infer(Input::F32)` on the same values.
+    pub float_call: String,
+}
+
+impl Measured {
+    /// The path of `feed` and `entry`.
+    pub fn new(feed: Feed, entry: Entry) -> Self {
+        Measured {
+            feed,
+            entry,
+            int8_call: format!("{}({})", entry.call_name(), feed.input_name()),
+            float_call: format!("{}({})", Entry::Infer.call_name(), Feed::F32.input_name()),
+        }
+    }
+}
+
+impl Default for Measured {
+    fn default() -> Self {
+        Measured::new(Feed::F32, Entry::Infer)
+    }
+}
+
+/// Rows where the int8 blob's `Model::infer` and `Model::classify` give different classes:
+/// `infer` takes the argmax of float scores, which rounding can tie, `classify` that of the
+/// int8 outputs.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct EntrySplit {
+    /// How many rows.
+    pub rows: u64,
+    /// Their data rows (1-based, header not counted).
+    pub data_rows: Vec<usize>,
+}
+
 /// Where the inputs came from.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Sources {
@@ -202,6 +245,8 @@ pub struct VetReport {
     pub int8_model: String,
     /// The dataset's file.
     pub data: String,
+    /// The firmware path the int8 numbers were measured through.
+    pub measured: Measured,
     /// Rows evaluated.
     pub rows: usize,
     /// Classes.
@@ -214,6 +259,8 @@ pub struct VetReport {
     pub accuracy: Option<AccuracyReport>,
     /// Top-1 agreement.
     pub agreement: AgreementReport,
+    /// Rows where the int8 blob's `infer` and `classify` differ.
+    pub entry_split: EntrySplit,
     /// Score error.
     pub score_error: ScoreError,
     /// Per-class precision and recall (when the rows have labels).
@@ -356,11 +403,13 @@ fn undefined_notes(rows: &[ClassRow], notes: &mut Vec<String>) {
     }
 }
 
-/// Builds the report from the per-row outcomes (in row order). `labels` are class indices.
+/// Builds the report from the per-row outcomes (in row order), measured through `measured`.
+/// `labels` are class indices.
 pub fn summarise(
     pair: &ModelPair<'_>,
     data_source: &str,
     sources: &Sources,
+    measured: &Measured,
     outcomes: &[RowOutcome],
     labels: Option<&[usize]>,
     criteria: &Criteria,
@@ -396,6 +445,17 @@ pub fn summarise(
         rows,
         rate: ratio(agree, rows),
         disagreements,
+    };
+
+    let split: Vec<usize> = outcomes
+        .iter()
+        .enumerate()
+        .filter(|(_, o)| o.int8_infer_class != o.int8_classify_class)
+        .map(|(i, _)| i + 1)
+        .collect();
+    let entry_split = EntrySplit {
+        rows: split.len() as u64,
+        data_rows: split,
     };
 
     let (mut sum_abs, mut count) = (0.0f64, 0u64);
@@ -469,12 +529,14 @@ pub fn summarise(
         float_model: sources.float_model.clone(),
         int8_model: sources.int8_model.clone(),
         data: data_source.to_string(),
+        measured: measured.clone(),
         rows: outcomes.len(),
         classes,
         class_names,
         output: output_name(pair.int8.desc().output).to_string(),
         accuracy,
         agreement,
+        entry_split,
         score_error,
         per_class,
         confusion,

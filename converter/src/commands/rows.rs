@@ -1,0 +1,86 @@
+//! What `vet` and `score` share: the CSV header choice, the input path and entry point the
+//! firmware uses, and loading rows for that path with the options' names in the errors.
+use anyhow::Result;
+use kinglet_converter::dataset::{DatasetError, LabelColumn, LoadOptions};
+use kinglet_converter::score::{load_rows, Entry, Feed, Rows};
+use std::path::PathBuf;
+
+/// Whether the CSV's first row is a header.
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+pub enum Header {
+    /// Detect: a header when a field of the first row is not a number.
+    Auto,
+    /// The first row is a header.
+    Yes,
+    /// There is no header.
+    No,
+}
+
+/// The runtime input type the rows go through.
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+pub enum FeedArg {
+    /// Float features, `Input::F32`.
+    F32,
+    /// Raw signed 16-bit counts, `Input::I16`: every value a whole number from -32768 to 32767.
+    I16,
+    /// Raw bytes such as pixels, `Input::U8`: every value a whole number from 0 to 255.
+    U8,
+}
+
+impl From<FeedArg> for Feed {
+    fn from(f: FeedArg) -> Self {
+        match f {
+            FeedArg::F32 => Feed::F32,
+            FeedArg::I16 => Feed::I16,
+            FeedArg::U8 => Feed::U8,
+        }
+    }
+}
+
+/// The runtime entry point that gives the class.
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+pub enum EntryArg {
+    /// `Model::infer`: scores, and the argmax of the scores.
+    Infer,
+    /// `Model::classify`: the class alone (integer argmax of the int8 outputs).
+    Classify,
+}
+
+impl From<EntryArg> for Entry {
+    fn from(e: EntryArg) -> Self {
+        match e {
+            EntryArg::Infer => Entry::Infer,
+            EntryArg::Classify => Entry::Classify,
+        }
+    }
+}
+
+/// Where the rows are and how to read them.
+pub struct RowSource<'a> {
+    pub data: &'a PathBuf,
+    pub label: &'a Option<LabelColumn>,
+    pub label_file: &'a Option<PathBuf>,
+    pub header: Header,
+    pub feed: FeedArg,
+}
+
+/// Loads the rows for the chosen input type.
+pub fn load(s: &RowSource<'_>) -> Result<Rows> {
+    let has_header = match s.header {
+        Header::Auto => None,
+        Header::Yes => Some(true),
+        Header::No => Some(false),
+    };
+    let opts = LoadOptions {
+        label: s.label.clone(),
+        has_header,
+        label_file: s.label_file.clone(),
+    };
+    load_rows(s.data, &opts, s.feed.into()).map_err(|e| match e {
+        DatasetError::LabelColumnForNpy { .. } => anyhow::Error::new(e).context(
+            "--label names a CSV column (for .npy features give --label-file <labels.npy>)",
+        ),
+        DatasetError::LabelFileForCsv { .. } => anyhow::Error::new(e).context("--label-file"),
+        e => e.into(),
+    })
+}
