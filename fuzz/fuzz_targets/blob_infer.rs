@@ -1,11 +1,11 @@
 //! Target 1: arbitrary bytes as a blob, run with arbitrary inputs, arena and score sizes.
 //!
 //! Input layout: `flags, arena_lo, arena_hi, kind, scores, count, vlen_lo, vlen_hi`, then
-//! `vlen` bytes of input values, then the blob. Flag bit 0 reseals the header (total length and
-//! CRC made right, so byte mutations reach the layer table), bit 1 uses the model's own arena
-//! size, bit 2 its own score count, bit 3 runs the extreme inputs too, bit 4 renders the
-//! `kinglet inspect` report. `count` 0 means the model's input width; the value bytes are
-//! repeated to fill the input.
+//! `vlen` bytes of input values, then the blob. Flag bit 0 reseals the header (magic, flags,
+//! total length and CRC made right, version and arena field kept, so byte mutations reach the
+//! layer table), bit 1 uses the model's own arena size, bit 2 its own score count, bit 3 runs
+//! the extreme inputs too, bit 4 renders the `kinglet inspect` report. `count` 0 means the
+//! model's input width; the value bytes are repeated to fill the input.
 #![no_main]
 use kinglet_fuzz::oracle;
 use kinglet_runtime::Model;
@@ -22,9 +22,12 @@ fuzz_target!(|data: &[u8]| {
     let (values, blob) = rest.split_at(vlen);
     let mut blob = blob.to_vec();
     if flags & 1 != 0 {
+        // The version stays: it must be the one the table needs, which only the reader knows.
+        let at = kinglet_runtime::header::offset::VERSION;
+        let version = blob.get(at..at + 2).map_or(0, |v| u16::from_le_bytes([v[0], v[1]]));
         let arena = kinglet_runtime::arena_bytes(&blob) as u32;
         // Shorter than a header: left as it is.
-        let _ = kinglet_builder::seal(&mut blob, kinglet_runtime::FORMAT_VERSION, arena);
+        let _ = kinglet_builder::seal(&mut blob, version, arena);
     }
     let Ok(model) = Model::parse(&blob) else {
         return;

@@ -58,6 +58,15 @@ pub enum FormatError {
         /// The version in the header.
         found: u16,
     },
+    /// The header's version is not the one the layer table needs: every blob carries the lowest
+    /// version that holds it (`FORMAT.md` §2), so the version field is checked as strictly as
+    /// the bytes the CRC covers.
+    VersionMismatch {
+        /// The version in the header.
+        header: u16,
+        /// The version the layer table needs.
+        body: u16,
+    },
     /// Reserved header flags are set.
     ReservedFlags,
     /// More bytes were given than the header's total length.
@@ -183,6 +192,10 @@ impl fmt::Display for FormatError {
                 "model format version {found} is not supported (this reader accepts versions {} to {})",
                 crate::header::OLDEST_VERSION,
                 crate::header::FORMAT_VERSION
+            ),
+            VersionMismatch { header, body } => write!(
+                f,
+                "the header says format version {header}, but the layer table is version {body} (a blob carries exactly the version its table needs)"
             ),
             ReservedFlags => f.write_str("reserved header flags are set"),
             LengthMismatch { header, got } => write!(

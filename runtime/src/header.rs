@@ -8,11 +8,14 @@ pub const MAGIC: [u8; 4] = *b"KGLT";
 pub const FORMAT_VERSION: u16 = 2;
 
 /// The oldest format version this reader accepts. Version 1 is version 2 without the
-/// `Blocked4x4` weight layout; writers emit the lowest version that holds the blob.
+/// `Blocked4x4` weight layout; a blob carries exactly the lowest version that holds it
+/// ([`version_for`]), which writers emit and the reader requires.
 pub const OLDEST_VERSION: u16 = 1;
 
-/// The version a writer puts on a blob with this layer table: 2 if any layer uses the
-/// `Blocked4x4` layout, else 1 (so readers of version 1 still read it).
+/// The version a blob with this layer table carries: 2 if any layer uses the `Blocked4x4`
+/// layout, else 1 (so readers of version 1 still read it). Writers put it in the header and
+/// `Model::parse` rejects any other (`FormatError::VersionMismatch`): the CRC does not cover
+/// the version field, this rule protects it.
 pub fn version_for(desc: &crate::format::ModelDesc<'_>) -> u16 {
     version_for_layers(&desc.layers)
 }
@@ -59,7 +62,7 @@ pub const CHECKSUM: crc::Crc<u32> = crc::Crc::<u32>::new(&crc::CRC_32_ISO_HDLC);
 pub struct Header {
     /// Format version.
     pub version: u16,
-    /// Reserved flags; must be zero in version 1.
+    /// Reserved flags; must be zero.
     pub flags: u16,
     /// Length of the whole blob, header included.
     pub total_len: u32,

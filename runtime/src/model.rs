@@ -94,9 +94,13 @@ impl<'a> Model<'a> {
         if !rest.is_empty() {
             return Err(FormatError::TrailingBytes);
         }
-        if header.version < crate::header::version_for(&desc) {
-            return Err(FormatError::UnsupportedVersion {
-                found: header.version,
+        // The version field is outside the CRC; holding it to the one value the table allows
+        // protects it all the same (`FORMAT.md` §2).
+        let body_version = crate::header::version_for(&desc);
+        if header.version != body_version {
+            return Err(FormatError::VersionMismatch {
+                header: header.version,
+                body: body_version,
             });
         }
         let plan = validate::check(&desc)?;

@@ -609,7 +609,7 @@ mod tests {
         );
         assert_eq!(
             err(blocked_blob(0, 1, |_| {})),
-            Err(E::UnsupportedVersion { found: 1 }),
+            Err(E::VersionMismatch { header: 1, body: 2 }),
             "Blocked4x4 needs version 2"
         );
     }

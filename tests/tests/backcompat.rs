@@ -1,6 +1,10 @@
 //! Blobs written by earlier versions of the packer stay readable (FORMAT.md: stability rule).
-//! `tests/fixtures/blobs/v1-*.kgl` were packed at format version 1 and are never regenerated;
-//! a reader change that rejects them, or changes their predictions, fails here.
+//! `tests/fixtures/blobs/v1-*.kgl` were packed at format version 1 (output-major weights) and
+//! `v2-vibration-int8.kgl` at version 2 (Blocked4x4 weights), by
+//! `kinglet pack examples/vibration/model.onnx --calibration examples/vibration/calibration.csv`
+//! at the commit that added it; none is ever regenerated. A reader change that rejects them, or
+//! changes their predictions, fails here; `runtime/tests/fixture_bytes.rs` checks that every
+//! single-byte change of each is rejected.
 use kinglet_converter::dataset::{load_csv, CsvOptions, LabelColumn};
 use kinglet_runtime::{Model, Precision};
 use kinglet_tests::{path, run};
@@ -37,10 +41,32 @@ fn version_1_vibration_f32_blob_still_reads_and_predicts() {
         m.labels().collect::<Vec<_>>(),
         ["normal", "imbalance", "bearing_wear", "loose_mount"]
     );
+    let right = vibration_right(&m);
+    assert!(right >= 585, "{right}/600");
+}
+
+/// Held-out vibration rows `m` labels right (of 600).
+fn vibration_right(m: &Model<'_>) -> usize {
     let data = heldout("vibration");
     let labels = data.labels.as_ref().unwrap();
-    let right = (0..data.rows)
-        .filter(|&r| m.label(run(&m, data.row(r)).0) == Some(labels[r].as_str()))
-        .count();
+    (0..data.rows)
+        .filter(|&r| m.label(run(m, data.row(r)).0) == Some(labels[r].as_str()))
+        .count()
+}
+
+#[test]
+fn version_2_vibration_int8_blob_still_reads_and_predicts() {
+    let blob = std::fs::read(path("tests/fixtures/blobs/v2-vibration-int8.kgl")).unwrap();
+    assert_eq!(u16::from_le_bytes([blob[4], blob[5]]), 2);
+    let m = Model::parse(&blob).unwrap();
+    assert_eq!(
+        (m.precision(), m.input_len(), m.classes()),
+        (Precision::Int8, 15, 4)
+    );
+    assert!(m
+        .layers()
+        .all(|l| l.desc.layout == kinglet_runtime::format::WeightLayout::Blocked4x4));
+    let right = vibration_right(&m);
+    // 590 of 600 when the fixture was made.
     assert!(right >= 585, "{right}/600");
 }

@@ -6,7 +6,7 @@
 //! The blobs start from a real pack of `examples/vibration` (15 → 24 → 12 → 4, int8 and f32)
 //! and are edited field by field, then written without validation (`kinglet_builder::raw_blob`)
 //! behind a correct header (length and CRC), so each reaches exactly the rule it is about.
-use kinglet_builder::{le, planned_arena, raw_blob, raw_blob_with_layers, OwnedLayer};
+use kinglet_builder::{le, planned_arena, raw_blob, raw_blob_with_layers, OwnedLayer, OwnedModel};
 use kinglet_converter::dataset::{load_csv, CsvOptions};
 use kinglet_converter::graph::{DenseLayer, FloatModel};
 use kinglet_converter::import::onnx::import_onnx_file;
@@ -600,6 +600,25 @@ fn r24_more_layers_than_the_format_holds() {
         e,
         "the model has 9 dense layers; the format holds at most 8"
     );
+}
+
+#[test]
+fn r34_header_version_not_the_tables() {
+    // The CRC does not cover the version field; the reader holds it to the table's version.
+    // The vibration pack with output-major weights is a version-1 blob: relabelled version 2.
+    let table = OwnedModel::from_desc(Model::parse(int8_blob()).unwrap().desc());
+    let mut b = table.encode_in(WeightLayout::OutputMajor).unwrap();
+    assert_eq!(b[VERSION], 1);
+    b[VERSION] = 2;
+    assert_eq!(
+        rejects(&b, FormatError::VersionMismatch { header: 2, body: 1 }),
+        "the header says format version 2, but the layer table is version 1 (a blob carries exactly the version its table needs)"
+    );
+    // The Blocked4x4 pack is version 2: relabelled version 1.
+    let mut b = int8_blob().to_vec();
+    assert_eq!(b[VERSION], 2);
+    b[VERSION] = 1;
+    rejects(&b, FormatError::VersionMismatch { header: 1, body: 2 });
 }
 
 fn run(
