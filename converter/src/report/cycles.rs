@@ -50,15 +50,15 @@ pub const INT8: [Rates; 2] = [
     },
 ];
 
-/// f32 models: the Cortex-M4F FPU kernel (the M0 has no FPU; soft-float is not estimated).
-/// Per MAC and per row fitted to the f32 784×100 and 64×32 layers; the benchmark has no whole
-/// f32 model case, so per input, per class and the fixed part are held.
+/// f32 models: the Cortex-M4F FPU kernel (the M0 has no FPU; soft-float is not estimated),
+/// fitted the same way to the f32 layers and the f32 digits and vibration models. Whole − Σ
+/// layers: 3580 and 1207.
 pub const F32: [Rates; 1] = [Rates {
     target: "Cortex-M4F (FPU)",
     per_mac: 1.25,
     per_row: 53.0,
-    per_input: 73.0,
-    per_class: 93.0,
+    per_input: 38.0,
+    per_class: 83.0,
     fixed: 300.0,
 }];
 // kb-harness:end rates

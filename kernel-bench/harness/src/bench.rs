@@ -106,10 +106,9 @@ impl Run {
             .map(|c| c.count as f64 / c.macs.max(1) as f64)
     }
 
-    /// Whole inference of `model` (kernel): (portable, whole, Σ layers, whole / Σ layers).
-    pub fn model_ratio(&self, model: &str) -> Option<(u64, u64, u64, f64)> {
+    /// Whole inference of `model` (kernel) and the sum of its layers alone (`MODEL-L1`, ...).
+    pub fn whole_and_layers(&self, model: &str) -> Option<(u64, u64)> {
         let whole = self.case(model, "model-kernel")?.count;
-        let portable = self.case(model, "model-portable")?.count;
         let prefix = format!("{model}-L");
         let layers: u64 = self
             .cases
@@ -117,6 +116,13 @@ impl Run {
             .filter(|c| c.name.starts_with(&prefix))
             .map(|c| c.count)
             .sum();
+        Some((whole, layers))
+    }
+
+    /// Whole inference of `model` (kernel): (portable, whole, Σ layers, whole / Σ layers).
+    pub fn model_ratio(&self, model: &str) -> Option<(u64, u64, u64, f64)> {
+        let (whole, layers) = self.whole_and_layers(model)?;
+        let portable = self.case(model, "model-portable")?.count;
         Some((portable, whole, layers, whole as f64 / layers.max(1) as f64))
     }
 }

@@ -44,6 +44,18 @@ fn region(text: &str, file: &str, name: &str) -> Result<std::ops::Range<usize>, 
     Ok(start..start + len)
 }
 
+/// Bytes of the number `text` starts with: an optional `-`, digits, and a fraction only where
+/// a digit follows the point (so a sentence's full stop is not taken in).
+fn number_len(text: &str) -> usize {
+    let b = text.as_bytes();
+    let digits = |from: usize| from + b[from..].iter().take_while(|c| c.is_ascii_digit()).count();
+    let mut end = digits(usize::from(b.first() == Some(&b'-')));
+    if b.get(end) == Some(&b'.') && b.get(end + 1).is_some_and(u8::is_ascii_digit) {
+        end = digits(end + 1);
+    }
+    end
+}
+
 /// Where `marked` (fresh, with approximate numbers) and `recorded` first disagree: `None` when
 /// every word and exact number is the same and every approximate number is within
 /// [`MARGIN`] of the fresh one.
@@ -72,9 +84,7 @@ pub fn disagreement(marked: &str, recorded: &str) -> Option<usize> {
         }
         at += text.len();
         if let Some(fresh) = approx {
-            let len = recorded[at..]
-                .find(|c: char| !(c.is_ascii_digit() || c == '.' || c == '-'))
-                .unwrap_or(recorded.len() - at);
+            let len = number_len(&recorded[at..]);
             let got = recorded[at..at + len].parse::<f64>().ok();
             let want = fresh.parse::<f64>().ok();
             match (got, want) {
@@ -169,6 +179,9 @@ mod tests {
         assert_eq!(disagreement(&fresh, "| m4 | 1000 | 8133 |\n"), Some(17));
         assert_eq!(disagreement(&fresh, "| m4 | 1000 | 8132 |\nmore"), Some(21));
         assert_eq!(disagreement(&fresh, "| m4 | - | 8132 |\n"), Some(7));
+        let sentence = format!("layers: {} and {}.\n", approx(3580), approx("1.25"));
+        assert_eq!(disagreement(&sentence, "layers: 3580 and 1.25.\n"), None);
+        assert_eq!(disagreement(&sentence, "layers: 3580 and 1.5.\n"), Some(17));
     }
 
     #[test]

@@ -128,7 +128,7 @@ fn run(p: &Paths, mode: Mode) -> Result<(), String> {
         .iter()
         .find(|t| t.bench.kernel == "dsp")
         .ok_or("no Cortex-M4F run")?;
-    let f32_rates = rates::f32(fpu)?;
+    let f32_rates = rates::f32(fpu, shapes)?;
     let results = render::results(&targets);
     let footprint = render::footprint(&targets);
     println!(
@@ -200,10 +200,11 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
     blobs::synth(dir)?;
     let kinglet = p.root_target.join("release/kinglet");
     let ex = p.root.join("examples");
-    let packs: [(&str, &[&str]); 3] = [
+    let packs: [(&str, &[&str]); 4] = [
         ("digits", &["--calibration", "digits/calibration.csv"]),
         ("vibration", &["--calibration", "vibration/calibration.csv"]),
         ("digits_float", &["--float"]),
+        ("vibration_float", &["--float"]),
     ];
     for (name, opts) in packs {
         let model = name.split('_').next().unwrap_or(name);
@@ -220,6 +221,7 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
     let shape = |name: &str| -> Result<(usize, usize), String> {
         let path = blobs.join(format!("{name}.kgl"));
         let bytes = std::fs::read(&path).map_err(|e| format!("{}: {e}", path.display()))?;
+        // The output-major twin, the baseline of the int8 whole-model cases.
         blobs::twin_file(
             &path.display().to_string(),
             &blobs.join(format!("{name}.om.kgl")).display().to_string(),
@@ -301,22 +303,19 @@ fn measure(p: &Paths, m: &Machine, blobs: &Path, plugin: &Path) -> Result<Target
         m.name, m.machine
     ));
     let bin = p.out.join(m.triple).join("release");
-    let (log, counts) = (
-        p.out.join(format!("{}.log", m.name)),
-        p.out.join(format!("{}.counts", m.name)),
-    );
-    let _ = std::fs::remove_file(&counts);
-    let plugin_arg = format!("{},out={}", plugin.display(), counts.display());
-    let out = steps::run(
-        &format!("the {} benchmark firmware", m.name),
-        &mut steps::qemu(m, &bin.join("bench"), &["-plugin", &plugin_arg]),
-    )?;
-    std::fs::write(&log, &out).map_err(|e| format!("{}: {e}", log.display()))?;
-    let log_text = String::from_utf8_lossy(&out).into_owned();
+    let (log_text, counts) = counted(m, &bin, "bench", plugin, &p.out)?;
     for l in log_text.lines().filter(|l| l.starts_with("selfcheck:")) {
         println!("{} {l}", m.name);
     }
-    let bench = bench::parse(&format!("{} bench", m.name), &log_text, &read(&counts)?)?;
+    let mut bench = bench::parse(&format!("{} bench", m.name), &log_text, &counts)?;
+    if m.triple.starts_with("thumbv7em") {
+        // The f32 whole-model cases, a firmware of their own (see `fw/src/bin/bench_f32.rs`).
+        let (log_text, counts) = counted(m, &bin, "bench_f32", plugin, &p.out)?;
+        let f32_run = bench::parse(&format!("{} bench_f32", m.name), &log_text, &counts)?;
+        bench
+            .cases
+            .extend(f32_run.cases.into_iter().filter(|c| c.name != "empty"));
+    }
 
     step(&format!(
         "{}: the stack probe under a QEMU register trace",
@@ -338,6 +337,32 @@ fn measure(p: &Paths, m: &Machine, blobs: &Path, plugin: &Path) -> Result<Target
         footprint_text: fw_rt.text()?.saturating_sub(fw_base.text()?),
         footprint_rodata,
     })
+}
+
+/// Runs firmware `name` under QEMU with the counting plugin; returns its output and the
+/// plugin's counts (both also kept in the target directory as `M.NAME.log`, `M.NAME.counts`).
+fn counted(
+    m: &Machine,
+    bin: &Path,
+    name: &str,
+    plugin: &Path,
+    out: &Path,
+) -> Result<(String, String), String> {
+    let (log, counts) = (
+        out.join(format!("{}.{name}.log", m.name)),
+        out.join(format!("{}.{name}.counts", m.name)),
+    );
+    let _ = std::fs::remove_file(&counts);
+    let plugin_arg = format!("{},out={}", plugin.display(), counts.display());
+    let stdout = steps::run(
+        &format!("the {} {name} firmware", m.name),
+        &mut steps::qemu(m, &bin.join(name), &["-plugin", &plugin_arg]),
+    )?;
+    std::fs::write(&log, &stdout).map_err(|e| format!("{}: {e}", log.display()))?;
+    Ok((
+        String::from_utf8_lossy(&stdout).into_owned(),
+        read(&counts)?,
+    ))
 }
 
 /// Runs the stack probe with QEMU's register log on its standard error, one dump per

@@ -55,20 +55,20 @@ fn round2(v: f64) -> f64 {
     (v * 100.0).round() / 100.0
 }
 
-/// The int8 rates of one target: per MAC and per row from the two synthetic layers, per input
-/// and per class from the two whole-model counts (f32 features in) less their layers, with
-/// the fixed part held (it cannot be told apart from the other two with two models).
-pub fn int8(t: &Target, shapes: Shapes) -> Result<Rates, String> {
-    let (per_mac, per_row) = layer_rates(t, "i8")?;
-    let (target, fixed) = if t.bench.kernel == "dsp" {
-        ("Cortex-M4 (DSP)", 300.0)
-    } else {
-        ("Cortex-M0", 1000.0)
-    };
+/// Per input and per class from the whole − Σ layers of the two example models (`suffix`
+/// names their cases: `""` int8, `"-f32"` f32), with the fixed part held: it cannot be told
+/// apart from the other two with two models.
+fn model_rates(
+    t: &Target,
+    shapes: Shapes,
+    suffix: &str,
+    fixed: f64,
+) -> Result<(f64, f64, (u64, u64)), String> {
     let overhead = |m: &str| {
+        let m = format!("{m}{suffix}");
         t.bench
-            .model_ratio(m)
-            .map(|(_, whole, layers, _)| whole.saturating_sub(layers))
+            .whole_and_layers(&m)
+            .map(|(whole, layers)| whole.saturating_sub(layers))
             .ok_or(format!("{}: no {m} whole-model count", t.name))
     };
     let (od, ov) = (overhead("digits")?, overhead("vibration")?);
@@ -81,6 +81,19 @@ pub fn int8(t: &Target, shapes: Shapes) -> Result<Rates, String> {
         vc as f64,
         ov as f64 - fixed,
     )?;
+    Ok((per_input, per_class, (od, ov)))
+}
+
+/// The int8 rates of one target: per MAC and per row from the two synthetic layers, per input
+/// and per class from the two whole-model counts (f32 features in) less their layers.
+pub fn int8(t: &Target, shapes: Shapes) -> Result<Rates, String> {
+    let (per_mac, per_row) = layer_rates(t, "i8")?;
+    let (target, fixed) = if t.bench.kernel == "dsp" {
+        ("Cortex-M4 (DSP)", 300.0)
+    } else {
+        ("Cortex-M0", 1000.0)
+    };
+    let (per_input, per_class, overheads) = model_rates(t, shapes, "", fixed)?;
     Ok(Rates {
         target,
         per_mac: round2(per_mac),
@@ -88,23 +101,24 @@ pub fn int8(t: &Target, shapes: Shapes) -> Result<Rates, String> {
         per_input: per_input.round(),
         per_class: per_class.round(),
         fixed,
-        overheads: Some((od, ov)),
+        overheads: Some(overheads),
     })
 }
 
-/// The f32 rates of the FPU target: per MAC and per row fitted like int8. The benchmark has
-/// no whole f32 model case, so per input, per class and the fixed part are held at the values
-/// an earlier fit gave.
-pub fn f32(t: &Target) -> Result<Rates, String> {
+/// The f32 rates of the FPU target, fitted like int8 to the f32 layers and the f32 twins of
+/// the two example models.
+pub fn f32(t: &Target, shapes: Shapes) -> Result<Rates, String> {
     let (per_mac, per_row) = layer_rates(t, "f32")?;
+    let fixed = 300.0;
+    let (per_input, per_class, overheads) = model_rates(t, shapes, "-f32", fixed)?;
     Ok(Rates {
         target: "Cortex-M4F (FPU)",
         per_mac: round2(per_mac),
         per_row: per_row.round(),
-        per_input: 73.0,
-        per_class: 93.0,
-        fixed: 300.0,
-        overheads: None,
+        per_input: per_input.round(),
+        per_class: per_class.round(),
+        fixed,
+        overheads: Some(overheads),
     })
 }
 

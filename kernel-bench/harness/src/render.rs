@@ -92,6 +92,36 @@ pub fn results(targets: &[Target]) -> String {
     }
     w!(
         s,
+        "\nWhole f32 inference (the f32 twins of the two models, f32 features), instructions:\n"
+    );
+    w!(
+        s,
+        "| model | target | MACs | whole | instr/MAC | Σ dense layers | whole / Σ layers |"
+    );
+    w!(s, "|---|---|---:|---:|---:|---:|---:|");
+    for model in ["digits-f32", "vibration-f32"] {
+        for t in targets {
+            let (Some((whole, layers)), Some(c)) = (
+                t.bench.whole_and_layers(model),
+                t.bench.case(model, "model-kernel"),
+            ) else {
+                continue;
+            };
+            w!(
+                s,
+                "| {} | {} | {} | {} | {} | {} | {} |",
+                model.trim_end_matches("-f32"),
+                t.name,
+                c.macs,
+                approx(whole),
+                approx(format!("{:.2}", whole as f64 / c.macs.max(1) as f64)),
+                approx(layers),
+                approx(format!("{:.3}", whole as f64 / layers.max(1) as f64))
+            );
+        }
+    }
+    w!(
+        s,
         "\nInteger input path (the same features as `i16` counts), instructions:\n"
     );
     w!(s, "| model | target | `infer` | `classify` | Σ dense layers | `infer` / Σ layers | `classify` / Σ layers |");
@@ -324,12 +354,10 @@ pub fn rates(int8: &[Rates], f32: &Rates) -> String {
     }
     w!(s, "];");
     w!(s, "");
-    w!(s, "/// f32 models: the Cortex-M4F FPU kernel (the M0 has no FPU; soft-float is not estimated).");
-    w!(s, "/// Per MAC and per row fitted to the f32 784×100 and 64×32 layers; the benchmark has no whole");
-    w!(
-        s,
-        "/// f32 model case, so per input, per class and the fixed part are held."
-    );
+    let (d, v) = f32.overheads.unwrap_or_default();
+    w!(s, "/// f32 models: the Cortex-M4F FPU kernel (the M0 has no FPU; soft-float is not estimated),");
+    w!(s, "/// fitted the same way to the f32 layers and the f32 digits and vibration models. Whole − Σ");
+    w!(s, "/// layers: {} and {}.", approx(d), approx(v));
     w!(s, "pub const F32: [Rates; 1] = [Rates {{");
     rates_literal(&mut s, f32, "");
     w!(s, "}}];");
