@@ -2,7 +2,8 @@
 # Firmware example under QEMU, on Cortex-M4F (mps2-an386) and Cortex-M0 (microbit).
 #
 #   bash scripts/firmware.sh                  everything below; exits non-zero on any failure
-#   bash scripts/firmware.sh --write-measured also rewrites converter/src/fit/measured.rs
+#   bash scripts/firmware.sh --write-measured the same as `bash scripts/kernel-bench.sh --write`
+#                                             (the measurement harness writes measured.rs)
 #
 # 1. host: unit tests of the firmware's no_std crates (features, KLA-3 driver, vectors) and the
 #    host side of the bit-exact vectors (tests/tests/firmware_vectors.rs);
@@ -10,7 +11,8 @@
 # 3. per target: build, then run under QEMU: selftest (kernel tests, must report 0 failed),
 #    vectors (every line must equal tests/fixtures/vectors/*.txt, bit for bit), classify (the
 #    demo), fault_check (a fault must fail the run at once);
-# 4. code size and stack of the runtime per target, compared with converter/src/fit/measured.rs;
+# 4. the flash and RAM of the binaries per target (the runtime's own code size and stack, and
+#    converter/src/fit/measured.rs, are the measurement harness's: scripts/kernel-bench.sh);
 # 5. the build-time model budget: passes as configured, fails with a clear message when
 #    KINGLET_RAM_BUDGET / KINGLET_FLASH_BUDGET are set too small; the defmt feature builds.
 #
@@ -18,8 +20,9 @@
 set -euo pipefail
 root="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 fw="$root/firmware-example"
-write_measured=0
-[[ "${1:-}" == "--write-measured" ]] && write_measured=1
+if [[ "${1:-}" == "--write-measured" ]]; then
+  exec bash "$root/scripts/kernel-bench.sh" --write
+fi
 targets=(thumbv7em-none-eabihf thumbv6m-none-eabi)
 host="$(rustc -vV | sed -n 's/^host: //p')"
 # The firmware workspace has its own target directory (firmware-example/target) unless
@@ -80,7 +83,6 @@ run() {
 
 section() { llvm-size -A "$1" | awk -v s="$2" '$1 == s { print $2 }'; }
 
-declare -A measured
 for t in "${targets[@]}"; do
   step "$t: build"
   # Not quiet: the build script's budget report comes as cargo warnings.
@@ -117,19 +119,8 @@ for t in "${targets[@]}"; do
   grep -q '^HARDFAULT' "$work/fault-$t.txt" || fail "$t: no HARDFAULT report"
   (( $(date +%s) - start < 15 )) || fail "$t: fault took too long to end the run"
 
-  step "$t: runtime code size and stack"
+  step "$t: flash and RAM"
   run "$t" size_runtime "$work/size-$t.txt" || fail "$t: size_runtime"
-  cat "$work/size-$t.txt"
-  base="$fw_target/$t/release/size_base"; rt="$fw_target/$t/release/size_runtime"
-  text=$(( $(section "$rt" .text) - $(section "$base" .text) ))
-  blob=$(stat -c %s "$fw/models/digits.kgl")
-  rodata=$(( $(section "$rt" .rodata) - $(section "$base" .rodata) - blob ))
-  parse=$(sed -n 's/.*parse=\([0-9]*\).*/\1/p' "$work/size-$t.txt")
-  infer=$( { sed -n 's/.* u8=\([0-9]*\) f32=\([0-9]*\) i16=\([0-9]*\).*/\1\n\2\n\3/p' "$work/size-$t.txt";
-             sed -n 's/^stack .* infer=\([0-9]*\)$/\1/p' "$work/vectors-$t.txt"; } | sort -n | tail -1)
-  model_struct=$(sed -n 's/.*model_struct=\([0-9]*\).*/\1/p' "$work/size-$t.txt")
-  echo "runtime .text $text bytes, .rodata $rodata bytes (blob excluded); stack: parse $parse, inference $infer bytes; Model value $model_struct bytes"
-  measured[$t]="$text $rodata $parse $infer $model_struct"
   for bin in classify vectors selftest; do
     printf '  %-9s flash %7d bytes (.text %d, .rodata %d), RAM .bss %d bytes\n' "$bin" \
       $(( $(section "$fw_target/$t/release/$bin" .vector_table) + $(section "$fw_target/$t/release/$bin" .text) + $(section "$fw_target/$t/release/$bin" .rodata) )) \
@@ -137,71 +128,6 @@ for t in "${targets[@]}"; do
       "$(section "$fw_target/$t/release/$bin" .bss)"
   done
 done
-
-step "runtime measurements vs converter/src/fit/measured.rs"
-measured_rs="$root/converter/src/fit/measured.rs"
-if [[ -n "${measured[thumbv6m-none-eabi]:-}" && -n "${measured[thumbv7em-none-eabihf]:-}" ]]; then
-  read -r m0_text m0_rodata m0_parse m0_infer m0_model <<<"${measured[thumbv6m-none-eabi]}"
-  read -r m4_text m4_rodata m4_parse m4_infer m4_model <<<"${measured[thumbv7em-none-eabihf]}"
-  if (( write_measured )); then
-    cat >"$measured_rs" <<RS
-//! Runtime footprint measured on the example firmware (generated; do not edit by hand).
-//!
-//! Reproduce: \`bash scripts/firmware.sh --write-measured\` ($(rustc --version | cut -d' ' -f1-2),
-//! release profile of \`firmware-example/\`: opt-level "s", fat LTO, one codegen unit).
-//! Code: \`.text\` and \`.rodata\` of the \`size_runtime\` firmware (parse + one inference per
-//! input path) minus those of \`size_base\` (same start-up and console, no runtime), with the
-//! embedded blob taken out of \`.rodata\`. Stack: peak bytes found by painting the stack below
-//! the stack pointer and scanning after the call (\`firmware-example/src/stack.rs\`), under
-//! QEMU; \`stack_infer\` is the largest of the measured inferences (digits int8 through the
-//! u8/i16/f32 paths, the f32 digits model).
-use super::Measured;
-
-/// Cortex-M0 / M0+ (\`thumbv6m-none-eabi\`, no FPU: float is software).
-pub const CORTEX_M0: Measured = Measured {
-    target: "thumbv6m-none-eabi",
-    runtime_text: $m0_text,
-    runtime_rodata: $m0_rodata,
-    stack_parse: $m0_parse,
-    stack_infer: $m0_infer,
-    model_struct: $m0_model,
-};
-
-/// Cortex-M4F / M7 class (\`thumbv7em-none-eabihf\`, single-precision FPU).
-pub const CORTEX_M4F: Measured = Measured {
-    target: "thumbv7em-none-eabihf",
-    runtime_text: $m4_text,
-    runtime_rodata: $m4_rodata,
-    stack_parse: $m4_parse,
-    stack_infer: $m4_infer,
-    model_struct: $m4_model,
-};
-RS
-    echo "wrote $measured_rs"
-  elif [[ -f "$measured_rs" ]]; then
-    # The budget command must not under-count: a recorded number more than 15% below today's
-    # measurement fails; one above it (the budget is conservative) is only reported.
-    check() { # name recorded now
-      local hi=$(( $2 * 115 / 100 + 16 ))
-      if (( $3 > hi )); then
-        fail "$1: measured $3, measured.rs records only $2: run bash scripts/firmware.sh --write-measured"
-      elif (( $3 * 115 / 100 + 16 < $2 )); then
-        echo "  $1: $3, measured.rs records $2 (conservative; refresh with --write-measured)"
-      else
-        echo "  $1: $3 (recorded $2)"
-      fi
-    }
-    rec() { awk -v c="$1" -v f="$2" '$0 ~ "pub const " c ":" {on=1} on && $1 == f":" {gsub(",", "", $2); print $2; exit}' "$measured_rs"; }
-    check "M0 runtime .text" "$(rec CORTEX_M0 runtime_text)" "$m0_text"
-    check "M0 stack (parse)" "$(rec CORTEX_M0 stack_parse)" "$m0_parse"
-    check "M0 stack (inference)" "$(rec CORTEX_M0 stack_infer)" "$m0_infer"
-    check "M4F runtime .text" "$(rec CORTEX_M4F runtime_text)" "$m4_text"
-    check "M4F stack (parse)" "$(rec CORTEX_M4F stack_parse)" "$m4_parse"
-    check "M4F stack (inference)" "$(rec CORTEX_M4F stack_infer)" "$m4_infer"
-  else
-    fail "$measured_rs is missing: run bash scripts/firmware.sh --write-measured"
-  fi
-fi
 
 step "build-time model budget"
 t=thumbv6m-none-eabi

@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # A short, time-boxed run of every fuzz target in fuzz/ (libFuzzer through cargo-fuzz), from the
 # committed seeds: catches a regression that makes a target crash on known-good or near-good
-# inputs. Needs the nightly toolchain and cargo-fuzz; says SKIPPED and exits 0 without them
+# inputs. Needs the pinned nightly (scripts/nightly.sh) and cargo-fuzz; says SKIPPED and exits 0
+# without them
 # (KINGLET_FUZZ_INSTALL=1 installs cargo-fuzz first; KINGLET_REQUIRE_FUZZ=1 makes a skip an error).
 #
 #   scripts/fuzz-smoke.sh [SECONDS_PER_TARGET]    (default 10; env FUZZ_SECONDS as well)
@@ -19,8 +20,10 @@ skip() {
     exit 0
 }
 command -v rustup >/dev/null || skip "rustup not found"
-rustup toolchain list | grep -q '^nightly' || skip "no nightly toolchain (rustup toolchain install nightly)"
-if ! cargo +nightly fuzz --version >/dev/null 2>&1; then
+. scripts/nightly.sh
+nightly=$(kinglet_nightly) || skip "no nightly-$KINGLET_NIGHTLY_DATE toolchain (rustup toolchain install nightly-$KINGLET_NIGHTLY_DATE)"
+echo "fuzz-smoke: $(rustc +"$nightly" -V)"
+if ! cargo +"$nightly" fuzz --version >/dev/null 2>&1; then
     if [ "${KINGLET_FUZZ_INSTALL:-0}" = 1 ]; then
         cargo install cargo-fuzz --locked
     else
@@ -29,7 +32,7 @@ if ! cargo +nightly fuzz --version >/dev/null 2>&1; then
 fi
 export CARGO_TARGET_DIR="${CARGO_TARGET_DIR:-$PWD/target}/fuzz"
 start=$(date +%s)
-( cd fuzz && cargo +nightly fuzz build --sanitizer none --debug-assertions )
+( cd fuzz && cargo +"$nightly" fuzz build --sanitizer none --debug-assertions )
 echo "fuzz-smoke: built ${#targets[@]} targets in $(( $(date +%s) - start )) s"
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
@@ -37,7 +40,7 @@ status=0
 for t in "${targets[@]}"; do
     mkdir -p "$work/$t"
     log="$work/$t.log"
-    if ( cd fuzz && cargo +nightly fuzz run --sanitizer none --debug-assertions "$t" "$work/$t" "seeds/$t" -- \
+    if ( cd fuzz && cargo +"$nightly" fuzz run --sanitizer none --debug-assertions "$t" "$work/$t" "seeds/$t" -- \
             -max_total_time="$secs" -timeout=10 -rss_limit_mb=2048 -print_final_stats=1 \
             -artifact_prefix="$work/" ) >"$log" 2>&1; then
         runs=$(sed -n 's/^stat::number_of_executed_units: *//p' "$log" | tail -1)

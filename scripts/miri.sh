@@ -1,8 +1,8 @@
 #!/usr/bin/env bash
 # The runtime's test suite under Miri (undefined behaviour, out-of-bounds and uninitialised
-# reads, integer overflow in debug). Installs the nightly `miri` component if it is missing;
-# skips with a clear message (exit 0) when no nightly toolchain can be had, unless
-# KINGLET_REQUIRE_MIRI=1, when that is an error.
+# reads, integer overflow in debug), on the pinned nightly (scripts/nightly.sh). Installs its
+# `miri` component if it is missing; skips with a clear message (exit 0) when the toolchain or
+# the component cannot be had, unless KINGLET_REQUIRE_MIRI=1, when that is an error.
 #
 # Under Miri the proptest suites run fewer cases (PROPTEST_CASES, default 16 here), and in
 # runtime/tests/overflow.rs the 1000- and 16384-input layers are left out (`cfg(miri)`: minutes
@@ -16,16 +16,16 @@ skip() {
     exit 0
 }
 command -v rustup >/dev/null || skip "rustup not found"
-rustup toolchain list | grep -q '^nightly' || rustup toolchain install nightly --profile minimal \
-    || skip "no nightly toolchain (rustup toolchain install nightly failed)"
-if ! cargo +nightly miri --version >/dev/null 2>&1; then
-    rustup +nightly component add miri rust-src \
-        || skip "the nightly miri component could not be installed"
+. scripts/nightly.sh
+nightly=$(kinglet_nightly) || skip "no nightly-$KINGLET_NIGHTLY_DATE toolchain (rustup toolchain install nightly-$KINGLET_NIGHTLY_DATE)"
+if ! cargo +"$nightly" miri --version >/dev/null 2>&1; then
+    rustup +"$nightly" component add miri rust-src \
+        || skip "the miri component of $nightly could not be installed"
 fi
 export CARGO_TARGET_DIR="${CARGO_TARGET_DIR:-target}/miri"
 export PROPTEST_CASES="${PROPTEST_CASES:-16}"
 # Proptest's failure persistence writes files, which Miri's isolation forbids; it also needs
 # the clock for its time-outs.
 export MIRIFLAGS="${MIRIFLAGS:--Zmiri-disable-isolation}"
-cargo +nightly miri setup
-cargo +nightly miri test -p kinglet-runtime "$@"
+cargo +"$nightly" miri setup
+cargo +"$nightly" miri test -p kinglet-runtime "$@"

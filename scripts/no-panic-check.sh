@@ -2,7 +2,7 @@
 # Proves that no panic can be reached from parsing and inference in a release firmware build.
 #
 # Builds scripts/no-panic-probe (Model::parse of bytes the optimiser cannot see, then infer and
-# infer_traced with f32, i16 and u8 inputs) for thumbv6m-none-eabi (Cortex-M0+, portable
+# infer_traced with f32, i16 and u8 inputs) for thumbv6m-none-eabi (Cortex-M0+, the `asm!` M0
 # kernels) and thumbv7em-none-eabihf (Cortex-M4F, DSP kernels) with panic = "abort", LTO and a
 # panic handler that loops. Any panic path that survives optimisation keeps a call to a
 # core::panicking / slice-index / unwrap / expect symbol in the ELF; the check lists those

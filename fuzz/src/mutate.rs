@@ -307,11 +307,9 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
                 bias_at_bound(m, k, c, delta, neg);
             }
         }
-        22 => {
-            if m.layers.len() > 1 {
-                let k = u.choose_index(m.layers.len())?;
-                m.layers.remove(k);
-            }
+        22 if m.layers.len() > 1 => {
+            let k = u.choose_index(m.layers.len())?;
+            m.layers.remove(k);
         }
         23 => {
             if let Some(l) = m.layers.last().cloned() {

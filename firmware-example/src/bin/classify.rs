@@ -13,14 +13,15 @@
 //! The arena: a `static` byte array of exactly `kinglet_runtime::arena_bytes(VIBRATION)` bytes,
 //! handed out once by `cortex_m::singleton!`. That keeps it in `.bss`, where the linker counts
 //! it against RAM (an oversized model fails the link, not the run), needs no `static mut`, and
-//! keeps it off the stack so the stack measurement below is the inference's alone.
+//! keeps it off the stack. What stack the runtime itself needs is in BENCHMARKS.md (measured by
+//! `bash scripts/kernel-bench.sh`).
 #![no_std]
 #![no_main]
 
 use core::fmt::Write;
 use cortex_m_rt::entry;
 use embedded_hal::digital::StatefulOutputPin;
-use kinglet_firmware_example::{board, console, stack};
+use kinglet_firmware_example::{board, console};
 use kinglet_fw_sensor::pins::{show_class, RecordingPin};
 use kinglet_fw_sensor::replay::ReplaySource;
 use kinglet_fw_sensor::{Window, WindowSource, AXES, WINDOW};
@@ -83,13 +84,10 @@ fn classify_all<S: WindowSource, P: StatefulOutputPin>(
 ) -> bool {
     let mut window: Window = [[0; WINDOW]; AXES];
     let mut scores = [0f32; CLASSES];
-    let (mut n, mut agree, mut peak, mut same) = (0usize, 0usize, 0usize, 0usize);
+    let (mut n, mut agree, mut same) = (0usize, 0usize, 0usize);
     while source.next_window(&mut window).is_ok() {
         let features = window_features(&window);
-        let (result, used) =
-            stack::measure(|| model.infer(Input::F32(&features), arena, &mut scores));
-        peak = peak.max(used);
-        let p = match result {
+        let p = match model.infer(Input::F32(&features), arena, &mut scores) {
             Ok(p) => p,
             Err(e) => {
                 let mut l = console::LineBuf::new();
@@ -128,7 +126,7 @@ fn classify_all<S: WindowSource, P: StatefulOutputPin>(
     let mut l = console::LineBuf::new();
     let _ = write!(
         l,
-        "classify: {n} windows, {agree} agree with the recorded class; peak stack of one inference (features excluded): {peak} bytes; Model::classify gives infer's class on {same} of {n}"
+        "classify: {n} windows, {agree} agree with the recorded class; Model::classify gives infer's class on {same} of {n}"
     );
     console::line(&l);
     n > 0 && same == n

@@ -6,7 +6,7 @@
 //! format of `kinglet_fw_vectors::format_vector`, compares each line with the expected line
 //! embedded at build time from `tests/fixtures/vectors/<set>.txt`, and ends with
 //! `vectors: N passed, M failed`. `scripts/firmware.sh` also diffs the printed lines against
-//! the same files. Also prints the peak stack of one inference per set (`stack ...` lines).
+//! the same files.
 //!
 //! One arena serves every model: a `static` of `MAX_ARENA` bytes (the largest
 //! `kinglet_runtime::arena_bytes` of the embedded blobs, computed at compile time), handed out
@@ -16,10 +16,10 @@
 
 use core::fmt::Write;
 use cortex_m_rt::entry;
-use kinglet_firmware_example::{board, console, stack};
-use kinglet_fw_vectors::assets::{digits_row, MAX_ARENA};
-use kinglet_fw_vectors::{format_vector, Line, Path, VectorSet, SETS, TOTAL};
-use kinglet_runtime::{Input, Model};
+use kinglet_firmware_example::{board, console};
+use kinglet_fw_vectors::assets::MAX_ARENA;
+use kinglet_fw_vectors::{format_vector, Line, VectorSet, SETS, TOTAL};
+use kinglet_runtime::Model;
 
 #[entry]
 fn main() -> ! {
@@ -57,7 +57,6 @@ fn run_set(set: &VectorSet, arena: &mut [u8]) -> (usize, usize) {
             return (0, set.count);
         }
     };
-    report_stack(set, &model, arena);
     let mut expected = set.expected.lines();
     let mut line = Line::new();
     let (mut passed, mut failed) = (0, 0);
@@ -84,43 +83,4 @@ fn run_set(set: &VectorSet, arena: &mut [u8]) -> (usize, usize) {
         }
     }
     (passed, failed)
-}
-
-/// Prints the peak stack of one plain inference (no trace, no formatting) on the set's first
-/// input.
-fn report_stack(set: &VectorSet, model: &Model<'_>, arena: &mut [u8]) {
-    let mut scores = [0f32; kinglet_fw_vectors::MAX_OUTPUTS];
-    let used = match set.path {
-        Path::DigitsU8 => digits_row(set.first)
-            .map(|px| stack::measure(|| model.infer(Input::U8(px), arena, &mut scores)).1),
-        Path::DigitsF32 => digits_row(set.first).map(|px| {
-            let mut x = [0f32; 64];
-            for (d, &p) in x.iter_mut().zip(px) {
-                *d = f32::from(p);
-            }
-            stack::measure(|| model.infer(Input::F32(&x), arena, &mut scores)).1
-        }),
-        Path::Vibration => kinglet_fw_vectors::assets::replay_window(set.first)
-            .and_then(kinglet_vibration_features::window_from_le_bytes)
-            .map(|w| {
-                let (_, used) = stack::measure(|| {
-                    let f = kinglet_vibration_features::window_features(&w);
-                    model.infer(Input::F32(&f), arena, &mut scores).map(|_| ())
-                });
-                used
-            }),
-    };
-    let mut l = console::LineBuf::new();
-    match (set.path, used) {
-        (Path::Vibration, Some(b)) => {
-            let _ = write!(l, "stack {} features+infer={b}", set.name);
-        }
-        (_, Some(b)) => {
-            let _ = write!(l, "stack {} infer={b}", set.name);
-        }
-        (_, None) => {
-            let _ = write!(l, "stack {} no input", set.name);
-        }
-    }
-    console::line(&l);
 }

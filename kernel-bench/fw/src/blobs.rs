@@ -31,3 +31,5 @@ blob!(DIGITS, "digits.kgl");
 blob!(DIGITS_OM, "digits.om.kgl");
 blob!(VIBRATION, "vibration.kgl");
 blob!(VIBRATION_OM, "vibration.om.kgl");
+blob!(DIGITS_F32, "digits_float.kgl");
+blob!(VIBRATION_F32, "vibration_float.kgl");

@@ -1,6 +1,8 @@
 //! The baseline: straightforward scalar loops over output-major weights, one multiply-add per
 //! step with indexing, as one would first write them. Same arithmetic as the runtime, so the
-//! outputs agree (the self-check compares them too).
+//! outputs agree (the self-check compares them too). The indexed loops are the point of the
+//! baseline, so clippy's iterator advice (`needless_range_loop`) is turned off here.
+#![allow(clippy::needless_range_loop)]
 use kinglet_runtime::dense::DenseI8;
 use kinglet_runtime::requant::requantize;
 

@@ -62,7 +62,7 @@ fn int8_case(rng: &mut Rng) -> bool {
     let mut bias = [0u8; 4 * MAX_OUT];
     let mut mult = [0u8; 4 * MAX_OUT];
     let mut shift = [0u8; MAX_OUT];
-    let wide = rng.next_u32() % 4 == 0;
+    let wide = rng.next_u32().is_multiple_of(4);
     for o in 0..m {
         // Any bias the format accepts: |bias| + 128·Σ|w| ≤ 2^31 - 1 (capped at 2^24 mostly).
         let sum: i64 = w[o * n..(o + 1) * n]
@@ -84,7 +84,7 @@ fn int8_case(rng: &mut Rng) -> bool {
         } as i8 as u8;
     }
     let zp = rng.next_u32() as u8 as i8;
-    let relu = rng.next_u32() % 2 == 0;
+    let relu = rng.next_u32().is_multiple_of(2);
     let base = DenseI8 {
         inputs: n,
         weights: om,
@@ -147,7 +147,7 @@ fn f32_case(rng: &mut Rng) -> bool {
     for c in bias[..4 * m].chunks_exact_mut(4) {
         c.copy_from_slice(&rng.f32().to_le_bytes());
     }
-    let relu = rng.next_u32() % 2 == 0;
+    let relu = rng.next_u32().is_multiple_of(2);
     let (b, om) = (&bias[..4 * m], &om[..4 * n * m]);
     let blocked = DenseF32 {
         inputs: n,

@@ -1,5 +1,6 @@
-//! The benchmark firmware: self-check, then every counted case, then stack use, printed over
-//! semihosting as `kb ...` lines that `kb-gen report` pairs with the plugin's counts (in order).
+//! The benchmark firmware: self-check, then every counted case, printed over semihosting as
+//! `kb ...` lines that the harness (`kernel-bench/harness/src/bench.rs`) pairs with the
+//! plugin's counts (in order).
 #![no_std]
 #![no_main]
 
@@ -7,7 +8,7 @@ use core::hint::black_box;
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
 use kinglet_firmware_bench::blobs::{self, Aligned};
-use kinglet_firmware_bench::{marker, naive, rng::Rng, selfcheck, stack};
+use kinglet_firmware_bench::{marker, naive, rng::Rng, selfcheck};
 use kinglet_runtime::dense::{self, portable, DenseF32, DenseI8};
 use kinglet_runtime::format::{LayerDesc, WeightLayout};
 use kinglet_runtime::requant::activation_range;
@@ -17,7 +18,7 @@ use kinglet_runtime::{Input, Model};
 fn panic(info: &core::panic::PanicInfo<'_>) -> ! {
     hprintln!("kb panic {}", info);
     debug::exit(debug::EXIT_FAILURE);
-    loop {}
+    park()
 }
 
 /// Runs `f` as one counted section named `name` (`macs` multiply-accumulates).
@@ -156,8 +157,7 @@ fn f32_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rn
     );
 }
 
-/// Whole inference of a packed model (blocked and its output-major twin), each layer alone,
-/// and the peak stack of one inference.
+/// Whole inference of a packed model (blocked and its output-major twin) and each layer alone.
 fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rng) {
     let (mb, mo) = (model(blocked), model(om));
     let n = mb.input_len();
@@ -214,10 +214,6 @@ fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut 
             )
         });
     }
-    let bytes = stack::measure(|| {
-        black_box(mb.infer(black_box(input), &mut arena.0, &mut scores)).ok();
-    });
-    hprintln!("kb stack {} {}", name, bytes);
 }
 
 trait Macs {
@@ -272,5 +268,12 @@ fn main() -> ! {
     } else {
         debug::EXIT_FAILURE
     });
-    loop {}
+    park()
+}
+
+/// Without a debugger attached the exit call returns; park the core.
+fn park() -> ! {
+    loop {
+        cortex_m::asm::wfi();
+    }
 }

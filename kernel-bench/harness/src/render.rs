@@ -1,0 +1,365 @@
+//! What the harness writes: the tables of BENCHMARKS.md, `converter/src/fit/measured.rs` and
+//! the rates in `converter/src/report/cycles.rs`, all from one run.
+//!
+//! Instruction counts, and what is computed from them, are rendered with [`approx`]: the text
+//! carries them between two control characters, so that [`crate::consumers`] can hold a
+//! recorded count to [`MARGIN`] while every size, stack figure and word must match exactly.
+//! [`plain`] drops the marks.
+use crate::goals::{self, MARGIN};
+use crate::rates::Rates;
+use crate::Target;
+use std::fmt::{Display, Write};
+
+/// Opens an approximate number.
+pub const OPEN: char = '\u{1}';
+/// Closes an approximate number.
+pub const CLOSE: char = '\u{2}';
+
+/// A number a consumer may record within [`MARGIN`].
+pub fn approx(v: impl Display) -> String {
+    format!("{OPEN}{v}{CLOSE}")
+}
+
+/// The text without the marks.
+pub fn plain(marked: &str) -> String {
+    marked
+        .chars()
+        .filter(|&c| c != OPEN && c != CLOSE)
+        .collect()
+}
+
+fn per_mac(v: Option<f64>) -> String {
+    v.map_or("-".into(), |v| approx(format!("{v:.2}")))
+}
+
+/// Guards against `write!` into a `String`, which cannot fail.
+macro_rules! w {
+    ($s:expr, $($t:tt)*) => { let _ = writeln!($s, $($t)*); };
+}
+
+/// The results region of BENCHMARKS.md: dense layers, whole inferences, the integer input
+/// path, code size, stack, goals, self-check.
+pub fn results(targets: &[Target]) -> String {
+    let mut s = String::new();
+    w!(s, "Dense layers, instructions per MAC (lower is better):\n");
+    w!(s, "| layer | target | naive | portable, output-major (before) | portable, blocked | kernel (after) | kernel |");
+    w!(s, "|---|---|---:|---:|---:|---:|---|");
+    for name in ["i8-784x100", "i8-64x32", "f32-784x100", "f32-64x32"] {
+        for t in targets {
+            let r = &t.bench;
+            if r.case(name, "naive").is_none() {
+                continue;
+            }
+            // Soft-float targets run the one-block Rust f32 kernel of `dense/m0.rs`.
+            let kernel = if name.starts_with("f32") && r.kernel != "dsp" {
+                "m0 (Rust, one block)"
+            } else {
+                &r.kernel
+            };
+            w!(
+                s,
+                "| {name} | {} | {} | {} | {} | {} | {kernel} |",
+                t.name,
+                per_mac(r.per_mac(name, "naive")),
+                per_mac(r.per_mac(name, "portable")),
+                per_mac(r.per_mac(name, "portable-blocked")),
+                per_mac(r.per_mac(name, "kernel")),
+            );
+        }
+    }
+    w!(
+        s,
+        "\nWhole int8 inference (scaling, every layer, softmax), instructions:\n"
+    );
+    w!(s, "| model | target | MACs | before (portable) | after (kernel) | instr/MAC after | Σ dense layers | whole / Σ layers |");
+    w!(s, "|---|---|---:|---:|---:|---:|---:|---:|");
+    for model in ["digits", "vibration"] {
+        for t in targets {
+            if let Some((portable, whole, layers, ratio)) = t.bench.model_ratio(model) {
+                let macs = t.bench.case(model, "model-kernel").map_or(0, |c| c.macs);
+                w!(
+                    s,
+                    "| {model} | {} | {macs} | {} | {} | {} | {} | {} |",
+                    t.name,
+                    approx(portable),
+                    approx(whole),
+                    approx(format!("{:.2}", whole as f64 / macs.max(1) as f64)),
+                    approx(layers),
+                    approx(format!("{ratio:.3}"))
+                );
+            }
+        }
+    }
+    w!(
+        s,
+        "\nWhole f32 inference (the f32 twins of the two models, f32 features), instructions:\n"
+    );
+    w!(
+        s,
+        "| model | target | MACs | whole | instr/MAC | Σ dense layers | whole / Σ layers |"
+    );
+    w!(s, "|---|---|---:|---:|---:|---:|---:|");
+    for model in ["digits-f32", "vibration-f32"] {
+        for t in targets {
+            let (Some((whole, layers)), Some(c)) = (
+                t.bench.whole_and_layers(model),
+                t.bench.case(model, "model-kernel"),
+            ) else {
+                continue;
+            };
+            w!(
+                s,
+                "| {} | {} | {} | {} | {} | {} | {} |",
+                model.trim_end_matches("-f32"),
+                t.name,
+                c.macs,
+                approx(whole),
+                approx(format!("{:.2}", whole as f64 / c.macs.max(1) as f64)),
+                approx(layers),
+                approx(format!("{:.3}", whole as f64 / layers.max(1) as f64))
+            );
+        }
+    }
+    w!(
+        s,
+        "\nInteger input path (the same features as `i16` counts), instructions:\n"
+    );
+    w!(s, "| model | target | `infer` | `classify` | Σ dense layers | `infer` / Σ layers | `classify` / Σ layers |");
+    w!(s, "|---|---|---:|---:|---:|---:|---:|");
+    for model in ["digits", "vibration"] {
+        for t in targets {
+            let r = &t.bench;
+            let (Some(infer), Some(classify), Some((_, _, layers, _))) = (
+                r.case(model, "model-infer-i16"),
+                r.case(model, "model-classify-i16"),
+                r.model_ratio(model),
+            ) else {
+                continue;
+            };
+            let ratio = |c: u64| approx(format!("{:.3}", c as f64 / layers.max(1) as f64));
+            w!(
+                s,
+                "| {model} | {} | {} | {} | {} | {} | {} |",
+                t.name,
+                approx(infer.count),
+                approx(classify.count),
+                approx(layers),
+                ratio(infer.count),
+                ratio(classify.count)
+            );
+        }
+    }
+    w!(s, "\nCode size:\n");
+    w!(s, "| target | runtime .text, int8-only build (bytes) | int8-only, `classify` (bytes) | default build with f32 (bytes) | self-check |");
+    w!(s, "|---|---:|---:|---:|---|");
+    for t in targets {
+        w!(
+            s,
+            "| {} | {} | {} | {} | {} passed, {} failed |",
+            t.name,
+            t.size_int8_only,
+            t.size_classify,
+            t.size,
+            t.bench.passed,
+            t.bench.failed
+        );
+    }
+    w!(s, "\nStack, bytes (the deeper of the paint and the lowest stack pointer; the last column is how much deeper the stack pointer went than the paint showed):\n");
+    let calls = [
+        "parse",
+        "infer-f32",
+        "infer-u8",
+        "infer-i16",
+        "classify-i16",
+    ];
+    w!(s, "| target | model | `parse` | `infer`, f32 features | `infer`, u8 | `infer`, i16 | `classify`, i16 | below the paint |");
+    w!(s, "|---|---|---:|---:|---:|---:|---:|---:|");
+    for t in targets {
+        for model in ["digits", "vibration", "digits-f32"] {
+            let cells: Vec<String> = calls
+                .iter()
+                .map(|c| {
+                    t.stack
+                        .get(model, c)
+                        .map_or("-".into(), |c| c.bytes().to_string())
+                })
+                .collect();
+            let below = t
+                .stack
+                .calls
+                .iter()
+                .filter(|c| c.model == model)
+                .map(|c| c.lowest_sp.saturating_sub(c.painted))
+                .max()
+                .unwrap_or(0);
+            let label = if model == "digits-f32" {
+                "digits, f32 model"
+            } else {
+                model
+            };
+            w!(
+                s,
+                "| {} | {label} | {} | {below} |",
+                t.name,
+                cells.join(" | ")
+            );
+        }
+    }
+    w!(
+        s,
+        "\nGoals (--check fails above the goal, or above the recorded value where the goal is not met, plus {:.0}%):\n",
+        MARGIN * 100.0
+    );
+    for g in goals::goals(targets) {
+        let value = format!("{:.3}", g.value);
+        let value = if g.counted { approx(value) } else { value };
+        let note = if g.met() {
+            "met".to_string()
+        } else {
+            format!("MISSED (regression limit {:.3})", g.check_limit())
+        };
+        w!(s, "- {}: {value} (goal ≤ {}) {note}", g.what, g.limit);
+    }
+    let passed: u64 = targets.iter().map(|t| t.bench.passed).sum();
+    let failed: u64 = targets.iter().map(|t| t.bench.failed).sum();
+    let each: Vec<String> = targets
+        .iter()
+        .map(|t| format!("{} {}", t.name, t.bench.passed))
+        .collect();
+    w!(
+        s,
+        "\nKernel self-check on target: {passed} passed, {failed} failed ({}).",
+        each.join(", ")
+    );
+    s
+}
+
+/// The target's name in the footprint table and in `measured.rs`.
+fn core_name(t: &Target) -> &'static str {
+    if t.bench.kernel == "dsp" {
+        "Cortex-M4F"
+    } else {
+        "Cortex-M0"
+    }
+}
+
+/// The footprint region of BENCHMARKS.md: what `measured.rs` records.
+pub fn footprint(targets: &[Target]) -> String {
+    let mut s = String::new();
+    w!(s, "| target | runtime `.text` (bytes) | runtime `.rodata` (bytes) | peak stack, parse (bytes) | peak stack, one inference (bytes) | `Model` value (bytes) |");
+    w!(s, "|---|---:|---:|---:|---:|---:|");
+    for t in footprint_order(targets) {
+        w!(
+            s,
+            "| {} (`{}`) | {} | {} | {} | {} | {} |",
+            core_name(t),
+            t.triple,
+            t.footprint_text,
+            t.footprint_rodata,
+            t.stack.parse(),
+            t.stack.inference(None),
+            t.stack.model_struct
+        );
+    }
+    s
+}
+
+/// M0 first, as `measured.rs` has always listed it.
+fn footprint_order(targets: &[Target]) -> Vec<&Target> {
+    let mut v: Vec<&Target> = targets.iter().collect();
+    v.sort_by_key(|t| t.bench.kernel == "dsp");
+    v
+}
+
+/// `converter/src/fit/measured.rs`.
+pub fn measured(targets: &[Target], rustc: &str) -> String {
+    let mut s = String::new();
+    w!(s, "//! Runtime footprint on each core (generated by `bash scripts/kernel-bench.sh --write`, the");
+    w!(s, "//! measurement harness `kernel-bench/harness`; do not edit: `--check` fails on any change).");
+    w!(s, "//!");
+    w!(s, "//! Measured with {rustc} and the release profile of the probes' workspaces (opt-level \"s\",");
+    w!(
+        s,
+        "//! fat LTO, one codegen unit). Code: `.text` and `.rodata` of the example firmware's"
+    );
+    w!(s, "//! `size_runtime` (parse + one inference per input path, default features) minus those of");
+    w!(s, "//! its `size_base` (same start-up and console, no runtime), with the embedded blob taken out");
+    w!(s, "//! of `.rodata`. Stack: the stack probe `kernel-bench/fw/src/bin/stack.rs` under QEMU, per");
+    w!(s, "//! call the deeper of the painted stack and the lowest stack pointer a register trace saw;");
+    w!(
+        s,
+        "//! `stack_parse` is the deepest `Model::parse`, `stack_infer` the deepest `infer` or"
+    );
+    w!(
+        s,
+        "//! `classify` (int8 digits and vibration, f32 digits; f32, u8 and i16 features)."
+    );
+    w!(s, "//! BENCHMARKS.md lists every call.");
+    w!(s, "use super::Measured;");
+    for t in footprint_order(targets) {
+        let (doc, name) = if t.bench.kernel == "dsp" {
+            (
+                "Cortex-M4F / M7 class (`thumbv7em-none-eabihf`, single-precision FPU).",
+                "CORTEX_M4F",
+            )
+        } else {
+            (
+                "Cortex-M0 / M0+ (`thumbv6m-none-eabi`, no FPU: float is software).",
+                "CORTEX_M0",
+            )
+        };
+        w!(s, "\n/// {doc}");
+        w!(s, "pub const {name}: Measured = Measured {{");
+        w!(s, "    target: \"{}\",", t.triple);
+        w!(s, "    runtime_text: {},", t.footprint_text);
+        w!(s, "    runtime_rodata: {},", t.footprint_rodata);
+        w!(s, "    stack_parse: {},", t.stack.parse());
+        w!(s, "    stack_infer: {},", t.stack.inference(None));
+        w!(s, "    model_struct: {},", t.stack.model_struct);
+        w!(s, "}};");
+    }
+    s
+}
+
+fn rates_literal(s: &mut String, r: &Rates, indent: &str) {
+    let f = |v: f64| approx(format!("{v:?}"));
+    w!(s, "{indent}    target: \"{}\",", r.target);
+    w!(s, "{indent}    per_mac: {},", f(r.per_mac));
+    w!(s, "{indent}    per_row: {},", f(r.per_row));
+    w!(s, "{indent}    per_input: {},", f(r.per_input));
+    w!(s, "{indent}    per_class: {},", f(r.per_class));
+    w!(s, "{indent}    fixed: {:?},", r.fixed);
+}
+
+/// The rates region of `converter/src/report/cycles.rs`: `INT8` (one entry per target) and
+/// `F32` (the FPU target).
+pub fn rates(int8: &[Rates], f32: &Rates) -> String {
+    let mut s = String::new();
+    let overheads: Vec<String> = int8
+        .iter()
+        .filter_map(|r| {
+            r.overheads
+                .map(|(d, v)| format!("{} and {} on the {}", approx(d), approx(v), r.target))
+        })
+        .collect();
+    w!(s, "/// int8 models (kernel-bench, opt-level \"s\"): per MAC and per row fitted to the 784×100 and");
+    w!(s, "/// 64×32 layers, per input and per class solved from the digits and vibration whole-model");
+    w!(s, "/// counts (f32 features in) less their layers, with the fixed part held. Whole − Σ layers:");
+    w!(s, "/// {}.", overheads.join(", "));
+    w!(s, "pub const INT8: [Rates; {}] = [", int8.len());
+    for r in int8 {
+        w!(s, "    Rates {{");
+        rates_literal(&mut s, r, "    ");
+        w!(s, "    }},");
+    }
+    w!(s, "];");
+    w!(s, "");
+    let (d, v) = f32.overheads.unwrap_or_default();
+    w!(s, "/// f32 models: the Cortex-M4F FPU kernel (the M0 has no FPU; soft-float is not estimated),");
+    w!(s, "/// fitted the same way to the f32 layers and the f32 digits and vibration models. Whole − Σ");
+    w!(s, "/// layers: {} and {}.", approx(d), approx(v));
+    w!(s, "pub const F32: [Rates; 1] = [Rates {{");
+    rates_literal(&mut s, f32, "");
+    w!(s, "}}];");
+    s
+}
