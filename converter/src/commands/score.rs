@@ -14,7 +14,7 @@ use super::Outcome;
 /// What to write.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
 enum Format {
-    /// CSV: a header, then row, class, label, [truth,] score_k..., out_k...
+    /// CSV: a header, then row, class, label, truth (with labels), score_k..., out_k...
     Csv,
     /// JSON: what was run, then one object per row.
     Json,
