@@ -5,7 +5,7 @@ use kinglet_runtime::arena::ArenaPlan;
 use kinglet_runtime::format::{
     InputQuantDesc, LayerDesc, ModelDesc, OutputKind, Precision, ScalerDesc,
 };
-use kinglet_runtime::header::{version_for_layers, HEADER_LEN};
+use kinglet_runtime::header::{version_for_table, HEADER_LEN};
 
 /// The arena bytes the runtime's planner gives the (possibly invalid) table `desc`: the arena
 /// field of a valid blob of it.
@@ -21,7 +21,7 @@ pub fn planned_arena(desc: &ModelDesc<'_>) -> u32 {
 /// `desc` as a blob with arena field `arena`, without validation. The header's version is the
 /// one a writer gives this table (`kinglet_runtime::header::version_for`).
 pub fn raw_blob(desc: &ModelDesc<'_>, arena: u32) -> Vec<u8> {
-    write(desc, version_for_layers(&desc.layers), arena)
+    write(desc, version_for_table(&desc.layers, desc.output), arena)
 }
 
 /// `desc` with its layer list replaced by `layers`, as many as there are: the one way to write
@@ -58,7 +58,7 @@ pub fn raw_blob_with_layers(desc: &ModelDesc<'_>, layers: &[LayerDesc<'_>], aren
         output,
         labels,
     };
-    write(&wide, version_for_layers(layers), arena)
+    write(&wide, version_for_table(layers, output), arena)
 }
 
 fn write<T: serde::Serialize>(body: &T, version: u16, arena: u32) -> Vec<u8> {

@@ -126,6 +126,11 @@ impl FloatModel {
                 e.into_iter().map(|v| v / s).collect()
             }
             OutputKind::Sigmoid => x.into_iter().map(|v| 1.0 / (1.0 + (-v).exp())).collect(),
+            OutputKind::OneVsRest => {
+                let p: Vec<f64> = x.iter().map(|v| 1.0 / (1.0 + (-v).exp())).collect();
+                let s: f64 = p.iter().sum();
+                p.into_iter().map(|v| v / s).collect()
+            }
             OutputKind::Logits => x,
         }
     }

@@ -33,6 +33,9 @@ pub enum OutputKind {
     Softmax,
     /// One output through the logistic function: a binary classifier.
     Sigmoid,
+    /// One-vs-rest probabilities: the logistic function of each output, divided by their sum
+    /// (`FORMAT.md` §3.2). Format version 3.
+    OneVsRest,
 }
 
 /// Numeric precision of the whole model.

@@ -5,27 +5,34 @@ use crate::error::FormatError;
 pub const MAGIC: [u8; 4] = *b"KGLT";
 
 /// The newest format version this reader accepts (and writes when a blob needs it).
-pub const FORMAT_VERSION: u16 = 2;
+pub const FORMAT_VERSION: u16 = 3;
 
 /// The oldest format version this reader accepts. Version 1 is version 2 without the
-/// `Blocked4x4` weight layout; a blob carries exactly the lowest version that holds it
-/// ([`version_for`]), which writers emit and the reader requires.
+/// `Blocked4x4` weight layout, and version 2 is version 3 without the `OneVsRest` output; a
+/// blob carries exactly the lowest version that holds it ([`version_for`]), which writers emit
+/// and the reader requires.
 pub const OLDEST_VERSION: u16 = 1;
 
-/// The version a blob with this layer table carries: 2 if any layer uses the `Blocked4x4`
-/// layout, else 1 (so readers of version 1 still read it). Writers put it in the header and
-/// `Model::parse` rejects any other (`FormatError::VersionMismatch`): the CRC does not cover
-/// the version field, this rule protects it.
+/// The version a blob with this layer table carries: 3 if the output is `OneVsRest`, else 2 if
+/// any layer uses the `Blocked4x4` layout, else 1 (so older readers still read every blob they
+/// can). Writers put it in the header and `Model::parse` rejects any other
+/// (`FormatError::VersionMismatch`): the CRC does not cover the version field, this rule
+/// protects it.
 pub fn version_for(desc: &crate::format::ModelDesc<'_>) -> u16 {
-    version_for_layers(&desc.layers)
+    version_for_table(&desc.layers, desc.output)
 }
 
-/// [`version_for`] of a table with these layers.
-pub fn version_for_layers(layers: &[crate::format::LayerDesc<'_>]) -> u16 {
+/// [`version_for`] of a table with these layers and this output.
+pub fn version_for_table(
+    layers: &[crate::format::LayerDesc<'_>],
+    output: crate::format::OutputKind,
+) -> u16 {
     let blocked = layers
         .iter()
         .any(|l| l.layout == crate::format::WeightLayout::Blocked4x4);
-    if blocked {
+    if output == crate::format::OutputKind::OneVsRest {
+        3
+    } else if blocked {
         2
     } else {
         OLDEST_VERSION
@@ -254,11 +261,11 @@ mod tests {
             Header::read(b"PK\x03\x04 zip file"),
             Err(FormatError::BadMagic)
         );
-        let mut v3 = good;
-        v3[offset::VERSION] = 3;
+        let mut v4 = good;
+        v4[offset::VERSION] = 4;
         assert_eq!(
-            Header::read(&v3),
-            Err(FormatError::UnsupportedVersion { found: 3 })
+            Header::read(&v4),
+            Err(FormatError::UnsupportedVersion { found: 4 })
         );
         let mut v0 = good;
         v0[offset::VERSION] = 0;

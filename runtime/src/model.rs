@@ -4,7 +4,7 @@ use crate::dense::{dense_f32, dense_f32_blocked, dense_i8, dense_i8_blocked, Den
 use crate::error::{FormatError, RunError};
 use crate::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout};
 use crate::header::{Header, HEADER_LEN};
-use crate::output::{argmax, sigmoid, softmax};
+use crate::output::{argmax, one_vs_rest, sigmoid, softmax};
 use crate::requant::activation_range;
 use crate::scale::{integer_params, quantise_floats, quantize_integer, Scaler};
 use crate::stage::{Activations, Stage};
@@ -233,6 +233,7 @@ impl<'a> Model<'a> {
                     *s = sigmoid(*s);
                 }
             }
+            OutputKind::OneVsRest => one_vs_rest(scores),
             OutputKind::Logits => {}
         }
         if self.desc.output == OutputKind::Sigmoid {

@@ -1,4 +1,5 @@
-//! The last step: scores from the last layer's outputs — softmax, sigmoid — and argmax.
+//! The last step: scores from the last layer's outputs — softmax, sigmoid, one-vs-rest — and
+//! argmax.
 
 /// Softmax in place, max-subtracted for range (`exp` from libm). An empty slice is left as is.
 pub fn softmax(scores: &mut [f32]) {
@@ -26,6 +27,25 @@ pub fn softmax(scores: &mut [f32]) {
 /// The logistic function `1 / (1 + e^-x)`.
 pub fn sigmoid(x: f32) -> f32 {
     1.0 / (1.0 + libm::expf(-x))
+}
+
+/// One-vs-rest probabilities in place: `σ(s_k) / Σ_j σ(s_j)`, the logistic function of each
+/// score divided by their sum (`FORMAT.md` §3.2; scikit-learn's one-vs-rest `predict_proba`).
+/// When every `σ(s_j)` underflows to 0 in f32 (all scores below about −104) the quotient is
+/// its limit, softmax (`σ(s) ~ e^s` as `s → −∞`), rather than 0/0. An empty slice is left as is.
+pub fn one_vs_rest(scores: &mut [f32]) {
+    let mut sum = 0.0f32;
+    for &s in scores.iter() {
+        sum += sigmoid(s);
+    }
+    if sum > 0.0 {
+        let inv = 1.0 / sum;
+        for s in scores.iter_mut() {
+            *s = sigmoid(*s) * inv;
+        }
+    } else {
+        softmax(scores);
+    }
 }
 
 /// Index and value of the largest score. Ties resolve to the lowest index; NaN never wins.
@@ -98,6 +118,27 @@ mod tests {
         assert_eq!(argmax_i8(&q(&[-128, -128])), 0);
         assert_eq!(argmax_i8(&q(&[-1, 0])), 1);
         assert_eq!(argmax_i8(&[]), 0);
+    }
+
+    #[test]
+    fn one_vs_rest_hand_worked() {
+        // σ(0) = 1/2 and σ(ln 3) = 3/4: [1/2, 3/4] / (5/4) = [0.4, 0.6].
+        let mut s = [0.0f32, 3.0f32.ln()];
+        one_vs_rest(&mut s);
+        assert!((s[0] - 0.4).abs() < 1e-7 && (s[1] - 0.6).abs() < 1e-7, "{s:?}");
+        // Three scores: σ(0) = 0.5, σ(ln 4) = 0.8, σ(−ln 4) = 0.2; sum 1.5.
+        let mut t = [0.0f32, 4.0f32.ln(), -(4.0f32.ln())];
+        one_vs_rest(&mut t);
+        let want = [0.5 / 1.5, 0.8 / 1.5, 0.2 / 1.5];
+        for (g, w) in t.iter().zip(want) {
+            assert!((g - w).abs() < 1e-6, "{t:?}");
+        }
+        // All underflowing: the softmax limit, not NaN.
+        let mut u = [-200.0f32, -200.0 + 3.0f32.ln()];
+        one_vs_rest(&mut u);
+        assert!((u[0] - 0.25).abs() < 1e-6 && (u[1] - 0.75).abs() < 1e-6, "{u:?}");
+        let mut e: [f32; 0] = [];
+        one_vs_rest(&mut e);
     }
 
     #[test]

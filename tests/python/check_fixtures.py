@@ -51,6 +51,7 @@ GENERATORS = [
     # None: compare every file the generator writes (recursively).
     ("tests/python/make_loader_cases.py", "tests/fixtures/loaders", None),
     ("tests/python/make_onnx_cases.py", "tests/fixtures/onnx", None),
+    ("tests/python/make_linear_cases.py", "tests/fixtures/linear", None),
     ("tests/python/vet_ref.py", "tests/fixtures/vet", ["digits_sklearn.json", "stats_cases.json"]),
 ]
 

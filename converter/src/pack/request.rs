@@ -181,6 +181,11 @@ pub fn pack(req: &PackRequest) -> Result<Packed> {
             Model::parse(&blob).map_err(|e| anyhow!("internal: packed blob rejected: {e}"))?;
         BlobReport::of(&parsed)
     };
+    if model.output == crate::graph::OutputKind::Logits {
+        notes.push(
+            "scores are raw scores (logits, or decision-function values of a linear SVM): no probabilities; the class is the largest".into(),
+        );
+    }
     Ok(Packed {
         blob,
         report,

@@ -88,6 +88,7 @@ impl BlobReport {
             output: match d.output {
                 OutputKind::Softmax => "softmax",
                 OutputKind::Sigmoid => "sigmoid",
+                OutputKind::OneVsRest => "one-vs-rest",
                 OutputKind::Logits => "logits",
             }
             .into(),

@@ -108,7 +108,8 @@ impl<'a> ModelPair<'a> {
         match self.int8.desc().output {
             OutputKind::Softmax => "softmax probabilities",
             OutputKind::Sigmoid => "sigmoid probability",
-            OutputKind::Logits => "logits",
+            OutputKind::OneVsRest => "one-vs-rest probabilities",
+            OutputKind::Logits => "raw scores (no probabilities)",
         }
     }
 }
@@ -139,6 +140,7 @@ pub fn output_name(o: OutputKind) -> &'static str {
     match o {
         OutputKind::Softmax => "softmax",
         OutputKind::Sigmoid => "sigmoid",
+        OutputKind::OneVsRest => "one-vs-rest",
         OutputKind::Logits => "logits",
     }
 }

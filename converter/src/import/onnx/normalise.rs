@@ -51,6 +51,10 @@ pub(super) struct Walk<'g, 'i> {
     pub(super) stage: Stage,
     pub(super) output: OutputKind,
     pub(super) labels: Option<(LabelBranch<'g>, usize)>,
+    /// A `LinearClassifier` with `LOGISTIC` on several scores, waiting for its `Normalizer`.
+    pub(super) pending_logistic: Option<Node<'g>>,
+    /// The binary raw-score column (`ArrayFeatureExtractor(scores, [1])`) was met.
+    pub(super) score_column_taken: bool,
 }
 
 /// Turns an indexed graph into a float model.
@@ -65,6 +69,8 @@ pub fn normalise(g: &GraphIndex<'_>) -> Result<FloatModel, OnnxImportError> {
         stage: Stage::Prefix,
         output: OutputKind::Logits,
         labels: None,
+        pending_logistic: None,
+        score_column_taken: false,
     };
     let mut current = g.input_name;
     for _ in 0..=g.nodes.len() {
@@ -196,13 +202,15 @@ impl<'g> Walk<'g, '_> {
             (Domain::Onnx, "Relu") => self.relu(n)?,
             (Domain::Onnx, "Softmax") => self.softmax(n)?,
             (Domain::Onnx, "Sigmoid") => self.sigmoid(n)?,
+            (Domain::Ml, "LinearClassifier") => return self.linear_classifier(n, pos),
+            (Domain::Ml, "Normalizer") => self.normalizer(n)?,
+            (Domain::Ml, "ArrayFeatureExtractor") => self.score_column(n, pos)?,
             (Domain::Ml, "ZipMap") => {
                 return Err(n.err(
                     "ZipMap (probabilities as a list of dictionaries) is not supported; supported: probabilities as a tensor (with skl2onnx, export with options {id(classifier): {'zipmap': False}})",
                 ))
             }
-            (Domain::Onnx, "Concat" | "Constant" | "ArgMax")
-            | (Domain::Ml, "ArrayFeatureExtractor") => {
+            (Domain::Onnx, "Concat" | "Constant" | "ArgMax") => {
                 return Err(n.unsupported(format!("on the data path {}", self.stage_text())))
             }
             _ => return Err(n.unsupported("")),
@@ -255,6 +263,12 @@ impl<'g> Walk<'g, '_> {
 
     fn finish(self, last: &str) -> Result<FloatModel, OnnxImportError> {
         let g = self.g;
+        if let Some(n) = self.pending_logistic {
+            return Err(n.err(format!(
+                "post_transform LOGISTIC on {} scores without a Normalizer (L1) after it: independent per-class probabilities; supported: LOGISTIC on a binary classifier, or followed by Normalizer L1 (one-vs-rest)",
+                self.layers.last().map_or(0, |l| l.outputs)
+            )));
+        }
         let Some(first) = self.layers.first() else {
             return Err(OnnxImportError::Output {
                 detail: format!(

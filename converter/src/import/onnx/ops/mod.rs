@@ -7,7 +7,10 @@ pub mod batchnorm;
 pub mod binary_output;
 pub mod dense;
 pub mod labels;
+pub mod linear_classifier;
+pub mod normalizer;
 pub mod passthrough;
+pub mod score_column;
 pub mod shape;
 
 use super::error::OnnxImportError;
