@@ -332,9 +332,10 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
             }
         }
         24 => {
-            m.output = match u.int_in_range(0..=2)? {
+            m.output = match u.int_in_range(0..=3)? {
                 0 => OutputKind::Logits,
                 1 => OutputKind::Softmax,
+                2 => OutputKind::OneVsRest,
                 _ => OutputKind::Sigmoid,
             }
         }

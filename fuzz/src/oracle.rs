@@ -75,10 +75,10 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores
             );
             assert!(p.score.is_finite());
             match model.desc().output {
-                OutputKind::Softmax => {
+                OutputKind::Softmax | OutputKind::OneVsRest => {
                     assert!(s.iter().all(|v| (0.0..=1.0).contains(v)), "{s:?}");
                     let sum: f32 = s.iter().sum();
-                    assert!((sum - 1.0).abs() < 1e-3, "softmax sums to {sum}");
+                    assert!((sum - 1.0).abs() < 1e-3, "probabilities sum to {sum}");
                     assert_eq!(p.score, s[p.class]);
                     assert!(s.iter().all(|&v| v <= p.score));
                 }

@@ -614,6 +614,53 @@ mod tests {
         );
     }
 
+    /// `tiny_int8` (FORMAT.md §6) with the one-vs-rest output, as a blob of `version`.
+    fn one_vs_rest_blob(version: u16) -> Vec<u8> {
+        let mut m = tiny_int8();
+        m.output = OutputKind::OneVsRest;
+        let mut blob = m.raw_blob();
+        blob[offset::VERSION..offset::VERSION + 2].copy_from_slice(&version.to_le_bytes());
+        reseal(&mut blob).unwrap();
+        blob
+    }
+
+    #[test]
+    fn one_vs_rest_output_needs_version_3() {
+        let mut m = tiny_int8();
+        m.output = OutputKind::OneVsRest;
+        assert_eq!(u16::from_le_bytes([m.raw_blob()[4], m.raw_blob()[5]]), 3);
+        let blob = one_vs_rest_blob(3);
+        let model = Model::parse(&blob).expect("valid version-3 blob");
+        // §6: the last layer dequantises to [-3.2, 3.1]; σ(-3.2) = 0.039166, σ(3.1) = 0.956893,
+        // divided by their sum 0.996058: [0.039321, 0.960679] (float64 arithmetic, by hand).
+        let mut arena = [0u8; 7];
+        let mut scores = [0f32; 2];
+        let p = model
+            .infer(crate::Input::F32(&[1.0, 2.0, 3.0]), &mut arena, &mut scores)
+            .unwrap();
+        assert_eq!(p.class, 1);
+        assert!((scores[0] - 0.039_321).abs() < 1e-5, "{scores:?}");
+        assert!((scores[1] - 0.960_679).abs() < 1e-5, "{scores:?}");
+        for old in [1, 2] {
+            assert_eq!(
+                Model::parse(&one_vs_rest_blob(old)).map(|_| ()),
+                Err(E::VersionMismatch {
+                    header: old,
+                    body: 3
+                }),
+                "a one-vs-rest output is version 3"
+            );
+        }
+        // And version 3 holds nothing else: a softmax table under a version-3 header.
+        let mut soft = tiny_int8().raw_blob();
+        soft[offset::VERSION] = 3;
+        reseal(&mut soft).unwrap();
+        assert_eq!(
+            Model::parse(&soft).map(|_| ()),
+            Err(E::VersionMismatch { header: 3, body: 1 })
+        );
+    }
+
     #[test]
     fn rejects_scaler_output_and_label_faults() {
         assert_eq!(
