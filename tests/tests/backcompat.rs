@@ -2,7 +2,9 @@
 //! `tests/fixtures/blobs/v1-*.kgl` were packed at format version 1 (output-major weights) and
 //! `v2-vibration-int8.kgl` at version 2 (Blocked4x4 weights), by
 //! `kinglet pack examples/vibration/model.onnx --calibration examples/vibration/calibration.csv`
-//! at the commit that added it; none is ever regenerated. A reader change that rejects them, or
+//! at the commit that added it; `v3-wine-ovr-int8.kgl` at version 3 (the one-vs-rest output) by
+//! `kinglet pack tests/fixtures/linear/lr_ovr_wine_standard.onnx --calibration <its calibration
+//! rows as CSV>`; none is ever regenerated. A reader change that rejects them, or
 //! changes their predictions, fails here; `runtime/tests/fixture_bytes.rs` checks that every
 //! single-byte change of each is rejected.
 use kinglet_converter::dataset::{load_csv, CsvOptions, LabelColumn};
@@ -69,4 +71,41 @@ fn version_2_vibration_int8_blob_still_reads_and_predicts() {
     let right = vibration_right(&m);
     // 590 of 600 when the fixture was made.
     assert!(right >= 585, "{right}/600");
+}
+
+#[test]
+fn version_3_one_vs_rest_blob_still_reads_and_predicts() {
+    let blob = std::fs::read(path("tests/fixtures/blobs/v3-wine-ovr-int8.kgl")).unwrap();
+    assert_eq!(u16::from_le_bytes([blob[4], blob[5]]), 3);
+    let m = Model::parse(&blob).unwrap();
+    assert_eq!(m.desc().output, kinglet_runtime::OutputKind::OneVsRest);
+    assert_eq!(
+        (m.precision(), m.input_len(), m.classes()),
+        (Precision::Int8, 13, 3)
+    );
+    // The held-out rows of load_wine (UCI Wine) recorded with the fixture's model.
+    let case: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(path("tests/fixtures/linear/lr_ovr_wine_standard.json")).unwrap(),
+    )
+    .unwrap();
+    let rows = case["heldout"].as_array().unwrap();
+    let labels = case["heldout_labels"].as_array().unwrap();
+    let right = rows
+        .iter()
+        .zip(labels)
+        .filter(|(r, l)| {
+            let x: Vec<f32> = r
+                .as_array()
+                .unwrap()
+                .iter()
+                .map(|v| v.as_f64().unwrap() as f32)
+                .collect();
+            let (class, scores) = run(&m, &x);
+            let sum: f32 = scores.iter().sum();
+            assert!((sum - 1.0).abs() < 1e-5, "one-vs-rest scores sum to {sum}");
+            class as u64 == l.as_u64().unwrap()
+        })
+        .count();
+    // 45 of 45 when the fixture was made.
+    assert!(right >= 44, "{right}/45");
 }
