@@ -1560,3 +1560,83 @@ fn c87_score_bad_blob_wrong_width_unknown_label() {
         &["labelled.csv: bad label: data row 2 (1-based, header not counted): label \"7\" is not a class index (0 to 1)"],
     );
 }
+
+// ---- linear classifiers (tests/fixtures/linear/bad_*.onnx, from make_linear_cases.py) ----
+
+fn pack_linear_fixture(name: &str, wants: &[&str]) -> String {
+    let file = format!("{name}.onnx");
+    Case::new()
+        .with_repo(&format!("tests/fixtures/linear/{file}"), &file)
+        .fails(&["pack", &file, "--float", "-o", "m.kgl"], wants)
+}
+
+#[test]
+fn c300_linear_classifier_probit_or_softmax_zero() {
+    for (name, post) in [
+        ("bad_linear_probit", "PROBIT"),
+        ("bad_linear_softmax_zero", "SOFTMAX_ZERO"),
+    ] {
+        pack_linear_fixture(
+            name,
+            &[
+                "node 'LinearClassifier' (op LinearClassifier, domain ai.onnx.ml)",
+                &format!("post_transform {post}; supported: NONE, SOFTMAX, LOGISTIC"),
+            ],
+        );
+    }
+}
+
+#[test]
+fn c301_per_class_logistic_without_normalizer() {
+    pack_linear_fixture(
+        "bad_linear_logistic_no_normalizer",
+        &[
+            "(op LinearClassifier, domain ai.onnx.ml)",
+            "post_transform LOGISTIC on 3 scores without a Normalizer (L1)",
+        ],
+    );
+}
+
+#[test]
+fn c302_linear_classifier_unknown_attribute() {
+    pack_linear_fixture(
+        "bad_linear_unknown_attribute",
+        &[
+            "(op LinearClassifier, domain ai.onnx.ml)",
+            "attribute 'kernel_type' is not supported; supported: coefficients, intercepts",
+        ],
+    );
+}
+
+#[test]
+fn c303_normalizer_other_than_l1() {
+    pack_linear_fixture(
+        "bad_normalizer_l2",
+        &[
+            "node 'Normalizer' (op Normalizer, domain ai.onnx.ml)",
+            "norm L2; supported: L1",
+        ],
+    );
+}
+
+#[test]
+fn c304_raw_score_column_other_than_the_positive_class() {
+    pack_linear_fixture(
+        "bad_svc_column_0",
+        &[
+            "(op ArrayFeatureExtractor, domain ai.onnx.ml)",
+            "picks columns [0] of the two scores; supported: column [1]",
+        ],
+    );
+}
+
+#[test]
+fn c305_sgd_log_loss_one_vs_rest_in_elementary_ops() {
+    pack_linear_fixture(
+        "bad_sgd_log_multiclass",
+        &[
+            "node 'Mul' (op Mul, domain ai.onnx)",
+            "Mul with a constant after a dense layer",
+        ],
+    );
+}

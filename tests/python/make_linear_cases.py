@@ -277,6 +277,32 @@ def unsupported_cases(out_dir):
     g.node.remove(norm)
     (out_dir / "bad_linear_logistic_no_normalizer.onnx").write_bytes(m.SerializeToString())
 
+    def edited(tag, edit):
+        m = export(lr, 4, tag, {id(lr): {"zipmap": False}})
+        edit(m.graph)
+        (out_dir / f"bad_{tag}.onnx").write_bytes(m.SerializeToString())
+
+    def node(g, op):
+        return next(n for n in g.node if n.op_type == op)
+
+    def set_string(n, name, value):
+        next(a for a in n.attribute if a.name == name).s = value
+
+    # SOFTMAX_ZERO (zero scores get probability 0): not approximated by a softmax.
+    edited("linear_softmax_zero", lambda g: set_string(node(g, "LinearClassifier"), "post_transform", b"SOFTMAX_ZERO"))
+    # An attribute LinearClassifier does not define (here one of SVMClassifier's).
+    edited("linear_unknown_attribute",
+           lambda g: node(g, "LinearClassifier").attribute.append(helper.make_attribute("kernel_type", "RBF")))
+    # Normalizer with norm L2 after the softmax.
+    edited("normalizer_l2", lambda g: set_string(node(g, "Normalizer"), "norm", b"L2"))
+    # A binary LinearSVC whose ArrayFeatureExtractor picks column 0 (the negated score).
+    Xb, _, yb, _ = split(load_breast_cancer)
+    svc = fit_quiet(LinearSVC(random_state=0), Xb, yb)
+    m = export(svc, Xb.shape[1], "svc_column_0", {id(svc): {}})
+    col = next(t for t in m.graph.initializer if t.name.startswith("positive_class_index"))
+    col.CopyFrom(numpy_helper.from_array(np.array([0], dtype=np.int64), col.name))
+    (out_dir / "bad_svc_column_0.onnx").write_bytes(m.SerializeToString())
+
 
 def main():
     out_dir = Path(sys.argv[1]) if len(sys.argv) > 1 else Path(__file__).resolve().parents[1] / "fixtures" / "linear"
