@@ -109,7 +109,9 @@ def save(out_dir, name, m, meta, x_test, y_test, x_cal, sk_rows, sk_source, stor
     onnx.checker.check_model(m)
     ref = reference(m, x_test)
     sk = np.asarray(sk_rows, dtype=np.float64).reshape(len(x_test), -1)
-    gap = float(np.max(np.abs(ref.astype(np.float64) - sk)))
+    # A binary raw-score export may give both scores [-s, s] where scikit-learn gives s.
+    same = ref[:, -1:] if ref.shape[1] == 2 and sk.shape[1] == 1 else ref
+    gap = float(np.max(np.abs(same.astype(np.float64) - sk)))
     (out_dir / f"{name}.onnx").write_bytes(m.SerializeToString())
     doc = dict(meta)
     doc.update({
@@ -148,6 +150,7 @@ def standard_cases(out_dir):
         ("lr_breast_cancer_standard", load_breast_cancer, StandardScaler(), LogisticRegression(max_iter=1000), "sigmoid", "predict_proba"),
         ("lr_digits_minmax", load_digits, MinMaxScaler(), LogisticRegression(max_iter=2000), "softmax", "predict_proba"),
         ("sgd_iris_hinge_standard", load_iris, StandardScaler(), SGDClassifier(random_state=0), "logits", "decision_function"),
+        ("sgd_breast_cancer_hinge_standard", load_breast_cancer, StandardScaler(), SGDClassifier(random_state=0), "logits", "decision_function"),
         ("sgd_breast_cancer_log_minmax", load_breast_cancer, MinMaxScaler(), SGDClassifier(loss="log_loss", random_state=0), "sigmoid", "predict_proba"),
         ("linear_svc_wine_standard", load_wine, StandardScaler(), LinearSVC(random_state=0), "logits", "decision_function"),
         ("linear_svc_breast_cancer_minmax", load_breast_cancer, MinMaxScaler(), LinearSVC(random_state=0), "logits", "decision_function"),

@@ -271,6 +271,11 @@ fn sgd_hinge_iris_decision_scores() {
 }
 
 #[test]
+fn sgd_hinge_binary_breast_cancer_decision_score() {
+    check("sgd_breast_cancer_hinge_standard");
+}
+
+#[test]
 fn sgd_log_loss_binary_breast_cancer() {
     check("sgd_breast_cancer_log_minmax");
 }
@@ -312,6 +317,7 @@ fn every_fixture_is_checked() {
         "lr_ovr_wine_standard",
         "sgd_iris_hinge_standard",
         "sgd_breast_cancer_log_minmax",
+        "sgd_breast_cancer_hinge_standard",
         "linear_svc_wine_standard",
         "linear_svc_breast_cancer_minmax",
         "linear_svc_digits",

@@ -92,6 +92,11 @@ pub fn normalise(g: &GraphIndex<'_>) -> Result<FloatModel, OnnxImportError> {
                 w.shape = vec![w.shape.first().copied().flatten(), Some(2)];
                 out
             }
+            [a, b] if w.single_raw_score() => {
+                let out = binary_output::negated_pair(g, *a, *b, current, &mut w.visited)?;
+                w.negate_into_two_rows();
+                out
+            }
             [a, b, ..] => {
                 return Err(b.err(format!(
                     "value '{current}' is read by this node and by {} (and maybe more); supported: a single chain of nodes from input to output, plus the class-label branch",
@@ -217,6 +222,26 @@ impl<'g> Walk<'g, '_> {
         }
         // Checked after dispatch, so that an unknown op is reported as such first.
         single_output(self.g, &n)
+    }
+
+    /// Right after a dense layer with one output and no output function yet.
+    fn single_raw_score(&self) -> bool {
+        self.stage == Stage::Open
+            && self.output == OutputKind::Logits
+            && self.layers.last().is_some_and(|l| l.outputs == 1)
+    }
+
+    /// The last layer (one output `s`) as two rows giving `[-s, s]`; the output is raw scores.
+    fn negate_into_two_rows(&mut self) {
+        if let Some(l) = self.layers.last_mut() {
+            let neg_w: Vec<f32> = l.weights.iter().map(|w| -w).collect();
+            let neg_b: Vec<f32> = l.bias.iter().map(|b| -b).collect();
+            l.weights = [neg_w, l.weights.clone()].concat();
+            l.bias = [neg_b, l.bias.clone()].concat();
+            l.outputs = 2;
+        }
+        self.shape = vec![self.shape.first().copied().flatten(), Some(2)];
+        self.stage = Stage::Output;
     }
 
     pub(super) fn no_output_yet(&self, n: &Node<'_>) -> Result<(), OnnxImportError> {

@@ -1,7 +1,11 @@
-//! The two-class form of a sigmoid output, as scikit-learn exporters write it for binary
-//! classifiers: `p = Sigmoid(z)` on one output, then `Sub(1, p)` and `Concat([1 - p, p])` to
-//! give two probabilities. The model keeps the single sigmoid output (`OutputKind::Sigmoid`);
-//! the two columns are `1 - p` and `p`.
+//! The two-class forms scikit-learn exporters write for binary classifiers with one output:
+//!
+//! - a sigmoid output: `p = Sigmoid(z)`, then `Sub(1, p)` and `Concat([1 - p, p])` to give two
+//!   probabilities. The model keeps the single sigmoid output (`OutputKind::Sigmoid`); the two
+//!   columns are `1 - p` and `p`.
+//! - raw scores (skl2onnx's binary hinge-loss `SGDClassifier`): `Mul(s, -1)` and
+//!   `Concat([-s, s])`. The layer becomes two rows, `-w` and `w` with biases `-b` and `b`, which
+//!   compute exactly `-s` and `s` (negation commutes with f32 rounding).
 
 use super::super::attr;
 use super::super::error::OnnxImportError;
@@ -67,6 +71,77 @@ pub fn two_class<'g>(
     }
     let out = single_output(g, &concat)?;
     for n in [sub, concat] {
+        if let Some(v) = visited.get_mut(n.index) {
+            *v = true;
+        }
+    }
+    Ok(out)
+}
+
+const RAW_FORM: &str =
+    "supported after a single raw score: Mul(s, -1) and Concat([-s, s], axis 1)";
+
+/// Recognises the raw two-class form on the score `s` read by `a` and `b`; returns the
+/// `Concat` output. The caller turns the layer into its two rows.
+pub fn negated_pair<'g>(
+    g: &GraphIndex<'g>,
+    a: Node<'g>,
+    b: Node<'g>,
+    s: &'g str,
+    visited: &mut [bool],
+) -> Result<&'g str, OnnxImportError> {
+    let is = |n: &Node<'_>, op: &str| n.domain() == Domain::Onnx && n.op() == op;
+    let (mul, concat) = match (
+        is(&a, "Mul"),
+        is(&b, "Mul"),
+        is(&a, "Concat"),
+        is(&b, "Concat"),
+    ) {
+        (true, _, _, true) => (a, b),
+        (_, true, true, _) => (b, a),
+        _ => {
+            return Err(b.err(format!(
+                "the score '{s}' is read by {} and by this node; {RAW_FORM}",
+                a.node_ref()
+            )))
+        }
+    };
+    let k = match mul.inputs() {
+        [x, _] if x == s => 1,
+        [_, y] if y == s => 0,
+        _ => return Err(mul.err(format!("expected Mul('{s}', -1); {RAW_FORM}"))),
+    };
+    let minus_one = constant_input(g, &mul, k, "constant -1")?;
+    let ok = minus_one.len() == 1
+        && minus_one
+            .finite_floats()
+            .is_ok_and(|v| v.first() == Some(&-1.0));
+    if !ok {
+        return Err(mul.err(format!(
+            "the constant '{}' is not a single -1.0; {RAW_FORM}",
+            minus_one.name
+        )));
+    }
+    let neg = single_output(g, &mul)?;
+    if g.consumers(neg) != [concat.index] || g.is_graph_output(neg) {
+        return Err(mul.err(format!(
+            "its output '{neg}' is used other than by the Concat; {RAW_FORM}"
+        )));
+    }
+    let axis = attr::int_or(concat.proto, "axis", 0).map_err(|e| concat.err(e))?;
+    if axis != 1 && axis != -1 {
+        return Err(concat.err(format!("Concat over axis {axis}; {RAW_FORM}")));
+    }
+    match concat.inputs() {
+        [x, y] if x == neg && y == s => {}
+        _ => {
+            return Err(concat.err(format!(
+                "inputs are not [-s, s] (class 1's score second); {RAW_FORM}"
+            )))
+        }
+    }
+    let out = single_output(g, &concat)?;
+    for n in [mul, concat] {
         if let Some(v) = visited.get_mut(n.index) {
             *v = true;
         }
