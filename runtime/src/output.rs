@@ -125,7 +125,10 @@ mod tests {
         // σ(0) = 1/2 and σ(ln 3) = 3/4: [1/2, 3/4] / (5/4) = [0.4, 0.6].
         let mut s = [0.0f32, 3.0f32.ln()];
         one_vs_rest(&mut s);
-        assert!((s[0] - 0.4).abs() < 1e-7 && (s[1] - 0.6).abs() < 1e-7, "{s:?}");
+        assert!(
+            (s[0] - 0.4).abs() < 1e-7 && (s[1] - 0.6).abs() < 1e-7,
+            "{s:?}"
+        );
         // Three scores: σ(0) = 0.5, σ(ln 4) = 0.8, σ(−ln 4) = 0.2; sum 1.5.
         let mut t = [0.0f32, 4.0f32.ln(), -(4.0f32.ln())];
         one_vs_rest(&mut t);
@@ -137,7 +140,10 @@ mod tests {
         // of 1.5e-5 there).
         let mut u = [-200.0f32, -200.0 + 3.0f32.ln()];
         one_vs_rest(&mut u);
-        assert!((u[0] - 0.25).abs() < 1e-5 && (u[1] - 0.75).abs() < 1e-5, "{u:?}");
+        assert!(
+            (u[0] - 0.25).abs() < 1e-5 && (u[1] - 0.75).abs() < 1e-5,
+            "{u:?}"
+        );
         let mut e: [f32; 0] = [];
         one_vs_rest(&mut e);
     }

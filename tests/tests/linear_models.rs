@@ -300,8 +300,7 @@ fn linear_svc_digits_decision_scores() {
 fn pixels_784_logistic_regression_packs_and_runs() {
     let f = check("lr_pixels784_div255");
     assert!(f.float_acc > 90.0, "{}", f.float_acc);
-    let model =
-        import_onnx_file(&path("tests/fixtures/linear/lr_pixels784_div255.onnx")).unwrap();
+    let model = import_onnx_file(&path("tests/fixtures/linear/lr_pixels784_div255.onnx")).unwrap();
     let s = model.scaler.as_ref().expect("the Div is the scaler");
     assert_eq!(s.scale, vec![1.0 / 255.0]);
     assert_eq!((model.input_len, model.classes()), (784, 10));
@@ -355,12 +354,21 @@ fn refusal(name: &str) -> OnnxImportError {
 fn unsupported_linear_exports_are_refused_naming_node_and_op() {
     let e = refusal("bad_linear_probit");
     let m = e.to_string();
-    assert_eq!(e.node().map(|n| n.op_type.as_str()), Some("LinearClassifier"));
-    assert!(m.contains("post_transform PROBIT") && m.contains("LinearClassifier"), "{m}");
+    assert_eq!(
+        e.node().map(|n| n.op_type.as_str()),
+        Some("LinearClassifier")
+    );
+    assert!(
+        m.contains("post_transform PROBIT") && m.contains("LinearClassifier"),
+        "{m}"
+    );
 
     let e = refusal("bad_linear_logistic_no_normalizer");
     let m = e.to_string();
-    assert_eq!(e.node().map(|n| n.op_type.as_str()), Some("LinearClassifier"));
+    assert_eq!(
+        e.node().map(|n| n.op_type.as_str()),
+        Some("LinearClassifier")
+    );
     assert!(
         m.contains("LOGISTIC on 3 scores without a Normalizer"),
         "{m}"

@@ -234,3 +234,108 @@ fn garbage_bytes_do_not_panic() {
         Err(OnnxImportError::Decode(_))
     ));
 }
+
+fn ml(mut n: super::super::proto::NodeProto) -> super::super::proto::NodeProto {
+    n.domain = Some("ai.onnx.ml".into());
+    n
+}
+
+fn attr_str(name: &str, s: &str) -> super::super::proto::AttributeProto {
+    super::super::proto::AttributeProto {
+        name: Some(name.into()),
+        s: Some(s.as_bytes().to_vec()),
+        r#type: Some(super::super::proto::attr_type::STRING),
+        ..Default::default()
+    }
+}
+
+fn attr_strs(name: &str, v: &[&str]) -> super::super::proto::AttributeProto {
+    super::super::proto::AttributeProto {
+        name: Some(name.into()),
+        strings: v.iter().map(|s| s.as_bytes().to_vec()).collect(),
+        r#type: Some(super::super::proto::attr_type::STRINGS),
+        ..Default::default()
+    }
+}
+
+/// LinearClassifier over x[N,2] with three string labels and `post`.
+fn linear3(post: &str) -> super::super::proto::NodeProto {
+    let mut n = ml(node("lc", "LinearClassifier", &["x"], &["label", "scores"]));
+    for a in [
+        attr_floats("coefficients", &[1., 0., 0., 1., -1., -1.]),
+        attr_floats("intercepts", &[0.5, 0.0, -0.5]),
+        attr_strs("classlabels_strings", &["low", "mid", "high"]),
+        attr_str("post_transform", post),
+    ] {
+        n = with_attr(n, a);
+    }
+    n
+}
+
+#[test]
+fn linear_classifier_with_string_labels_and_label_output() {
+    let m = import(vec![linear3("SOFTMAX")], vec![], &["label", "scores"]).unwrap();
+    assert_eq!(m.output, OutputKind::Softmax);
+    assert_eq!(m.labels, ["low", "mid", "high"]);
+    assert_eq!((m.layers[0].inputs, m.layers[0].outputs), (2, 3));
+    assert_eq!(m.layers[0].bias, vec![0.5, 0.0, -0.5]);
+    // x = [1, 2]: scores [1.5, 2, -3.5]; NONE keeps them.
+    let raw = import(vec![linear3("NONE")], vec![], &["scores"]).unwrap();
+    assert_eq!(raw.forward_reference(&[1.0, 2.0]), vec![1.5, 2.0, -3.5]);
+}
+
+#[test]
+fn linear_classifier_logistic_with_l1_normalizer_is_one_vs_rest() {
+    let norm = with_attr(
+        ml(node("nz", "Normalizer", &["scores"], &["p"])),
+        attr_str("norm", "L1"),
+    );
+    let m = import(vec![linear3("LOGISTIC"), norm], vec![], &["label", "p"]).unwrap();
+    assert_eq!(m.output, OutputKind::OneVsRest);
+    // x = [0, 0]: σ(0.5), σ(0), σ(-0.5) = 0.622459, 0.5, 0.377541, sum 1.5.
+    let y = m.forward_reference(&[0.0, 0.0]);
+    assert!((y[1] - 0.5 / 1.5).abs() < 1e-9, "{y:?}");
+    assert!((y[0] - 0.622_459_33 / 1.5).abs() < 1e-7, "{y:?}");
+}
+
+#[test]
+fn linear_classifier_misuse_is_refused() {
+    // The label output read by another node.
+    let cast = with_attr(node("c", "Cast", &["label"], &["l2"]), attr_int("to", 1));
+    let e = import(vec![linear3("NONE"), cast], vec![], &["l2", "scores"]).unwrap_err();
+    assert!(
+        e.to_string()
+            .contains("label output 'label' is read by other nodes"),
+        "{e}"
+    );
+    // A Softmax after it: the output function is already set.
+    let sm = node("sm", "Softmax", &["scores"], &["p"]);
+    let e = import(vec![linear3("NONE"), sm], vec![], &["p"]).unwrap_err();
+    assert!(
+        e.to_string().contains("Softmax after the output function"),
+        "{e}"
+    );
+    // Normalizer L1 on raw scores.
+    let norm = with_attr(
+        ml(node("nz", "Normalizer", &["scores"], &["p"])),
+        attr_str("norm", "L1"),
+    );
+    let e = import(vec![linear3("NONE"), norm], vec![], &["p"]).unwrap_err();
+    assert!(e.to_string().contains("on raw scores"), "{e}");
+    // multi_class 2.
+    let odd = with_attr(linear3("NONE"), attr_int("multi_class", 2));
+    let e = import(vec![odd], vec![], &["scores"]).unwrap_err();
+    assert!(
+        e.to_string().contains("multi_class = 2; supported: 0 or 1"),
+        "{e}"
+    );
+    // Coefficients that do not fit the input width.
+    let mut wide = linear3("NONE");
+    wide.attribute[0] = attr_floats("coefficients", &[1.; 9]);
+    let e = import(vec![wide], vec![], &["scores"]).unwrap_err();
+    assert!(
+        e.to_string()
+            .contains("9 coefficients for 2 input features"),
+        "{e}"
+    );
+}

@@ -78,8 +78,7 @@ pub fn two_class<'g>(
     Ok(out)
 }
 
-const RAW_FORM: &str =
-    "supported after a single raw score: Mul(s, -1) and Concat([-s, s], axis 1)";
+const RAW_FORM: &str = "supported after a single raw score: Mul(s, -1) and Concat([-s, s], axis 1)";
 
 /// Recognises the raw two-class form on the score `s` read by `a` and `b`; returns the
 /// `Concat` output. The caller turns the layer into its two rows.

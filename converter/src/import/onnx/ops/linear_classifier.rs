@@ -56,7 +56,7 @@ pub fn layer(
     classes: usize,
     post: &str,
 ) -> Result<(DenseLayer, Post), String> {
-    if inputs == 0 || weights.is_empty() || weights.len() % inputs != 0 {
+    if inputs == 0 || weights.is_empty() || !weights.len().is_multiple_of(inputs) {
         return Err(format!(
             "{} coefficients for {inputs} input features; supported: classes × features coefficients",
             weights.len()
