@@ -25,7 +25,7 @@
 //!
 //! The steps a sample goes through each have a module: [`scale`] (the saved input scaler and
 //! input quantisation), [`dense`] (int8 and f32 kernels), [`requant`] (integer-only
-//! requantisation after Jacob et al., 2018), [`output`] (softmax, sigmoid, argmax) and
+//! requantisation after Jacob et al., 2018), [`output`] (softmax, sigmoid, one-vs-rest, argmax) and
 //! [`arena`] (buffer planning).
 #![cfg_attr(not(test), no_std)]
 // `deny`, not `forbid`: the Cortex-M kernels (`dense::asm`, the one module with `asm!`)

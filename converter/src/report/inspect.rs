@@ -33,7 +33,7 @@ pub struct BlobReport {
     pub inputs: usize,
     /// Number of classes.
     pub classes: usize,
-    /// "softmax", "sigmoid" or "logits".
+    /// "softmax", "sigmoid", "one-vs-rest" or "logits".
     pub output: String,
     /// "none", "uniform" or "per-feature".
     pub scaler: String,

@@ -43,8 +43,8 @@ impl fmt::Display for NodeRef {
 /// The ops the importer understands, for "supported:" parts of messages.
 pub const SUPPORTED_OPS: &str = "MatMul, Add, Gemm, Relu, Softmax, Sigmoid, \
     BatchNormalization, Flatten, Reshape, Identity, Dropout, Cast (to float), Sub, Mul, Div, \
-    Constant, ArgMax, Concat (binary probabilities) in domain ai.onnx, and Scaler, \
-    ArrayFeatureExtractor in domain ai.onnx.ml";
+    Constant, ArgMax, Concat (binary outputs) in domain ai.onnx, and Scaler, LinearClassifier, \
+    Normalizer (L1), ArrayFeatureExtractor in domain ai.onnx.ml";
 
 /// Why an ONNX model could not be imported.
 #[derive(Debug, thiserror::Error)]

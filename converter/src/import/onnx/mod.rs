@@ -6,7 +6,11 @@
 //!   side of the `Add`), `Gemm` (`transA = 0`, `transB` 0 or 1, `alpha`/`beta`, optional `C`);
 //! - `Relu` after a dense layer; `BatchNormalization` after a dense layer, folded into it;
 //! - output functions: `Softmax` (axis 1 or -1), `Sigmoid` on a single output, including the
-//!   two-class `Sub(1, p)` + `Concat([1 - p, p])` form;
+//!   two-class `Sub(1, p)` + `Concat([1 - p, p])` form, and a single raw score's
+//!   `Mul(s, -1)` + `Concat([-s, s])` form;
+//! - `ai.onnx.ml` `LinearClassifier` (a dense layer and its output function, class labels kept),
+//!   `Normalizer` (L1) after it, and `ArrayFeatureExtractor(scores, [1])` after a binary one with
+//!   raw scores (`ops/linear_classifier.rs`);
 //! - the input scaler: `ai.onnx.ml` `Scaler`, or constant `Sub`/`Add`/`Mul`/`Div` nodes before
 //!   the first dense layer, composed into one `(x - offset) * scale` map;
 //! - `Flatten`/`Reshape` to `[N, features]` at the input; `Identity`, `Dropout` and `Cast` to

@@ -6,7 +6,9 @@
 //! 2. dense layers (`MatMul` [+ `Add`], `Gemm`), each optionally followed by a folded
 //!    `BatchNormalization` and a `Relu`;
 //! 3. an optional output function (`Softmax`, or `Sigmoid` on one output with its two-class
-//!    form), and the class-label branch off the scores, which is dropped.
+//!    form), and the class-label branch off the scores, which is dropped; or, instead of 2 and
+//!    3, a `LinearClassifier` (a dense layer with its output function and class labels),
+//!    optionally followed by a `Normalizer`.
 //!
 //! `Identity`, `Dropout` and `Cast` to float are removed wherever they are. Each step moves to
 //! a node not seen before, so the walk ends within the graph's node count.
@@ -14,7 +16,9 @@
 //! This file holds the walk's state and its dispatch; each op's handler is a method of [`Walk`]
 //! in the op's own file under `ops/` (`ops/dense.rs`: `MatMul`, `Gemm`; `ops/affine.rs`: the
 //! scaler ops; `ops/batchnorm.rs`; `ops/activation.rs`: `Relu`, `Softmax`, `Sigmoid`;
-//! `ops/shape.rs`: `Flatten`, `Reshape`; `ops/passthrough.rs`: `Dropout`, `Cast`), beside its maths.
+//! `ops/shape.rs`: `Flatten`, `Reshape`; `ops/passthrough.rs`: `Dropout`, `Cast`;
+//! `ops/linear_classifier.rs`, `ops/normalizer.rs`, `ops/score_column.rs`: `LinearClassifier`,
+//! `Normalizer`, `ArrayFeatureExtractor` of `ai.onnx.ml`), beside its maths.
 
 use crate::graph::{DenseLayer, FloatModel, OutputKind};
 
