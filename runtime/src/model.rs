@@ -226,15 +226,20 @@ impl<'a> Model<'a> {
             }
             None => {}
         }
-        match self.desc.output {
-            OutputKind::Softmax => softmax(scores),
+        // One call site of `softmax`: one-vs-rest falls back to it far below zero (`output.rs`).
+        let soft = match self.desc.output {
+            OutputKind::Softmax => true,
             OutputKind::Sigmoid => {
                 for s in scores.iter_mut() {
                     *s = sigmoid(*s);
                 }
+                false
             }
-            OutputKind::OneVsRest => one_vs_rest(scores),
-            OutputKind::Logits => {}
+            OutputKind::OneVsRest => !one_vs_rest(scores),
+            OutputKind::Logits => false,
+        };
+        if soft {
+            softmax(scores);
         }
         if self.desc.output == OutputKind::Sigmoid {
             let p = scores.first().copied().unwrap_or(0.0);

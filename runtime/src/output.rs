@@ -31,21 +31,26 @@ pub fn sigmoid(x: f32) -> f32 {
 
 /// One-vs-rest probabilities in place: `σ(s_k) / Σ_j σ(s_j)`, the logistic function of each
 /// score divided by their sum (`FORMAT.md` §3.2; scikit-learn's one-vs-rest `predict_proba`).
-/// When every `σ(s_j)` underflows to 0 in f32 (all scores below about −104) the quotient is
-/// its limit, softmax (`σ(s) ~ e^s` as `s → −∞`), rather than 0/0. An empty slice is left as is.
-pub fn one_vs_rest(scores: &mut [f32]) {
+///
+/// Returns `false`, leaving the scores as they are, when every score is below −80: there
+/// `σ(s) = e^s / (1 + e^s)` equals `e^s` to f32 precision and underflows further down, so the
+/// caller applies [`softmax`], the same ratio, rather than computing 0/0. Otherwise the sum is
+/// at least `σ(−80) ≈ 1.8e-35`, a normal f32 whose reciprocal is finite. An empty slice: `false`.
+#[must_use]
+pub fn one_vs_rest(scores: &mut [f32]) -> bool {
+    if !scores.iter().any(|&s| s >= -80.0) {
+        return false;
+    }
     let mut sum = 0.0f32;
-    for &s in scores.iter() {
-        sum += sigmoid(s);
+    for s in scores.iter_mut() {
+        *s = sigmoid(*s);
+        sum += *s;
     }
-    if sum > 0.0 {
-        let inv = 1.0 / sum;
-        for s in scores.iter_mut() {
-            *s = sigmoid(*s) * inv;
-        }
-    } else {
-        softmax(scores);
+    let inv = 1.0 / sum;
+    for s in scores.iter_mut() {
+        *s *= inv;
     }
+    true
 }
 
 /// Index and value of the largest score. Ties resolve to the lowest index; NaN never wins.
@@ -124,28 +129,30 @@ mod tests {
     fn one_vs_rest_hand_worked() {
         // σ(0) = 1/2 and σ(ln 3) = 3/4: [1/2, 3/4] / (5/4) = [0.4, 0.6].
         let mut s = [0.0f32, 3.0f32.ln()];
-        one_vs_rest(&mut s);
+        assert!(one_vs_rest(&mut s));
         assert!(
             (s[0] - 0.4).abs() < 1e-7 && (s[1] - 0.6).abs() < 1e-7,
             "{s:?}"
         );
         // Three scores: σ(0) = 0.5, σ(ln 4) = 0.8, σ(−ln 4) = 0.2; sum 1.5.
         let mut t = [0.0f32, 4.0f32.ln(), -(4.0f32.ln())];
-        one_vs_rest(&mut t);
+        assert!(one_vs_rest(&mut t));
         let want = [0.5 / 1.5, 0.8 / 1.5, 0.2 / 1.5];
         for (g, w) in t.iter().zip(want) {
             assert!((g - w).abs() < 1e-6, "{t:?}");
         }
-        // All underflowing: the softmax limit, not NaN (−200 + ln 3 is only exact to f32 steps
-        // of 1.5e-5 there).
+        // Far below: the softmax form, not 0/0 (−200 + ln 3 is only exact to f32 steps of
+        // 1.5e-5 there).
         let mut u = [-200.0f32, -200.0 + 3.0f32.ln()];
-        one_vs_rest(&mut u);
+        assert!(!one_vs_rest(&mut u));
+        assert_eq!(u, [-200.0f32, -200.0 + 3.0f32.ln()], "left as they are");
+        softmax(&mut u);
         assert!(
             (u[0] - 0.25).abs() < 1e-5 && (u[1] - 0.75).abs() < 1e-5,
             "{u:?}"
         );
         let mut e: [f32; 0] = [];
-        one_vs_rest(&mut e);
+        assert!(!one_vs_rest(&mut e));
     }
 
     #[test]
