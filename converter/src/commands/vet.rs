@@ -2,6 +2,7 @@
 use anyhow::{anyhow, bail, Context, Result};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use kinglet_converter::atomic::write_atomic;
+use kinglet_converter::echo;
 use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::vet::load::load_float;
 use kinglet_converter::vet::render_text::TextOptions;
@@ -61,11 +62,24 @@ pub struct Args {
     serial: bool,
 }
 
-fn check_limit(name: &str, v: Option<f64>) -> Result<()> {
+/// `--max-drop`: percentage points, -100 to 100 (a negative bound asks int8 to gain accuracy).
+fn check_drop(v: Option<f64>) -> Result<()> {
     match v {
-        Some(x) if !x.is_finite() || !(-100.0..=100.0).contains(&x) => {
-            bail!("{name} must be a number of percentage points between -100 and 100, not {x}")
-        }
+        Some(x) if !x.is_finite() || !(-100.0..=100.0).contains(&x) => bail!(
+            "--max-drop must be a number of percentage points between -100 and 100, not {}",
+            echo::number(x)
+        ),
+        _ => Ok(()),
+    }
+}
+
+/// `--min-agreement`: a percentage of rows, 0 to 100.
+fn check_agreement(v: Option<f64>) -> Result<()> {
+    match v {
+        Some(x) if !x.is_finite() || !(0.0..=100.0).contains(&x) => bail!(
+            "--min-agreement must be a percentage of rows between 0 and 100, not {}",
+            echo::number(x)
+        ),
         _ => Ok(()),
     }
 }
@@ -79,8 +93,8 @@ pub fn run(a: Args) -> Result<Outcome> {
         inputs.extend(a.source.inputs());
         check_distinct(&[Named::new("--html", html)], &inputs)?;
     }
-    check_limit("--max-drop", a.max_drop)?;
-    check_limit("--min-agreement", a.min_agreement)?;
+    check_drop(a.max_drop)?;
+    check_agreement(a.min_agreement)?;
     let int8_bytes = std::fs::read(&a.int8_blob)
         .with_context(|| format!("cannot read {}", a.int8_blob.display()))?;
     let int8 = Model::parse(&int8_bytes)
