@@ -21,6 +21,19 @@ enum Range {
     Percentile,
 }
 
+/// `pack --json`: the written file, then the blob's report in `inspect --json`'s order and
+/// number forms (serialised directly: a `serde_json::Value` would sort the keys and widen every
+/// f32 to f64 digits), then the notes and the calibration.
+#[derive(serde::Serialize)]
+struct PackJson<'a> {
+    blob: String,
+    #[serde(flatten)]
+    report: &'a kinglet_converter::report::BlobReport,
+    notes: &'a [String],
+    #[serde(skip_serializing_if = "Option::is_none")]
+    calibration: Option<&'a kinglet_converter::report::calibration::CalibrationReport>,
+}
+
 /// `--percentile` when `--range percentile` is given without it.
 const DEFAULT_PERCENTILE: f64 = 99.99;
 
@@ -108,12 +121,12 @@ pub fn run(a: Args) -> Result<Outcome> {
         eprintln!("kinglet: warning: {w}");
     }
     if a.json {
-        let mut v = serde_json::to_value(&packed.report)?;
-        v["blob"] = serde_json::Value::String(out.display().to_string());
-        v["notes"] = serde_json::to_value(&packed.notes)?;
-        if let Some(c) = &packed.calibration {
-            v["calibration"] = serde_json::to_value(c)?;
-        }
+        let v = PackJson {
+            blob: out.display().to_string(),
+            report: &packed.report,
+            notes: &packed.notes,
+            calibration: packed.calibration.as_ref(),
+        };
         super::out::line(&serde_json::to_string_pretty(&v)?)?;
     } else {
         super::out::line(&format!(
