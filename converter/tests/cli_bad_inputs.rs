@@ -967,8 +967,8 @@ fn c60_budget_size_options_are_bounded() {
         );
     }
     c.fails(
-        &["budget", "v.kgl", "--flash", "4194305", "--ram", "8"],
-        &["--flash", "is not in 1..=4194304"],
+        &["budget", "v.kgl", "--flash", "4194305K", "--ram", "8K"],
+        &["--flash", "larger than 4294967296 bytes"],
     );
 }
 
@@ -1558,6 +1558,69 @@ fn c87_score_bad_blob_wrong_width_unknown_label() {
     c.fails(
         &["score", "v.kgl", "--data", "labelled.csv", "--label", "y", "--rows", "1..2", "-o", "s.csv"],
         &["labelled.csv: bad label: data row 2 (1-based, header not counted): label \"7\" is not a class index (0 to 1)"],
+    );
+}
+
+#[test]
+fn c90_budget_sizes_read_as_the_firmware_build_reads_them() {
+    // Was: `--flash 32` alone asked for --board (which conflicts with it); 32K and 0.5 refused.
+    let c = Case::new().packed("v.kgl");
+    c.fails(
+        &["budget", "v.kgl", "--flash", "32K"],
+        &["the following required arguments were not provided: --ram <SIZE>"],
+    );
+    c.fails(
+        &["budget", "v.kgl", "--flash", "32", "--ram", "8K"],
+        &[
+            "--flash",
+            "32 bytes is smaller than any part; sizes are in bytes, write 32K for KiB",
+        ],
+    );
+    c.fails(
+        &["budget", "v.kgl", "--flash", "32K", "--ram", "0.3K"],
+        &["--ram", "\"0.3K\" is not a whole number of bytes"],
+    );
+    c.fails(
+        &["budget", "v.kgl", "--flash", "32 KB", "--ram", "8K"],
+        &[
+            "--flash",
+            "expected a size such as 4096 (bytes), 32K or 32KiB, 1M",
+        ],
+    );
+    let out = c.run(&["budget", "v.kgl", "--flash", "32K", "--ram", "4.5K"]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("32 KiB flash, 4608 bytes RAM"), "{text}");
+}
+
+#[test]
+fn c91_percentile_without_the_percentile_range() {
+    // Was: silently ignored (the range stayed min/max).
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    c.fails(
+        &["pack", "model_2in.json", "--calibration", "rows.csv", "--percentile", "99", "-o", "m.kgl"],
+        &["--percentile applies to --range percentile only (the range method is minmax); add --range percentile"],
+    );
+}
+
+#[test]
+fn c92_a_label_column_in_the_calibration_rows_points_at_the_option() {
+    let c = Case::new()
+        .with("model_2in.json")
+        .put("named.csv", b"a,b,kind\n1,2,ok\n3,4,worn\n")
+        .put("indexed.csv", b"a,b,kind\n1,2,0\n3,4,1\n");
+    c.fails(
+        &["pack", "model_2in.json", "--calibration", "named.csv", "-o", "m.kgl"],
+        &["named.csv: line 2, column 'kind': \"ok\" is not a number; if that column holds class labels, leave it out with --calibration-label kind"],
+    );
+    c.fails(
+        &["pack", "model_2in.json", "--calibration", "indexed.csv", "-o", "m.kgl"],
+        &["indexed.csv: 3 features per row, but the model takes 2 inputs; if one column holds class labels, leave it out with --calibration-label <name or index>"],
     );
 }
 
