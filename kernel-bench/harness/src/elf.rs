@@ -49,7 +49,10 @@ impl Elf {
     /// what an integer-only path on a core without FPU or divider must not pull in.
     pub fn soft_routines(&self) -> Result<Vec<String>, String> {
         // The `__aeabi_*` entry points and compiler-builtins' own (v0-mangled) names.
-        let soft = |n: &str| {
+        let soft = |full: &str| {
+            // Without the legacy mangling's hash (`17h` + 16 hex digits + `E`), which can spell
+            // any of the patterns below ("h23e4df22356c659f" holds "df2").
+            let n = without_hash(full);
             let aeabi = n.strip_prefix("__aeabi_").unwrap_or("");
             aeabi.starts_with('f')
                 || aeabi.starts_with('d')
@@ -93,5 +96,36 @@ impl Elf {
             .filter(|(_, h)| u16::from_le_bytes([h[0], h[1]]) == marker)
             .map(|(i, _)| base + 2 * i as u64)
             .collect())
+    }
+}
+
+/// `name` without a trailing legacy Rust mangling hash, `17h` + 16 hex digits + `E`
+/// (rustc's `legacy` symbol mangling); other names as they are.
+fn without_hash(name: &str) -> &str {
+    let b = name.as_bytes();
+    let n = b.len();
+    if n >= 20 && b[n - 1] == b'E' && &b[n - 20..n - 17] == b"17h" {
+        let hex = &b[n - 17..n - 1];
+        if hex.iter().all(u8::is_ascii_hexdigit) {
+            return &name[..n - 20];
+        }
+    }
+    name
+}
+
+#[cfg(test)]
+mod tests {
+    use super::without_hash;
+
+    #[test]
+    fn the_hash_is_not_matched_as_a_routine_name() {
+        let s = "_ZN10serde_core2de9SeqAccess12next_element17h23e4df22356c659fE";
+        assert_eq!(
+            without_hash(s),
+            "_ZN10serde_core2de9SeqAccess12next_element"
+        );
+        assert!(!without_hash(s).contains("df2"));
+        assert_eq!(without_hash("__aeabi_fmul"), "__aeabi_fmul");
+        assert_eq!(without_hash("__divsi3"), "__divsi3");
     }
 }
