@@ -18,6 +18,11 @@ impl Model<'_> {
     /// top scores equal, which needs outputs closer than about 2^-20 (an int8 output scale that
     /// small, or f32 outputs that close).
     ///
+    /// # Errors
+    ///
+    /// The [`RunError`]s of [`Model::infer`] (without the score slice, there is no
+    /// [`RunError::ScoresTooSmall`]).
+    ///
     /// ```
     /// # fn demo(blob: &[u8], raw: &[i16]) -> Result<(), kinglet_runtime::Error> {
     /// use kinglet_runtime::{Input, Model};

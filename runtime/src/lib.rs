@@ -2,13 +2,14 @@
 //!
 //! Allocation-free inference for small dense classifiers on microcontrollers.
 //!
-//! A model is a *blob* (see `FORMAT.md` in the repository) that the firmware keeps in flash and
+//! A model is a *blob* (specified in `FORMAT.md`, shipped with this crate) that the firmware keeps in flash and
 //! reads in place. [`Model::parse`] checks everything once — header, checksum, every length,
 //! every shape, every quantisation parameter, and that no int8 accumulator can overflow — and
 //! returns a validated [`Model`]. After that, inference cannot panic or read out of bounds.
 //!
-//! Inference works in a caller-owned *scratch buffer* whose exact size the blob states in its header, so
-//! a firmware can size a `static` at build time with the `const fn` [`scratch_bytes`]:
+//! Inference works in a caller-owned *scratch buffer* whose exact size the blob states in its
+//! header, so a firmware can size a `static` at build time with the `const fn`
+//! [`scratch_bytes`]:
 //!
 //! ```
 //! # fn demo(blob: &[u8]) -> Result<(), kinglet_runtime::Error> {
@@ -23,11 +24,25 @@
 //! # }
 //! ```
 //!
-//! The steps a sample goes through each have a module: [`scale`] (the saved input scaler and
-//! input quantisation), [`dense`] (int8 and f32 kernels), [`requant`] (integer-only
-//! requantisation after Jacob et al., 2018), [`output`] (softmax, sigmoid, argmax) and
-//! [`scratch`] (buffer planning).
+//! ## Stable and unstable
+//!
+//! The crate root is the stable surface, all a firmware needs: [`Model`] (`parse`, `infer`,
+//! `classify`, `label`, sizes), [`Input`], [`Prediction`], the errors ([`Error`],
+//! [`FormatError`], [`RunError`]), the `const fn`s [`scratch_bytes`] and [`blob_len`], and the
+//! header constants. Everything else — the wire types, the kernels, requantisation, the
+//! scaler, the scratch plan and the encoder — is in [`unstable`], public for the converter,
+//! the tests, the fuzz targets and `kernel-bench`, and free to change in any release. A few
+//! inspection methods of [`Model`] (`desc`, `layers`, `scratch_plan`) return `unstable` types
+//! and share their status.
+//!
+//! ## Cargo features
+//!
+//! - `f32` (default): f32 models. Without it the runtime is int8-only and
+//!   [`Model::parse`] refuses f32 blobs with [`FormatError::F32NotBuiltIn`].
+//! - `defmt`: `defmt::Format` for the error and result types.
+//! - `encode`: the blob encoder, `unstable::encode` (host tools).
 #![cfg_attr(not(test), no_std)]
+#![cfg_attr(docsrs, feature(doc_cfg))]
 // `deny`, not `forbid`: the Cortex-M kernels (`dense::asm`, the one module with `asm!`)
 // allow it locally.
 #![deny(unsafe_code)]

@@ -85,6 +85,21 @@ impl<'a> Model<'a> {
     /// Parses and validates `blob` (exactly one blob, see [`crate::blob_len`]).
     ///
     /// Every rule of `FORMAT.md` §5 is checked here, once.
+    ///
+    /// # Errors
+    ///
+    /// A [`FormatError`] naming the first rule the blob breaks: a wrong magic, version, length
+    /// or checksum, a malformed or inconsistent layer table, a quantisation parameter out of
+    /// range, a possible int8 accumulator overflow, a scratch size that disagrees with the
+    /// layers, or ([`FormatError::F32NotBuiltIn`]) an f32 blob on a build without the `f32`
+    /// feature.
+    ///
+    /// ```
+    /// use kinglet_runtime::{FormatError, Model};
+    /// // Not a blob: rejected with a typed error, never a panic.
+    /// let err = Model::parse(b"not a Kinglet model").err();
+    /// assert_eq!(err, Some(FormatError::BadMagic));
+    /// ```
     pub fn parse(blob: &'a [u8]) -> Result<Self, FormatError> {
         let header = Header::read(blob)?;
         let body = blob.get(HEADER_LEN..).unwrap_or(&[]);
@@ -182,6 +197,27 @@ impl<'a> Model<'a> {
     /// [`Model::output_len`] elements; on error the contents of both are unspecified.
     ///
     /// Float inputs must be finite. Integer inputs are always accepted.
+    ///
+    /// # Errors
+    ///
+    /// A [`RunError`]: the input is not [`Model::input_len`] long
+    /// ([`RunError::InputLength`]), `scratch` or `scores` is too small
+    /// ([`RunError::ScratchTooSmall`], [`RunError::ScoresTooSmall`]), a float input is NaN or
+    /// infinite ([`RunError::NonFiniteInput`]), or an f32 model's output is not finite
+    /// ([`RunError::NonFiniteOutput`]).
+    ///
+    /// ```
+    /// # fn demo(blob: &[u8]) -> Result<(), kinglet_runtime::Error> {
+    /// use kinglet_runtime::{Input, Model};
+    /// let model = Model::parse(blob)?;
+    /// let mut scratch = [0u8; 256];
+    /// let mut scores = [0f32; 10];
+    /// let p = model.infer(Input::F32(&[0.5; 4]), &mut scratch, &mut scores)?;
+    /// let name = model.label(p.class).unwrap_or("?");
+    /// # let _ = name;
+    /// # Ok(())
+    /// # }
+    /// ```
     pub fn infer(
         &self,
         input: Input<'_>,
