@@ -89,7 +89,7 @@ pub fn seal(blob: &mut [u8], version: u16, scratch_bytes: u32) -> Result<(), Enc
 }
 
 /// Rewrites the length and CRC fields of `blob` for its bytes as they are now, leaving the magic,
-/// version, flags and scratch buffer fields alone: after a test or tool has changed bytes of a blob, the
+/// version, flags and scratch fields alone: after a test or tool has changed bytes of a blob, the
 /// length and checksum no longer stop the change at the door. Checks nothing else; fails only
 /// when `blob` is shorter than the header or longer than a `u32` can say.
 pub fn reseal(blob: &mut [u8]) -> Result<(), EncodeError> {

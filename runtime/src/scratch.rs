@@ -4,7 +4,7 @@
 //! live in the first buffer, odd ones in the second, so a layer always reads one buffer and
 //! writes the other. The scratch buffer is the two buffers back to back: `ping + pong` bytes, where
 //! `ping` is the widest even tensor and `pong` the widest odd one, times the element size
-//! (1 byte for int8, 4 for f32). There is no other scratch.
+//! (1 byte for int8, 4 for f32). There is no other working memory.
 
 /// Sizes of the two activation buffers, in bytes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
