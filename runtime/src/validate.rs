@@ -633,10 +633,14 @@ mod tests {
         let model = Model::parse(&blob).expect("valid version-3 blob");
         // §6: the last layer dequantises to [-3.2, 3.1]; σ(-3.2) = 0.039166, σ(3.1) = 0.956893,
         // divided by their sum 0.996058: [0.039321, 0.960679] (float64 arithmetic, by hand).
-        let mut arena = [0u8; 7];
+        let mut scratch = [0u8; 7];
         let mut scores = [0f32; 2];
         let p = model
-            .infer(crate::Input::F32(&[1.0, 2.0, 3.0]), &mut arena, &mut scores)
+            .infer(
+                crate::Input::F32(&[1.0, 2.0, 3.0]),
+                &mut scratch,
+                &mut scores,
+            )
             .unwrap();
         assert_eq!(p.class, 1);
         assert!((scores[0] - 0.039_321).abs() < 1e-5, "{scores:?}");
