@@ -68,6 +68,11 @@ pub struct Args {
     /// Evaluate rows on one thread (the results are the same).
     #[arg(long)]
     serial: bool,
+    /// Run every row through the runtime's own `Model::infer_traced` and `Model::classify`
+    /// rather than in batches (slower; the int8 results are the same bit for bit, the float
+    /// ones agree to rounding).
+    #[arg(long)]
+    per_row: bool,
 }
 
 /// `--max-drop`: percentage points, -100 to 100 (a negative bound asks int8 to gain accuracy).
@@ -151,7 +156,14 @@ pub fn run(a: Args) -> Result<Outcome> {
         a.source.entry.into(),
         &sources,
         &criteria,
-        parallelism,
+        vet::How {
+            parallelism,
+            engine: if a.per_row {
+                vet::Engine::PerRow
+            } else {
+                vet::Engine::Batched
+            },
+        },
         &|n| bar.inc(n),
     )?;
     bar.finish_and_clear();
