@@ -261,3 +261,79 @@ fn batched_equals_runtime_on_the_examples() {
         }
     }
 }
+
+/// Every number of two JSON reports within `1e-5` relative or `1e-6` absolute (scores are
+/// probabilities, whose f32 spacing near 1 is 6e-8), everything else equal.
+fn same_json(a: &serde_json::Value, b: &serde_json::Value, at: &str) {
+    use serde_json::Value;
+    match (a, b) {
+        (Value::Number(x), Value::Number(y)) if x.is_f64() || y.is_f64() => {
+            let (x, y) = (x.as_f64().unwrap(), y.as_f64().unwrap());
+            assert!(
+                (x - y).abs() <= 1e-5 * x.abs().max(y.abs()) + 1e-6,
+                "{at}: {x} vs {y}"
+            );
+        }
+        (Value::Array(x), Value::Array(y)) => {
+            assert_eq!(x.len(), y.len(), "{at}");
+            for (i, (x, y)) in x.iter().zip(y).enumerate() {
+                same_json(x, y, &format!("{at}[{i}]"));
+            }
+        }
+        (Value::Object(x), Value::Object(y)) => {
+            assert_eq!(
+                x.keys().collect::<Vec<_>>(),
+                y.keys().collect::<Vec<_>>(),
+                "{at}"
+            );
+            for (k, v) in x {
+                same_json(v, &y[k], &format!("{at}.{k}"));
+            }
+        }
+        _ => assert_eq!(a, b, "{at}"),
+    }
+}
+
+/// On the bundled examples the two engines' reports agree: the text report byte for byte, and
+/// the JSON report in every class, count and rate, with the float-derived sums (score error,
+/// SQNR energies) equal to about 7 significant digits (the f32 dot products' rounding).
+#[test]
+fn reports_on_the_examples_do_not_change() {
+    use kinglet_converter::score::Rows;
+    use kinglet_converter::vet::render_text::{render, TextOptions};
+    use kinglet_converter::vet::{vet_rows, Criteria, How, Sources};
+    for name in ["digits", "vibration"] {
+        let (f, q, rows) = example(name, "heldout.csv");
+        let pair = ModelPair::new(Model::parse(&f).unwrap(), Model::parse(&q).unwrap()).unwrap();
+        let rows = Rows::floats(rows);
+        let run = |engine| {
+            let how = How {
+                parallelism: Parallelism::Parallel,
+                engine,
+            };
+            vet_rows(
+                &pair,
+                &rows,
+                Entry::Infer,
+                &Sources::default(),
+                &Criteria::default(),
+                how,
+                &|_| {},
+            )
+            .unwrap()
+        };
+        let (a, b) = (run(Engine::PerRow), run(Engine::Batched));
+        let o = TextOptions {
+            colour: false,
+            show_rows: 10,
+        };
+        assert_eq!(render(&a, &o), render(&b, &o), "{name}");
+        assert_eq!(a.predictions.float, b.predictions.float, "{name}");
+        assert_eq!(a.predictions.int8, b.predictions.int8, "{name}");
+        same_json(
+            &serde_json::to_value(&a).unwrap(),
+            &serde_json::to_value(&b).unwrap(),
+            name,
+        );
+    }
+}
