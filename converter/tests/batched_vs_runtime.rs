@@ -29,11 +29,11 @@ fn close(a: f32, b: f32) -> bool {
 
 /// Every traced tensor of one row through the runtime, as (int8 bytes, real values).
 fn traced(m: &Model<'_>, input: Input<'_>) -> (Vec<Vec<i8>>, Vec<Vec<f32>>, Vec<f32>, usize) {
-    let mut arena = vec![0u8; m.arena_bytes()];
+    let mut scratch = vec![0u8; m.scratch_bytes()];
     let mut scores = vec![0f32; m.output_len()];
     let (mut q, mut r) = (Vec::new(), Vec::new());
     let p = m
-        .infer_traced(input, &mut arena, &mut scores, &mut |s: &Stage<'_>| {
+        .infer_traced(input, &mut scratch, &mut scores, &mut |s: &Stage<'_>| {
             q.push(
                 (0..s.values.len())
                     .filter_map(|i| s.values.int8(i))
@@ -56,7 +56,7 @@ fn check_hosts(pair: &ModelPair<'_>, data: &Dataset, integers: Option<&IntegerVa
     let qb = q.run(data.rows, |r| input_at(data, integers, r)).unwrap();
     let fb = f.run(&data.features, data.rows).unwrap();
     let out = pair.int8.output_len();
-    let mut arena = vec![0u8; pair.int8.arena_bytes()];
+    let mut scratch = vec![0u8; pair.int8.scratch_bytes()];
     for r in 0..data.rows {
         let input = input_at(data, integers, r);
         let (bytes, _, scores, class) = traced(&pair.int8, input);
@@ -70,7 +70,7 @@ fn check_hosts(pair: &ModelPair<'_>, data: &Dataset, integers: Option<&IntegerVa
             "int8 scores, row {r}"
         );
         assert_eq!(qb.infer_class[r], class, "int8 infer class, row {r}");
-        let classified = pair.int8.classify(input, &mut arena).unwrap();
+        let classified = pair.int8.classify(input, &mut scratch).unwrap();
         assert_eq!(qb.classify_class[r], classified, "int8 classify, row {r}");
 
         let (_, reals, fscores, fclass) = traced(&pair.float, Input::F32(data.row(r)));

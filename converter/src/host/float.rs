@@ -11,8 +11,8 @@
 //! earlier layers' differences carry forward. For the 64-input layer of a 64→32→4 model that is
 //! a relative difference below about 10^-5 of the magnitudes summed; reports print SQNR to two
 //! decimals and rates to four, far coarser.
-use kinglet_runtime::format::OutputKind;
-use kinglet_runtime::output::{argmax, sigmoid, softmax};
+use kinglet_runtime::unstable::output::{argmax, sigmoid, softmax};
+use kinglet_runtime::OutputKind;
 use kinglet_runtime::{Model, Precision, RunError};
 
 use super::int8::product;

@@ -9,16 +9,16 @@
 //! an exactly representable result is returned exactly). A layer whose bound exceeds 2^24 is
 //! multiplied in f64; [`kinglet_runtime::Model::parse`] has proved its sums fit in i32, far
 //! below 2^53. The exact integer is then added to the bias and requantised by the runtime's own
-//! [`requantize`], so every output byte is the runtime's.
+//! [`requantise_validated`], so every output byte is the runtime's.
 //!
 //! We use a matrix-multiplication crate (`matrixmultiply`, through `ndarray`) rather than a
 //! hand-written i8 × i8 → i32 loop: it is cache-blocked and vectorised for the host at run time
 //! (AVX2 and FMA where present), which plain safe Rust compiled for the baseline x86-64 target
 //! is not.
-use kinglet_runtime::format::OutputKind;
-use kinglet_runtime::output::{argmax, argmax_i8, sigmoid, softmax};
-use kinglet_runtime::requant::requantize;
-use kinglet_runtime::scale::{quantize_integer, quantize_linear};
+use kinglet_runtime::unstable::output::{argmax, argmax_i8, sigmoid, softmax};
+use kinglet_runtime::unstable::requant::requantise_validated;
+use kinglet_runtime::unstable::scale::{quantise_integer, quantize_linear};
+use kinglet_runtime::OutputKind;
 use kinglet_runtime::{Input, Model, Precision, RunError};
 use ndarray::linalg::general_mat_mul;
 use ndarray::{Array2, ArrayView2};
@@ -164,12 +164,12 @@ impl Int8Host {
             }
             Input::I16(v) => {
                 for ((d, &x), &(m, a, s)) in dst.iter_mut().zip(v).zip(&q.integer) {
-                    *d = quantize_integer(i32::from(x), m, a, s);
+                    *d = quantise_integer(i32::from(x), m, a, s);
                 }
             }
             Input::U8(v) => {
                 for ((d, &x), &(m, a, s)) in dst.iter_mut().zip(v).zip(&q.integer) {
-                    *d = quantize_integer(i32::from(x), m, a, s);
+                    *d = quantise_integer(i32::from(x), m, a, s);
                 }
             }
         }
@@ -315,7 +315,7 @@ fn dense(layer: &Int8Layer, x: &Int8Tensor, rows: usize) -> Int8Tensor {
         for ((o, &a), ((&b, &mult), &shift)) in out.iter_mut().zip(acc).zip(params) {
             // `Model::parse` proved `bias + dot` fits in i32; the kernels add in wrapping i32.
             let sum = (a as i32).wrapping_add(b);
-            *o = requantize(
+            *o = requantise_validated(
                 sum,
                 mult,
                 shift,

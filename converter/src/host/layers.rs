@@ -1,9 +1,9 @@
 //! A validated blob's layers as plain matrices: weights `[outputs][inputs]` in row-major order
 //! whatever the blob's layout (output-major or `Blocked4x4`), biases and, for int8, the
 //! requantisation parameters.
-use kinglet_runtime::dense::layout;
-use kinglet_runtime::format::{Activation, LayerDesc, WeightLayout};
-use kinglet_runtime::requant::activation_range;
+use kinglet_runtime::unstable::requant::activation_range;
+use kinglet_runtime::unstable::wire::format::{Activation, LayerDesc, WeightLayout};
+use kinglet_runtime::unstable::wire::layout;
 
 /// Little-endian 4-byte values of `bytes`.
 pub(crate) fn words(bytes: &[u8]) -> impl Iterator<Item = [u8; 4]> + '_ {
