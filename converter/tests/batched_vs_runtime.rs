@@ -27,8 +27,12 @@ fn close(a: f32, b: f32) -> bool {
     (a - b).abs() <= 1e-4 * (1.0 + a.abs().max(b.abs()))
 }
 
-/// Every traced tensor of one row through the runtime, as (int8 bytes, real values).
-fn traced(m: &Model<'_>, input: Input<'_>) -> (Vec<Vec<i8>>, Vec<Vec<f32>>, Vec<f32>, usize) {
+/// One row through the runtime: every traced tensor (its int8 values, its real values), the
+/// scores and the class.
+type Traced = (Vec<Vec<i8>>, Vec<Vec<f32>>, Vec<f32>, usize);
+
+/// One row of `m` through `Model::infer_traced`.
+fn traced(m: &Model<'_>, input: Input<'_>) -> Traced {
     let mut scratch = vec![0u8; m.scratch_bytes()];
     let mut scores = vec![0f32; m.output_len()];
     let (mut q, mut r) = (Vec::new(), Vec::new());

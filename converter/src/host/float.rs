@@ -86,7 +86,7 @@ impl FloatHost {
     pub fn run(&self, x: &[f32], rows: usize) -> Result<FloatBatch, (usize, RunError)> {
         let w = self.width;
         if x.len() != rows * w {
-            let got = if rows == 0 { 0 } else { x.len() / rows };
+            let got = x.len().checked_div(rows).unwrap_or(0);
             return Err((
                 0,
                 RunError::InputLength {

@@ -48,11 +48,7 @@ fn first_failure(
 
 /// Per-row outcomes of one batch of both sides.
 fn outcomes(f: &FloatBatch, q: &Int8Batch, entry: Entry) -> Vec<RowOutcome> {
-    let out_len = if f.rows == 0 {
-        0
-    } else {
-        f.scores.len() / f.rows
-    };
+    let out_len = f.scores.len().checked_div(f.rows).unwrap_or(0);
     (0..f.rows)
         .map(|r| {
             let energy = f
