@@ -341,3 +341,59 @@ fn reports_on_the_examples_do_not_change() {
         );
     }
 }
+
+/// A row the float model cannot run (its output overflows to infinity) fails both engines with
+/// the same message, naming the first such row.
+#[test]
+fn both_engines_name_the_same_failing_row() {
+    let model = FloatModel {
+        input_len: 2,
+        scaler: None,
+        layers: vec![DenseLayer {
+            inputs: 2,
+            outputs: 2,
+            weights: vec![10.0, 0.0, 0.0, 1.0],
+            bias: vec![0.0, 0.0],
+            activation: Activation::Linear,
+        }],
+        output: OutputKind::Softmax,
+        labels: vec![],
+    };
+    let calib = Dataset {
+        rows: 2,
+        width: 2,
+        features: vec![-1.0, -1.0, 1.0, 1.0],
+        labels: None,
+        source: "calibration".into(),
+    };
+    let f = pack_f32(&model).unwrap();
+    let q = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob;
+    let pair = ModelPair::new(Model::parse(&f).unwrap(), Model::parse(&q).unwrap()).unwrap();
+    let mut features = vec![0.5f32; 2 * 3000];
+    features[2 * 2500] = 3e38;
+    features[2 * 2900] = 3e38;
+    let data = Dataset {
+        rows: 3000,
+        width: 2,
+        features,
+        labels: None,
+        source: "rows.csv".into(),
+    };
+    let fed = Fed {
+        data: &data,
+        integers: None,
+        entry: Entry::Infer,
+    };
+    let message = |e| {
+        evaluate(&pair, &fed, Parallelism::Parallel, e, &|_| {})
+            .unwrap_err()
+            .to_string()
+    };
+    let batched = message(Engine::Batched);
+    assert_eq!(batched, message(Engine::PerRow));
+    assert!(
+        batched
+            .starts_with("rows.csv: data row 2501 (1-based, header not counted): the float model"),
+        "{batched}"
+    );
+}
