@@ -21,6 +21,18 @@ impl Rng {
     }
 }
 
+/// A per-feature scaler of `n` identity maps (offset 0, scale 1), little-endian `f32`: the
+/// synthetic layers are also run as whole models, which like the examples' scale every feature
+/// and end in a softmax (the whole-model counts the estimate of `kinglet inspect` is fitted to).
+fn unit_scaler(n: usize) -> (Vec<u8>, Vec<u8>) {
+    let bytes = |v: f32| {
+        (0..n)
+            .flat_map(move |_| v.to_le_bytes())
+            .collect::<Vec<u8>>()
+    };
+    (bytes(0.0), bytes(1.0))
+}
+
 /// One int8 layer `n → m`: blocked blob and output-major twin.
 fn int8_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Vec<u8>, Vec<u8>), String> {
     let w: Vec<i8> = (0..n * m)
@@ -34,14 +46,15 @@ fn int8_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Vec<u8>, Vec<u8>), S
     let spread = (n as f64).sqrt() * 73.0 * 73.0 / 64.0;
     let shift = vec![(spread.log2().ceil() as i32 - 1).clamp(0, 31) as i8; m];
     let quant = OwnedQuant::new(&vec![0.01; m], &mult, &shift, 0.1, 0);
+    let scaler = Some(unit_scaler(n));
     let (n, m) = (n as u32, m as u32);
     let model = OwnedModel {
         input_len: n,
         precision: Precision::Int8,
-        scaler: None,
+        scaler,
         input_quant: Some(OwnedInput::new(1.0 / 64.0, 0, &[64], &[0], &[0])),
         layers: vec![OwnedLayer::int8(n, m, Activation::Linear, &w, &bias, quant)],
-        output: OutputKind::Logits,
+        output: OutputKind::Softmax,
         labels: String::new(),
     };
     both_layouts(&model)
@@ -52,14 +65,15 @@ fn f32_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Vec<u8>, Vec<u8>), St
     let k = 1.0 / (n as f32).sqrt();
     let w: Vec<f32> = (0..n * m).map(|_| rng.unit() * k).collect();
     let bias: Vec<f32> = (0..m).map(|_| rng.unit() * 0.1).collect();
+    let scaler = Some(unit_scaler(n));
     let (n, m) = (n as u32, m as u32);
     let model = OwnedModel {
         input_len: n,
         precision: Precision::F32,
-        scaler: None,
+        scaler,
         input_quant: None,
         layers: vec![OwnedLayer::f32(n, m, Activation::Linear, &w, &bias)],
-        output: OutputKind::Logits,
+        output: OutputKind::Softmax,
         labels: String::new(),
     };
     both_layouts(&model)
