@@ -967,8 +967,8 @@ fn c60_budget_size_options_are_bounded() {
         );
     }
     c.fails(
-        &["budget", "v.kgl", "--flash", "4194305", "--ram", "8"],
-        &["--flash", "is not in 1..=4194304"],
+        &["budget", "v.kgl", "--flash", "4194305K", "--ram", "8K"],
+        &["--flash", "larger than 4294967296 bytes"],
     );
 }
 
@@ -1660,4 +1660,41 @@ fn inspect_says_whether_the_weights_are_aligned_and_gives_a_latency_range() {
         "{text}"
     );
     assert!(!text.contains("cycles (est.)"), "{text}");
+}
+
+#[test]
+fn c90_budget_sizes_read_as_the_firmware_build_reads_them() {
+    // Was: `--flash 32` alone asked for --board (which conflicts with it); 32K and 0.5 refused.
+    let c = Case::new().packed("v.kgl");
+    c.fails(
+        &["budget", "v.kgl", "--flash", "32K"],
+        &["the following required arguments were not provided: --ram <SIZE>"],
+    );
+    c.fails(
+        &["budget", "v.kgl", "--flash", "32", "--ram", "8K"],
+        &[
+            "--flash",
+            "32 bytes is smaller than any part; sizes are in bytes, write 32K for KiB",
+        ],
+    );
+    c.fails(
+        &["budget", "v.kgl", "--flash", "32K", "--ram", "0.3K"],
+        &["--ram", "\"0.3K\" is not a whole number of bytes"],
+    );
+    c.fails(
+        &["budget", "v.kgl", "--flash", "32 KB", "--ram", "8K"],
+        &[
+            "--flash",
+            "expected a size such as 4096 (bytes), 32K or 32KiB, 1M",
+        ],
+    );
+    let out = c.run(&["budget", "v.kgl", "--flash", "32K", "--ram", "4.5K"]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("32 KiB flash, 4608 bytes RAM"), "{text}");
 }

@@ -244,6 +244,54 @@ fn bad_input_is_named() {
 }
 
 #[test]
+fn c88_limits_say_their_own_unit_and_range() {
+    // Was: --min-agreement 101 answered with --max-drop's wording, and -5 was accepted.
+    let s = Setup::new();
+    let heldout = repo("examples/digits/heldout.csv");
+    for bad in ["101", "-5", "inf"] {
+        let arg = format!("--min-agreement={bad}");
+        fails_with(
+            &s.vet(&heldout, &["--label", "label", &arg]),
+            &["--min-agreement must be a percentage of rows between 0 and 100"],
+        );
+    }
+    fails_with(
+        &s.vet(&heldout, &["--label", "label", "--max-drop", "101"]),
+        &["--max-drop must be a number of percentage points between -100 and 100, not 101"],
+    );
+    for edge in ["0", "100"] {
+        let o = s.vet(&heldout, &["--label", "label", "--min-agreement", edge]);
+        assert!(
+            matches!(o.status.code(), Some(0 | 1)),
+            "{}",
+            text(&o.stderr)
+        );
+    }
+}
+
+#[test]
+fn c89_models_of_different_widths_are_named_as_such() {
+    // Was: "the float model and the int8 blob scale their inputs differently".
+    let s = Setup::new();
+    let vib = import_file(&repo("examples/vibration/model.onnx")).unwrap();
+    std::fs::write(s.p("vib.f32.kgl"), pack_f32(&vib).unwrap()).unwrap();
+    for float in [repo("examples/vibration/model.onnx"), s.p("vib.f32.kgl")] {
+        let o = Command::new(env!("CARGO_BIN_EXE_kinglet"))
+            .arg("vet")
+            .arg(&float)
+            .arg(s.p("digits.int8.kgl"))
+            .arg("--data")
+            .arg(repo("examples/digits/heldout.csv"))
+            .output()
+            .unwrap();
+        fails_with(
+            &o,
+            &["the models take different inputs: float 15 features, int8 64"],
+        );
+    }
+}
+
+#[test]
 fn the_measured_path_is_named_in_text_json_and_html() {
     let s = Setup::new();
     let heldout = repo("examples/digits/heldout.csv");

@@ -6,22 +6,35 @@ use std::path::PathBuf;
 
 use super::Outcome;
 
-/// The bound on `--flash` and `--ram`, in KiB: [`fit::MAX_BYTES`].
-const MAX_KIB: u64 = fit::MAX_BYTES / 1024;
+/// `--flash` and `--ram`: bytes or `K`/`M` suffixes, at most [`fit::MAX_BYTES`].
+fn part_size(s: &str) -> Result<u64, String> {
+    fit::size::parse(s, fit::MAX_BYTES)
+}
+
+/// A size in the unit it reads best in: whole KiB where it is one.
+fn show_size(bytes: u64) -> String {
+    if bytes.is_multiple_of(1024) {
+        format!("{} KiB", bytes / 1024)
+    } else {
+        format!("{bytes} bytes")
+    }
+}
 
 /// Arguments of `kinglet budget`.
 #[derive(Debug, clap::Args)]
+#[command(group(clap::ArgGroup::new("part").required(true).args(["board", "flash"])))]
 pub struct Args {
     /// The packed model (`.kgl`).
     blob: PathBuf,
     /// A built-in part profile: m0-16k, m0plus-32k, m4f-64k, m4f-128k, m4f-256k, m4f-320k.
-    #[arg(long, conflicts_with_all = ["flash", "ram", "core"], required_unless_present_all = ["flash", "ram"])]
+    #[arg(long, conflicts_with_all = ["flash", "ram", "core"])]
     board: Option<String>,
-    /// Flash of a custom part, in KiB (with --ram; at most 4194304, the 4 GiB a Cortex-M addresses).
-    #[arg(long, requires = "ram", value_parser = clap::value_parser!(u64).range(1..=MAX_KIB))]
+    /// Flash of a custom part (with --ram): bytes, or with a suffix, 256K, 256KiB, 1M (at most
+    /// 4 GiB, what a Cortex-M addresses).
+    #[arg(long, requires = "ram", value_name = "SIZE", value_parser = part_size)]
     flash: Option<u64>,
-    /// RAM of a custom part, in KiB (with --flash; at most 4194304).
-    #[arg(long, requires = "flash", value_parser = clap::value_parser!(u64).range(1..=MAX_KIB))]
+    /// RAM of a custom part (with --flash): bytes, or 32K, 32KiB (at most 4 GiB).
+    #[arg(long, requires = "flash", value_name = "SIZE", value_parser = part_size)]
     ram: Option<u64>,
     /// Core of a custom part, for the measured runtime code and stack [default: m0, the larger]
     #[arg(long, value_enum, requires = "flash")]
@@ -63,10 +76,15 @@ fn target(a: &Args) -> Result<Target> {
     let core = a.core.unwrap_or(Core::M0);
     Ok(Target {
         profile: "custom".into(),
-        part: format!("{}, {flash} KiB flash, {ram} KiB RAM", core.name()),
+        part: format!(
+            "{}, {} flash, {} RAM",
+            core.name(),
+            show_size(flash),
+            show_size(ram)
+        ),
         core,
-        flash: flash.checked_mul(1024).context("--flash is too large")?,
-        ram: ram.checked_mul(1024).context("--ram is too large")?,
+        flash,
+        ram,
         stack: a.stack,
     })
 }
@@ -119,9 +137,9 @@ mod tests {
         let a = parse(&[
             &blob("digits_float.kgl"),
             "--flash",
-            "16",
+            "16K",
             "--ram",
-            "8",
+            "8K",
             "--json",
         ]);
         assert!(matches!(run(a.unwrap()).unwrap(), Outcome::CheckFailed));
@@ -130,17 +148,26 @@ mod tests {
     #[test]
     fn profile_or_sizes_are_required_and_exclusive() {
         assert!(parse(&["m.kgl"]).is_err());
-        assert!(parse(&["m.kgl", "--flash", "64"]).is_err());
-        assert!(parse(&["m.kgl", "--board", "m0-16k", "--ram", "8"]).is_err());
-        let a = parse(&["m.kgl", "--flash", "64", "--ram", "8", "--core", "m4f"]).unwrap();
+        let e = parse(&["m.kgl", "--flash", "64K"]).unwrap_err().to_string();
+        let missing = e.split("Usage:").next().unwrap_or_default();
+        assert!(
+            missing.contains("--ram") && !missing.contains("--board"),
+            "{e}"
+        );
+        assert!(parse(&["m.kgl", "--board", "m0-16k", "--ram", "8K"]).is_err());
+        let a = parse(&["m.kgl", "--flash", "64K", "--ram", "8192", "--core", "m4f"]).unwrap();
         let t = target(&a).unwrap();
         assert_eq!((t.flash, t.ram, t.core), (65536, 8192, Core::M4f));
+        assert_eq!(t.part, "Cortex-M4F, 64 KiB flash, 8 KiB RAM");
+        let t = target(&parse(&["m.kgl", "--flash", "0.5M", "--ram", "1536"]).unwrap()).unwrap();
+        assert_eq!((t.flash, t.ram), (512 * 1024, 1536));
         for too_big in ["18446744073709551615", "4294967297"] {
             assert!(parse(&["m.kgl", "--board", "m0-16k", "--stack", too_big]).is_err());
         }
         assert!(parse(&["m.kgl", "--board", "m0-16k", "--stack", "4294967296"]).is_ok());
-        assert!(parse(&["m.kgl", "--flash", "4194305", "--ram", "8"]).is_err());
-        assert!(parse(&["m.kgl", "--flash", "64", "--ram", "0"]).is_err());
+        assert!(parse(&["m.kgl", "--flash", "4194305K", "--ram", "8K"]).is_err());
+        assert!(parse(&["m.kgl", "--flash", "64K", "--ram", "0"]).is_err());
+        assert!(parse(&["m.kgl", "--flash", "64", "--ram", "8K"]).is_err());
         let e = target(&parse(&["m.kgl", "--board", "m9-1k"]).unwrap()).unwrap_err();
         assert!(format!("{e}").contains("m4f-64k"), "{e}");
     }

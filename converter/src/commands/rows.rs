@@ -2,6 +2,7 @@
 //! firmware uses, and loading rows for that path with the options' names in the errors.
 use anyhow::Result;
 use kinglet_converter::dataset::{DatasetError, LabelColumn, LoadOptions};
+use kinglet_converter::output_guard::Named;
 use kinglet_converter::score::{load_rows, Entry, Feed, Rows};
 use std::path::PathBuf;
 
@@ -55,17 +56,47 @@ impl From<EntryArg> for Entry {
     }
 }
 
-/// Where the rows are and how to read them.
-pub struct RowSource<'a> {
-    pub data: &'a PathBuf,
-    pub label: &'a Option<LabelColumn>,
-    pub label_file: &'a Option<PathBuf>,
+/// Where the rows are, how to read them, and the firmware's input path and entry point: the
+/// options `vet` and `score` share.
+#[derive(Debug, clap::Args)]
+pub struct RowArgs {
+    /// Rows to run: CSV (features, optionally a label column), or `.npy` features.
+    #[arg(long, value_name = "FILE")]
+    pub data: PathBuf,
+    /// The CSV label column (header name or 0-based index). Labels are class indices or the
+    /// class names stored in the blob.
+    #[arg(long, value_name = "COLUMN")]
+    pub label: Option<LabelColumn>,
+    /// Labels for `.npy` features: a 1-D `.npy` array of class indices or names.
+    #[arg(long, value_name = "FILE")]
+    pub label_file: Option<PathBuf>,
+    /// Whether the CSV's first row is a header.
+    #[arg(long, value_enum, default_value = "auto")]
     pub header: Header,
+    /// The input type the firmware feeds the int8 or f32 blob (for i16 and u8 every value
+    /// must be a whole number in the type's range); a float model compared with it gets the
+    /// same values as f32.
+    #[arg(long, value_enum, default_value = "f32")]
     pub feed: FeedArg,
+    /// The runtime call that gives the blob's class (scores are always `Model::infer`'s, and
+    /// a float model compared with it always uses `Model::infer`).
+    #[arg(long, value_enum, default_value = "infer")]
+    pub entry: EntryArg,
+}
+
+impl RowArgs {
+    /// The files these options read, named as the user gave them, for the output guard.
+    pub fn inputs(&self) -> Vec<Named<'_>> {
+        let mut inputs = vec![Named::new("--data", &self.data)];
+        if let Some(p) = &self.label_file {
+            inputs.push(Named::new("--label-file", p));
+        }
+        inputs
+    }
 }
 
 /// Loads the rows for the chosen input type.
-pub fn load(s: &RowSource<'_>) -> Result<Rows> {
+pub fn load(s: &RowArgs) -> Result<Rows> {
     let has_header = match s.header {
         Header::Auto => None,
         Header::Yes => Some(true),
@@ -76,7 +107,7 @@ pub fn load(s: &RowSource<'_>) -> Result<Rows> {
         has_header,
         label_file: s.label_file.clone(),
     };
-    load_rows(s.data, &opts, s.feed.into()).map_err(|e| match e {
+    load_rows(&s.data, &opts, s.feed.into()).map_err(|e| match e {
         DatasetError::LabelColumnForNpy { .. } => anyhow::Error::new(e).context(
             "--label names a CSV column (for .npy features give --label-file <labels.npy>)",
         ),

@@ -1,14 +1,13 @@
 //! `kinglet score`: run a blob on rows and write what the runtime gives for each row.
 use anyhow::{anyhow, bail, Context, Result};
 use kinglet_converter::atomic::write_atomic;
-use kinglet_converter::dataset::LabelColumn;
 use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::score::render_vectors::{check_name, VectorOptions};
 use kinglet_converter::score::{self, render_csv, render_json, render_vectors};
 use kinglet_runtime::Model;
 use std::path::PathBuf;
 
-use super::rows::{EntryArg, FeedArg, Header, RowSource};
+use super::rows::RowArgs;
 use super::Outcome;
 
 /// What to write.
@@ -55,26 +54,8 @@ impl std::str::FromStr for RowRange {
 pub struct Args {
     /// The packed blob (`.kgl`), int8 or f32.
     blob: PathBuf,
-    /// Rows to run: CSV (features, optionally a label column), or `.npy` features.
-    #[arg(long, value_name = "FILE")]
-    data: PathBuf,
-    /// The CSV label column (header name or 0-based index): each row's true class is written
-    /// beside its result. Labels are class indices or the class names stored in the blob.
-    #[arg(long, value_name = "COLUMN")]
-    label: Option<LabelColumn>,
-    /// Labels for `.npy` features: a 1-D `.npy` array of class indices or names.
-    #[arg(long, value_name = "FILE")]
-    label_file: Option<PathBuf>,
-    /// Whether the CSV's first row is a header.
-    #[arg(long, value_enum, default_value = "auto")]
-    header: Header,
-    /// The input type the firmware feeds (for i16 and u8 every value must be a whole number
-    /// in the type's range).
-    #[arg(long, value_enum, default_value = "f32")]
-    feed: FeedArg,
-    /// The runtime call that gives the class (the scores are always `Model::infer`'s).
-    #[arg(long, value_enum, default_value = "infer")]
-    entry: EntryArg,
+    #[command(flatten)]
+    source: RowArgs,
     /// Only these data rows: START..END, 0-based, header not counted, END excluded (150..170),
     /// or START.. to the last row.
     #[arg(long, value_name = "START..END")]
@@ -111,12 +92,16 @@ fn vector_options(a: &Args) -> Result<Option<VectorOptions>> {
         }
         None => {
             let stem = a
+                .source
                 .data
                 .file_stem()
                 .map(|s| s.to_string_lossy().into_owned())
                 .unwrap_or_default();
             check_name(&stem).with_context(|| {
-                format!("{}: give the set a name with --name", a.data.display())
+                format!(
+                    "{}: give the set a name with --name",
+                    a.source.data.display()
+                )
             })?;
             stem
         }
@@ -129,13 +114,8 @@ fn vector_options(a: &Args) -> Result<Option<VectorOptions>> {
 
 pub fn run(a: Args) -> Result<Outcome> {
     if let Some(out) = &a.out {
-        let mut inputs = vec![
-            Named::new("the blob", &a.blob),
-            Named::new("--data", &a.data),
-        ];
-        if let Some(p) = &a.label_file {
-            inputs.push(Named::new("--label-file", p));
-        }
+        let mut inputs = vec![Named::new("the blob", &a.blob)];
+        inputs.extend(a.source.inputs());
         check_distinct(&[Named::new("the output (-o)", out)], &inputs)?;
     }
     let vectors = vector_options(&a)?;
@@ -143,18 +123,17 @@ pub fn run(a: Args) -> Result<Outcome> {
         std::fs::read(&a.blob).with_context(|| format!("cannot read {}", a.blob.display()))?;
     let model = Model::parse(&bytes)
         .map_err(|e| anyhow!("{}: not a valid model blob: {e}", a.blob.display()))?;
-    let mut rows = super::rows::load(&RowSource {
-        data: &a.data,
-        label: &a.label,
-        label_file: &a.label_file,
-        header: a.header,
-        feed: a.feed,
-    })?;
+    let mut rows = super::rows::load(&a.source)?;
     if let Some(r) = a.rows {
         let end = r.end.unwrap_or(rows.data.rows);
         rows = rows.select(r.start, end).context("--rows")?;
     }
-    let scored = score::score(&model, &a.blob.display().to_string(), &rows, a.entry.into())?;
+    let scored = score::score(
+        &model,
+        &a.blob.display().to_string(),
+        &rows,
+        a.source.entry.into(),
+    )?;
     let text = match (&vectors, a.format) {
         (Some(o), _) => render_vectors::render(&scored, &rows, o)?,
         (None, Format::Json) => render_json::render(&scored)?,

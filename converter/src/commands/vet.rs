@@ -2,7 +2,7 @@
 use anyhow::{anyhow, bail, Context, Result};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use kinglet_converter::atomic::write_atomic;
-use kinglet_converter::dataset::LabelColumn;
+use kinglet_converter::echo;
 use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::vet::load::load_float;
 use kinglet_converter::vet::render_text::TextOptions;
@@ -13,7 +13,7 @@ use kinglet_runtime::Model;
 use std::io::IsTerminal;
 use std::path::PathBuf;
 
-use super::rows::{EntryArg, FeedArg, Header, RowSource};
+use super::rows::RowArgs;
 use super::Outcome;
 
 /// Rows from which a progress bar is worth drawing.
@@ -35,27 +35,8 @@ pub struct Args {
     float_model: PathBuf,
     /// The int8 blob (`.kgl`) to judge.
     int8_blob: PathBuf,
-    /// Rows to compare on: CSV (features, optionally a label column), or `.npy` features.
-    #[arg(long, value_name = "FILE")]
-    data: PathBuf,
-    /// The CSV label column: header name or 0-based index. Labels are class indices or the
-    /// class names stored in the blob.
-    #[arg(long, value_name = "COLUMN")]
-    label: Option<LabelColumn>,
-    /// Labels for `.npy` features: a 1-D `.npy` array of class indices or names.
-    #[arg(long, value_name = "FILE")]
-    label_file: Option<PathBuf>,
-    /// Whether the CSV's first row is a header.
-    #[arg(long, value_enum, default_value = "auto")]
-    header: Header,
-    /// The input type the firmware feeds the int8 blob (for i16 and u8 every value must be a
-    /// whole number in the type's range); the float model gets the same values as f32.
-    #[arg(long, value_enum, default_value = "f32")]
-    feed: FeedArg,
-    /// The runtime call whose class counts for the int8 blob (the float model always uses
-    /// `Model::infer`).
-    #[arg(long, value_enum, default_value = "infer")]
-    entry: EntryArg,
+    #[command(flatten)]
+    source: RowArgs,
     /// Fail (exit code 1) when int8 accuracy is more than this many percentage points below
     /// float accuracy.
     #[arg(long, value_name = "PP")]
@@ -81,11 +62,24 @@ pub struct Args {
     serial: bool,
 }
 
-fn check_limit(name: &str, v: Option<f64>) -> Result<()> {
+/// `--max-drop`: percentage points, -100 to 100 (a negative bound asks int8 to gain accuracy).
+fn check_drop(v: Option<f64>) -> Result<()> {
     match v {
-        Some(x) if !x.is_finite() || !(-100.0..=100.0).contains(&x) => {
-            bail!("{name} must be a number of percentage points between -100 and 100, not {x}")
-        }
+        Some(x) if !x.is_finite() || !(-100.0..=100.0).contains(&x) => bail!(
+            "--max-drop must be a number of percentage points between -100 and 100, not {}",
+            echo::number(x)
+        ),
+        _ => Ok(()),
+    }
+}
+
+/// `--min-agreement`: a percentage of rows, 0 to 100.
+fn check_agreement(v: Option<f64>) -> Result<()> {
+    match v {
+        Some(x) if !x.is_finite() || !(0.0..=100.0).contains(&x) => bail!(
+            "--min-agreement must be a percentage of rows between 0 and 100, not {}",
+            echo::number(x)
+        ),
         _ => Ok(()),
     }
 }
@@ -95,15 +89,12 @@ pub fn run(a: Args) -> Result<Outcome> {
         let mut inputs = vec![
             Named::new("the float model", &a.float_model),
             Named::new("the int8 blob", &a.int8_blob),
-            Named::new("--data", &a.data),
         ];
-        if let Some(p) = &a.label_file {
-            inputs.push(Named::new("--label-file", p));
-        }
+        inputs.extend(a.source.inputs());
         check_distinct(&[Named::new("--html", html)], &inputs)?;
     }
-    check_limit("--max-drop", a.max_drop)?;
-    check_limit("--min-agreement", a.min_agreement)?;
+    check_drop(a.max_drop)?;
+    check_agreement(a.min_agreement)?;
     let int8_bytes = std::fs::read(&a.int8_blob)
         .with_context(|| format!("cannot read {}", a.int8_blob.display()))?;
     let int8 = Model::parse(&int8_bytes)
@@ -112,13 +103,7 @@ pub fn run(a: Args) -> Result<Outcome> {
     let float_model = Model::parse(&float.blob)
         .map_err(|e| anyhow!("{}: not a valid model blob: {e}", a.float_model.display()))?;
     let pair = ModelPair::new(float_model, int8)?;
-    let rows = super::rows::load(&RowSource {
-        data: &a.data,
-        label: &a.label,
-        label_file: &a.label_file,
-        header: a.header,
-        feed: a.feed,
-    })?;
+    let rows = super::rows::load(&a.source)?;
     let data = &rows.data;
 
     let criteria = Criteria {
@@ -153,7 +138,7 @@ pub fn run(a: Args) -> Result<Outcome> {
     let mut report = vet::vet_rows(
         &pair,
         &rows,
-        a.entry.into(),
+        a.source.entry.into(),
         &sources,
         &criteria,
         parallelism,

@@ -8,6 +8,7 @@
 pub mod measured;
 pub mod profile;
 pub mod render;
+pub mod size;
 
 use anyhow::{bail, Result};
 use serde::Serialize;

@@ -2,7 +2,7 @@
 //! or an f32 `.kgl` blob as it is.
 use anyhow::{bail, Context, Result};
 use kinglet_runtime::format::ScalerDesc;
-use kinglet_runtime::Model;
+use kinglet_runtime::{Model, Precision};
 use std::path::Path;
 
 use crate::graph::{Scaler, ScalerKind};
@@ -43,6 +43,21 @@ fn desc_scaler(d: Option<ScalerDesc<'_>>) -> Option<(Vec<f32>, Vec<f32>)> {
 
 const DIFFERENT_SCALERS: &str = "the float model and the int8 blob scale their inputs differently; were both packed from the same model with the same --scaler / --divide-by?";
 
+/// What differs first when the two sides cannot be the same model, before their scalers are
+/// compared (a scaler comparison over different widths would only say "scale differently").
+fn check_sides(float_width: usize, int8: &Model<'_>) -> Result<()> {
+    if int8.precision() != Precision::Int8 {
+        bail!("the second model is an f32 blob; give the int8 blob (made by `kinglet pack --calibration ...`)");
+    }
+    if float_width != int8.input_len() {
+        bail!(
+            "the models take different inputs: float {float_width} features, int8 {}",
+            int8.input_len()
+        );
+    }
+    Ok(())
+}
+
 /// Loads the float model at `path` for comparison with `int8`.
 ///
 /// `.onnx` and `.json` models are imported and packed to f32 in memory. When such a model
@@ -59,6 +74,7 @@ pub fn load_float(path: &Path, int8: &Model<'_>) -> Result<FloatBlob> {
     if matches!(ext.as_deref(), Some("onnx" | "json")) {
         let mut model =
             import_file(path).with_context(|| format!("cannot import {}", path.display()))?;
+        check_sides(model.input_len, int8)?;
         match (&model.scaler, &blob_scaler) {
             (None, Some((offset, scale))) => {
                 model.scaler = Some(Scaler {
@@ -88,6 +104,10 @@ pub fn load_float(path: &Path, int8: &Model<'_>) -> Result<FloatBlob> {
     let blob = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
     let m = Model::parse(&blob)
         .map_err(|e| anyhow::anyhow!("{}: not a valid model blob: {e}", path.display()))?;
+    if m.precision() != Precision::F32 {
+        bail!("the float model is an int8 blob; give the float model (.onnx, .json or an f32 .kgl) first and the int8 blob second");
+    }
+    check_sides(m.input_len(), int8)?;
     let ours = desc_scaler(m.desc().scaler);
     let same = match (&ours, &blob_scaler) {
         (None, None) => true,
