@@ -11,8 +11,10 @@
 //!
 //! The model: each dense layer costs `per_mac` per multiply-accumulate of its weight matrix
 //! padded to the `Blocked4x4` layout (both widths rounded up to 4: what the kernels loop
-//! over), `per_row` per padded output row, `per_input` per padded input (the `128·Σx`
-//! correction of the int8 kernels) and `per_layer`; the rest of an inference costs
+//! over), `per_row` per padded output row, `per_partial_row` more per padded row when the
+//! input width is not a multiple of 4 (the kernels finish the last, partial group of inputs
+//! apart), `per_input` per padded input (the `128·Σx` correction of the int8 kernels) and
+//! `per_layer`; the rest of an inference costs
 //! `per_feature` per raw input feature (scaling and quantisation), `per_class` per score
 //! (dequantisation, softmax, argmax) and `fixed`. The layer rates are fitted to every
 //! measured layer (two synthetic layers and the examples' layers) and the rest to the whole
@@ -69,6 +71,8 @@ pub struct Rates {
     pub per_mac: f64,
     /// Per padded output row of a layer.
     pub per_row: f64,
+    /// Per padded output row more, when the layer's input width is not a multiple of 4.
+    pub per_partial_row: f64,
     /// Per padded input of a layer.
     pub per_input: f64,
     /// Per layer.
@@ -155,8 +159,10 @@ pub fn instructions(r: &Rates, features: usize, layers: &[(usize, usize)]) -> f6
     let dense: f64 = layers
         .iter()
         .map(|&(i, o)| {
+            let partial = if i % 4 == 0 { 0.0 } else { pad4(o) };
             r.per_mac * pad4(i) * pad4(o)
                 + r.per_row * pad4(o)
+                + r.per_partial_row * partial
                 + r.per_input * pad4(i)
                 + r.per_layer
         })
@@ -213,6 +219,7 @@ mod tests {
             feed: Feed::F32,
             per_mac: 2.0,
             per_row: 10.0,
+            per_partial_row: 6.0,
             per_input: 1.0,
             per_layer: 7.0,
             per_feature: 3.0,
@@ -223,11 +230,16 @@ mod tests {
 
     #[test]
     fn estimate_adds_the_rates_on_padded_widths() {
-        // 3→5→2, padded 4→8 and 8→4: MACs 32 + 32 (128), rows 8 + 4 (120), padded inputs
-        // 4 + 8 (12), 2 layers (14); 3 features (9), 2 classes (8), fixed 5.
+        // 3→5→2, padded 4→8 and 8→4: MACs 32 + 32 (128), rows 8 + 4 (120), partial groups
+        // in both layers (3 and 5 inputs: 12 rows, 72), padded inputs 4 + 8 (12), 2 layers
+        // (14); 3 features (9), 2 classes (8), fixed 5.
         let e = estimate(&[rates()], Weights::Int8, 3, &[(3, 5), (5, 2)], None);
         assert_eq!(e.len(), 1);
-        assert_eq!(e[0].instructions, 128 + 120 + 12 + 14 + 9 + 8 + 5);
+        assert_eq!(e[0].instructions, 128 + 120 + 72 + 12 + 14 + 9 + 8 + 5);
+        // 8 inputs: no partial group. MACs 32 (64), rows 4 (40), inputs 8, layer 7; 8
+        // features (24), 4 classes (16), fixed 5.
+        let whole = estimate(&[rates()], Weights::Int8, 8, &[(8, 4)], None)[0].instructions;
+        assert_eq!(whole, 64 + 40 + 8 + 7 + 24 + 16 + 5);
         assert_eq!(e[0].latency, None);
         assert!(estimate(&[rates()], Weights::F32, 3, &[(3, 5)], None).is_empty());
     }

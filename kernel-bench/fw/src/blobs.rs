@@ -52,6 +52,9 @@ blob!(F32_64X32_OM, "f32_64x32.om.kgl");
 blob!(F32_784X100, "f32_784x100.kgl");
 #[cfg(kb_big_f32)]
 blob!(F32_784X100_OM, "f32_784x100.om.kgl");
+blob!(I8_18X40, "i8_18x40.kgl");
+blob!(I8_18X40_OM, "i8_18x40.om.kgl");
+blob!(F32_18X40, "f32_18x40.kgl");
 blob!(DIGITS, "digits.kgl");
 blob!(DIGITS_OM, "digits.om.kgl");
 blob!(VIBRATION, "vibration.kgl");

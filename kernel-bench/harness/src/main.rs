@@ -256,6 +256,8 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
         ("i8-64x32", "i8_64x32"),
         ("f32-784x100", "f32_784x100"),
         ("f32-64x32", "f32_64x32"),
+        ("i8-18x40", "i8_18x40"),
+        ("f32-18x40", "f32_18x40"),
     ];
     for (case, file) in files {
         let path = blobs.join(format!("{file}.kgl"));

@@ -26,12 +26,18 @@ pub struct Shape {
 pub type Shapes = BTreeMap<String, Shape>;
 
 /// The whole-model cases of int8 models (`bench`) and of f32 models (`bench_f32`).
-pub const INT8_MODELS: [&str; 4] = ["digits", "vibration", "i8-784x100", "i8-64x32"];
+pub const INT8_MODELS: [&str; 5] = ["digits", "vibration", "i8-784x100", "i8-64x32", "i8-18x40"];
 /// The f32 whole-model cases (Cortex-M4F only; `f32-784x100` does not fit the M0).
-pub const F32_MODELS: [&str; 4] = ["digits-f32", "vibration-f32", "f32-784x100", "f32-64x32"];
+pub const F32_MODELS: [&str; 5] = [
+    "digits-f32",
+    "vibration-f32",
+    "f32-784x100",
+    "f32-64x32",
+    "f32-18x40",
+];
 
 /// Least squares `min Σ (a_i · x − b_i)²` over the rows `(a_i, b_i)`, by the normal equations on
-/// columns scaled to unit size (the rows here are a handful, the unknowns at most 4).
+/// columns scaled to unit size (the rows here are a handful, the unknowns at most 5).
 fn least_squares<const N: usize>(rows: &[([f64; N], f64)]) -> Result<[f64; N], String> {
     if rows.len() < N {
         return Err(format!(
@@ -101,9 +107,10 @@ fn shape<'a>(shapes: &'a Shapes, name: &str) -> Result<&'a Shape, String> {
     shapes.get(name).ok_or(format!("no shape for {name}"))
 }
 
-/// The layer rates (per MAC, per row, per input, per layer) of `weights` on `t`, fitted to
-/// every layer of `models` counted alone (`MODEL-L1`, ...), on relative error.
-fn layer_rates(t: &Target, shapes: &Shapes, models: &[&str]) -> Result<[f64; 4], String> {
+/// The layer rates (per MAC, per row, per partial-group row, per input, per layer) of
+/// `weights` on `t`, fitted to every layer of `models` counted alone (`MODEL-L1`, ...), on
+/// relative error.
+fn layer_rates(t: &Target, shapes: &Shapes, models: &[&str]) -> Result<[f64; 5], String> {
     let mut rows = Vec::new();
     for m in models {
         let s = shape(shapes, m)?;
@@ -112,10 +119,9 @@ fn layer_rates(t: &Target, shapes: &Shapes, models: &[&str]) -> Result<[f64; 4],
                 continue;
             };
             let y = c.count as f64;
-            rows.push((
-                [pad4(i) * pad4(o) / y, pad4(o) / y, pad4(i) / y, 1.0 / y],
-                1.0,
-            ));
+            let partial = if i % 4 == 0 { 0.0 } else { pad4(o) };
+            let a = [pad4(i) * pad4(o), pad4(o), partial, pad4(i), 1.0];
+            rows.push((a.map(|v| v / y), 1.0));
         }
     }
     least_squares(&rows)
@@ -137,7 +143,7 @@ fn fit(
     shapes: &Shapes,
     weights: Weights,
     feed: Feed,
-    layers: [f64; 4],
+    layers: [f64; 5],
 ) -> Result<Rates, String> {
     let (models, target, core): (&[&str], _, _) = match (weights, t.bench.kernel == "dsp") {
         (Weights::Int8, true) => (&INT8_MODELS, "Cortex-M4 (DSP)", Core::M4),
@@ -145,7 +151,7 @@ fn fit(
         (Weights::F32, true) => (&F32_MODELS, "Cortex-M4F (FPU)", Core::M4),
         (Weights::F32, false) => return Err("f32 rates are fitted on the FPU target only".into()),
     };
-    let [per_mac, per_row, per_input, per_layer] = layers.map(round2);
+    let [per_mac, per_row, per_partial_row, per_input, per_layer] = layers.map(round2);
     let mut r = Rates {
         target,
         core,
@@ -153,6 +159,7 @@ fn fit(
         feed,
         per_mac,
         per_row,
+        per_partial_row,
         per_input,
         per_layer,
         per_feature: 0.0,

@@ -74,7 +74,7 @@ pub fn results(targets: &[Target], estimates: &[Checked]) -> String {
     );
     w!(s, "| model | target | MACs | before (portable) | after (kernel) | instr/MAC after | Σ dense layers | whole / Σ layers |");
     w!(s, "|---|---|---:|---:|---:|---:|---:|---:|");
-    for model in ["digits", "vibration", "i8-784x100", "i8-64x32"] {
+    for model in ["digits", "vibration", "i8-784x100", "i8-64x32", "i8-18x40"] {
         for t in targets {
             if let Some((portable, whole, layers, ratio)) = t.bench.model_ratio(model) {
                 let macs = t.bench.case(model, "model-kernel").map_or(0, |c| c.macs);
@@ -100,7 +100,13 @@ pub fn results(targets: &[Target], estimates: &[Checked]) -> String {
         "| model | target | MACs | whole | instr/MAC | Σ dense layers | whole / Σ layers |"
     );
     w!(s, "|---|---|---:|---:|---:|---:|---:|");
-    for model in ["digits-f32", "vibration-f32", "f32-784x100", "f32-64x32"] {
+    for model in [
+        "digits-f32",
+        "vibration-f32",
+        "f32-784x100",
+        "f32-64x32",
+        "f32-18x40",
+    ] {
         for t in targets {
             let (Some((whole, layers)), Some(c)) = (
                 t.bench.whole_and_layers(model),
@@ -127,7 +133,7 @@ pub fn results(targets: &[Target], estimates: &[Checked]) -> String {
     );
     w!(s, "| model | target | `infer` | `classify` | Σ dense layers | `infer` / Σ layers | `classify` / Σ layers |");
     w!(s, "|---|---|---:|---:|---:|---:|---:|");
-    for model in ["digits", "vibration", "i8-784x100", "i8-64x32"] {
+    for model in ["digits", "vibration", "i8-784x100", "i8-64x32", "i8-18x40"] {
         for t in targets {
             let r = &t.bench;
             let (Some(infer), Some(classify), Some((_, _, layers, _))) = (
@@ -342,6 +348,7 @@ pub fn rates(rates: &[Rates]) -> String {
         for (name, v) in [
             ("per_mac", r.per_mac),
             ("per_row", r.per_row),
+            ("per_partial_row", r.per_partial_row),
             ("per_input", r.per_input),
             ("per_layer", r.per_layer),
             ("per_feature", r.per_feature),

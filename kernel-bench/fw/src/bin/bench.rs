@@ -309,7 +309,7 @@ const MAX_INPUTS: usize = 64;
 #[cfg(not(kb_big_models))]
 const MAX_ARENA: usize = 512;
 #[cfg(not(kb_big_models))]
-const MAX_SCORES: usize = 32;
+const MAX_SCORES: usize = 40;
 
 /// The unaligned twins of the blobs (Cortex-M4), by name.
 #[allow(non_camel_case_types, dead_code)]
@@ -406,6 +406,13 @@ fn main() -> ! {
         "i8-64x32",
         blobs::I8_64X32,
         blobs::I8_64X32_OM,
+        None,
+        &mut rng,
+    );
+    whole_model(
+        "i8-18x40",
+        blobs::I8_18X40,
+        blobs::I8_18X40_OM,
         None,
         &mut rng,
     );

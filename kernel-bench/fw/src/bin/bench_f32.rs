@@ -97,6 +97,7 @@ fn main() -> ! {
     #[cfg(kb_big_f32)]
     whole_f32("f32-784x100", blobs::F32_784X100, &mut rng);
     whole_f32("f32-64x32", blobs::F32_64X32, &mut rng);
+    whole_f32("f32-18x40", blobs::F32_18X40, &mut rng);
     hprintln!("kb end");
     debug::exit(debug::EXIT_SUCCESS);
     park()
