@@ -1698,3 +1698,29 @@ fn c90_budget_sizes_read_as_the_firmware_build_reads_them() {
     let text = String::from_utf8_lossy(&out.stdout);
     assert!(text.contains("32 KiB flash, 4608 bytes RAM"), "{text}");
 }
+
+#[test]
+fn c91_percentile_without_the_percentile_range() {
+    // Was: silently ignored (the range stayed min/max).
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    c.fails(
+        &["pack", "model_2in.json", "--calibration", "rows.csv", "--percentile", "99", "-o", "m.kgl"],
+        &["--percentile applies to --range percentile only (the range method is minmax); add --range percentile"],
+    );
+}
+
+#[test]
+fn c92_a_label_column_in_the_calibration_rows_points_at_the_option() {
+    let c = Case::new()
+        .with("model_2in.json")
+        .put("named.csv", b"a,b,kind\n1,2,ok\n3,4,worn\n")
+        .put("indexed.csv", b"a,b,kind\n1,2,0\n3,4,1\n");
+    c.fails(
+        &["pack", "model_2in.json", "--calibration", "named.csv", "-o", "m.kgl"],
+        &["named.csv: line 2, column 'kind': \"ok\" is not a number; if that column holds class labels, leave it out with --calibration-label kind"],
+    );
+    c.fails(
+        &["pack", "model_2in.json", "--calibration", "indexed.csv", "-o", "m.kgl"],
+        &["indexed.csv: 3 features per row, but the model takes 2 inputs; if one column holds class labels, leave it out with --calibration-label <name or index>"],
+    );
+}

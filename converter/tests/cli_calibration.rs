@@ -190,3 +190,40 @@ fn c74_the_default_percentile_clips_a_small_set_and_says_so() {
         .unwrap_or_else(|| panic!("no input row in {out}"));
     assert!(row.contains("1 / 1"), "{row}");
 }
+
+#[test]
+fn pack_json_keeps_inspect_json_order_and_f32_digits() {
+    // Was: pack --json sorted its keys and widened every f32 to f64 digits
+    // (0.040186092 printed as 0.04018609225749969), unlike inspect --json on the same blob.
+    let s = Setup::new(None);
+    let packed = text(&s.pack("m.kgl", &["--json"]).stdout);
+    let inspected = text(&s.run(&["inspect", "m.kgl", "--json"]).stdout);
+    let body = |t: &str| -> Vec<String> {
+        t.lines()
+            .filter(|l| !l.starts_with("  \"blob\""))
+            .map(str::to_string)
+            .collect()
+    };
+    let (p, i) = (body(&packed), body(&inspected));
+    // The report's lines, in order, then pack's own notes and calibration.
+    let closing = i.len() - 1;
+    assert_eq!(
+        &p[..closing - 1],
+        &i[..closing - 1],
+        "{packed}\n{inspected}"
+    );
+    assert!(
+        packed.starts_with("{\n  \"blob\": \"m.kgl\",\n"),
+        "{packed}"
+    );
+    let notes = packed.find("\"notes\"").unwrap();
+    let calibration = packed.find("\"calibration\"").unwrap();
+    assert!(packed.find("\"layers\"").unwrap() < notes && notes < calibration);
+    // The input scale as written: the shortest digits that read back as the same f32.
+    let v: serde_json::Value = serde_json::from_str(&packed).unwrap();
+    let q = v["input_quant"][0].as_f64().unwrap() as f32;
+    assert!(
+        packed.contains(&format!("\"input_quant\": [\n    {q},")),
+        "{packed}"
+    );
+}

@@ -97,7 +97,7 @@ fn text_report_json_and_html() {
         "SQNR",
         "layer 3",
         "PASS",
-        "verdict: pass",
+        "verdict: PASS",
     ] {
         assert!(out.contains(part), "missing {part:?} in:\n{out}");
     }

@@ -21,6 +21,22 @@ enum Range {
     Percentile,
 }
 
+/// `pack --json`: the written file, then the blob's report in `inspect --json`'s order and
+/// number forms (serialised directly: a `serde_json::Value` would sort the keys and widen every
+/// f32 to f64 digits), then the notes and the calibration.
+#[derive(serde::Serialize)]
+struct PackJson<'a> {
+    blob: String,
+    #[serde(flatten)]
+    report: &'a kinglet_converter::report::BlobReport,
+    notes: &'a [String],
+    #[serde(skip_serializing_if = "Option::is_none")]
+    calibration: Option<&'a kinglet_converter::report::calibration::CalibrationReport>,
+}
+
+/// `--percentile` when `--range percentile` is given without it.
+const DEFAULT_PERCENTILE: f64 = 99.99;
+
 /// Arguments of `kinglet pack`.
 #[derive(Debug, clap::Args)]
 pub struct Args {
@@ -41,16 +57,18 @@ pub struct Args {
     /// How each tensor's range is taken from the calibration rows.
     #[arg(long, value_enum, default_value = "minmax")]
     range: Range,
-    /// Percentile for `--range percentile` (numpy's default linear rank; docs/calibration.md).
-    #[arg(long, default_value_t = 99.99)]
-    percentile: f64,
+    /// Percentile for `--range percentile` (numpy's default linear rank; docs/calibration.md)
+    /// [default: 99.99].
+    #[arg(long, value_name = "P")]
+    percentile: Option<f64>,
     /// A scaler saved separately (JSON: mean/std, min/max, or divide_by), when the model has none.
     #[arg(long, value_name = "FILE", conflicts_with = "divide_by")]
     scaler: Option<PathBuf>,
     /// A uniform scaler: every raw input is divided by this (e.g. 255 for pixels).
     #[arg(long, value_name = "N")]
     divide_by: Option<f32>,
-    /// Class labels, comma-separated, when the model carries none.
+    /// Class labels, comma-separated, one per class: names for the report and the firmware.
+    /// They replace the labels the model carries (scikit-learn writes "0", "1", …), with a note.
     #[arg(long, value_delimiter = ',')]
     labels: Option<Vec<String>>,
     /// Print the report as JSON.
@@ -64,6 +82,9 @@ pub fn run(a: Args) -> Result<Outcome> {
         (None, Some(d)) => Some(ScalerSource::DivideBy(d)),
         (None, None) => None,
     };
+    if a.percentile.is_some() && !matches!(a.range, Range::Percentile) {
+        bail!("--percentile applies to --range percentile only (the range method is minmax); add --range percentile");
+    }
     let precision = if a.float {
         if a.calibration.is_some() {
             bail!("--float packs f32 weights and needs no --calibration");
@@ -78,7 +99,9 @@ pub fn run(a: Args) -> Result<Outcome> {
             label: a.calibration_label.clone(),
             method: match a.range {
                 Range::Minmax => RangeMethod::MinMax,
-                Range::Percentile => RangeMethod::Percentile(a.percentile),
+                Range::Percentile => {
+                    RangeMethod::Percentile(a.percentile.unwrap_or(DEFAULT_PERCENTILE))
+                }
             },
         }
     };
@@ -98,12 +121,12 @@ pub fn run(a: Args) -> Result<Outcome> {
         eprintln!("kinglet: warning: {w}");
     }
     if a.json {
-        let mut v = serde_json::to_value(&packed.report)?;
-        v["blob"] = serde_json::Value::String(out.display().to_string());
-        v["notes"] = serde_json::to_value(&packed.notes)?;
-        if let Some(c) = &packed.calibration {
-            v["calibration"] = serde_json::to_value(c)?;
-        }
+        let v = PackJson {
+            blob: out.display().to_string(),
+            report: &packed.report,
+            notes: &packed.notes,
+            calibration: packed.calibration.as_ref(),
+        };
         super::out::line(&serde_json::to_string_pretty(&v)?)?;
     } else {
         super::out::line(&format!(

@@ -124,6 +124,21 @@ fn check_labels(labels: &[String], classes: usize) -> Result<()> {
     Ok(())
 }
 
+/// The first few labels, for a note.
+fn shown_labels(labels: &[String]) -> String {
+    const SHOWN: usize = 6;
+    let mut s = labels
+        .iter()
+        .take(SHOWN)
+        .map(|l| crate::echo::quoted(l))
+        .collect::<Vec<_>>()
+        .join(", ");
+    if labels.len() > SHOWN {
+        s.push_str(&format!(", … ({} in all)", labels.len()));
+    }
+    s
+}
+
 /// Runs the pack `req` describes; writes nothing.
 ///
 /// # Errors
@@ -139,14 +154,17 @@ pub fn pack(req: &PackRequest) -> Result<Packed> {
         Some(ScalerSource::DivideBy(d)) => attach_scaler(&mut model, uniform_divisor(*d)?)?,
         None => {}
     }
+    let mut notes = Vec::new();
     if let Some(labels) = &req.labels {
-        if !model.labels.is_empty() {
-            bail!("the model already carries class labels; drop --labels");
-        }
         check_labels(labels, model.classes())?;
+        if !model.labels.is_empty() && model.labels != *labels {
+            notes.push(format!(
+                "--labels replaces the model's own class labels ({})",
+                shown_labels(&model.labels)
+            ));
+        }
         model.labels = labels.clone();
     }
-    let mut notes = Vec::new();
     let mut calibration = None;
     let blob = match &req.precision {
         Precision::F32 => {
@@ -158,6 +176,7 @@ pub fn pack(req: &PackRequest) -> Result<Packed> {
             method,
         } => {
             let data = load_rows(rows, label.clone())?;
+            check_calibration_width(&data, model.input_len, label.is_some())?;
             let p = pack_int8(&model, &data, *method)
                 .with_context(|| format!("cannot pack {}", model_path.display()))?;
             notes.push(format!(
@@ -190,6 +209,7 @@ pub fn pack(req: &PackRequest) -> Result<Packed> {
 }
 
 fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<crate::dataset::Dataset> {
+    let labelled = label.is_some();
     load_file(
         path,
         &LoadOptions {
@@ -201,8 +221,42 @@ fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<crate::dataset::
         DatasetError::LabelColumnForNpy { .. } => {
             anyhow::Error::new(e).context("--calibration-label")
         }
+        DatasetError::NonNumeric { ref column, .. } if !labelled => {
+            let hint = label_hint(column);
+            anyhow::anyhow!("{e}; {hint}")
+        }
         e => e.into(),
     })
+}
+
+/// How to leave a label column out, for the column `column` as a message names it
+/// (`'name'` or `index N`).
+fn label_hint(column: &str) -> String {
+    let arg = column
+        .strip_prefix("index ")
+        .map(str::to_owned)
+        .unwrap_or_else(|| column.trim_matches('\'').to_owned());
+    format!(
+        "if that column holds class labels, leave it out with --calibration-label {}",
+        crate::echo::text(&arg)
+    )
+}
+
+/// One column more than the model takes, with no label column named: most likely the label.
+fn check_calibration_width(
+    data: &crate::dataset::Dataset,
+    inputs: usize,
+    label: bool,
+) -> Result<()> {
+    if !label && data.width == inputs + 1 {
+        bail!(
+            "{}: {} features per row, but the model takes {inputs} inputs; if one column holds \
+             class labels, leave it out with --calibration-label <name or index>",
+            data.source,
+            data.width
+        );
+    }
+    Ok(())
 }
 
 #[cfg(test)]
@@ -247,6 +301,39 @@ mod tests {
         let inputs = req.inputs();
         assert_eq!(inputs.len(), 2);
         assert_eq!(inputs[1].0, "--calibration");
+    }
+
+    #[test]
+    fn labels_replace_the_models_own_with_a_note() {
+        // Was: refused for every scikit-learn model, which always carries "0", "1", ...
+        let names: Vec<String> = ["ok", "unbalanced", "worn", "loose"]
+            .map(String::from)
+            .into();
+        let p = pack(&PackRequest {
+            model: example("vibration/model.onnx"),
+            scaler: None,
+            labels: Some(names.clone()),
+            precision: Precision::F32,
+        })
+        .unwrap();
+        let m = kinglet_runtime::Model::parse(&p.blob).unwrap();
+        assert_eq!(m.labels().collect::<Vec<_>>(), names);
+        assert_eq!(
+            p.notes,
+            ["--labels replaces the model's own class labels (\"normal\", \"imbalance\", \"bearing_wear\", \"loose_mount\")"]
+        );
+        let e = pack(&PackRequest {
+            model: example("vibration/model.onnx"),
+            scaler: None,
+            labels: Some(names[..3].to_vec()),
+            precision: Precision::F32,
+        })
+        .unwrap_err();
+        assert!(
+            e.to_string()
+                .contains("--labels gives 3 labels for a model with 4 classes"),
+            "{e}"
+        );
     }
 
     #[test]

@@ -14,6 +14,7 @@ pub mod fidelity;
 pub mod load;
 pub mod metrics;
 pub mod pair;
+pub mod points;
 pub mod render_html;
 pub mod render_text;
 pub mod run;

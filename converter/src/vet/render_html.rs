@@ -1,6 +1,7 @@
 //! The comparison as one self-contained HTML page (inline CSS and SVG, no scripts, nothing
 //! fetched): summary, verdict, the two confusion matrices as heat maps, per-layer SQNR bars
 //! and a histogram of per-row score differences.
+use super::points::pp;
 use anyhow::Result;
 use std::fmt::Write;
 
@@ -91,10 +92,10 @@ pub fn render(r: &VetReport) -> Result<String> {
         );
         let _ = writeln!(
             h,
-            "<p>Drop (float − int8): <b>{:.2} pp</b>, 95% interval {:.2} to {:.2} pp ({}).<br>Rows only float gets right: {}, only int8: {}; {}: p = {:.4}.</p>",
-            a.drop_pp,
-            a.drop_interval_pp.lower,
-            a.drop_interval_pp.upper,
+            "<p>Drop (float − int8): <b>{} pp</b>, 95% interval {} to {} pp ({}).<br>Rows only float gets right: {}, only int8: {}; {}: p = {:.4}.</p>",
+            pp(a.drop_pp),
+            pp(a.drop_interval_pp.lower),
+            pp(a.drop_interval_pp.upper),
             esc(&a.drop_interval_pp.method),
             a.paired.first_only,
             a.paired.second_only,

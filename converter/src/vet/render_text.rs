@@ -1,4 +1,5 @@
 //! The comparison for people: aligned plain-text tables, colour only when asked (on a terminal).
+use super::points::pp;
 use comfy_table::{presets::UTF8_BORDERS_ONLY, Cell, CellAlignment, Table};
 use std::fmt::Write;
 
@@ -101,10 +102,10 @@ pub fn render(r: &VetReport, o: &TextOptions) -> String {
         let _ = writeln!(s, "{t}");
         let _ = writeln!(
             s,
-            "  drop (float − int8): {:.2} pp, 95% interval {:.2} to {:.2} pp\n    ({})",
-            a.drop_pp,
-            a.drop_interval_pp.lower,
-            a.drop_interval_pp.upper,
+            "  drop (float − int8): {} pp, 95% interval {} to {} pp\n    ({})",
+            pp(a.drop_pp),
+            pp(a.drop_interval_pp.lower),
+            pp(a.drop_interval_pp.upper),
             a.drop_interval_pp.method
         );
         let _ = writeln!(
@@ -275,7 +276,7 @@ pub fn render(r: &VetReport, o: &TextOptions) -> String {
             let _ = writeln!(s, "{word}  {}", c.text);
         }
         let overall = if v.passed {
-            paint("verdict: pass", "1;32", o.colour)
+            paint("verdict: PASS", "1;32", o.colour)
         } else {
             paint("verdict: FAIL", "1;31", o.colour)
         };

@@ -1,5 +1,6 @@
 //! The comparison as data: everything the text, JSON and HTML reports show, built from the
 //! per-row outcomes.
+use super::points::pp;
 use serde::Serialize;
 
 use super::fidelity::{Energy, StageFidelity};
@@ -344,11 +345,13 @@ fn verdict(c: &Criteria, acc: Option<&AccuracyReport>, agree: &AgreementReport) 
         };
         let passed = value <= limit;
         let text = format!(
-            "{what} {value:.2} pp {} {limit:.2} pp (drop {:.2} pp, 95% interval {:.2} to {:.2} pp)",
+            "{what} {} pp {} {} pp (drop {} pp, 95% interval {} to {} pp)",
+            pp(value),
             if passed { "≤" } else { ">" },
-            a.drop_pp,
-            a.drop_interval_pp.lower,
-            a.drop_interval_pp.upper
+            pp(limit),
+            pp(a.drop_pp),
+            pp(a.drop_interval_pp.lower),
+            pp(a.drop_interval_pp.upper)
         );
         checks.push(Check {
             what: what.to_string(),
