@@ -52,6 +52,10 @@ blob!(F32_64X32_OM, "f32_64x32.om.kgl");
 blob!(F32_784X100, "f32_784x100.kgl");
 #[cfg(kb_big_f32)]
 blob!(F32_784X100_OM, "f32_784x100.om.kgl");
+#[cfg(kb_big_models)]
+blob!(I8_784X100_WHOLE, "i8_784x100.whole.kgl");
+#[cfg(kb_big_models)]
+blob!(I8_784X100_WHOLE_OM, "i8_784x100.whole.om.kgl");
 blob!(I8_18X40, "i8_18x40.kgl");
 blob!(I8_18X40_OM, "i8_18x40.om.kgl");
 blob!(F32_18X40, "f32_18x40.kgl");

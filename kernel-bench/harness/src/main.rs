@@ -252,7 +252,7 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
         ("vibration", "vibration"),
         ("digits-f32", "digits_float"),
         ("vibration-f32", "vibration_float"),
-        ("i8-784x100", "i8_784x100"),
+        ("i8-784x100", "i8_784x100.whole"),
         ("i8-64x32", "i8_64x32"),
         ("f32-784x100", "f32_784x100"),
         ("f32-64x32", "f32_64x32"),

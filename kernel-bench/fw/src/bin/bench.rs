@@ -397,8 +397,8 @@ fn main() -> ! {
     #[cfg(kb_big_models)]
     whole_model(
         "i8-784x100",
-        blobs::I8_784X100,
-        blobs::I8_784X100_OM,
+        blobs::I8_784X100_WHOLE,
+        blobs::I8_784X100_WHOLE_OM,
         None,
         &mut rng,
     );
