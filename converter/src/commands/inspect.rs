@@ -23,11 +23,11 @@ pub struct Args {
     json: bool,
     /// Turn the instruction estimates into a latency range at this core clock, in MHz (greater
     /// than 0, at most 10000), with the cycles-per-instruction assumption stated.
-    #[arg(long, value_name = "MHZ", value_parser = parse_clock)]
+    #[arg(long, value_name = "MHZ", value_parser = parse_clock, allow_negative_numbers = true)]
     clock_mhz: Option<f64>,
     /// Say whether the weights are 4-byte aligned (what the Cortex-M4 kernels need) when the
     /// blob's first byte sits at this address (hex `0x…` or decimal, below 2^32).
-    #[arg(long, value_name = "ADDRESS", value_parser = parse_address)]
+    #[arg(long, value_name = "ADDRESS", value_parser = parse_address, allow_negative_numbers = true)]
     load_address: Option<u64>,
 }
 
