@@ -336,7 +336,10 @@ pub fn rates(rates: &[Rates]) -> String {
     let mut s = String::new();
     let f = |v: f64| approx(format!("{v:?}"));
     w!(s, "/// Fitted by the measurement harness (kernel-bench, opt-level \"s\"): the layer rates to every");
-    w!(s, "/// layer counted alone, the rest to the whole-model counts (digits, vibration and the two");
+    w!(
+        s,
+        "/// layer counted alone, the rest to the whole-model counts (digits, vibration and the"
+    );
     w!(s, "/// synthetic one-layer models, each through the input path named) less the estimated layers.");
     w!(s, "pub const RATES: [Rates; {}] = [", rates.len());
     for r in rates {
