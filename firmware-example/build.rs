@@ -5,7 +5,7 @@
 //! 2. Turns the Python reference fixtures in `tests/fixtures/` (numpy / ONNX reference
 //!    results) into Rust tables in `OUT_DIR/selftest_cases.rs` for the on-target `selftest`.
 //! 3. Parses every packed model the firmware embeds with the runtime's own parser
-//!    (`kinglet-runtime` is a build-dependency), reports flash and arena RAM as cargo warnings,
+//!    (`kinglet-runtime` is a build-dependency), reports flash and scratch buffer RAM as cargo warnings,
 //!    and fails the build when the board's model budget is exceeded.
 use serde::Deserialize;
 use std::collections::BTreeMap;
@@ -94,16 +94,16 @@ fn main() {
     let (mut flash, mut ram) = (0u64, 0u64);
     for rel in MODELS {
         println!("cargo:rerun-if-changed={rel}");
-        let (blob, arena) = model_footprint(&dir.join(rel));
+        let (blob, scratch) = model_footprint(&dir.join(rel));
         println!(
-            "cargo:warning={name}: {rel}: model flash: {blob} bytes, arena RAM: {arena} bytes"
+            "cargo:warning={name}: {rel}: model flash: {blob} bytes, scratch buffer RAM: {scratch} bytes"
         );
         flash += blob;
-        ram += arena;
+        ram += scratch;
     }
     println!(
         "cargo:warning={name}: all models: model flash: {flash} bytes of {flash_budget} budgeted, \
-         arena RAM: {ram} bytes of {ram_budget} budgeted"
+         scratch RAM: {ram} bytes of {ram_budget} budgeted"
     );
     let mut over = Vec::new();
     if flash > flash_budget {
@@ -113,7 +113,7 @@ fn main() {
     }
     if ram > ram_budget {
         over.push(format!(
-            "arena RAM {ram} bytes exceeds the {name} RAM budget of {ram_budget} bytes"
+            "scratch buffer RAM {ram} bytes exceeds the {name} RAM budget of {ram_budget} bytes"
         ));
     }
     if !over.is_empty() {
@@ -136,7 +136,7 @@ fn main() {
     .unwrap_or_else(|e| fail(&format!("writing board.rs: {e}")));
 }
 
-/// Flash and arena bytes of one packed model, checked by the runtime's parser.
+/// Flash and scratch bytes of one packed model, checked by the runtime's parser.
 fn model_footprint(path: &Path) -> (u64, u64) {
     let blob = std::fs::read(path).unwrap_or_else(|e| {
         fail(&format!(
@@ -145,7 +145,7 @@ fn model_footprint(path: &Path) -> (u64, u64) {
         ))
     });
     let footprint = match kinglet_runtime::Model::parse(&blob) {
-        Ok(m) => (m.blob_bytes() as u64, m.arena_bytes() as u64),
+        Ok(m) => (m.blob_bytes() as u64, m.scratch_bytes() as u64),
         Err(e) => fail(&format!("{}: not a valid model: {e}", path.display())),
     };
     footprint

@@ -327,3 +327,159 @@ fn the_measured_path_is_named_in_text_json_and_html() {
     assert_eq!(v["fidelity"], v0["fidelity"]);
     assert_eq!(v["accuracy"], v0["accuracy"]);
 }
+
+/// `kinglet vet` on the vibration example's held-out rows, int8 packed from its calibration set.
+fn vibration_vet(dir: &Path, extra: &[&str]) -> Output {
+    let blob = dir.join("vib.int8.kgl");
+    if !blob.exists() {
+        let model = import_file(&repo("examples/vibration/model.onnx")).unwrap();
+        let calib = load_csv(
+            &repo("examples/vibration/calibration.csv"),
+            &CsvOptions::default(),
+        )
+        .unwrap();
+        let p = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap();
+        std::fs::write(&blob, p.blob).unwrap();
+    }
+    Command::new(env!("CARGO_BIN_EXE_kinglet"))
+        .arg("vet")
+        .arg(repo("examples/vibration/model.onnx"))
+        .arg(&blob)
+        .args(extra)
+        .output()
+        .unwrap()
+}
+
+#[test]
+fn new_missed_faults_come_first_and_gate_the_exit_code() {
+    let dir = tempfile::tempdir().unwrap();
+    let heldout = repo("examples/vibration/heldout.csv");
+    let data = ["--data", heldout.to_str().unwrap(), "--label", "label"];
+    let json = |extra: &[&str]| -> serde_json::Value {
+        let mut args = data.to_vec();
+        args.extend_from_slice(extra);
+        args.push("--json");
+        let o = vibration_vet(dir.path(), &args);
+        assert!(
+            matches!(o.status.code(), Some(0 | 1)),
+            "{}",
+            text(&o.stderr)
+        );
+        serde_json::from_str(&text(&o.stdout)).unwrap()
+    };
+    let v = json(&["--benign", "normal"]);
+    // Recount from the per-row predictions: a new miss is a fault row the float model got
+    // right and int8 calls normal (class 0); a new false alarm is a normal row the float
+    // model called normal and int8 calls a fault.
+    let col = |k: &str| -> Vec<u64> {
+        v["predictions"][k]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|x| x.as_u64().unwrap())
+            .collect()
+    };
+    let (t, f, q) = (col("labels"), col("float"), col("int8"));
+    let misses: Vec<u64> = (0..t.len())
+        .filter(|&i| t[i] != 0 && f[i] == t[i] && q[i] == 0)
+        .map(|i| i as u64 + 1)
+        .collect();
+    let alarms: Vec<u64> = (0..t.len())
+        .filter(|&i| t[i] == 0 && f[i] == 0 && q[i] != 0)
+        .map(|i| i as u64 + 1)
+        .collect();
+    let rows = |k: &str| -> Vec<u64> {
+        v["faults"][k]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| r["data_row"].as_u64().unwrap())
+            .collect()
+    };
+    assert_eq!(rows("new_misses"), misses);
+    assert_eq!(rows("new_false_alarms"), alarms);
+    assert!(
+        !misses.is_empty(),
+        "the example has missed faults to show (rows 99 and 276)"
+    );
+    let per_class = v["faults"]["per_class"].as_array().unwrap();
+    let summed: u64 = per_class
+        .iter()
+        .map(|c| c["new_misses"].as_u64().unwrap())
+        .sum();
+    assert_eq!(summed, misses.len() as u64);
+    assert_eq!(v["faults"]["benign_names"][0], "normal");
+
+    // First in the text report, and the gate.
+    let n = misses.len().to_string();
+    let mut args = data.to_vec();
+    args.extend(["--benign", "0", "--max-new-misses", &n]);
+    let o = vibration_vet(dir.path(), &args);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    let faults = out.find("Faults (benign: normal)").unwrap();
+    assert!(faults < out.find("Accuracy").unwrap(), "{out}");
+    assert!(
+        out.contains(&format!("new missed faults {n} ≤ {n}")),
+        "{out}"
+    );
+    assert!(out.contains("does not replace validation on the device with field data"));
+    let fewer = (misses.len() - 1).to_string();
+    let mut args = data.to_vec();
+    let html = dir.path().join("f.html");
+    args.extend([
+        "--benign",
+        "normal",
+        "--max-new-misses",
+        &fewer,
+        "--html",
+        html.to_str().unwrap(),
+    ]);
+    let o = vibration_vet(dir.path(), &args);
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o.stderr));
+    let page = std::fs::read_to_string(&html).unwrap();
+    assert!(page.find("<h2>Faults</h2>").unwrap() < page.find("<h2>Summary</h2>").unwrap());
+    assert!(page.contains("does not replace validation on the device with field data"));
+}
+
+#[test]
+fn c93_benign_classes_must_name_real_classes_and_leave_a_fault() {
+    let dir = tempfile::tempdir().unwrap();
+    let heldout = repo("examples/vibration/heldout.csv");
+    let data = ["--data", heldout.to_str().unwrap(), "--label", "label"];
+    let run = |extra: &[&str]| {
+        let mut args = data.to_vec();
+        args.extend_from_slice(extra);
+        vibration_vet(dir.path(), &args)
+    };
+    fails_with(
+        &run(&["--benign", "healthy"]),
+        &["--benign: class \"healthy\" is"],
+    );
+    fails_with(
+        &run(&["--benign", "0,1,2,3"]),
+        &["--benign names every class; leave at least one fault class"],
+    );
+    fails_with(&run(&["--max-new-misses", "0"]), &["--benign"]);
+}
+
+#[test]
+fn repeated_rows_are_reported() {
+    let dir = tempfile::tempdir().unwrap();
+    let src = std::fs::read_to_string(repo("examples/vibration/heldout.csv")).unwrap();
+    let mut lines: Vec<&str> = src.lines().collect();
+    let copies: Vec<&str> = lines[1..4].to_vec();
+    lines.extend(copies);
+    let data = dir.path().join("rep.csv");
+    std::fs::write(&data, lines.join("\n") + "\n").unwrap();
+    let o = vibration_vet(
+        dir.path(),
+        &["--data", data.to_str().unwrap(), "--label", "label"],
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stdout).contains("note: 3 of the 603 rows repeat an earlier row exactly"),
+        "{}",
+        text(&o.stdout)
+    );
+}

@@ -37,7 +37,7 @@ impl<const N: usize> AlignedBlob<N> {
 ///
 /// ```ignore
 /// const MODEL: &[u8] = kinglet_runtime::embed_blob!("model.kgl");
-/// static mut ARENA: [u8; kinglet_runtime::arena_bytes(MODEL)] = [0; kinglet_runtime::arena_bytes(MODEL)];
+/// static mut SCRATCH: [u8; kinglet_runtime::scratch_bytes(MODEL)] = [0; kinglet_runtime::scratch_bytes(MODEL)];
 /// let model = kinglet_runtime::Model::parse(MODEL)?;
 /// assert!(model.weights_aligned());
 /// ```
@@ -70,7 +70,7 @@ mod tests {
     #[test]
     fn const_readers_take_an_embedded_blob() {
         // Not a model: the header readers say 0, at compile time.
-        const ARENA: usize = crate::arena_bytes(EMBEDDED);
-        assert_eq!(ARENA, 0);
+        const SCRATCH: usize = crate::scratch_bytes(EMBEDDED);
+        assert_eq!(SCRATCH, 0);
     }
 }

@@ -1,7 +1,7 @@
 //! The input and output widths of a blob, read at compile time: `const fn`s that walk the
 //! postcard-encoded layer table (`FORMAT.md` §3) far enough to find them, so a firmware can
-//! size its feature and score buffers from the blob it embeds, as it sizes the arena with
-//! [`crate::arena_bytes`]:
+//! size its feature and score buffers from the blob it embeds, as it sizes the scratch buffer with
+//! [`crate::scratch_bytes`]:
 //!
 //! ```
 //! # const MODEL: &[u8] = &[0; 4]; // in firmware: kinglet_runtime::embed_blob!("model.kgl")
@@ -13,7 +13,7 @@
 //! They check nothing beyond what they read: bytes without a Kinglet header, or a table that
 //! ends early, give 0. [`crate::Model::parse`] validates the blob, and `infer` checks every
 //! buffer's length, so a buffer sized from a damaged blob is refused at run time, not overrun.
-use crate::header::HEADER_LEN;
+use crate::wire::header::HEADER_LEN;
 
 /// Byte `i` of `b`, or `None` past the end (`slice::get` is not callable in a `const fn`).
 #[allow(clippy::indexing_slicing)]
@@ -107,7 +107,7 @@ const fn last_outputs(b: &[u8]) -> Option<u64> {
     let Some((layers, mut i)) = varint(b, i) else {
         return None;
     };
-    if layers == 0 || layers > crate::format::MAX_LAYERS as u64 {
+    if layers == 0 || layers > crate::wire::format::MAX_LAYERS as u64 {
         return None;
     }
     let mut k = 0;

@@ -18,15 +18,15 @@ fn repo() -> &'static Path {
 const LIB: &str = r#"#![no_std]
 #![deny(warnings)]
 
-// Used: only the blob and the arena size. The other items must not warn.
+// Used: only the blob and the scratch size. The other items must not warn.
 mod model;
 
 mod included {
     include!("included.rs");
 }
 
-/// The arena a firmware would reserve.
-pub const ARENA: usize = model::ARENA_BYTES;
+/// The scratch buffer a firmware would reserve.
+pub const SCRATCH: usize = model::SCRATCH_BYTES;
 
 /// Parses the blob the firmware way and says whether its weights came out aligned.
 pub fn aligned() -> bool {

@@ -216,6 +216,7 @@ fn parallel_run_equals_serial_run() {
         max_drop_pp: Some(0.5),
         gate: Some(Gate::Estimate),
         min_agreement_pct: Some(99.0),
+        ..Criteria::default()
     };
     let serial = report(Parallelism::Serial, &criteria);
     // Four workers on two cores, so rows really are spread over threads and finish out of order.

@@ -48,6 +48,14 @@ pub struct Args {
     /// both models.
     #[arg(long, value_name = "PERCENT")]
     min_agreement: Option<f64>,
+    /// The benign ("all is well") classes, by name or index, comma-separated: the report then
+    /// lists first the rows where int8 newly misses a fault (calls benign what float caught)
+    /// or newly raises a false alarm, with counts per fault class.
+    #[arg(long, value_name = "CLASS", value_delimiter = ',')]
+    benign: Vec<String>,
+    /// Fail (exit code 1) when more than this many rows are new missed faults (needs --benign).
+    #[arg(long, value_name = "N", requires = "benign")]
+    max_new_misses: Option<u64>,
     /// Print the report as JSON (with per-row predictions).
     #[arg(long)]
     json: bool,
@@ -113,6 +121,8 @@ pub fn run(a: Args) -> Result<Outcome> {
             GateArg::Upper => Gate::UpperLimit,
         }),
         min_agreement_pct: a.min_agreement,
+        benign: a.benign.clone(),
+        max_new_misses: a.max_new_misses,
     };
     let sources = Sources {
         float_model: a.float_model.display().to_string(),

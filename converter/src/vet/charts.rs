@@ -55,20 +55,77 @@ fn svg_string(
     Ok(buf)
 }
 
+/// Estimated width in pixels of `text` set at `px` pixels in a sans-serif font: 0.62 em per
+/// character, a little above the average advance of common sans-serif faces (about 0.5–0.6 em
+/// for mixed lower case; common practice, no source), so an estimate errs towards room.
+fn text_width(text: &str, px: u32) -> u32 {
+    (text.chars().count() as f64 * 0.62 * f64::from(px)).ceil() as u32
+}
+
+/// Class-label size on the heat maps, in pixels.
+const LABEL_PX: u32 = 12;
+/// Axis-title size on the heat maps, in pixels.
+const TITLE_PX: u32 = 13;
+/// Space between a label and what it labels.
+const GAP: u32 = 6;
+
+/// Where a heat map's parts go, sized from its labels: the row labels' column is as wide as the
+/// longest name, and column labels that do not fit across a cell turn to run downwards.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct HeatLayout {
+    cell: u32,
+    left: u32,
+    top: u32,
+    /// Height of the column labels (their width when turned).
+    column_labels: u32,
+    turned: bool,
+    width: u32,
+    height: u32,
+}
+
+impl HeatLayout {
+    fn new(k: usize, names: &[String], title: &str) -> Self {
+        let cell = (360 / k.max(1)).clamp(14, 40) as u32;
+        let side = cell * k.max(1) as u32;
+        let longest = names
+            .iter()
+            .take(k)
+            .map(|n| text_width(n, LABEL_PX))
+            .max()
+            .unwrap_or(0);
+        // Row labels, then the turned axis title beside them.
+        let left = longest + GAP + TITLE_PX + 2 * GAP + 4;
+        let turned = longest + 4 > cell;
+        let column_labels = if turned { longest } else { LABEL_PX + 2 };
+        let top = 50;
+        let bottom = GAP + column_labels + GAP + TITLE_PX + 2 * GAP;
+        let width = (left + side + 20).max(text_width(title, 17) + 20);
+        HeatLayout {
+            cell,
+            left,
+            top,
+            column_labels,
+            turned,
+            width,
+            height: top + side + bottom,
+        }
+    }
+}
+
 /// A heat map of `c`: each cell's shade is its share of the true class's rows; right answers
 /// (the diagonal) in blue, mistakes in red, with the count written in every non-empty cell.
 pub fn confusion_svg(c: &Confusion, names: &[String], title: &str) -> Result<String> {
     let k = c.classes().max(1);
-    let cell = (360 / k).clamp(14, 40) as u32;
-    let side = cell * k as u32;
-    let (left, top) = (70u32, 50u32);
-    svg_string(left + side + 20, top + side + 60, |root| {
+    let lay = HeatLayout::new(k, names, title);
+    let side = lay.cell * k as u32;
+    let (left, top) = (lay.left, lay.top);
+    svg_string(lay.width, lay.height, |root| {
         ok(root.draw(&Text::new(
             title.to_string(),
             ((left + side / 2) as i32, 18),
             anchored(17, HPos::Center, VPos::Center),
         )))?;
-        let area = root.margin(top, 60, left, 20);
+        let area = root.margin(top, lay.height - top - side, left, lay.width - left - side);
         let kf = k as f64;
         let chart = ok(ChartBuilder::on(&area).build_cartesian_2d(0f64..kf, 0f64..kf))?;
         let totals: Vec<u64> = c.counts.iter().map(|r| r.iter().sum()).collect();
@@ -115,32 +172,34 @@ pub fn confusion_svg(c: &Confusion, names: &[String], title: &str) -> Result<Str
         ok(chart.draw_series(cells))?;
         ok(chart.draw_series(lines))?;
         ok(chart.draw_series(labels))?;
+        let gap = GAP as i32;
         for (i, name) in names.iter().enumerate().take(k) {
             let centre = i as f64 + 0.5;
             let (x, y) = chart.backend_coord(&(centre, 0.0));
-            ok(root.draw(&Text::new(
-                name.clone(),
-                (x, y + 6),
-                anchored(12, HPos::Center, VPos::Top),
-            )))?;
+            let style = if lay.turned {
+                anchored(LABEL_PX, HPos::Left, VPos::Center).transform(FontTransform::Rotate90)
+            } else {
+                anchored(LABEL_PX, HPos::Center, VPos::Top)
+            };
+            ok(root.draw(&Text::new(name.clone(), (x, y + gap), style)))?;
             let (x, y) = chart.backend_coord(&(0.0, kf - centre));
             ok(root.draw(&Text::new(
                 name.clone(),
-                (x - 6, y),
-                anchored(12, HPos::Right, VPos::Center),
+                (x - gap, y),
+                anchored(LABEL_PX, HPos::Right, VPos::Center),
             )))?;
         }
         let (x0, y0) = chart.backend_coord(&(kf / 2.0, 0.0));
         ok(root.draw(&Text::new(
             "predicted class",
-            (x0, y0 + 28),
-            anchored(13, HPos::Center, VPos::Top),
+            (x0, y0 + gap + lay.column_labels as i32 + gap),
+            anchored(TITLE_PX, HPos::Center, VPos::Top),
         )))?;
-        let (x1, y1) = chart.backend_coord(&(0.0, kf / 2.0));
+        let (_, y1) = chart.backend_coord(&(0.0, kf / 2.0));
         ok(root.draw(&Text::new(
             "true class",
-            (x1 - 40, y1),
-            anchored(13, HPos::Center, VPos::Center).transform(FontTransform::Rotate270),
+            ((GAP + TITLE_PX / 2) as i32, y1),
+            anchored(TITLE_PX, HPos::Center, VPos::Center).transform(FontTransform::Rotate270),
         )))?;
         Ok(())
     })
@@ -279,6 +338,29 @@ mod tests {
         // and the count on the fully blue diagonal cell.
         assert_eq!(has_text(&svg, "1"), 3);
         assert_eq!(svg.matches("fill=\"#FFFFFF\"").count(), 3, "{svg}");
+    }
+
+    #[test]
+    fn heat_map_room_follows_the_labels() {
+        let short: Vec<String> = ["a", "b"].map(String::from).into();
+        let long: Vec<String> = ["outer_race_bearing_wear", "b"].map(String::from).into();
+        let s = HeatLayout::new(2, &short, "float");
+        let l = HeatLayout::new(2, &long, "float");
+        assert!(!s.turned && l.turned, "{s:?} {l:?}");
+        assert!(l.left >= text_width("outer_race_bearing_wear", LABEL_PX) + GAP);
+        assert_eq!(
+            l.left - s.left,
+            text_width("outer_race_bearing_wear", LABEL_PX) - text_width("a", LABEL_PX)
+        );
+        assert_eq!(
+            l.column_labels,
+            text_width("outer_race_bearing_wear", LABEL_PX)
+        );
+        // Ten classes: 36-pixel cells hold a two-character name across, not an eleven-character one.
+        let digits: Vec<String> = (0..10).map(|k| k.to_string()).collect();
+        assert!(!HeatLayout::new(10, &digits, "int8").turned);
+        let words: Vec<String> = (0..10).map(|k| format!("digit_{k}_name")).collect();
+        assert!(HeatLayout::new(10, &words, "int8").turned);
     }
 
     #[test]

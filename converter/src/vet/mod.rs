@@ -6,10 +6,13 @@
 //! - [`metrics`] computes accuracy, confusion matrices, precision and recall, agreement;
 //! - [`stats`] gives the 95% interval of the accuracy drop (Newcombe 1998, method 10) and
 //!   McNemar's exact test;
+//! - [`faults`] counts the fault calls quantisation changed, when benign classes are named;
+//! - [`repeats`] counts repeated rows (the interval assumes independent ones);
 //! - [`fidelity`] sums each tensor's SQNR (int8 dequantised against float);
 //! - [`summary`] assembles the [`summary::VetReport`]; [`render_text`] and [`render_html`]
 //!   show it.
 pub mod charts;
+pub mod faults;
 pub mod fidelity;
 pub mod load;
 pub mod metrics;
@@ -17,6 +20,7 @@ pub mod pair;
 pub mod points;
 pub mod render_html;
 pub mod render_text;
+pub mod repeats;
 pub mod run;
 pub mod stats;
 pub mod summary;
@@ -102,14 +106,37 @@ fn vet_fed(
             data.source
         );
     }
+    let benign = if criteria.benign.is_empty() {
+        None
+    } else {
+        Some(faults::resolve_benign(
+            &criteria.benign,
+            &pair.class_names(),
+            pair.classes(),
+        )?)
+    };
     let outcomes = run::evaluate(pair, fed, parallelism, progress)?;
-    Ok(summary::summarise(
+    let mut report = summary::summarise(
         pair,
         &data.source,
         sources,
         &Measured::new(fed.feed(), fed.entry),
         &outcomes,
-        labels.as_deref(),
+        summary::Truth {
+            labels: labels.as_deref(),
+            benign: benign.as_deref(),
+        },
         criteria,
-    ))
+    );
+    report.repeated_rows = repeats::repeated_rows(data);
+    if report.repeated_rows > 0 {
+        report.notes.insert(
+            0,
+            format!(
+                "{} of the {} rows repeat an earlier row exactly; the interval and the test assume independent rows, so repeats make them look surer than the data are",
+                report.repeated_rows, data.rows
+            ),
+        );
+    }
+    Ok(report)
 }

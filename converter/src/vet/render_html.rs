@@ -1,7 +1,9 @@
 //! The comparison as one self-contained HTML page (inline CSS and SVG, no scripts, nothing
 //! fetched): summary, verdict, the two confusion matrices as heat maps, per-layer SQNR bars
 //! and a histogram of per-row score differences.
+use super::faults::FaultReport;
 use super::points::pp;
+use super::render_text::CAVEAT;
 use anyhow::Result;
 use std::fmt::Write;
 
@@ -38,6 +40,55 @@ fn pct(x: f64) -> String {
     format!("{:.2} %", 100.0 * x)
 }
 
+/// The fault section, first after the title: new misses and false alarms per fault class and
+/// the rows themselves.
+fn faults(h: &mut String, r: &VetReport, f: &FaultReport) {
+    let _ = writeln!(
+        h,
+        "<h2>Faults</h2><p>Benign: {}. New missed faults (int8 says benign where the float model caught the fault; reference: {}): <b class=\"{}\">{}</b>. New false alarms: <b>{}</b>.</p>",
+        esc(&f.benign_names.join(", ")),
+        esc(&f.reference),
+        if f.new_misses.is_empty() { "pass" } else { "fail" },
+        f.new_misses.len(),
+        f.new_false_alarms.len()
+    );
+    let _ = writeln!(
+        h,
+        "<table><tr><th class=\"l\">fault</th><th>raised by float</th><th>new misses</th><th>new false alarms</th></tr>"
+    );
+    for c in &f.per_class {
+        let _ = writeln!(
+            h,
+            "<tr><td class=\"l\">{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+            esc(&c.name),
+            c.raised_by_float,
+            c.new_misses,
+            c.new_false_alarms
+        );
+    }
+    let _ = writeln!(h, "</table>");
+    for (what, rows) in [
+        ("Missed", &f.new_misses),
+        ("False alarm", &f.new_false_alarms),
+    ] {
+        if rows.is_empty() {
+            continue;
+        }
+        let list: Vec<String> = rows
+            .iter()
+            .map(|m| {
+                format!(
+                    "row {}: float {}, int8 {}",
+                    m.data_row,
+                    esc(&r.class_name(m.float_class)),
+                    esc(&r.class_name(m.int8_class))
+                )
+            })
+            .collect();
+        let _ = writeln!(h, "<p>{what}: {}</p>", list.join("; "));
+    }
+}
+
 /// Renders the page.
 pub fn render(r: &VetReport) -> Result<String> {
     let mut h = String::new();
@@ -58,6 +109,9 @@ pub fn render(r: &VetReport) -> Result<String> {
         r.classes,
         esc(&r.output)
     );
+    if let Some(f) = &r.faults {
+        faults(&mut h, r, f);
+    }
     if let Some(v) = &r.verdict {
         for c in &v.checks {
             let (class, word) = if c.passed {
@@ -71,6 +125,7 @@ pub fn render(r: &VetReport) -> Result<String> {
                 esc(&c.text)
             );
         }
+        let _ = writeln!(h, "<p class=\"meta\">{}</p>", esc(CAVEAT));
     }
 
     let _ = writeln!(h, "<h2>Summary</h2><table>");

@@ -3,6 +3,7 @@ use super::points::pp;
 use comfy_table::{presets::UTF8_BORDERS_ONLY, Cell, CellAlignment, Table};
 use std::fmt::Write;
 
+use super::faults::FaultReport;
 use super::metrics::Confusion;
 use super::summary::VetReport;
 
@@ -85,6 +86,9 @@ pub fn render(r: &VetReport, o: &TextOptions) -> String {
         "data         {}: {} rows, {} classes, {} output",
         r.data, r.rows, r.classes, r.output
     );
+    if let Some(f) = &r.faults {
+        s.push_str(&faults(r, f, o));
+    }
 
     if let Some(a) = &r.accuracy {
         let _ = writeln!(s, "\nAccuracy");
@@ -281,6 +285,68 @@ pub fn render(r: &VetReport, o: &TextOptions) -> String {
             paint("verdict: FAIL", "1;31", o.colour)
         };
         let _ = writeln!(s, "{overall}");
+        let _ = writeln!(s, "{CAVEAT}");
+    }
+    s
+}
+
+/// Printed under every verdict, in text and HTML.
+pub const CAVEAT: &str = "A pass means the two models agree on these rows only; it does not replace validation on the device with field data.";
+
+/// The fault section: first, since a missed fault outweighs every other disagreement.
+fn faults(r: &VetReport, f: &FaultReport, o: &TextOptions) -> String {
+    let mut s = String::new();
+    let against = if f.reference == "labels" {
+        "the float model caught the labelled fault"
+    } else {
+        "the float model raised a fault (no labels: the float model is the reference)"
+    };
+    let _ = writeln!(
+        s,
+        "\nFaults (benign: {})\n  new missed faults: {} (int8 says benign where {against})\n  new false alarms:  {} (int8 raises a fault where the float model said benign)",
+        f.benign_names.join(", "),
+        paint(&f.new_misses.len().to_string(), "1;31", o.colour && !f.new_misses.is_empty()),
+        f.new_false_alarms.len()
+    );
+    let mut t = table(vec![
+        "fault".into(),
+        "raised by float".into(),
+        "new misses".into(),
+        "new false alarms".into(),
+    ]);
+    for c in &f.per_class {
+        t.add_row(vec![
+            Cell::new(&c.name),
+            right(c.raised_by_float.to_string()),
+            right(c.new_misses.to_string()),
+            right(c.new_false_alarms.to_string()),
+        ]);
+    }
+    let _ = writeln!(s, "{t}");
+    for (what, rows) in [
+        ("missed", &f.new_misses),
+        ("false alarm", &f.new_false_alarms),
+    ] {
+        for m in rows.iter().take(o.show_rows) {
+            let truth = m
+                .label
+                .map(|t| format!("true {}, ", r.class_name(t)))
+                .unwrap_or_default();
+            let _ = writeln!(
+                s,
+                "  {what}: data row {}: {truth}float {}, int8 {}",
+                m.data_row,
+                r.class_name(m.float_class),
+                r.class_name(m.int8_class)
+            );
+        }
+        if rows.len() > o.show_rows {
+            let _ = writeln!(
+                s,
+                "  … {} more {what} rows (all in --json)",
+                rows.len() - o.show_rows
+            );
+        }
     }
     s
 }

@@ -3,6 +3,7 @@
 use super::points::pp;
 use serde::Serialize;
 
+use super::faults::{self, FaultReport};
 use super::fidelity::{Energy, StageFidelity};
 use super::metrics::{agreement, ratio, ClassScores, Confusion};
 use super::pair::{output_name, ModelPair};
@@ -24,7 +25,7 @@ pub enum Gate {
 }
 
 /// The checks a run is judged by.
-#[derive(Debug, Clone, Copy, PartialEq, Default)]
+#[derive(Debug, Clone, PartialEq, Default)]
 pub struct Criteria {
     /// Largest allowed accuracy drop (float minus int8) in percentage points.
     pub max_drop_pp: Option<f64>,
@@ -32,6 +33,11 @@ pub struct Criteria {
     pub gate: Option<Gate>,
     /// Smallest allowed top-1 agreement, in percent.
     pub min_agreement_pct: Option<f64>,
+    /// The benign ("all is well") classes, as the user named them (class names or indices);
+    /// empty: no fault report.
+    pub benign: Vec<String>,
+    /// Most rows allowed where the int8 model newly misses a fault (needs `benign`).
+    pub max_new_misses: Option<u64>,
 }
 
 /// Accuracy of one model.
@@ -256,6 +262,10 @@ pub struct VetReport {
     pub class_names: Vec<String>,
     /// Output function.
     pub output: String,
+    /// Faults the int8 model newly misses or raises (when benign classes were named).
+    pub faults: Option<FaultReport>,
+    /// Rows that repeat an earlier row exactly.
+    pub repeated_rows: u64,
     /// Accuracy (when the rows have labels).
     pub accuracy: Option<AccuracyReport>,
     /// Top-1 agreement.
@@ -332,8 +342,28 @@ fn accuracy_report(
     }
 }
 
-fn verdict(c: &Criteria, acc: Option<&AccuracyReport>, agree: &AgreementReport) -> Option<Verdict> {
+fn verdict(
+    c: &Criteria,
+    acc: Option<&AccuracyReport>,
+    agree: &AgreementReport,
+    faults: Option<&FaultReport>,
+) -> Option<Verdict> {
     let mut checks = Vec::new();
+    if let (Some(limit), Some(f)) = (c.max_new_misses, faults) {
+        let value = f.new_misses.len() as u64;
+        let passed = value <= limit;
+        checks.push(Check {
+            what: "new missed faults".to_string(),
+            limit: limit as f64,
+            value: value as f64,
+            passed,
+            text: format!(
+                "new missed faults {value} {} {limit} (rows where the int8 model calls {} a fault the float model caught)",
+                if passed { "≤" } else { ">" },
+                f.benign_names.join(" or ")
+            ),
+        });
+    }
     if let (Some(limit), Some(a)) = (c.max_drop_pp, acc) {
         let gate = c.gate.unwrap_or(Gate::Estimate);
         let (value, what) = match gate {
@@ -406,17 +436,26 @@ fn undefined_notes(rows: &[ClassRow], notes: &mut Vec<String>) {
     }
 }
 
+/// What the rows are judged against, as class indices: their labels, and the benign classes.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Truth<'a> {
+    /// Each row's true class (when the rows have labels).
+    pub labels: Option<&'a [usize]>,
+    /// The benign classes (when named).
+    pub benign: Option<&'a [usize]>,
+}
+
 /// Builds the report from the per-row outcomes (in row order), measured through `measured`.
-/// `labels` are class indices.
 pub fn summarise(
     pair: &ModelPair<'_>,
     data_source: &str,
     sources: &Sources,
     measured: &Measured,
     outcomes: &[RowOutcome],
-    labels: Option<&[usize]>,
+    truth: Truth<'_>,
     criteria: &Criteria,
 ) -> VetReport {
+    let Truth { labels, benign } = truth;
     let classes = pair.classes();
     let class_names = pair.class_names();
     let name = |k: usize| class_names.get(k).cloned().unwrap_or_else(|| k.to_string());
@@ -526,7 +565,8 @@ pub fn summarise(
             (None, None, None)
         }
     };
-    let verdict = verdict(criteria, accuracy.as_ref(), &agreement);
+    let faults = benign.map(|b| faults::count(b, &class_names, classes, labels, &fp, &qp));
+    let verdict = verdict(criteria, accuracy.as_ref(), &agreement, faults.as_ref());
 
     VetReport {
         float_model: sources.float_model.clone(),
@@ -537,6 +577,8 @@ pub fn summarise(
         classes,
         class_names,
         output: output_name(pair.int8.desc().output).to_string(),
+        faults,
+        repeated_rows: 0,
         accuracy,
         agreement,
         entry_split,

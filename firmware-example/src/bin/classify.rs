@@ -12,7 +12,8 @@
 //!
 //! The model is embedded with `kinglet_runtime::embed_blob!` (4-byte aligned, which the run
 //! checks with `Model::weights_aligned`), and the score buffer is sized with the `const fn`
-//! `kinglet_runtime::output_len`. The arena: a `static` byte array of exactly `kinglet_runtime::arena_bytes(VIBRATION)` bytes,
+//! `kinglet_runtime::output_len`. The scratch buffer: a `static` byte array of exactly
+//! `kinglet_runtime::scratch_bytes(VIBRATION)` bytes,
 //! handed out once by `cortex_m::singleton!`. That keeps it in `.bss`, where the linker counts
 //! it against RAM (an oversized model fails the link, not the run), needs no `static mut`, and
 //! keeps it off the stack. What stack the runtime itself needs is in BENCHMARKS.md (measured by
@@ -27,7 +28,7 @@ use kinglet_firmware_example::{board, console};
 use kinglet_fw_sensor::pins::{show_class, RecordingPin};
 use kinglet_fw_sensor::replay::ReplaySource;
 use kinglet_fw_sensor::{Window, WindowSource, AXES, WINDOW};
-use kinglet_fw_vectors::assets::{REPLAY_LABELS, REPLAY_WINDOWS, VIBRATION, VIBRATION_ARENA};
+use kinglet_fw_vectors::assets::{REPLAY_LABELS, REPLAY_WINDOWS, VIBRATION, VIBRATION_SCRATCH};
 use kinglet_runtime::{Input, Model};
 use kinglet_vibration_features::window_features;
 
@@ -48,8 +49,9 @@ fn fail(what: &str) -> bool {
 }
 
 fn run() -> bool {
-    let Some(arena) = cortex_m::singleton!(: [u8; VIBRATION_ARENA] = [0; VIBRATION_ARENA]) else {
-        return fail("arena already taken");
+    let Some(scratch) = cortex_m::singleton!(: [u8; VIBRATION_SCRATCH] = [0; VIBRATION_SCRATCH])
+    else {
+        return fail("scratch buffer already taken");
     };
     let model = match Model::parse(VIBRATION) {
         Ok(m) => m,
@@ -70,23 +72,23 @@ fn run() -> bool {
     let mut l = console::LineBuf::new();
     let _ = write!(
         l,
-        "classify on {}: model {} bytes in flash, arena {} bytes, {} windows to replay",
+        "classify on {}: model {} bytes in flash, scratch buffer {} bytes, {} windows to replay",
         board::BOARD,
         model.blob_bytes(),
-        arena.len(),
+        scratch.len(),
         REPLAY_WINDOWS.len() / (AXES * WINDOW * 2)
     );
     console::line(&l);
     let mut pins = [RecordingPin::new(); CLASSES];
     let mut source = ReplaySource::new(REPLAY_WINDOWS);
-    classify_all(&model, &mut source, arena, &mut pins)
+    classify_all(&model, &mut source, scratch, &mut pins)
 }
 
 /// Classifies every window `source` yields; returns whether all went well.
 fn classify_all<S: WindowSource, P: StatefulOutputPin>(
     model: &Model<'_>,
     source: &mut S,
-    arena: &mut [u8],
+    scratch: &mut [u8],
     pins: &mut [P; CLASSES],
 ) -> bool {
     let mut window: Window = [[0; WINDOW]; AXES];
@@ -94,7 +96,7 @@ fn classify_all<S: WindowSource, P: StatefulOutputPin>(
     let (mut n, mut agree, mut same) = (0usize, 0usize, 0usize);
     while source.next_window(&mut window).is_ok() {
         let features = window_features(&window);
-        let p = match model.infer(Input::F32(&features), arena, &mut scores) {
+        let p = match model.infer(Input::F32(&features), scratch, &mut scores) {
             Ok(p) => p,
             Err(e) => {
                 let mut l = console::LineBuf::new();
@@ -104,7 +106,7 @@ fn classify_all<S: WindowSource, P: StatefulOutputPin>(
             }
         };
         // The class alone, by the integer argmax of the last layer: must be `infer`'s.
-        same += usize::from(model.classify(Input::F32(&features), arena) == Ok(p.class));
+        same += usize::from(model.classify(Input::F32(&features), scratch) == Ok(p.class));
         if show_class(pins, p.class).is_err() {
             return fail("could not drive the class pins");
         }

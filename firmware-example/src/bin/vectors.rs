@@ -8,8 +8,8 @@
 //! `vectors: N passed, M failed`. `scripts/firmware.sh` also diffs the printed lines against
 //! the same files.
 //!
-//! One arena serves every model: a `static` of `MAX_ARENA` bytes (the largest
-//! `kinglet_runtime::arena_bytes` of the embedded blobs, computed at compile time), handed out
+//! One scratch buffer serves every model: a `static` of `MAX_SCRATCH` bytes (the largest
+//! `kinglet_runtime::scratch_bytes` of the embedded blobs, computed at compile time), handed out
 //! once by `cortex_m::singleton!`.
 #![no_std]
 #![no_main]
@@ -17,13 +17,13 @@
 use core::fmt::Write;
 use cortex_m_rt::entry;
 use kinglet_firmware_example::{board, console};
-use kinglet_fw_vectors::assets::MAX_ARENA;
+use kinglet_fw_vectors::assets::MAX_SCRATCH;
 use kinglet_fw_vectors::{format_vector, Line, VectorSet, SETS, TOTAL};
 use kinglet_runtime::Model;
 
 #[entry]
 fn main() -> ! {
-    let Some(arena) = cortex_m::singleton!(: [u8; MAX_ARENA] = [0; MAX_ARENA]) else {
+    let Some(scratch) = cortex_m::singleton!(: [u8; MAX_SCRATCH] = [0; MAX_SCRATCH]) else {
         console::exit(false)
     };
     let mut l = console::LineBuf::new();
@@ -36,7 +36,7 @@ fn main() -> ! {
     console::line(&l);
     let (mut passed, mut failed) = (0usize, 0usize);
     for set in &SETS {
-        let (p, f) = run_set(set, arena);
+        let (p, f) = run_set(set, scratch);
         passed += p;
         failed += f;
     }
@@ -47,7 +47,7 @@ fn main() -> ! {
 }
 
 /// Runs one set; returns (passed, failed).
-fn run_set(set: &VectorSet, arena: &mut [u8]) -> (usize, usize) {
+fn run_set(set: &VectorSet, scratch: &mut [u8]) -> (usize, usize) {
     let model = match Model::parse(set.model) {
         Ok(m) => m,
         Err(e) => {
@@ -62,7 +62,7 @@ fn run_set(set: &VectorSet, arena: &mut [u8]) -> (usize, usize) {
     let (mut passed, mut failed) = (0, 0);
     for i in 0..set.count {
         let want = expected.next();
-        match format_vector(set, &model, i, arena, &mut line) {
+        match format_vector(set, &model, i, scratch, &mut line) {
             Ok(_) => {
                 console::line(&line);
                 if want == Some(line.as_str()) {

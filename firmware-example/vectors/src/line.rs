@@ -51,13 +51,13 @@ enum Outputs {
 
 /// Runs vector `i` of `set` (0-based within the set) and writes its line into `line`.
 ///
-/// `model` must be `set.model` parsed; `arena` needs `model.arena_bytes()` bytes. Returns the
+/// `model` must be `set.model` parsed; `scratch` needs `model.scratch_bytes()` bytes. Returns the
 /// predicted class.
 pub fn format_vector(
     set: &VectorSet,
     model: &Model<'_>,
     i: usize,
-    arena: &mut [u8],
+    scratch: &mut [u8],
     line: &mut Line,
 ) -> Result<usize, VectorError> {
     line.clear();
@@ -98,13 +98,13 @@ pub fn format_vector(
                 .get(row)
                 .ok_or(VectorError::MissingInput)?;
             let p = if set.path == Path::DigitsU8 {
-                model.infer_traced(Input::U8(pixels), arena, &mut scores, &mut capture)
+                model.infer_traced(Input::U8(pixels), scratch, &mut scores, &mut capture)
             } else {
                 let mut x = [0f32; assets::DIGITS_PIXELS];
                 for (d, &p) in x.iter_mut().zip(pixels) {
                     *d = f32::from(p);
                 }
-                model.infer_traced(Input::F32(&x), arena, &mut scores, &mut capture)
+                model.infer_traced(Input::F32(&x), scratch, &mut scores, &mut capture)
             };
             (label, p)
         }
@@ -115,7 +115,7 @@ pub fn format_vector(
                 .get(row)
                 .ok_or(VectorError::MissingInput)?;
             features = window_features(&window);
-            let p = model.infer_traced(Input::F32(&features), arena, &mut scores, &mut capture);
+            let p = model.infer_traced(Input::F32(&features), scratch, &mut scores, &mut capture);
             (label, p)
         }
     };
