@@ -199,7 +199,7 @@ mod tests {
                     assert_eq!(output_len(b), m.output_len());
                 }
                 // The int8-only build refuses f32 blobs; the widths are still read.
-                Err(crate::FormatError::F32NotBuiltIn) => assert!(!cfg!(feature = "f32")),
+                Err(crate::FormatError::F32NotBuiltIn) if !cfg!(feature = "f32") => {}
                 Err(e) => panic!("{e}"),
             }
         }
