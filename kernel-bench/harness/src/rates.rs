@@ -78,8 +78,9 @@ fn least_squares<const N: usize>(rows: &[([f64; N], f64)]) -> Result<[f64; N], S
         v.swap(c, p);
         for r in c + 1..N {
             let f = m[r][c] / m[c][c];
-            for k in c..N {
-                m[r][k] -= f * m[c][k];
+            let pivot = m[c];
+            for (x, p) in m[r].iter_mut().zip(pivot).skip(c) {
+                *x -= f * p;
             }
             v[r] -= f * v[c];
         }

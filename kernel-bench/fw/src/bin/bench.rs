@@ -311,31 +311,16 @@ const MAX_SCRATCH: usize = 512;
 #[cfg(not(kb_big_models))]
 const MAX_SCORES: usize = 40;
 
-/// The unaligned twins of the blobs (Cortex-M4), by name.
-#[allow(non_camel_case_types, dead_code)]
-enum U {
-    I8_784X100,
-    I8_64X32,
-    F32_784X100,
-    F32_64X32,
-    DIGITS,
-    VIBRATION,
-}
-
-/// The unaligned twin of `which` on the Cortex-M4, `None` elsewhere.
-#[allow(unused_variables)]
-fn unaligned(which: U) -> Option<&'static [u8]> {
-    #[cfg(kb_unaligned)]
-    return Some(match which {
-        U::I8_784X100 => blobs::I8_784X100_UNALIGNED,
-        U::I8_64X32 => blobs::I8_64X32_UNALIGNED,
-        U::F32_784X100 => blobs::F32_784X100_UNALIGNED,
-        U::F32_64X32 => blobs::F32_64X32_UNALIGNED,
-        U::DIGITS => blobs::DIGITS_UNALIGNED,
-        U::VIBRATION => blobs::VIBRATION_UNALIGNED,
-    });
-    #[allow(unreachable_code)]
-    None
+/// `Some(blobs::$name)` on the Cortex-M4 (`kb_unaligned`: the unaligned twins exist there),
+/// `None` elsewhere.
+macro_rules! unaligned {
+    ($name:ident) => {{
+        #[cfg(kb_unaligned)]
+        let blob = Some(blobs::$name);
+        #[cfg(not(kb_unaligned))]
+        let blob: Option<&'static [u8]> = None;
+        blob
+    }};
 }
 
 #[entry]
@@ -353,14 +338,14 @@ fn main() -> ! {
         "i8-784x100",
         blobs::I8_784X100,
         blobs::I8_784X100_OM,
-        unaligned(U::I8_784X100),
+        unaligned!(I8_784X100_UNALIGNED),
         &mut rng,
     );
     int8_layer(
         "i8-64x32",
         blobs::I8_64X32,
         blobs::I8_64X32_OM,
-        unaligned(U::I8_64X32),
+        unaligned!(I8_64X32_UNALIGNED),
         &mut rng,
     );
     #[cfg(kb_big_f32)]
@@ -368,28 +353,28 @@ fn main() -> ! {
         "f32-784x100",
         blobs::F32_784X100,
         blobs::F32_784X100_OM,
-        unaligned(U::F32_784X100),
+        unaligned!(F32_784X100_UNALIGNED),
         &mut rng,
     );
     f32_layer(
         "f32-64x32",
         blobs::F32_64X32,
         blobs::F32_64X32_OM,
-        unaligned(U::F32_64X32),
+        unaligned!(F32_64X32_UNALIGNED),
         &mut rng,
     );
     whole_model(
         "digits",
         blobs::DIGITS,
         blobs::DIGITS_OM,
-        unaligned(U::DIGITS),
+        unaligned!(DIGITS_UNALIGNED),
         &mut rng,
     );
     whole_model(
         "vibration",
         blobs::VIBRATION,
         blobs::VIBRATION_OM,
-        unaligned(U::VIBRATION),
+        unaligned!(VIBRATION_UNALIGNED),
         &mut rng,
     );
     // The synthetic layers as whole models (scaler, one layer, softmax): more whole-model
