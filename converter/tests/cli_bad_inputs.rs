@@ -1562,7 +1562,7 @@ fn c87_score_bad_blob_wrong_width_unknown_label() {
 }
 
 #[test]
-fn c200_inspect_clock_that_is_not_a_clock() {
+fn c94_inspect_clock_that_is_not_a_clock() {
     let c = Case::new().packed("v.kgl");
     for bad in ["0", "-8", "nan", "inf", "1e9", "fast", ""] {
         c.fails(
@@ -1576,7 +1576,7 @@ fn c200_inspect_clock_that_is_not_a_clock() {
 }
 
 #[test]
-fn c201_inspect_load_address_that_is_not_an_address() {
+fn c95_inspect_load_address_that_is_not_an_address() {
     let c = Case::new().packed("v.kgl");
     for bad in ["0x", "0xZZ", "-4", "flash", "8k", ""] {
         c.fails(
@@ -1593,7 +1593,7 @@ fn c201_inspect_load_address_that_is_not_an_address() {
 }
 
 #[test]
-fn c202_inspect_blob_that_would_run_past_the_address_space() {
+fn c96_inspect_blob_that_would_run_past_the_address_space() {
     let c = Case::new().packed("v.kgl");
     c.fails(
         &["inspect", "v.kgl", "--load-address", "0xFFFFFFF0", "--json"],
