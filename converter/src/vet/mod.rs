@@ -1,6 +1,7 @@
 //! `kinglet vet`: the accuracy comparison of an int8 blob against its float model, on the
-//! host, with the runtime's own kernels on both sides; the int8 blob is fed the way the
-//! firmware feeds it (f32 features or raw `i16` / `u8` integers, `infer` or `classify`).
+//! host, with the runtime's own arithmetic on both sides (in batches, the int8 side bit for bit;
+//! see [`run`]); the int8 blob is fed the way the firmware feeds it (f32 features or raw `i16` /
+//! `u8` integers, `infer` or `classify`).
 //!
 //! - [`run`] evaluates every row through both models (in parallel, with serial results);
 //! - [`metrics`] computes accuracy, confusion matrices, precision and recall, agreement;
