@@ -130,7 +130,7 @@ pub const RATES: [Rates; 5] = [
         per_layer: 291.92,
         per_feature: 24.81,
         per_class: 87.81,
-        fixed: 373.42,
+        fixed: 372.41,
     },
     Rates {
         target: "Cortex-M4 (DSP)",
@@ -144,7 +144,7 @@ pub const RATES: [Rates; 5] = [
         per_layer: 291.92,
         per_feature: 67.77,
         per_class: 88.35,
-        fixed: 366.17,
+        fixed: 365.16,
     },
     Rates {
         target: "Cortex-M4F (FPU)",
@@ -157,8 +157,8 @@ pub const RATES: [Rates; 5] = [
         per_input: -3.46,
         per_layer: 161.7,
         per_feature: 38.18,
-        per_class: 101.84,
-        fixed: 275.31,
+        per_class: 101.71,
+        fixed: 278.07,
     },
     Rates {
         target: "Cortex-M0",
@@ -170,9 +170,9 @@ pub const RATES: [Rates; 5] = [
         per_partial_row: 33.54,
         per_input: 14.03,
         per_layer: 404.65,
-        per_feature: 752.27,
-        per_class: 2779.31,
-        fixed: 1392.9,
+        per_feature: 752.24,
+        per_class: 2776.35,
+        fixed: 1395.55,
     },
     Rates {
         target: "Cortex-M0",
@@ -184,9 +184,9 @@ pub const RATES: [Rates; 5] = [
         per_partial_row: 33.54,
         per_input: 14.03,
         per_layer: 404.65,
-        per_feature: 120.61,
-        per_class: 2775.54,
-        fixed: 1482.81,
+        per_feature: 120.57,
+        per_class: 2772.57,
+        fixed: 1485.62,
     },
 ];
 // kb-harness:end rates
