@@ -221,11 +221,11 @@ mod tests {
         let mut src = Lsm303Source::new(s, NoopDelay::new(), 100, 3);
         let mut w: Window = [[0; WINDOW]; AXES];
         src.next_window(&mut w).unwrap();
-        for t in 0..WINDOW {
-            assert_eq!(w[0][t], t as i16 * 16);
-            assert_eq!(w[1][t], -(t as i16) * 16);
-            assert_eq!(w[2][t], 8192);
-        }
+        let want_x: Vec<i16> = (0..WINDOW as i16).map(|t| t * 16).collect();
+        let want_y: Vec<i16> = want_x.iter().map(|v| -v).collect();
+        assert_eq!(w[0].to_vec(), want_x);
+        assert_eq!(w[1].to_vec(), want_y);
+        assert_eq!(w[2], [8192; WINDOW]);
         i2c.done();
     }
 
