@@ -1,7 +1,8 @@
 //! Build script of the firmware example.
 //!
-//! 1. Picks the board from the compilation target (`boards.toml`) and puts its memory map into
-//!    `OUT_DIR/memory.x`, where cortex-m-rt's `link.x` looks for it.
+//! 1. Picks the board (`boards.toml`): the one whose `feature` is enabled (`board-pico`,
+//!    `board-microbit-v2`), else the QEMU machine of the compilation target; puts its memory map
+//!    into `OUT_DIR/memory.x`, where cortex-m-rt's `link.x` looks for it.
 //! 2. Turns the Python reference fixtures in `tests/fixtures/` (numpy / ONNX reference
 //!    results) into Rust tables in `OUT_DIR/selftest_cases.rs` for the on-target `selftest`.
 //! 3. Parses every packed model the firmware embeds with the runtime's own parser
@@ -27,7 +28,12 @@ struct Boards {
 struct Board {
     target: String,
     memory: String,
-    qemu_machine: String,
+    /// Cargo feature that selects a development board (absent for the QEMU machines).
+    feature: Option<String>,
+    /// QEMU machine that emulates the board.
+    qemu_machine: Option<String>,
+    /// probe-rs chip name of a development board.
+    chip: Option<String>,
     model_flash: u64,
     model_ram: u64,
 }
@@ -68,12 +74,13 @@ fn main() {
         .unwrap_or_else(|e| fail(&format!("reading {}: {e}", boards_path.display())));
     let boards: Boards =
         toml::from_str(&text).unwrap_or_else(|e| fail(&format!("{}: {e}", boards_path.display())));
-    let Some((name, board)) = boards.board.iter().find(|(_, b)| b.target == target) else {
-        let known: Vec<&str> = boards.board.values().map(|b| b.target.as_str()).collect();
-        fail(&format!(
-            "no board in boards.toml for target {target:?}; build with --target one of {known:?}"
-        ));
-    };
+    let (name, board) = select_board(&boards, &target);
+
+    // Development boards print through defmt (RTT) instead of semihosting output.
+    println!("cargo:rustc-check-cfg=cfg(probe_board)");
+    if board.feature.is_some() {
+        println!("cargo:rustc-cfg=probe_board");
+    }
 
     // Memory map.
     let memory = dir.join(&board.memory);
@@ -129,11 +136,64 @@ fn main() {
         out.join("board.rs"),
         format!(
             "/// Board this build is for.\npub const BOARD: &str = {name:?};\n\
-             /// QEMU machine of the board.\npub const QEMU_MACHINE: &str = {:?};\n",
-            board.qemu_machine
+             /// QEMU machine of the board (`None` on a development board).\n\
+             pub const QEMU_MACHINE: Option<&str> = {:?};\n\
+             /// probe-rs chip name of the board (`None` on a QEMU machine).\n\
+             pub const CHIP: Option<&str> = {:?};\n",
+            board.qemu_machine, board.chip
         ),
     )
     .unwrap_or_else(|e| fail(&format!("writing board.rs: {e}")));
+}
+
+/// The board of this build: the one whose `feature` is enabled, else the board of `target`
+/// without a feature (a QEMU machine). Fails on two board features, on a board feature built
+/// for another target, and on a target no board has.
+fn select_board<'a>(boards: &'a Boards, target: &str) -> (&'a String, &'a Board) {
+    let enabled: Vec<(&String, &Board)> = boards
+        .board
+        .iter()
+        .filter(|(_, b)| {
+            b.feature.as_ref().is_some_and(|f| {
+                let var = format!("CARGO_FEATURE_{}", f.to_uppercase().replace('-', "_"));
+                std::env::var_os(var).is_some()
+            })
+        })
+        .collect();
+    match enabled.as_slice() {
+        [] => {}
+        [(name, board)] => {
+            if board.target != target {
+                fail(&format!(
+                    "board {name} is built for --target {}, not {target:?}",
+                    board.target
+                ));
+            }
+            return (name, board);
+        }
+        more => {
+            let names: Vec<&str> = more.iter().map(|(n, _)| n.as_str()).collect();
+            fail(&format!(
+                "more than one board feature enabled ({names:?}); enable at most one"
+            ));
+        }
+    }
+    let Some(found) = boards
+        .board
+        .iter()
+        .find(|(_, b)| b.target == target && b.feature.is_none())
+    else {
+        let known: Vec<&str> = boards
+            .board
+            .values()
+            .filter(|b| b.feature.is_none())
+            .map(|b| b.target.as_str())
+            .collect();
+        fail(&format!(
+            "no board in boards.toml for target {target:?}; build with --target one of {known:?}"
+        ));
+    };
+    found
 }
 
 /// Flash and arena bytes of one packed model, checked by the runtime's parser.
