@@ -127,6 +127,7 @@ pub fn check_line(
 }
 
 #[cfg(test)]
+#[allow(clippy::unwrap_used)]
 mod tests {
     use super::*;
     use crate::assets::{VIBRATION, VIBRATION_ARENA};
