@@ -8,6 +8,11 @@
 //! 3. Parses every packed model the firmware embeds with the runtime's own parser
 //!    (`kinglet-runtime` is a build-dependency), reports flash and arena RAM as cargo warnings,
 //!    and fails the build when the board's model budget is exceeded.
+//! 4. Takes a model of your own for the `vectors` binary when `KINGLET_OWN_MODEL` (a packed
+//!    blob) and `KINGLET_OWN_VECTORS` (its `kinglet score --format vectors --with-inputs`
+//!    lines) are set, with `KINGLET_OWN_FEED` (`f32`, `i16` or `u8`; default `f32`): checks
+//!    both, counts the blob against the budget and writes `OUT_DIR/own.rs` (README, "Your own
+//!    model, step by step").
 use serde::Deserialize;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -99,6 +104,15 @@ fn main() {
     let flash_budget = env_budget("KINGLET_FLASH_BUDGET").unwrap_or(board.model_flash);
     let ram_budget = env_budget("KINGLET_RAM_BUDGET").unwrap_or(board.model_ram);
     let (mut flash, mut ram) = (0u64, 0u64);
+    let own = own_model(&dir, &out);
+    if let Some((path, blob, arena)) = &own {
+        println!(
+            "cargo:warning={name}: {} (KINGLET_OWN_MODEL): model flash: {blob} bytes, arena RAM: {arena} bytes",
+            path.display()
+        );
+        flash += blob;
+        ram += arena;
+    }
     for rel in MODELS {
         println!("cargo:rerun-if-changed={rel}");
         let (blob, arena) = model_footprint(&dir.join(rel));
@@ -194,6 +208,94 @@ fn select_board<'a>(boards: &'a Boards, target: &str) -> (&'a String, &'a Board)
         ));
     };
     found
+}
+
+/// A path from the environment, relative to the firmware-example directory unless absolute.
+fn env_path(dir: &Path, name: &str) -> Option<PathBuf> {
+    println!("cargo:rerun-if-env-changed={name}");
+    let raw = std::env::var_os(name).filter(|v| !v.is_empty())?;
+    Some(dir.join(raw))
+}
+
+/// The model of your own (`KINGLET_OWN_*`): checks it, copies blob and vectors into `OUT_DIR`
+/// and writes `own.rs`; returns its path, flash and arena bytes when one is given.
+fn own_model(dir: &Path, out: &Path) -> Option<(PathBuf, u64, u64)> {
+    let model = env_path(dir, "KINGLET_OWN_MODEL");
+    let vectors = env_path(dir, "KINGLET_OWN_VECTORS");
+    println!("cargo:rerun-if-env-changed=KINGLET_OWN_FEED");
+    let feed = match std::env::var("KINGLET_OWN_FEED").as_deref() {
+        Err(_) | Ok("") | Ok("f32") => "F32",
+        Ok("i16") => "I16",
+        Ok("u8") => "U8",
+        Ok(other) => fail(&format!("KINGLET_OWN_FEED={other:?}: use f32, i16 or u8")),
+    };
+    let (model, vectors) = match (model, vectors) {
+        (None, None) => {
+            std::fs::write(
+                out.join("own.rs"),
+                "/// No model of your own in this build (KINGLET_OWN_MODEL is not set).\n\
+                 pub const OWN: Option<OwnSet> = None;\n\
+                 /// No arena for it.\n\
+                 pub const OWN_ARENA: usize = 0;\n",
+            )
+            .unwrap_or_else(|e| fail(&format!("writing own.rs: {e}")));
+            return None;
+        }
+        (Some(m), Some(v)) => (m, v),
+        _ => fail("set both KINGLET_OWN_MODEL and KINGLET_OWN_VECTORS, or neither"),
+    };
+    println!("cargo:rerun-if-changed={}", model.display());
+    println!("cargo:rerun-if-changed={}", vectors.display());
+    let (blob, arena) = model_footprint(&model);
+    let text = std::fs::read_to_string(&vectors).unwrap_or_else(|e| {
+        fail(&format!(
+            "KINGLET_OWN_VECTORS: reading {}: {e}",
+            vectors.display()
+        ))
+    });
+    let lines = text.lines().count();
+    if lines == 0 {
+        fail(&format!(
+            "KINGLET_OWN_VECTORS: {} has no lines",
+            vectors.display()
+        ));
+    }
+    if let Some((i, _)) = text
+        .lines()
+        .enumerate()
+        .find(|(_, l)| !l.contains(" feat="))
+    {
+        fail(&format!(
+            "KINGLET_OWN_VECTORS: {} line {} has no inputs: write it with `kinglet score ... --format vectors --with-inputs`",
+            vectors.display(),
+            i + 1
+        ));
+    }
+    let blob_copy = out.join("own_model.kgl");
+    let vectors_copy = out.join("own_vectors.txt");
+    std::fs::copy(&model, &blob_copy)
+        .unwrap_or_else(|e| fail(&format!("copying {}: {e}", model.display())));
+    std::fs::write(&vectors_copy, &text)
+        .unwrap_or_else(|e| fail(&format!("writing own_vectors.txt: {e}")));
+    std::fs::write(
+        out.join("own.rs"),
+        format!(
+            "/// The model of your own given at build time ({}).\n\
+             pub const OWN: Option<OwnSet> = Some(OwnSet {{\n\
+             \x20   model: include_bytes!({:?}),\n\
+             \x20   vectors: include_str!({:?}),\n\
+             \x20   feed: Feed::{feed},\n\
+             \x20   lines: {lines},\n\
+             }});\n\
+             /// Arena bytes of that model (from its header, read by build.rs).\n\
+             pub const OWN_ARENA: usize = {arena};\n",
+            model.display(),
+            blob_copy.display(),
+            vectors_copy.display(),
+        ),
+    )
+    .unwrap_or_else(|e| fail(&format!("writing own.rs: {e}")));
+    Some((model, blob, arena))
 }
 
 /// Flash and arena bytes of one packed model, checked by the runtime's parser.
