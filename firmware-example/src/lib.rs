@@ -1,4 +1,5 @@
-//! Shared pieces of the Kinglet firmware example binaries (Cortex-M, QEMU).
+//! Shared pieces of the Kinglet firmware example binaries (Cortex-M: QEMU machines and
+//! development boards).
 //!
 //! * [`console`]: semihosting output, and exit with success or failure;
 //! * [`fault`]: `HardFault`, `DefaultHandler` and the panic handler, each printing what
