@@ -6,7 +6,7 @@
 //! 2. Turns the Python reference fixtures in `tests/fixtures/` (numpy / ONNX reference
 //!    results) into Rust tables in `OUT_DIR/selftest_cases.rs` for the on-target `selftest`.
 //! 3. Parses every packed model the firmware embeds with the runtime's own parser
-//!    (`kinglet-runtime` is a build-dependency), reports flash and arena RAM as cargo warnings,
+//!    (`kinglet-runtime` is a build-dependency), reports flash and scratch buffer RAM as cargo warnings,
 //!    and fails the build when the board's model budget is exceeded.
 //! 4. Takes a model of your own for the `vectors` binary when `KINGLET_OWN_MODEL` (a packed
 //!    blob) and `KINGLET_OWN_VECTORS` (its `kinglet score --format vectors --with-inputs`
@@ -105,26 +105,26 @@ fn main() {
     let ram_budget = env_budget("KINGLET_RAM_BUDGET").unwrap_or(board.model_ram);
     let (mut flash, mut ram) = (0u64, 0u64);
     let own = own_model(&dir, &out);
-    if let Some((path, blob, arena)) = &own {
+    if let Some((path, blob, scratch)) = &own {
         println!(
-            "cargo:warning={name}: {} (KINGLET_OWN_MODEL): model flash: {blob} bytes, arena RAM: {arena} bytes",
+            "cargo:warning={name}: {} (KINGLET_OWN_MODEL): model flash: {blob} bytes, scratch buffer RAM: {scratch} bytes",
             path.display()
         );
         flash += blob;
-        ram += arena;
+        ram += scratch;
     }
     for rel in MODELS {
         println!("cargo:rerun-if-changed={rel}");
-        let (blob, arena) = model_footprint(&dir.join(rel));
+        let (blob, scratch) = model_footprint(&dir.join(rel));
         println!(
-            "cargo:warning={name}: {rel}: model flash: {blob} bytes, arena RAM: {arena} bytes"
+            "cargo:warning={name}: {rel}: model flash: {blob} bytes, scratch buffer RAM: {scratch} bytes"
         );
         flash += blob;
-        ram += arena;
+        ram += scratch;
     }
     println!(
         "cargo:warning={name}: all models: model flash: {flash} bytes of {flash_budget} budgeted, \
-         arena RAM: {ram} bytes of {ram_budget} budgeted"
+         scratch RAM: {ram} bytes of {ram_budget} budgeted"
     );
     let mut over = Vec::new();
     if flash > flash_budget {
@@ -134,7 +134,7 @@ fn main() {
     }
     if ram > ram_budget {
         over.push(format!(
-            "arena RAM {ram} bytes exceeds the {name} RAM budget of {ram_budget} bytes"
+            "scratch buffer RAM {ram} bytes exceeds the {name} RAM budget of {ram_budget} bytes"
         ));
     }
     if !over.is_empty() {
@@ -218,7 +218,7 @@ fn env_path(dir: &Path, name: &str) -> Option<PathBuf> {
 }
 
 /// The model of your own (`KINGLET_OWN_*`): checks it, copies blob and vectors into `OUT_DIR`
-/// and writes `own.rs`; returns its path, flash and arena bytes when one is given.
+/// and writes `own.rs`; returns its path, flash and scratch bytes when one is given.
 fn own_model(dir: &Path, out: &Path) -> Option<(PathBuf, u64, u64)> {
     let model = env_path(dir, "KINGLET_OWN_MODEL");
     let vectors = env_path(dir, "KINGLET_OWN_VECTORS");
@@ -235,8 +235,8 @@ fn own_model(dir: &Path, out: &Path) -> Option<(PathBuf, u64, u64)> {
                 out.join("own.rs"),
                 "/// No model of your own in this build (KINGLET_OWN_MODEL is not set).\n\
                  pub const OWN: Option<OwnSet> = None;\n\
-                 /// No arena for it.\n\
-                 pub const OWN_ARENA: usize = 0;\n",
+                 /// No scratch buffer for it.\n\
+                 pub const OWN_SCRATCH: usize = 0;\n",
             )
             .unwrap_or_else(|e| fail(&format!("writing own.rs: {e}")));
             return None;
@@ -246,7 +246,7 @@ fn own_model(dir: &Path, out: &Path) -> Option<(PathBuf, u64, u64)> {
     };
     println!("cargo:rerun-if-changed={}", model.display());
     println!("cargo:rerun-if-changed={}", vectors.display());
-    let (blob, arena) = model_footprint(&model);
+    let (blob, scratch) = model_footprint(&model);
     let text = std::fs::read_to_string(&vectors).unwrap_or_else(|e| {
         fail(&format!(
             "KINGLET_OWN_VECTORS: reading {}: {e}",
@@ -287,18 +287,18 @@ fn own_model(dir: &Path, out: &Path) -> Option<(PathBuf, u64, u64)> {
              \x20   feed: Feed::{feed},\n\
              \x20   lines: {lines},\n\
              }});\n\
-             /// Arena bytes of that model (from its header, read by build.rs).\n\
-             pub const OWN_ARENA: usize = {arena};\n",
+             /// Scratch buffer bytes of that model (from its header, read by build.rs).\n\
+             pub const OWN_SCRATCH: usize = {scratch};\n",
             model.display(),
             blob_copy.display(),
             vectors_copy.display(),
         ),
     )
     .unwrap_or_else(|e| fail(&format!("writing own.rs: {e}")));
-    Some((model, blob, arena))
+    Some((model, blob, scratch))
 }
 
-/// Flash and arena bytes of one packed model, checked by the runtime's parser.
+/// Flash and scratch bytes of one packed model, checked by the runtime's parser.
 fn model_footprint(path: &Path) -> (u64, u64) {
     let blob = std::fs::read(path).unwrap_or_else(|e| {
         fail(&format!(
@@ -307,7 +307,7 @@ fn model_footprint(path: &Path) -> (u64, u64) {
         ))
     });
     let footprint = match kinglet_runtime::Model::parse(&blob) {
-        Ok(m) => (m.blob_bytes() as u64, m.arena_bytes() as u64),
+        Ok(m) => (m.blob_bytes() as u64, m.scratch_bytes() as u64),
         Err(e) => fail(&format!("{}: not a valid model: {e}", path.display())),
     };
     footprint

@@ -138,7 +138,7 @@ t=thumbv6m-none-eabi
 if KINGLET_RAM_BUDGET=64 fwcargo build -q --release --target "$t" --bin classify >"$work/over-ram.log" 2>&1; then
   fail "build passed with KINGLET_RAM_BUDGET=64"
 fi
-grep -o 'arena RAM [0-9]* bytes exceeds the microbit RAM budget of 64 bytes' "$work/over-ram.log" \
+grep -o 'scratch buffer RAM [0-9]* bytes exceeds the microbit RAM budget of 64 bytes' "$work/over-ram.log" \
   || { cat "$work/over-ram.log"; fail "no clear RAM budget message"; }
 if KINGLET_FLASH_BUDGET=8K fwcargo build -q --release --target "$t" --bin classify >"$work/over-flash.log" 2>&1; then
   fail "build passed with KINGLET_FLASH_BUDGET=8K"

@@ -1,8 +1,8 @@
 //! Weights between the layouts of `FORMAT.md` §3.1, and encoding with the `Blocked4x4` data
-//! aligned. The geometry is the runtime's own (`kinglet_runtime::dense::layout`), so writer and
+//! aligned. The geometry is the runtime's own (`kinglet_runtime::unstable::wire::layout`), so writer and
 //! reader cannot disagree.
-use kinglet_runtime::dense::layout;
-use kinglet_runtime::format::{Precision, WeightLayout};
+use kinglet_runtime::unstable::wire::format::{Precision, WeightLayout};
+use kinglet_runtime::unstable::wire::layout;
 use kinglet_runtime::Model;
 
 use crate::error::BuildError;

@@ -1,6 +1,6 @@
 //! Why a blob could not be built.
-use kinglet_runtime::encode::EncodeError;
-use kinglet_runtime::format::MAX_LAYERS;
+use kinglet_runtime::unstable::encode::EncodeError;
+use kinglet_runtime::unstable::wire::format::MAX_LAYERS;
 use kinglet_runtime::FormatError;
 
 /// Why [`crate::OwnedModel`] could not be written as a valid blob. The messages are the

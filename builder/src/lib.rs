@@ -6,7 +6,7 @@
 //! A new format field is then a change in one place ([`owned`]).
 //!
 //! - [`OwnedModel::encode_to_vec`] and [`OwnedModel::encode_in`] write valid blobs through the
-//!   runtime's validating encoder (`kinglet_runtime::encode::encode`);
+//!   runtime's validating encoder (`kinglet_runtime::unstable::encode::encode`);
 //! - [`raw_blob`], [`OwnedModel::raw_blob`] and [`raw_blob_with_layers`] write any table, valid
 //!   or not, behind a correct header, so that a test reaches exactly the rule it is about;
 //! - [`reseal`] makes a blob's length and CRC right again after a test changed its bytes;
@@ -25,9 +25,11 @@ pub mod raw;
 pub mod sample;
 
 pub use error::BuildError;
-pub use kinglet_runtime::encode::{reseal, seal};
+pub use kinglet_runtime::unstable::encode::{reseal, seal};
 /// The table's enums, for filling in an [`OwnedModel`]. (The runtime's own unit tests name them
 /// from here: they see a second copy of the runtime crate, whose types are not these.)
-pub use kinglet_runtime::format::{Activation, OutputKind, Precision, WeightLayout};
+pub use kinglet_runtime::unstable::wire::format::{
+    Activation, OutputKind, Precision, WeightLayout,
+};
 pub use owned::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
-pub use raw::{planned_arena, raw_blob, raw_blob_with_layers};
+pub use raw::{planned_scratch, raw_blob, raw_blob_with_layers};

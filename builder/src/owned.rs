@@ -1,6 +1,6 @@
-//! The owned layer table: every field of `kinglet_runtime::format::ModelDesc` (`FORMAT.md` §3),
+//! The owned layer table: every field of `kinglet_runtime::unstable::wire::format::ModelDesc` (`FORMAT.md` §3),
 //! tensors as wire bytes that a test or a fuzz target may edit freely, lengths included.
-use kinglet_runtime::format::{
+use kinglet_runtime::unstable::wire::format::{
     Activation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind, Precision,
     ScalerDesc, WeightLayout, MAX_LAYERS,
 };
@@ -240,10 +240,10 @@ impl OwnedModel {
         }
     }
 
-    /// The arena bytes the runtime's planner gives the (possibly invalid) table of
+    /// The scratch bytes the runtime's planner gives the (possibly invalid) table of
     /// [`OwnedModel::as_desc`].
-    pub fn planned_arena(&self) -> u32 {
-        crate::raw::planned_arena(&self.as_desc())
+    pub fn planned_scratch(&self) -> u32 {
+        crate::raw::planned_scratch(&self.as_desc())
     }
 
     /// The valid blob of this table, weights in the layouts the layers have, through the
@@ -274,10 +274,10 @@ impl OwnedModel {
         })
     }
 
-    /// [`OwnedModel::as_desc`] written without validation, with the arena field
-    /// [`OwnedModel::planned_arena`] gives: see [`crate::raw_blob`].
+    /// [`OwnedModel::as_desc`] written without validation, with the scratch field
+    /// [`OwnedModel::planned_scratch`] gives: see [`crate::raw_blob`].
     pub fn raw_blob(&self) -> Vec<u8> {
-        crate::raw_blob(&self.as_desc(), self.planned_arena())
+        crate::raw_blob(&self.as_desc(), self.planned_scratch())
     }
 
     fn fits(&self) -> Result<(), BuildError> {
@@ -290,7 +290,7 @@ impl OwnedModel {
 
 /// `desc` through the runtime's validating encoder.
 fn encode_desc(desc: &ModelDesc<'_>) -> Result<Vec<u8>, BuildError> {
-    use kinglet_runtime::encode::{encode, max_encoded_len};
+    use kinglet_runtime::unstable::encode::{encode, max_encoded_len};
     let mut out = vec![0u8; max_encoded_len(desc)];
     let n = encode(desc, &mut out).map_err(BuildError::Encode)?;
     out.truncate(n);
@@ -314,7 +314,7 @@ mod tests {
                 blob,
                 "a valid table: raw and validated writers agree"
             );
-            assert_eq!(m.planned_arena() as usize, parsed.arena_bytes());
+            assert_eq!(m.planned_scratch() as usize, parsed.scratch_bytes());
         }
     }
 

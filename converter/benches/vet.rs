@@ -182,7 +182,7 @@ fn main() {
 
     // Where the time goes: each runtime path alone, one thread, all rows.
     let path_time = |m: &Model<'_>| {
-        let mut arena = vec![0u8; m.arena_bytes()];
+        let mut scratch = vec![0u8; m.scratch_bytes()];
         let mut scores = vec![0f32; m.output_len()];
         let t = Instant::now();
         let mut sum = 0usize;
@@ -190,7 +190,7 @@ fn main() {
             sum += m
                 .infer(
                     kinglet_runtime::Input::F32(data.row(r)),
-                    &mut arena,
+                    &mut scratch,
                     &mut scores,
                 )
                 .map_or(0, |p| p.class);

@@ -2,7 +2,7 @@
 //! normalised, before quantisation. Every importer (ONNX, the plain JSON description) produces
 //! a [`FloatModel`]; calibration, quantisation and packing consume it.
 
-pub use kinglet_runtime::format::{Activation, OutputKind};
+pub use kinglet_runtime::unstable::wire::format::{Activation, OutputKind};
 
 /// What the saved input scaler was, for reports. The arithmetic is always the same affine map.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

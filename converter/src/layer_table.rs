@@ -3,7 +3,7 @@
 use anyhow::{anyhow, bail, Result};
 use kinglet_builder::le::f32s;
 use kinglet_builder::{BuildError, OwnedInput, OwnedLayer, OwnedModel};
-use kinglet_runtime::format::{Precision, MAX_LAYERS};
+use kinglet_runtime::unstable::wire::format::{Precision, MAX_LAYERS};
 
 use crate::graph::FloatModel;
 

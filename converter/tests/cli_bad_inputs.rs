@@ -248,7 +248,7 @@ fn c03_inspect_blob_from_a_newer_format_version() {
     let c = Case::new().packed("m.kgl");
     let mut b = c.read("m.kgl");
     let newer = kinglet_runtime::FORMAT_VERSION + 1;
-    let at = kinglet_runtime::header::offset::VERSION;
+    let at = kinglet_runtime::unstable::wire::header::offset::VERSION;
     b[at..at + 2].copy_from_slice(&newer.to_le_bytes());
     kinglet_builder::reseal(&mut b).unwrap();
     c.put("newer.kgl", &b).fails(

@@ -55,12 +55,12 @@ struct Expected {
 }
 
 fn in_process(m: &Model<'_>, input: Input<'_>) -> Expected {
-    let mut arena = vec![0u8; m.arena_bytes()];
+    let mut scratch = vec![0u8; m.scratch_bytes()];
     let mut scores = vec![0f32; m.output_len()];
     let last = m.layers().count();
     let mut outputs = Vec::new();
     let p = m
-        .infer_traced(input, &mut arena, &mut scores, &mut |s: &Stage<'_>| {
+        .infer_traced(input, &mut scratch, &mut scores, &mut |s: &Stage<'_>| {
             if s.index == last {
                 outputs = (0..s.values.len())
                     .map(|k| match s.values {
@@ -73,7 +73,7 @@ fn in_process(m: &Model<'_>, input: Input<'_>) -> Expected {
         .unwrap();
     Expected {
         infer: p.class,
-        classify: m.classify(input, &mut arena).unwrap(),
+        classify: m.classify(input, &mut scratch).unwrap(),
         score_bits: scores.iter().map(|s| s.to_bits()).collect(),
         outputs,
     }

@@ -1,9 +1,9 @@
-//! Target 1: arbitrary bytes as a blob, run with arbitrary inputs, arena and score sizes.
+//! Target 1: arbitrary bytes as a blob, run with arbitrary inputs, scratch buffer and score sizes.
 //!
-//! Input layout: `flags, arena_lo, arena_hi, kind, scores, count, vlen_lo, vlen_hi`, then
+//! Input layout: `flags, scratch_lo, scratch_hi, kind, scores, count, vlen_lo, vlen_hi`, then
 //! `vlen` bytes of input values, then the blob. Flag bit 0 reseals the header (magic, flags,
-//! total length and CRC made right, version and arena field kept, so byte mutations reach the
-//! layer table), bit 1 uses the model's own arena size, bit 2 its own score count, bit 3 runs
+//! total length and CRC made right, version and scratch field kept, so byte mutations reach the
+//! layer table), bit 1 uses the model's own scratch size, bit 2 its own score count, bit 3 runs
 //! the extreme inputs too, bit 4 renders the `kinglet inspect` report. `count` 0 means the
 //! model's input width; the value bytes are repeated to fill the input.
 #![no_main]
@@ -23,17 +23,19 @@ fuzz_target!(|data: &[u8]| {
     let mut blob = blob.to_vec();
     if flags & 1 != 0 {
         // The version stays: it must be the one the table needs, which only the reader knows.
-        let at = kinglet_runtime::header::offset::VERSION;
-        let version = blob.get(at..at + 2).map_or(0, |v| u16::from_le_bytes([v[0], v[1]]));
-        let arena = kinglet_runtime::arena_bytes(&blob) as u32;
+        let at = kinglet_runtime::unstable::wire::header::offset::VERSION;
+        let version = blob
+            .get(at..at + 2)
+            .map_or(0, |v| u16::from_le_bytes([v[0], v[1]]));
+        let scratch = kinglet_runtime::scratch_bytes(&blob) as u32;
         // Shorter than a header: left as it is.
-        let _ = kinglet_builder::seal(&mut blob, version, arena);
+        let _ = kinglet_builder::seal(&mut blob, version, scratch);
     }
     let Ok(model) = Model::parse(&blob) else {
         return;
     };
     // Everything the header promises agrees with the parsed model.
-    assert_eq!(kinglet_runtime::arena_bytes(&blob), model.arena_bytes());
+    assert_eq!(kinglet_runtime::scratch_bytes(&blob), model.scratch_bytes());
     assert_eq!(kinglet_runtime::blob_len(&blob), blob.len());
     // `kinglet inspect` reports on any blob the reader accepts (table and JSON).
     if flags & 16 != 0 {
@@ -41,8 +43,8 @@ fuzz_target!(|data: &[u8]| {
         assert!(!kinglet_converter::report::table::render(&report).is_empty());
         assert!(serde_json::to_string(&report).is_ok());
     }
-    let arena = if flags & 2 != 0 {
-        model.arena_bytes()
+    let scratch = if flags & 2 != 0 {
+        model.scratch_bytes()
     } else {
         usize::from(u16::from_le_bytes([head[1], head[2]]))
     };
@@ -55,7 +57,7 @@ fuzz_target!(|data: &[u8]| {
         0 => model.input_len(),
         c => usize::from(c),
     };
-    oracle::run_from_bytes(&model, head[3], count, values, arena, scores);
+    oracle::run_from_bytes(&model, head[3], count, values, scratch, scores);
     if flags & 8 != 0 {
         oracle::run_extremes(&model);
     }

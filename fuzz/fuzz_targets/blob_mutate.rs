@@ -7,7 +7,7 @@
 #![no_main]
 use arbitrary::Unstructured;
 use kinglet_fuzz::{base, mutate, oracle, BASES};
-use kinglet_runtime::encode::{encode, max_encoded_len};
+use kinglet_runtime::unstable::encode::{encode, max_encoded_len};
 use kinglet_runtime::Model;
 use libfuzzer_sys::fuzz_target;
 
@@ -34,22 +34,22 @@ fuzz_target!(|data: &[u8]| {
         eprintln!("{m:#?}");
     }
     let desc = m.as_desc();
-    let planned = m.planned_arena();
-    let arena_field = match u.int_in_range(0..=15u8).unwrap_or(0) {
+    let planned = m.planned_scratch();
+    let scratch_field = match u.int_in_range(0..=15u8).unwrap_or(0) {
         0 => planned.wrapping_add(1),
         1 => planned.saturating_sub(1),
         _ => planned,
     };
-    let blob = kinglet_builder::raw_blob(&desc, arena_field);
+    let blob = kinglet_builder::raw_blob(&desc, scratch_field);
     let verdict = Model::parse(&blob);
     // The validating encoder agrees with the reader.
     let mut out = vec![0u8; max_encoded_len(&desc).max(blob.len())];
     let enc = encode(&desc, &mut out);
     match (&verdict, &enc) {
-        // Same arena field and table; the header's version (the encoder writes the lowest
+        // Same scratch field and table; the header's version (the encoder writes the lowest
         // that holds the blob) and so the CRC may differ.
         (Ok(_), Ok(n)) => assert_eq!(&out[16..*n], &blob[16..], "encoder and raw writer differ"),
-        (Err(kinglet_runtime::FormatError::ArenaMismatch { .. }), Ok(_)) => {}
+        (Err(kinglet_runtime::FormatError::ScratchMismatch { .. }), Ok(_)) => {}
         (Err(e), Ok(_)) => panic!("reader rejects ({e:?}) what the encoder writes"),
         (Ok(_), Err(e)) => panic!("encoder refuses ({e:?}) what the reader accepts"),
         (Err(_), Err(_)) => {}
@@ -61,6 +61,6 @@ fuzz_target!(|data: &[u8]| {
     let n = model.input_len();
     let kind = u.int_in_range(0..=2u8).unwrap_or(0);
     let rest = u.take_rest();
-    let (a, s) = (model.arena_bytes(), model.output_len());
+    let (a, s) = (model.scratch_bytes(), model.output_len());
     oracle::run_from_bytes(&model, kind, n, rest, a, s);
 });

@@ -3,7 +3,7 @@
 //! bound, a multiplier at the edge of its range) so that validation is exercised rule by rule
 //! and accepted tables reach inference.
 use arbitrary::{Result, Unstructured};
-use kinglet_runtime::format::{Activation, OutputKind, Precision, WeightLayout};
+use kinglet_runtime::unstable::wire::format::{Activation, OutputKind, Precision, WeightLayout};
 
 use kinglet_builder::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 

@@ -4,10 +4,10 @@
 //! class whenever infer's top score is unique.
 use kinglet_runtime::{Input, Model, OutputKind, RunError};
 
-/// Runs `input` through `model` with an arena of `arena_len` bytes and `scores_len` scores, and
+/// Runs `input` through `model` with a scratch buffer of `scratch_len` bytes and `scores_len` scores, and
 /// panics (a fuzz finding) when a rule is broken.
-pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores_len: usize) {
-    let mut arena = vec![0u8; arena_len];
+pub fn run_checked(model: &Model<'_>, input: Input<'_>, scratch_len: usize, scores_len: usize) {
+    let mut scratch = vec![0u8; scratch_len];
     let mut scores = vec![f32::NAN; scores_len];
     let n_in = match input {
         Input::F32(v) => v.len(),
@@ -19,7 +19,7 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores
         _ => None,
     };
     let mut stages = 0usize;
-    let r = model.infer_traced(input, &mut arena, &mut scores, &mut |s| {
+    let r = model.infer_traced(input, &mut scratch, &mut scores, &mut |s| {
         assert_eq!(s.index, stages, "stages come in order");
         stages += 1;
     });
@@ -27,7 +27,7 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores
     check_classify(
         model,
         input,
-        arena_len,
+        scratch_len,
         (n_in, nonfinite_at),
         &r,
         scores.get(..out_len).unwrap_or(&[]),
@@ -42,9 +42,9 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores
             assert_eq!(needed as usize, out_len);
             assert!(scores_len < out_len);
         }
-        Err(RunError::ArenaTooSmall { needed, .. }) => {
-            assert_eq!(needed as usize, model.arena_bytes());
-            assert!(arena_len < model.arena_bytes());
+        Err(RunError::ScratchTooSmall { needed, .. }) => {
+            assert_eq!(needed as usize, model.scratch_bytes());
+            assert!(scratch_len < model.scratch_bytes());
         }
         Err(RunError::NonFiniteInput { index }) => {
             assert_eq!(Some(index as usize), nonfinite_at);
@@ -60,7 +60,10 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores
         Ok(p) => {
             assert_eq!(n_in, model.input_len());
             assert!(nonfinite_at.is_none(), "non-finite input accepted");
-            assert!(arena_len >= model.arena_bytes(), "short arena accepted");
+            assert!(
+                scratch_len >= model.scratch_bytes(),
+                "short scratch buffer accepted"
+            );
             assert_eq!(stages, model.layers().count() + 1, "one trace per tensor");
             let s = &scores[..out_len];
             assert!(
@@ -101,17 +104,17 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, arena_len: usize, scores
 fn check_classify(
     model: &Model<'_>,
     input: Input<'_>,
-    arena_len: usize,
+    scratch_len: usize,
     (n_in, nonfinite_at): (usize, Option<usize>),
     r: &Result<kinglet_runtime::Prediction, RunError>,
     scores: &[f32],
 ) {
-    let mut arena = vec![0u8; arena_len];
-    let c = model.classify(input, &mut arena);
+    let mut scratch = vec![0u8; scratch_len];
+    let c = model.classify(input, &mut scratch);
     if n_in != model.input_len() {
         assert!(matches!(c, Err(RunError::InputLength { .. })), "{c:?}");
-    } else if arena_len < model.arena_bytes() {
-        assert!(matches!(c, Err(RunError::ArenaTooSmall { .. })), "{c:?}");
+    } else if scratch_len < model.scratch_bytes() {
+        assert!(matches!(c, Err(RunError::ScratchTooSmall { .. })), "{c:?}");
     } else if let Some(i) = nonfinite_at {
         assert_eq!(c, Err(RunError::NonFiniteInput { index: i as u32 }));
     } else if c == Err(RunError::NonFiniteOutput) {
@@ -138,23 +141,23 @@ fn check_classify(
     }
 }
 
-/// Runs the extreme inputs every accepted model must survive with a right-sized arena.
+/// Runs the extreme inputs every accepted model must survive with a right-sized scratch buffer.
 pub fn run_extremes(model: &Model<'_>) {
     let n = model.input_len();
-    let (arena, scores) = (model.arena_bytes(), model.output_len());
+    let (scratch, scores) = (model.scratch_bytes(), model.output_len());
     for v in [0.0f32, 1.0, -1.0, 1e30, -1e30, f32::MAX, f32::MIN, 1e-40] {
-        run_checked(model, Input::F32(&vec![v; n]), arena, scores);
+        run_checked(model, Input::F32(&vec![v; n]), scratch, scores);
     }
     for v in [i16::MIN, i16::MAX, 0, -1] {
-        run_checked(model, Input::I16(&vec![v; n]), arena, scores);
+        run_checked(model, Input::I16(&vec![v; n]), scratch, scores);
     }
     for v in [0u8, 255] {
-        run_checked(model, Input::U8(&vec![v; n]), arena, scores);
+        run_checked(model, Input::U8(&vec![v; n]), scratch, scores);
     }
     let alt: Vec<i16> = (0..n)
         .map(|i| if i % 2 == 0 { i16::MIN } else { i16::MAX })
         .collect();
-    run_checked(model, Input::I16(&alt), arena, scores);
+    run_checked(model, Input::I16(&alt), scratch, scores);
 }
 
 /// Builds `count` inputs of the kind `kind % 3` (0: f32, 1: i16, 2: u8) from `bytes` (cycled,
@@ -164,7 +167,7 @@ pub fn run_from_bytes(
     kind: u8,
     count: usize,
     bytes: &[u8],
-    arena_len: usize,
+    scratch_len: usize,
     scores_len: usize,
 ) {
     let byte = |i: usize| bytes.get(i % bytes.len().max(1)).copied().unwrap_or(0);
@@ -180,17 +183,17 @@ pub fn run_from_bytes(
                     ])
                 })
                 .collect();
-            run_checked(model, Input::F32(&v), arena_len, scores_len);
+            run_checked(model, Input::F32(&v), scratch_len, scores_len);
         }
         1 => {
             let v: Vec<i16> = (0..count)
                 .map(|i| i16::from_le_bytes([byte(2 * i), byte(2 * i + 1)]))
                 .collect();
-            run_checked(model, Input::I16(&v), arena_len, scores_len);
+            run_checked(model, Input::I16(&v), scratch_len, scores_len);
         }
         _ => {
             let v: Vec<u8> = (0..count).map(byte).collect();
-            run_checked(model, Input::U8(&v), arena_len, scores_len);
+            run_checked(model, Input::U8(&v), scratch_len, scores_len);
         }
     }
 }

@@ -1,14 +1,14 @@
 //! The class alone, without scores: argmax of the last layer's outputs, in integers on int8
 //! models.
 use crate::error::RunError;
-use crate::format::OutputKind;
 use crate::model::{Input, Model};
 use crate::output::argmax_i8;
+use crate::wire::format::OutputKind;
 
 impl Model<'_> {
     /// Runs one inference and returns only the predicted class index: the argmax of the last
     /// layer's outputs (ties resolve to the lowest index), or for a sigmoid output 1 when the
-    /// output is above 0. `arena` needs [`Model::arena_bytes`] bytes, as for [`Model::infer`].
+    /// output is above 0. `scratch` needs [`Model::scratch_bytes`] bytes, as for [`Model::infer`].
     ///
     /// On an int8 model with [`Input::I16`] or [`Input::U8`] features this is integer
     /// arithmetic from end to end ([`Model::parse`] is too), so a firmware for a core without
@@ -18,19 +18,24 @@ impl Model<'_> {
     /// top scores equal, which needs outputs closer than about 2^-20 (an int8 output scale that
     /// small, or f32 outputs that close).
     ///
+    /// # Errors
+    ///
+    /// The [`RunError`]s of [`Model::infer`] (without the score slice, there is no
+    /// [`RunError::ScoresTooSmall`]).
+    ///
     /// ```
     /// # fn demo(blob: &[u8], raw: &[i16]) -> Result<(), kinglet_runtime::Error> {
     /// use kinglet_runtime::{Input, Model};
     /// let model = Model::parse(blob)?;
-    /// let mut arena = [0u8; 256];
-    /// let class = model.classify(Input::I16(raw), &mut arena)?;
+    /// let mut scratch = [0u8; 256];
+    /// let class = model.classify(Input::I16(raw), &mut scratch)?;
     /// # let _ = class;
     /// # Ok(())
     /// # }
     /// ```
-    pub fn classify(&self, input: Input<'_>, arena: &mut [u8]) -> Result<usize, RunError> {
+    pub fn classify(&self, input: Input<'_>, scratch: &mut [u8]) -> Result<usize, RunError> {
         self.check_input_len(&input)?;
-        let (quant, last) = self.forward(input, arena, &mut |_| {})?;
+        let (quant, last) = self.forward(input, scratch, &mut |_| {})?;
         let n = self.output_len();
         let sigmoid = self.desc().output == OutputKind::Sigmoid;
         match quant {
@@ -87,12 +92,12 @@ mod tests {
 
     /// classify's class is infer's on every input of a grid, through each input path.
     fn agrees(m: &Model<'_>, inputs: &[Input<'_>]) -> usize {
-        let mut arena = vec![0u8; m.arena_bytes()];
+        let mut scratch = vec![0u8; m.scratch_bytes()];
         let mut scores = vec![0f32; m.output_len()];
         let mut ones = 0;
         for &input in inputs {
-            let want = m.infer(input, &mut arena, &mut scores).unwrap().class;
-            assert_eq!(m.classify(input, &mut arena).unwrap(), want, "{input:?}");
+            let want = m.infer(input, &mut scratch, &mut scores).unwrap().class;
+            assert_eq!(m.classify(input, &mut scratch).unwrap(), want, "{input:?}");
             ones += want;
         }
         ones

@@ -4,9 +4,10 @@
 //! only, for tools and tests that hand the reader blobs it must judge (the owned layer tables of
 //! the `kinglet-builder` crate write their raw blobs with them).
 use crate::error::FormatError;
-use crate::format::ModelDesc;
-use crate::header::{offset, version_for, Header, CHECKED_FROM, CHECKSUM, HEADER_LEN};
 use crate::validate;
+use crate::wire::format::ModelDesc;
+use crate::wire::header::{offset, Header, CHECKED_FROM, CHECKSUM, HEADER_LEN};
+use crate::wire::version::version_for;
 
 /// Why a blob could not be written.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -58,25 +59,25 @@ pub fn encode(desc: &ModelDesc<'_>, out: &mut [u8]) -> Result<usize, EncodeError
         .map_err(|_| EncodeError::BufferTooSmall)?
         .len();
     let total = HEADER_LEN + body_len;
-    let arena = u32::try_from(plan.total()).map_err(|_| EncodeError::BufferTooSmall)?;
+    let scratch = u32::try_from(plan.total()).map_err(|_| EncodeError::BufferTooSmall)?;
     let blob = out.get_mut(..total).ok_or(EncodeError::BufferTooSmall)?;
-    seal(blob, version_for(desc), arena)?;
+    seal(blob, version_for(desc), scratch)?;
     Ok(total)
 }
 
 /// Writes the header of `blob`, whose body is already in place after the first [`HEADER_LEN`]
-/// bytes: the magic, `version`, zero flags, the length of `blob`, `arena_bytes` and the CRC.
+/// bytes: the magic, `version`, zero flags, the length of `blob`, `scratch_bytes` and the CRC.
 ///
 /// Unlike [`encode`] this checks nothing about the body: it is for tools and tests that must
 /// hand the reader bytes for it to judge. Fails only when `blob` is shorter than the header or
 /// longer than a `u32` can say.
-pub fn seal(blob: &mut [u8], version: u16, arena_bytes: u32) -> Result<(), EncodeError> {
+pub fn seal(blob: &mut [u8], version: u16, scratch_bytes: u32) -> Result<(), EncodeError> {
     let header = Header {
         version,
         flags: 0,
         total_len: 0,
         crc: 0,
-        arena_bytes,
+        scratch_bytes,
     };
     let head = blob
         .get_mut(..HEADER_LEN)
@@ -88,7 +89,7 @@ pub fn seal(blob: &mut [u8], version: u16, arena_bytes: u32) -> Result<(), Encod
 }
 
 /// Rewrites the length and CRC fields of `blob` for its bytes as they are now, leaving the magic,
-/// version, flags and arena fields alone: after a test or tool has changed bytes of a blob, the
+/// version, flags and scratch fields alone: after a test or tool has changed bytes of a blob, the
 /// length and checksum no longer stop the change at the door. Checks nothing else; fails only
 /// when `blob` is shorter than the header or longer than a `u32` can say.
 pub fn reseal(blob: &mut [u8]) -> Result<(), EncodeError> {

@@ -94,7 +94,7 @@ pub enum FormatError {
         /// Layer index (0-based); `None` for the model input.
         layer: Option<u8>,
     },
-    /// A width exceeds [`crate::format::MAX_WIDTH`].
+    /// A width exceeds [`crate::wire::format::MAX_WIDTH`].
     TooWide {
         /// Layer index; `None` for the model input.
         layer: Option<u8>,
@@ -166,8 +166,8 @@ pub enum FormatError {
     },
     /// An f32 model, and this runtime was built without the `f32` feature (int8 only).
     F32NotBuiltIn,
-    /// The header's arena size is not the size the layer table needs.
-    ArenaMismatch {
+    /// The header's scratch size is not the size the layer table needs.
+    ScratchMismatch {
         /// The header's value.
         header: u32,
         /// The computed value.
@@ -190,8 +190,8 @@ impl fmt::Display for FormatError {
             UnsupportedVersion { found } => write!(
                 f,
                 "model format version {found} is not supported (this reader accepts versions {} to {})",
-                crate::header::OLDEST_VERSION,
-                crate::header::FORMAT_VERSION
+                crate::wire::version::OLDEST_VERSION,
+                crate::wire::version::FORMAT_VERSION
             ),
             VersionMismatch { header, body } => write!(
                 f,
@@ -215,7 +215,7 @@ impl fmt::Display for FormatError {
             }
             TooWide { layer } => {
                 at(f, layer)?;
-                write!(f, ": wider than {} elements", crate::format::MAX_WIDTH)
+                write!(f, ": wider than {} elements", crate::wire::format::MAX_WIDTH)
             }
             ShapeMismatch { layer } => write!(
                 f,
@@ -260,9 +260,9 @@ impl fmt::Display for FormatError {
             F32NotBuiltIn => f.write_str(
                 "f32 model, but this runtime was built without the `f32` feature (int8 models only)",
             ),
-            ArenaMismatch { header, computed } => write!(
+            ScratchMismatch { header, computed } => write!(
                 f,
-                "header arena size {header} disagrees with the computed {computed}"
+                "header scratch size {header} disagrees with the computed {computed}"
             ),
         }
     }
@@ -282,8 +282,8 @@ pub enum RunError {
         /// Elements given.
         got: u32,
     },
-    /// The arena is smaller than [`crate::Model::arena_bytes`].
-    ArenaTooSmall {
+    /// The scratch buffer is smaller than [`crate::Model::scratch_bytes`].
+    ScratchTooSmall {
         /// Bytes needed.
         needed: u32,
         /// Bytes given.
@@ -311,8 +311,11 @@ impl fmt::Display for RunError {
             RunError::InputLength { expected, got } => {
                 write!(f, "input has {got} features, the model takes {expected}")
             }
-            RunError::ArenaTooSmall { needed, got } => {
-                write!(f, "arena too small: needs {needed} bytes, got {got}")
+            RunError::ScratchTooSmall { needed, got } => {
+                write!(
+                    f,
+                    "scratch buffer too small: needs {needed} bytes, got {got}"
+                )
             }
             RunError::ScoresTooSmall { needed, got } => {
                 write!(f, "score buffer too small: needs {needed}, got {got}")

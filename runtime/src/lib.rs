@@ -2,32 +2,47 @@
 //!
 //! Allocation-free inference for small dense classifiers on microcontrollers.
 //!
-//! A model is a *blob* (see `FORMAT.md` in the repository) that the firmware keeps in flash and
+//! A model is a *blob* (specified in `FORMAT.md`, shipped with this crate) that the firmware keeps in flash and
 //! reads in place. [`Model::parse`] checks everything once — header, checksum, every length,
 //! every shape, every quantisation parameter, and that no int8 accumulator can overflow — and
 //! returns a validated [`Model`]. After that, inference cannot panic or read out of bounds.
 //!
-//! Inference works in a caller-owned *arena* whose exact size the blob states in its header, so
-//! a firmware can size a `static` at build time with the `const fn` [`arena_bytes`]:
+//! Inference works in a caller-owned *scratch buffer* whose exact size the blob states in its
+//! header, so a firmware can size a `static` at build time with the `const fn`
+//! [`scratch_bytes`]:
 //!
 //! ```
 //! # fn demo(blob: &[u8]) -> Result<(), kinglet_runtime::Error> {
 //! use kinglet_runtime::{Input, Model};
 //! let model = Model::parse(blob)?;
-//! let mut arena = [0u8; 256];
+//! let mut scratch = [0u8; 256];
 //! let mut scores = [0f32; 10];
 //! let features = [0.5f32; 4];
-//! let prediction = model.infer(Input::F32(&features), &mut arena, &mut scores)?;
+//! let prediction = model.infer(Input::F32(&features), &mut scratch, &mut scores)?;
 //! # let _ = prediction;
 //! # Ok(())
 //! # }
 //! ```
 //!
-//! The steps a sample goes through each have a module: [`scale`] (the saved input scaler and
-//! input quantisation), [`dense`] (int8 and f32 kernels), [`requant`] (integer-only
-//! requantisation after Jacob et al., 2018), [`output`] (softmax, sigmoid, argmax) and
-//! [`arena`] (buffer planning).
+//! ## Stable and unstable
+//!
+//! The crate root is the stable surface, all a firmware needs: [`Model`] (`parse`, `infer`,
+//! `classify`, `label`, sizes), [`Input`], [`Prediction`], the errors ([`Error`],
+//! [`FormatError`], [`RunError`]), the `const fn`s [`scratch_bytes`] and [`blob_len`], and the
+//! header constants. Everything else — the wire types, the kernels, requantisation, the
+//! scaler, the scratch plan and the encoder — is in [`unstable`], public for the converter,
+//! the tests, the fuzz targets and `kernel-bench`, and free to change in any release. A few
+//! inspection methods of [`Model`] (`desc`, `layers`, `scratch_plan`) return `unstable` types
+//! and share their status.
+//!
+//! ## Cargo features
+//!
+//! - `f32` (default): f32 models. Without it the runtime is int8-only and
+//!   [`Model::parse`] refuses f32 blobs with [`FormatError::F32NotBuiltIn`].
+//! - `defmt`: `defmt::Format` for the error and result types.
+//! - `encode`: the blob encoder, `unstable::encode` (host tools).
 #![cfg_attr(not(test), no_std)]
+#![cfg_attr(docsrs, feature(doc_cfg))]
 // `deny`, not `forbid`: the Cortex-M kernels (`dense::asm`, the one module with `asm!`)
 // allow it locally.
 #![deny(unsafe_code)]
@@ -42,24 +57,20 @@
     )
 )]
 
-pub mod arena;
 mod classify;
-pub mod dense;
-#[cfg(any(test, feature = "encode"))]
-pub mod encode;
 mod error;
-pub mod format;
-pub mod header;
 mod le;
 mod model;
-pub mod output;
-pub mod requant;
-pub mod scale;
 mod stage;
+pub mod unstable;
 mod validate;
 
+// Crate-internal short paths (`crate::dense`, `crate::wire`, ...) to the unstable modules.
+use unstable::{dense, output, requant, scale, scratch, wire};
+
 pub use error::{Error, FormatError, RunError, TensorKind};
-pub use format::{Activation, OutputKind, Precision};
-pub use header::{arena_bytes, blob_len, CHECKSUM, FORMAT_VERSION, HEADER_LEN, MAGIC};
 pub use model::{Input, LayerView, Model, Prediction};
 pub use stage::{Activations, Stage};
+pub use wire::format::{Activation, OutputKind, Precision};
+pub use wire::header::{blob_len, scratch_bytes, CHECKSUM, HEADER_LEN, MAGIC};
+pub use wire::version::FORMAT_VERSION;

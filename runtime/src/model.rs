@@ -1,13 +1,15 @@
 //! The validated model and the forward pass.
-use crate::arena::ArenaPlan;
-use crate::dense::{dense_f32, dense_f32_blocked, dense_i8, dense_i8_blocked, DenseF32, DenseI8};
+use crate::dense::{
+    dense_f32, dense_f32_blocked_auto, dense_i8, dense_i8_blocked_auto, DenseF32, DenseI8,
+};
 use crate::error::{FormatError, RunError};
-use crate::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout};
-use crate::header::{Header, HEADER_LEN};
 use crate::output::{argmax, sigmoid, softmax};
 use crate::requant::activation_range;
-use crate::scale::{integer_params, quantise_floats, quantize_integer, Scaler};
+use crate::scale::{integer_params, quantise_floats, quantise_integer, Scaler};
+use crate::scratch::ScratchPlan;
 use crate::stage::{Activations, Stage};
+use crate::wire::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout};
+use crate::wire::header::{Header, HEADER_LEN};
 use crate::{le, validate};
 use serde::Deserialize;
 
@@ -75,7 +77,7 @@ impl LayerView<'_> {
 #[derive(Debug, Clone)]
 pub struct Model<'a> {
     desc: ModelDesc<'a>,
-    plan: ArenaPlan,
+    plan: ScratchPlan,
     blob_len: usize,
 }
 
@@ -83,6 +85,21 @@ impl<'a> Model<'a> {
     /// Parses and validates `blob` (exactly one blob, see [`crate::blob_len`]).
     ///
     /// Every rule of `FORMAT.md` §5 is checked here, once.
+    ///
+    /// # Errors
+    ///
+    /// A [`FormatError`] naming the first rule the blob breaks: a wrong magic, version, length
+    /// or checksum, a malformed or inconsistent layer table, a quantisation parameter out of
+    /// range, a possible int8 accumulator overflow, a scratch size that disagrees with the
+    /// layers, or ([`FormatError::F32NotBuiltIn`]) an f32 blob on a build without the `f32`
+    /// feature.
+    ///
+    /// ```
+    /// use kinglet_runtime::{FormatError, Model};
+    /// // Not a blob: rejected with a typed error, never a panic.
+    /// let err = Model::parse(b"not a Kinglet model").err();
+    /// assert_eq!(err, Some(FormatError::BadMagic));
+    /// ```
     pub fn parse(blob: &'a [u8]) -> Result<Self, FormatError> {
         let header = Header::read(blob)?;
         let body = blob.get(HEADER_LEN..).unwrap_or(&[]);
@@ -96,7 +113,7 @@ impl<'a> Model<'a> {
         }
         // The version field is outside the CRC; holding it to the one value the table allows
         // protects it all the same (`FORMAT.md` §2).
-        let body_version = crate::header::version_for(&desc);
+        let body_version = crate::wire::version::version_for(&desc);
         if header.version != body_version {
             return Err(FormatError::VersionMismatch {
                 header: header.version,
@@ -105,9 +122,9 @@ impl<'a> Model<'a> {
         }
         let plan = validate::check(&desc)?;
         let computed = u32::try_from(plan.total()).unwrap_or(u32::MAX);
-        if computed != header.arena_bytes {
-            return Err(FormatError::ArenaMismatch {
-                header: header.arena_bytes,
+        if computed != header.scratch_bytes {
+            return Err(FormatError::ScratchMismatch {
+                header: header.scratch_bytes,
                 computed,
             });
         }
@@ -123,13 +140,13 @@ impl<'a> Model<'a> {
         &self.desc
     }
 
-    /// Arena bytes [`Model::infer`] needs (the same number as [`crate::arena_bytes`]).
-    pub fn arena_bytes(&self) -> usize {
+    /// Scratch bytes [`Model::infer`] needs (the same number as [`crate::scratch_bytes`]).
+    pub fn scratch_bytes(&self) -> usize {
         self.plan.total()
     }
 
-    /// How the arena is split.
-    pub fn arena_plan(&self) -> ArenaPlan {
+    /// How the scratch buffer is split.
+    pub fn scratch_plan(&self) -> ScratchPlan {
         self.plan
     }
 
@@ -176,24 +193,45 @@ impl<'a> Model<'a> {
         self.labels().nth(i)
     }
 
-    /// Runs one inference. `arena` needs [`Model::arena_bytes`] bytes, `scores` at least
+    /// Runs one inference. `scratch` needs [`Model::scratch_bytes`] bytes, `scores` at least
     /// [`Model::output_len`] elements; on error the contents of both are unspecified.
     ///
     /// Float inputs must be finite. Integer inputs are always accepted.
+    ///
+    /// # Errors
+    ///
+    /// A [`RunError`]: the input is not [`Model::input_len`] long
+    /// ([`RunError::InputLength`]), `scratch` or `scores` is too small
+    /// ([`RunError::ScratchTooSmall`], [`RunError::ScoresTooSmall`]), a float input is NaN or
+    /// infinite ([`RunError::NonFiniteInput`]), or an f32 model's output is not finite
+    /// ([`RunError::NonFiniteOutput`]).
+    ///
+    /// ```
+    /// # fn demo(blob: &[u8]) -> Result<(), kinglet_runtime::Error> {
+    /// use kinglet_runtime::{Input, Model};
+    /// let model = Model::parse(blob)?;
+    /// let mut scratch = [0u8; 256];
+    /// let mut scores = [0f32; 10];
+    /// let p = model.infer(Input::F32(&[0.5; 4]), &mut scratch, &mut scores)?;
+    /// let name = model.label(p.class).unwrap_or("?");
+    /// # let _ = name;
+    /// # Ok(())
+    /// # }
+    /// ```
     pub fn infer(
         &self,
         input: Input<'_>,
-        arena: &mut [u8],
+        scratch: &mut [u8],
         scores: &mut [f32],
     ) -> Result<Prediction, RunError> {
-        self.infer_traced(input, arena, scores, &mut |_| {})
+        self.infer_traced(input, scratch, scores, &mut |_| {})
     }
 
     /// [`Model::infer`], calling `trace` with the input tensor and each layer's output.
     pub fn infer_traced<F: FnMut(&Stage<'_>)>(
         &self,
         input: Input<'_>,
-        arena: &mut [u8],
+        scratch: &mut [u8],
         scores: &mut [f32],
         trace: &mut F,
     ) -> Result<Prediction, RunError> {
@@ -206,7 +244,7 @@ impl<'a> Model<'a> {
                 got,
             });
         };
-        let (quant, last) = self.forward(input, arena, trace)?;
+        let (quant, last) = self.forward(input, scratch, trace)?;
         // Dequantise (or copy) the last tensor into the scores.
         match quant {
             Some((scale, zero_point)) => {
@@ -263,23 +301,23 @@ impl<'a> Model<'a> {
         }
     }
 
-    /// The input stage and every layer, in `arena`: returns the last layer's quantisation and
-    /// the arena half that starts with its output tensor. The caller has checked the input
+    /// The input stage and every layer, in `scratch`: returns the last layer's quantisation and
+    /// the scratch buffer half that starts with its output tensor. The caller has checked the input
     /// width.
     pub(crate) fn forward<'x, F: FnMut(&Stage<'_>)>(
         &self,
         input: Input<'_>,
-        arena: &'x mut [u8],
+        scratch: &'x mut [u8],
         trace: &mut F,
     ) -> Result<(Quant, &'x [u8]), RunError> {
-        let too_small = RunError::ArenaTooSmall {
+        let too_small = RunError::ScratchTooSmall {
             needed: self.plan.total() as u32,
-            got: u32::try_from(arena.len()).unwrap_or(u32::MAX),
+            got: u32::try_from(scratch.len()).unwrap_or(u32::MAX),
         };
-        if arena.len() < self.plan.total() {
+        if scratch.len() < self.plan.total() {
             return Err(too_small);
         }
-        let (ping, pong) = arena
+        let (ping, pong) = scratch
             .split_at_mut_checked(self.plan.ping)
             .ok_or(too_small)?;
         let elem = self.desc.precision.accepted_bytes();
@@ -320,7 +358,7 @@ impl<'a> Model<'a> {
             (Some(q), Precision::Int8) => {
                 let integer = |i: usize, x: i32| {
                     let (m, a, s) = integer_params(q, i);
-                    quantize_integer(x, m, a, s) as u8
+                    quantise_integer(x, m, a, s) as u8
                 };
                 match input {
                     Input::F32(v) => quantise_floats(self.desc.scaler, q, v, dst)?,
@@ -413,7 +451,7 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
             };
             match layer.layout {
                 WeightLayout::OutputMajor => dense_i8(&p, src, dst),
-                WeightLayout::Blocked4x4 => dense_i8_blocked(&p, src, dst),
+                WeightLayout::Blocked4x4 => dense_i8_blocked_auto(&p, src, dst),
             }
             Some((q.output_scale, q.output_zero_point))
         }
@@ -428,7 +466,7 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
             };
             match layer.layout {
                 WeightLayout::OutputMajor => dense_f32(&p, src, dst),
-                WeightLayout::Blocked4x4 => dense_f32_blocked(&p, src, dst),
+                WeightLayout::Blocked4x4 => dense_f32_blocked_auto(&p, src, dst),
             }
             None
         }
@@ -441,11 +479,11 @@ mod tests {
     use kinglet_builder::sample::{tiny_f32, tiny_int8};
 
     fn trace_int8(model: &Model<'_>, input: Input<'_>) -> (Prediction, Vec<Vec<i8>>) {
-        let mut arena = vec![0u8; model.arena_bytes()];
+        let mut scratch = vec![0u8; model.scratch_bytes()];
         let mut scores = vec![0f32; model.output_len()];
         let mut stages = Vec::new();
         let p = model
-            .infer_traced(input, &mut arena, &mut scores, &mut |s: &Stage<'_>| {
+            .infer_traced(input, &mut scratch, &mut scores, &mut |s: &Stage<'_>| {
                 stages.push(
                     (0..s.values.len())
                         .filter_map(|i| s.values.int8(i))
@@ -461,8 +499,8 @@ mod tests {
         let owned = tiny_int8();
         let blob = owned.encode_to_vec().unwrap();
         let m = Model::parse(&blob).unwrap();
-        assert_eq!(m.arena_bytes(), 7); // ping: max(3, 2), pong: 4
-        assert_eq!(crate::arena_bytes(&blob), 7);
+        assert_eq!(m.scratch_bytes(), 7); // ping: max(3, 2), pong: 4
+        assert_eq!(crate::scratch_bytes(&blob), 7);
         assert_eq!(m.labels().collect::<Vec<_>>(), ["off", "on"]);
         assert_eq!(m.label(1), Some("on"));
         assert_eq!(m.classes(), 2);
@@ -485,23 +523,23 @@ mod tests {
     fn f32_sigmoid_forward_pass_hand_worked() {
         let blob = tiny_f32().encode_to_vec().unwrap();
         let m = Model::parse(&blob).unwrap();
-        assert_eq!(m.arena_bytes(), 2 * 4 + 3 * 4);
-        let mut arena = vec![0u8; m.arena_bytes()];
+        assert_eq!(m.scratch_bytes(), 2 * 4 + 3 * 4);
+        let mut scratch = vec![0u8; m.scratch_bytes()];
         let mut scores = [0f32; 1];
         // hidden = relu([-1, 1.6, 0.2]) = [0, 1.6, 0.2]; out = 3.2 - 0.2 - 0.5 = 2.5
         let p = m
-            .infer(Input::F32(&[1.0, 2.0]), &mut arena, &mut scores)
+            .infer(Input::F32(&[1.0, 2.0]), &mut scratch, &mut scores)
             .unwrap();
         assert_eq!(p.class, 1);
         assert!((scores[0] - 0.924_141_8).abs() < 1e-6);
         // hidden = relu([2, -0.9, -1.8]) = [2, 0, 0]; out = 1.5 → class 1, p = sigmoid(1.5)
         let p = m
-            .infer(Input::I16(&[0, -2]), &mut arena, &mut scores)
+            .infer(Input::I16(&[0, -2]), &mut scratch, &mut scores)
             .unwrap();
         assert!((p.score - 0.817_574_5).abs() < 1e-6);
         // out = -0.5 - 0.2·... : x = [0, 0] → hidden [0, 0.1, 0.2], out = 0.2 - 0.2 - 0.5 = -0.5
         let p = m
-            .infer(Input::U8(&[0, 0]), &mut arena, &mut scores)
+            .infer(Input::U8(&[0, 0]), &mut scratch, &mut scores)
             .unwrap();
         assert_eq!(p.class, 0);
         assert!((p.score - (1.0 - 0.377_540_7)).abs() < 1e-6);
@@ -512,36 +550,36 @@ mod tests {
     fn run_errors_are_typed() {
         let blob = tiny_int8().encode_to_vec().unwrap();
         let m = Model::parse(&blob).unwrap();
-        let mut arena = [0u8; 7];
+        let mut scratch = [0u8; 7];
         let mut scores = [0f32; 2];
         assert_eq!(
-            m.infer(Input::F32(&[1.0]), &mut arena, &mut scores),
+            m.infer(Input::F32(&[1.0]), &mut scratch, &mut scores),
             Err(RunError::InputLength {
                 expected: 3,
                 got: 1
             })
         );
         assert_eq!(
-            m.infer(Input::F32(&[1.0; 3]), &mut arena[..6], &mut scores),
-            Err(RunError::ArenaTooSmall { needed: 7, got: 6 })
+            m.infer(Input::F32(&[1.0; 3]), &mut scratch[..6], &mut scores),
+            Err(RunError::ScratchTooSmall { needed: 7, got: 6 })
         );
         assert_eq!(
-            m.infer(Input::F32(&[1.0; 3]), &mut arena, &mut scores[..1]),
+            m.infer(Input::F32(&[1.0; 3]), &mut scratch, &mut scores[..1]),
             Err(RunError::ScoresTooSmall { needed: 2, got: 1 })
         );
         assert_eq!(
-            m.infer(Input::F32(&[1.0, f32::NAN, 0.0]), &mut arena, &mut scores),
+            m.infer(Input::F32(&[1.0, f32::NAN, 0.0]), &mut scratch, &mut scores),
             Err(RunError::NonFiniteInput { index: 1 })
         );
         assert_eq!(
             m.infer(
                 Input::F32(&[f32::NEG_INFINITY, 0.0, 0.0]),
-                &mut arena,
+                &mut scratch,
                 &mut scores
             ),
             Err(RunError::NonFiniteInput { index: 0 })
         );
-        // A bigger arena than needed is fine; extreme integer inputs saturate.
+        // A bigger scratch buffer than needed is fine; extreme integer inputs saturate.
         let mut big = [0u8; 64];
         assert!(m
             .infer(Input::I16(&[i16::MIN, i16::MAX, 0]), &mut big, &mut scores)
@@ -551,7 +589,7 @@ mod tests {
         }
         let f = tiny_f32().encode_to_vec().unwrap();
         let mf = Model::parse(&f).unwrap();
-        let mut a = vec![0u8; mf.arena_bytes()];
+        let mut a = vec![0u8; mf.scratch_bytes()];
         assert_eq!(
             mf.infer(Input::F32(&[3e38, 3e38]), &mut a, &mut scores),
             Err(RunError::NonFiniteOutput)

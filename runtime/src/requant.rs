@@ -36,7 +36,7 @@ pub fn rounding_divide_by_pot(x: i32, exponent: u32) -> i32 {
 ///
 /// ReLU is fused by passing `act_min = zero_point`.
 #[inline(always)]
-pub fn requantize(
+pub fn requantise_reference(
     acc: i32,
     multiplier: i32,
     shift: i8,
@@ -58,6 +58,46 @@ pub fn requantize(
         rounding_divide_by_pot(saturating_rounding_doubling_high_mul(x, multiplier), right);
     let y = i64::from(scaled) + i64::from(zero_point);
     y.clamp(i64::from(act_min), i64::from(act_max)) as i8
+}
+
+/// [`requantise_reference`] for a validated multiplier (`≥ 2^30`), in fewer instructions: the
+/// one the kernels use.
+///
+/// The same result as [`requantise_reference`] for every parameter validation lets through
+/// (multiplier in `[2^30, 2^31 - 1]`, shift in `[-31, 31]`):
+///
+/// - `SaturatingRoundingDoublingHighMul(x, m)` is `round(x·m / 2^31)` with ties upward, which
+///   for both signs equals `floor((x·m + 2^30) / 2^31)` (for `x·m < 0` the nudge `1 - 2^30` and
+///   the truncation toward zero add up to the same floor); its one saturating case needs
+///   `m = i32::MIN`, which validation excludes.
+/// - `RoundingDivideByPOT(v, e)`, ties away from zero, is gemmlowp's mask-and-threshold form
+///   (as [`rounding_divide_by_pot`]), in 32 bits, without a branch for `e = 0`.
+///
+/// `runtime/tests/kernels_prop.rs` checks the equality.
+#[inline(always)]
+pub fn requantise_validated(
+    acc: i32,
+    multiplier: i32,
+    shift: i8,
+    zero_point: i8,
+    lo: i8,
+    hi: i8,
+) -> i8 {
+    let x = if shift < 0 {
+        let wide = i64::from(acc) << u32::from(shift.unsigned_abs()).min(31);
+        wide.clamp(i64::from(i32::MIN), i64::from(i32::MAX))
+    } else {
+        i64::from(acc)
+    };
+    // |x · multiplier| ≤ 2^62, so the rounded high half fits in i32 (see above).
+    let high = ((x * i64::from(multiplier) + (1 << 30)) >> 31) as i32;
+    // RoundingDivideByPOT in its own 32-bit form: `e = 0` gives mask 0 and no rounding.
+    let e = u32::from(shift.max(0) as u8).min(31);
+    let mask = ((1u32 << e) - 1) as i32;
+    let threshold = (mask >> 1) + i32::from(high < 0);
+    let scaled = (high >> e) + i32::from(high & mask > threshold);
+    let y = scaled.saturating_add(i32::from(zero_point));
+    y.clamp(i32::from(lo), i32::from(hi)) as i8
 }
 
 /// The activation clamp for an int8 output with `zero_point`: ReLU clamps at the zero point.
@@ -111,22 +151,28 @@ mod tests {
     }
 
     #[test]
-    fn requantize_rounds_saturates_and_clamps() {
+    fn requantise_reference_rounds_saturates_and_clamps() {
         // M = 0.5 · 2^-1 = 0.25: 10 · 0.25 = 2.5 → 3 after the two roundings (10·0.5 = 5, 5/2 → 3).
-        assert_eq!(requantize(10, HALF, 1, 0, -128, 127), 3);
-        assert_eq!(requantize(-10, HALF, 1, 0, -128, 127), -3);
+        assert_eq!(requantise_reference(10, HALF, 1, 0, -128, 127), 3);
+        assert_eq!(requantise_reference(-10, HALF, 1, 0, -128, 127), -3);
         // Saturation at both ends.
-        assert_eq!(requantize(1_000_000, HALF, 0, 0, -128, 127), 127);
-        assert_eq!(requantize(-1_000_000, HALF, 0, 0, -128, 127), -128);
+        assert_eq!(requantise_reference(1_000_000, HALF, 0, 0, -128, 127), 127);
+        assert_eq!(
+            requantise_reference(-1_000_000, HALF, 0, 0, -128, 127),
+            -128
+        );
         // Zero point added before clamping: 100 · 0.5 + 100 = 150 → 127.
-        assert_eq!(requantize(100, HALF, 0, 100, -128, 127), 127);
+        assert_eq!(requantise_reference(100, HALF, 0, 100, -128, 127), 127);
         // ReLU with a non-zero zero point clamps at the zero point, not at 0.
         let (lo, hi) = activation_range(crate::Activation::Relu, -20);
-        assert_eq!(requantize(-50, HALF, 0, -20, lo, hi), -20);
-        assert_eq!(requantize(50, HALF, 0, -20, lo, hi), 5);
+        assert_eq!(requantise_reference(-50, HALF, 0, -20, lo, hi), -20);
+        assert_eq!(requantise_reference(50, HALF, 0, -20, lo, hi), 5);
         // Negative shift: a saturating left shift (M = 0.5 · 2^3 = 4).
-        assert_eq!(requantize(7, HALF, -3, 0, -128, 127), 28);
-        assert_eq!(requantize(i32::MAX, HALF, -31, 0, -128, 127), 127);
-        assert_eq!(requantize(i32::MIN, HALF, -31, 0, -128, 127), -128);
+        assert_eq!(requantise_reference(7, HALF, -3, 0, -128, 127), 28);
+        assert_eq!(requantise_reference(i32::MAX, HALF, -31, 0, -128, 127), 127);
+        assert_eq!(
+            requantise_reference(i32::MIN, HALF, -31, 0, -128, 127),
+            -128
+        );
     }
 }

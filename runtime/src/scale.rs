@@ -2,12 +2,12 @@
 //!
 //! Float inputs go through the scaler `(x - offset) * scale` in f32 and, for int8 models,
 //! through [`quantize_linear`] (ONNX `QuantizeLinear` semantics). Integer inputs (`i16` sensor
-//! counts, `u8` pixels) on an int8 model take [`quantize_integer`] instead: a per-feature
+//! counts, `u8` pixels) on an int8 model take [`quantise_integer`] instead: a per-feature
 //! fixed-point map derived by the converter from the same scaler, with no float at all, so a
 //! board without an FPU keeps float out of the hot path.
 use crate::error::RunError;
-use crate::format::{InputQuantDesc, ScalerDesc};
 use crate::le;
+use crate::wire::format::{InputQuantDesc, ScalerDesc};
 
 /// Quantises `x` to int8 as ONNX `QuantizeLinear` does: `saturate(round_half_even(x / scale) +
 /// zero_point)`, computed in f32 (onnx.ai operator documentation, QuantizeLinear).
@@ -90,7 +90,7 @@ fn quantise_each<P>(
 /// (round half up). `|add| <= 2^62` and `shift <= 62` are guaranteed by validation, and
 /// `|x * mult| < 2^63 - 2^62` holds for every `x` of 16 bits or fewer.
 #[inline]
-pub fn quantize_integer(x: i32, mult: i32, add: i64, shift: u8) -> i8 {
+pub fn quantise_integer(x: i32, mult: i32, add: i64, shift: u8) -> i8 {
     let x = i64::from(x.clamp(-(1 << 16), 1 << 16));
     let t = x * i64::from(mult) + add;
     let r = if shift == 0 {
@@ -293,13 +293,13 @@ mod tests {
     fn integer_path_hand_worked() {
         // pixel / 255 quantised with scale 1/255, zero point -128: q = x - 128.
         // mult = 1 << 20, add = -128 << 20, shift 20.
-        assert_eq!(quantize_integer(0, 1 << 20, -128 << 20, 20), -128);
-        assert_eq!(quantize_integer(255, 1 << 20, -128 << 20, 20), 127);
-        assert_eq!(quantize_integer(300, 1 << 20, -128 << 20, 20), 127);
+        assert_eq!(quantise_integer(0, 1 << 20, -128 << 20, 20), -128);
+        assert_eq!(quantise_integer(255, 1 << 20, -128 << 20, 20), 127);
+        assert_eq!(quantise_integer(300, 1 << 20, -128 << 20, 20), 127);
         // Half up: 3 * 0.5 = 1.5 → 2, -3 * 0.5 = -1.5 → -1.
-        assert_eq!(quantize_integer(3, 1, 0, 1), 2);
-        assert_eq!(quantize_integer(-3, 1, 0, 1), -1);
-        assert_eq!(quantize_integer(i32::MAX, i32::MAX, 1 << 62, 0), 127);
+        assert_eq!(quantise_integer(3, 1, 0, 1), 2);
+        assert_eq!(quantise_integer(-3, 1, 0, 1), -1);
+        assert_eq!(quantise_integer(i32::MAX, i32::MAX, 1 << 62, 0), 127);
     }
 
     #[test]

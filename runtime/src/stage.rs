@@ -1,7 +1,7 @@
 //! Views of intermediate tensors, handed to a trace callback during inference.
 use crate::le;
 
-/// The values of one tensor inside the arena.
+/// The values of one tensor inside the scratch buffer.
 #[derive(Debug, Clone, Copy)]
 pub enum Activations<'a> {
     /// int8 values (each byte is an `i8`) with their quantisation.

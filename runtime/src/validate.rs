@@ -1,13 +1,13 @@
 //! Every check a reader must make on a decoded layer table (`FORMAT.md` §5), done once.
 //! After [`check`] succeeds, inference cannot index out of bounds or overflow.
-use crate::arena::ArenaPlan;
-use crate::dense::layout;
 use crate::error::{FormatError, TensorKind};
-use crate::format::{
+use crate::le;
+use crate::scratch::ScratchPlan;
+use crate::wire::format::{
     InputQuantDesc, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout, MAX_INPUT_SHIFT,
     MAX_WIDTH,
 };
-use crate::le;
+use crate::wire::layout;
 
 /// Largest addend of the integer input path (keeps its 64-bit sum from overflowing).
 const MAX_INPUT_ADD: i64 = 1 << 62;
@@ -225,8 +225,8 @@ fn check_blocked(
     Ok(data)
 }
 
-/// Checks a decoded layer table; returns the arena plan it needs.
-pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ArenaPlan, FormatError> {
+/// Checks a decoded layer table; returns the scratch plan it needs.
+pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ScratchPlan, FormatError> {
     if d.precision == Precision::F32 && !cfg!(feature = "f32") {
         return Err(FormatError::F32NotBuiltIn);
     }
@@ -273,7 +273,7 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ArenaPlan, FormatError> {
             });
         }
     }
-    Ok(ArenaPlan::new(
+    Ok(ScratchPlan::new(
         input_len,
         d.layers.iter().map(|l| l.outputs as usize),
         d.precision.accepted_bytes(),
@@ -283,7 +283,7 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ArenaPlan, FormatError> {
 #[cfg(test)]
 mod tests {
     use crate::error::{FormatError as E, TensorKind as T};
-    use crate::header::offset;
+    use crate::wire::header::offset;
     use crate::Model;
     use kinglet_builder::le::{f32s, i32s};
     use kinglet_builder::sample::{tiny_f32, tiny_int8};
@@ -292,7 +292,7 @@ mod tests {
         WeightLayout,
     };
 
-    /// Parses `m` encoded without the encoder's checks, with the arena field the planner gives
+    /// Parses `m` encoded without the encoder's checks, with the scratch field the planner gives
     /// it (checked only once every other rule has passed).
     fn parse(m: &OwnedModel) -> Result<(), E> {
         Model::parse(&m.raw_blob()).map(|_| ())
@@ -541,7 +541,7 @@ mod tests {
     /// `tiny_int8` with layer 0 in Blocked4x4 (field = `pad` zero bytes + data), as a blob of
     /// `version`; `poke` edits the field first.
     fn blocked_blob(pad: usize, version: u16, poke: impl Fn(&mut Vec<u8>)) -> Vec<u8> {
-        use crate::dense::layout;
+        use crate::wire::layout;
         let mut m = tiny_int8();
         let w: Vec<i8> = m.layers[0].weights.iter().map(|&b| b as i8).collect();
         let mut field = vec![0u8; pad + layout::elements(3, 4)];
@@ -561,12 +561,12 @@ mod tests {
             let blob = blocked_blob(pad, 2, |_| {});
             let m = Model::parse(&blob).expect("valid blocked blob");
             // Same forward pass as the output-major original (FORMAT.md §6).
-            let mut arena = [0u8; 7];
+            let mut scratch = [0u8; 7];
             let mut scores = [0f32; 2];
             let mut stages = Vec::new();
             m.infer_traced(
                 crate::Input::F32(&[1.0, 2.0, 3.0]),
-                &mut arena,
+                &mut scratch,
                 &mut scores,
                 &mut |s| {
                     stages.push(
@@ -668,12 +668,12 @@ mod tests {
     }
 
     #[test]
-    fn rejects_arena_trailing_and_garbage() {
+    fn rejects_scratch_trailing_and_garbage() {
         let m = tiny_int8();
         let d = m.as_desc();
         assert_eq!(
             Model::parse(&kinglet_builder::raw_blob(&d, 8)).map(|_| ()),
-            Err(E::ArenaMismatch {
+            Err(E::ScratchMismatch {
                 header: 8,
                 computed: 7
             })

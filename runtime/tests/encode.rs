@@ -1,8 +1,8 @@
-//! The encoder (`kinglet_runtime::encode`, feature `encode`, which the `kinglet-builder`
+//! The encoder (`kinglet_runtime::unstable::encode`, feature `encode`, which the `kinglet-builder`
 //! dev-dependency turns on): the pinned bytes of `FORMAT.md` §7, and that it refuses what the
 //! reader would.
 use kinglet_builder::sample::tiny_int8;
-use kinglet_runtime::encode::{encode, EncodeError};
+use kinglet_runtime::unstable::encode::{encode, EncodeError};
 use kinglet_runtime::{FormatError, Model};
 
 #[cfg(feature = "f32")]
@@ -18,7 +18,7 @@ fn hex(b: &[u8]) -> String {
 fn expected_bytes_of_the_small_f32_model() {
     let owned = kinglet_builder::sample::tiny_f32();
     let d = owned.as_desc();
-    let mut out = vec![0u8; kinglet_runtime::encode::max_encoded_len(&d)];
+    let mut out = vec![0u8; kinglet_runtime::unstable::encode::max_encoded_len(&d)];
     let n = encode(&d, &mut out).unwrap();
     let blob = &out[..n];
     let expected = concat!(
@@ -85,7 +85,7 @@ fn round_trips_int8_and_refuses_what_the_reader_would() {
 
 #[test]
 fn reseal_makes_length_and_checksum_right_and_nothing_else() {
-    use kinglet_runtime::encode::reseal;
+    use kinglet_runtime::unstable::encode::reseal;
     let blob = tiny_int8().encode_to_vec().unwrap();
     let mut longer = blob.clone();
     longer.push(0);

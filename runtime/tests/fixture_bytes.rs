@@ -4,7 +4,7 @@
 //! flips 1 → 2 and 2 → 1; body bytes get `+1`, `-1`, `^ 0x80`, `0x00` and `0xFF` (a CRC of
 //! degree 32 detects every error burst of up to 32 bits, Peterson and Brown 1961, so any other
 //! value of one byte is caught as surely). About 85,000 parses, 2 s in a debug build.
-use kinglet_runtime::header::offset;
+use kinglet_runtime::unstable::wire::header::offset;
 use kinglet_runtime::{Model, HEADER_LEN};
 use std::path::PathBuf;
 

@@ -1,11 +1,13 @@
 //! Property tests: every kernel and layout gives the bytes of the portable output-major kernel.
 //!
 //! On the host this runs the portable blocked kernels, the Cortex-M0 kernel's Rust, the
-//! kernel [`dense_i8_blocked`] dispatches to, and the kernels' requantisation; the `asm!`
+//! kernel [`dense_i8_blocked_auto`] dispatches to, and the kernels' requantisation; the `asm!`
 //! kernels themselves run in the on-target self-check of `kernel-bench/`.
 use kinglet_builder::le;
-use kinglet_runtime::dense::{self, fixed, layout, m0, portable, DenseF32, DenseI8};
-use kinglet_runtime::requant::requantize;
+use kinglet_runtime::unstable::dense::{self, m0, portable, DenseF32, DenseI8};
+use kinglet_runtime::unstable::requant;
+use kinglet_runtime::unstable::requant::requantise_reference;
+use kinglet_runtime::unstable::wire::layout;
 use proptest::prelude::*;
 
 /// Weights or inputs: random, or all -128, or all 127.
@@ -92,9 +94,9 @@ proptest! {
         let mut want = vec![0u8; m];
         portable::dense_i8(&base, &x, &mut want);
         for (name, kernel) in [
-            ("portable blocked", portable::dense_i8_blocked as fn(&DenseI8<'_>, &[u8], &mut [u8])),
-            ("m0", m0::dense_i8_blocked),
-            ("dispatched", dense::dense_i8_blocked),
+            ("portable blocked", portable::dense_i8_blocked_portable as fn(&DenseI8<'_>, &[u8], &mut [u8])),
+            ("m0", m0::dense_i8_blocked_m0_rust),
+            ("dispatched", dense::dense_i8_blocked_auto),
         ] {
             let mut got = vec![0x55u8; m];
             kernel(&blocked, &x, &mut got);
@@ -119,10 +121,10 @@ proptest! {
         let mut want = vec![0u8; 4 * m];
         portable::dense_f32(&DenseF32 { weights: &om, ..blocked }, &xb, &mut want);
         let mut got = vec![0u8; 4 * m];
-        portable::dense_f32_blocked(&blocked, &xb, &mut got);
+        portable::dense_f32_blocked_portable(&blocked, &xb, &mut got);
         prop_assert_eq!(&got, &want);
         let mut got = vec![0u8; 4 * m];
-        dense::dense_f32_blocked(&blocked, &xb, &mut got);
+        dense::dense_f32_blocked_auto(&blocked, &xb, &mut got);
         prop_assert_eq!(&got, &want);
     }
 
@@ -136,8 +138,8 @@ proptest! {
     ) {
         let (lo, hi) = (bounds.0.min(bounds.1), bounds.0.max(bounds.1));
         prop_assert_eq!(
-            fixed::requantize(acc, mult, shift, zp, lo, hi),
-            requantize(acc, mult, shift, zp, lo, hi)
+            requant::requantise_validated(acc, mult, shift, zp, lo, hi),
+            requantise_reference(acc, mult, shift, zp, lo, hi)
         );
     }
 }
@@ -165,9 +167,9 @@ fn one_by_one_and_exact_ties() {
     portable::dense_i8(&p, &[5], &mut out);
     assert_eq!(out[0] as i8, 1);
     for kernel in [
-        portable::dense_i8_blocked,
-        m0::dense_i8_blocked,
-        dense::dense_i8_blocked,
+        portable::dense_i8_blocked_portable,
+        m0::dense_i8_blocked_m0_rust,
+        dense::dense_i8_blocked_auto,
     ] {
         let mut out = [0u8; 1];
         kernel(&blocked, &[5], &mut out);
@@ -177,8 +179,8 @@ fn one_by_one_and_exact_ties() {
     for acc in [-6, -5, -3, -2, -1, 1, 2, 3, 5, 6] {
         for shift in [-2i8, 0, 1, 2] {
             assert_eq!(
-                fixed::requantize(acc, 1 << 30, shift, 0, -128, 127),
-                requantize(acc, 1 << 30, shift, 0, -128, 127),
+                requant::requantise_validated(acc, 1 << 30, shift, 0, -128, 127),
+                requantise_reference(acc, 1 << 30, shift, 0, -128, 127),
                 "acc {acc}, shift {shift}"
             );
         }

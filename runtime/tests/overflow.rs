@@ -5,13 +5,13 @@
 //! input `x` has `|x| ≤ 128`, every partial sum of `bias + Σ w·x` then fits in i32. These tests
 //! run in the test profile (debug assertions on), so an overflowing `+=` in the kernel would
 //! panic. They check that (1) every accepted layer runs every adversarial input without
-//! overflow and gives exactly `requantize(bias + Σ w·x)` computed here in i64, and (2) the bound
+//! overflow and gives exactly `requantise_reference(bias + Σ w·x)` computed here in i64, and (2) the bound
 //! is tight: a bias one past it is rejected, and at the bound an input exists that drives the
 //! accumulator to exactly `i32::MAX` (or `-i32::MAX`).
 mod common;
 
 use common::{int8_layer, int8_model, quant};
-use kinglet_runtime::requant::requantize;
+use kinglet_runtime::unstable::requant::requantise_reference;
 use kinglet_runtime::{FormatError, Input, Model};
 use proptest::prelude::*;
 
@@ -63,10 +63,10 @@ fn adversarial(row: &[i8]) -> Vec<Vec<i16>> {
 
 /// Runs `x` and returns the int8 outputs of the single layer.
 fn layer_output(m: &Model<'_>, x: &[i16]) -> Vec<i8> {
-    let mut arena = vec![0u8; m.arena_bytes()];
+    let mut scratch = vec![0u8; m.scratch_bytes()];
     let mut scores = vec![0f32; m.output_len()];
     let mut out = Vec::new();
-    m.infer_traced(Input::I16(x), &mut arena, &mut scores, &mut |s| {
+    m.infer_traced(Input::I16(x), &mut scratch, &mut scores, &mut |s| {
         if s.index == 1 {
             out = (0..s.values.len())
                 .filter_map(|i| s.values.int8(i))
@@ -120,7 +120,7 @@ proptest! {
             for (c, row) in rows.iter().enumerate() {
                 let acc = reference_acc(row, bias[c], x);
                 prop_assert!(acc.abs() <= i64::from(i32::MAX), "bound violated: {acc}");
-                let want = requantize(acc as i32, 1 << 30, shift, zero_point, i8::MIN, i8::MAX);
+                let want = requantise_reference(acc as i32, 1 << 30, shift, zero_point, i8::MIN, i8::MAX);
                 prop_assert_eq!(got[c], want, "channel {} input {:?}", c, x);
             }
         }
@@ -189,7 +189,7 @@ fn the_bound_is_reached_exactly() {
 fn widest_layer_at_the_bound() {
     // 16384 inputs (the widest the format allows) of weight 127: Σ|w|·128 = 266_338_304, well
     // inside i32, so any bias up to the limit is accepted and runs without overflow.
-    let n = kinglet_runtime::format::MAX_WIDTH as usize;
+    let n = kinglet_runtime::unstable::wire::format::MAX_WIDTH as usize;
     let row = vec![127i8; n];
     let b = limit(&row) as i32;
     let blob = int8_model(n as u32, vec![int8_layer(n as u32, &row, &[b], 0)]).raw_blob();

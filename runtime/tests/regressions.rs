@@ -30,10 +30,10 @@ fn output_scale_whose_steps_overflow_f32_is_rejected() {
     let edge = f32::MAX / 128.0;
     let blob = with_output_scale(edge, 0);
     let m = Model::parse(&blob).expect("largest finite-step scale accepted");
-    let mut arena = vec![0u8; m.arena_bytes()];
+    let mut scratch = vec![0u8; m.scratch_bytes()];
     let mut scores = [0f32; 2];
     for x in [[i16::MIN, i16::MAX], [i16::MAX, i16::MIN], [0, 0]] {
-        m.infer(Input::I16(&x), &mut arena, &mut scores).unwrap();
+        m.infer(Input::I16(&x), &mut scratch, &mut scores).unwrap();
         assert!(
             scores
                 .iter()
@@ -66,11 +66,11 @@ fn labels_split_like_str_split() {
     let blob = int8_model(2, vec![layer]).raw_blob();
     let parsed = Model::parse(&blob).unwrap();
     let base = parsed.desc().clone();
-    let arena = parsed.arena_bytes() as u32;
+    let scratch = parsed.scratch_bytes() as u32;
     for labels in ["x\n\ny", "α\nβ\nγ", "a\nb\n", "\n\n", "one\ntwo\nthree"] {
         let mut d = base.clone();
         d.labels = labels;
-        let blob = kinglet_builder::raw_blob(&d, arena);
+        let blob = kinglet_builder::raw_blob(&d, scratch);
         let m = Model::parse(&blob).unwrap_or_else(|e| panic!("{labels:?}: {e}"));
         let want: Vec<&str> = labels.split('\n').collect();
         assert_eq!(m.labels().collect::<Vec<_>>(), want);
@@ -82,7 +82,7 @@ fn labels_split_like_str_split() {
         d.labels = labels;
         let found = labels.split('\n').count() as u32;
         assert_eq!(
-            Model::parse(&kinglet_builder::raw_blob(&d, arena)).map(|_| ()),
+            Model::parse(&kinglet_builder::raw_blob(&d, scratch)).map(|_| ()),
             Err(FormatError::LabelCount { expected: 3, found })
         );
     }

@@ -15,10 +15,10 @@ pub fn path(rel: &str) -> PathBuf {
 
 /// Runs one row through a model; returns the predicted class and the scores.
 pub fn run(model: &Model<'_>, row: &[f32]) -> (usize, Vec<f32>) {
-    let mut arena = vec![0u8; model.arena_bytes()];
+    let mut scratch = vec![0u8; model.scratch_bytes()];
     let mut scores = vec![0f32; model.output_len()];
     let p = model
-        .infer(Input::F32(row), &mut arena, &mut scores)
+        .infer(Input::F32(row), &mut scratch, &mut scores)
         .unwrap_or_else(|e| panic!("inference failed: {e}"));
     (p.class, scores)
 }

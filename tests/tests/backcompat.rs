@@ -63,9 +63,9 @@ fn version_2_vibration_int8_blob_still_reads_and_predicts() {
         (m.precision(), m.input_len(), m.classes()),
         (Precision::Int8, 15, 4)
     );
-    assert!(m
-        .layers()
-        .all(|l| l.desc.layout == kinglet_runtime::format::WeightLayout::Blocked4x4));
+    assert!(m.layers().all(
+        |l| l.desc.layout == kinglet_runtime::unstable::wire::format::WeightLayout::Blocked4x4
+    ));
     let right = vibration_right(&m);
     // 590 of 600 when the fixture was made.
     assert!(right >= 585, "{right}/600");

@@ -6,15 +6,19 @@
 //! The blobs start from a real pack of `examples/vibration` (15 → 24 → 12 → 4, int8 and f32)
 //! and are edited field by field, then written without validation (`kinglet_builder::raw_blob`)
 //! behind a correct header (length and CRC), so each reaches exactly the rule it is about.
-use kinglet_builder::{le, planned_arena, raw_blob, raw_blob_with_layers, OwnedLayer, OwnedModel};
+use kinglet_builder::{
+    le, planned_scratch, raw_blob, raw_blob_with_layers, OwnedLayer, OwnedModel,
+};
 use kinglet_converter::dataset::{load_csv, CsvOptions};
 use kinglet_converter::graph::{DenseLayer, FloatModel};
 use kinglet_converter::import::onnx::import_onnx_file;
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
-use kinglet_runtime::format::{ModelDesc, OutputKind, Precision, WeightLayout, MAX_LAYERS};
-use kinglet_runtime::header::offset::{self, VERSION};
-use kinglet_runtime::header::CHECKED_FROM;
+use kinglet_runtime::unstable::wire::format::{
+    ModelDesc, OutputKind, Precision, WeightLayout, MAX_LAYERS,
+};
+use kinglet_runtime::unstable::wire::header::offset::{self, VERSION};
+use kinglet_runtime::unstable::wire::header::CHECKED_FROM;
 use kinglet_runtime::{Activation, FormatError, Input, Model, RunError, TensorKind, HEADER_LEN};
 use kinglet_tests::path;
 use std::sync::OnceLock;
@@ -49,9 +53,9 @@ fn reseal(blob: &mut [u8]) {
     kinglet_builder::reseal(blob).expect("a blob at least a header long");
 }
 
-/// `d` written as a blob without validation, with the arena field the planner computes.
+/// `d` written as a blob without validation, with the scratch field the planner computes.
 fn raw(d: &ModelDesc<'_>) -> Vec<u8> {
-    raw_blob(d, planned_arena(d))
+    raw_blob(d, planned_scratch(d))
 }
 
 /// The decoded table of a packed blob, to edit.
@@ -112,7 +116,7 @@ fn r01_truncated_blob() {
 #[test]
 fn r02_bit_flipped_blob() {
     let b = int8_blob();
-    // Every bit of the checksummed region (arena field and body) is caught by the CRC.
+    // Every bit of the checksummed region (scratch field and body) is caught by the CRC.
     for i in CHECKED_FROM..b.len() {
         for bit in 0..8 {
             let mut bad = b.to_vec();
@@ -143,7 +147,7 @@ fn r03_newer_format_version() {
         msg,
         format!(
             "model format version {newer} is not supported (this reader accepts versions {} to {})",
-            kinglet_runtime::header::OLDEST_VERSION,
+            kinglet_runtime::unstable::wire::version::OLDEST_VERSION,
             kinglet_runtime::FORMAT_VERSION
         )
     );
@@ -240,7 +244,7 @@ fn r10_zero_width() {
 #[test]
 fn r11_too_wide() {
     let mut d = table(f32_blob());
-    d.layers[0].outputs = kinglet_runtime::format::MAX_WIDTH + 1;
+    d.layers[0].outputs = kinglet_runtime::unstable::wire::format::MAX_WIDTH + 1;
     assert_eq!(
         rejects(&raw(&d), FormatError::TooWide { layer: Some(0) }),
         "layer 0: wider than 16384 elements"
@@ -542,12 +546,12 @@ fn r22_accumulator_could_overflow() {
 }
 
 #[test]
-fn r23_arena_field_disagrees() {
+fn r23_scratch_field_disagrees() {
     let d = table(int8_blob());
-    let plan = Model::parse(int8_blob()).unwrap().arena_bytes() as u32;
+    let plan = Model::parse(int8_blob()).unwrap().scratch_bytes() as u32;
     let msg = rejects(
         &raw_blob(&d, plan - 1),
-        FormatError::ArenaMismatch {
+        FormatError::ScratchMismatch {
             header: plan - 1,
             computed: plan,
         },
@@ -555,7 +559,7 @@ fn r23_arena_field_disagrees() {
     assert_eq!(
         msg,
         format!(
-            "header arena size {} disagrees with the computed {plan}",
+            "header scratch size {} disagrees with the computed {plan}",
             plan - 1
         )
     );
@@ -624,11 +628,11 @@ fn r34_header_version_not_the_tables() {
 fn run(
     blob: &[u8],
     input: Input<'_>,
-    arena: Option<usize>,
+    scratch: Option<usize>,
     scores: Option<usize>,
 ) -> Result<kinglet_runtime::Prediction, RunError> {
     let m = Model::parse(blob).unwrap();
-    let mut a = vec![0u8; arena.unwrap_or(m.arena_bytes())];
+    let mut a = vec![0u8; scratch.unwrap_or(m.scratch_bytes())];
     let mut s = vec![0f32; scores.unwrap_or(m.output_len())];
     m.infer(input, &mut a, &mut s)
 }
@@ -648,19 +652,22 @@ fn r25_input_of_the_wrong_width() {
 }
 
 #[test]
-fn r26_arena_too_small() {
-    let need = Model::parse(int8_blob()).unwrap().arena_bytes();
+fn r26_scratch_too_small() {
+    let need = Model::parse(int8_blob()).unwrap().scratch_bytes();
     let e = run(int8_blob(), Input::F32(&[0.0; 15]), Some(need - 1), None).unwrap_err();
     assert_eq!(
         e,
-        RunError::ArenaTooSmall {
+        RunError::ScratchTooSmall {
             needed: need as u32,
             got: need as u32 - 1
         }
     );
     assert_eq!(
         e.to_string(),
-        format!("arena too small: needs {need} bytes, got {}", need - 1)
+        format!(
+            "scratch buffer too small: needs {need} bytes, got {}",
+            need - 1
+        )
     );
     assert!(run(f32_blob(), Input::F32(&[0.0; 15]), Some(0), None).is_err());
 }
@@ -698,11 +705,11 @@ fn r29_extreme_integer_inputs_saturate() {
     // i16::MAX give the same input tensor as any value far enough out, and scores stay
     // probabilities.
     let m = Model::parse(int8_blob()).unwrap();
-    let mut arena = vec![0u8; m.arena_bytes()];
+    let mut scratch = vec![0u8; m.scratch_bytes()];
     let mut scores = [0f32; 4];
-    let input_tensor = |x: &[i16], arena: &mut [u8], scores: &mut [f32]| {
+    let input_tensor = |x: &[i16], scratch: &mut [u8], scores: &mut [f32]| {
         let mut first = Vec::new();
-        m.infer_traced(Input::I16(x), arena, scores, &mut |s| {
+        m.infer_traced(Input::I16(x), scratch, scores, &mut |s| {
             if s.index == 0 {
                 first = (0..s.values.len()).map(|i| s.values.int8(i)).collect();
             }
@@ -710,18 +717,18 @@ fn r29_extreme_integer_inputs_saturate() {
         .unwrap();
         first
     };
-    let lo = input_tensor(&[i16::MIN; 15], &mut arena, &mut scores);
-    assert_eq!(lo, input_tensor(&[-30_000; 15], &mut arena, &mut scores));
+    let lo = input_tensor(&[i16::MIN; 15], &mut scratch, &mut scores);
+    assert_eq!(lo, input_tensor(&[-30_000; 15], &mut scratch, &mut scores));
     assert!((scores.iter().sum::<f32>() - 1.0).abs() < 1e-5);
-    let hi = input_tensor(&[i16::MAX; 15], &mut arena, &mut scores);
-    assert_eq!(hi, input_tensor(&[30_000; 15], &mut arena, &mut scores));
+    let hi = input_tensor(&[i16::MAX; 15], &mut scratch, &mut scores);
+    assert_eq!(hi, input_tensor(&[30_000; 15], &mut scratch, &mut scores));
     assert!(scores.iter().all(|s| (0.0..=1.0).contains(s)));
     // Far-out floats saturate the same way on the float input path.
     let f_lo = {
         let mut t = Vec::new();
         m.infer_traced(
             Input::F32(&[-1e30; 15]),
-            &mut arena,
+            &mut scratch,
             &mut scores,
             &mut |s| {
                 if s.index == 0 {

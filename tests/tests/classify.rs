@@ -30,8 +30,8 @@ fn packs(example: &str) -> (Vec<u8>, Vec<u8>) {
 }
 
 fn classify(m: &Model<'_>, input: Input<'_>) -> usize {
-    let mut arena = vec![0u8; m.arena_bytes()];
-    m.classify(input, &mut arena)
+    let mut scratch = vec![0u8; m.scratch_bytes()];
+    m.classify(input, &mut scratch)
         .unwrap_or_else(|e| panic!("classify failed: {e}"))
 }
 
@@ -67,10 +67,10 @@ fn digits_classify_gives_infers_class_on_every_path() {
             cq,
             "int8 f32 input, row {r}"
         );
-        let mut arena = vec![0u8; mq.arena_bytes()];
+        let mut scratch = vec![0u8; mq.scratch_bytes()];
         let mut scores = vec![0f32; mq.output_len()];
         let integer = mq
-            .infer(Input::I16(&counts), &mut arena, &mut scores)
+            .infer(Input::I16(&counts), &mut scratch, &mut scores)
             .unwrap()
             .class;
         assert_eq!(
@@ -109,18 +109,18 @@ fn vibration_classify_gives_infers_class() {
 fn classify_refuses_what_infer_refuses() {
     let (_, q) = packs("vibration");
     let m = Model::parse(&q).unwrap();
-    let mut arena = vec![0u8; m.arena_bytes()];
+    let mut scratch = vec![0u8; m.scratch_bytes()];
     assert_eq!(
-        m.classify(Input::F32(&[0.0; 3]), &mut arena),
+        m.classify(Input::F32(&[0.0; 3]), &mut scratch),
         Err(RunError::InputLength {
             expected: 15,
             got: 3
         })
     );
-    let n = m.arena_bytes();
+    let n = m.scratch_bytes();
     assert_eq!(
-        m.classify(Input::F32(&[0.0; 15]), &mut arena[..n - 1]),
-        Err(RunError::ArenaTooSmall {
+        m.classify(Input::F32(&[0.0; 15]), &mut scratch[..n - 1]),
+        Err(RunError::ScratchTooSmall {
             needed: n as u32,
             got: n as u32 - 1
         })
@@ -128,7 +128,7 @@ fn classify_refuses_what_infer_refuses() {
     let mut bad = [0.0f32; 15];
     bad[7] = f32::NAN;
     assert_eq!(
-        m.classify(Input::F32(&bad), &mut arena),
+        m.classify(Input::F32(&bad), &mut scratch),
         Err(RunError::NonFiniteInput { index: 7 })
     );
 }

@@ -84,7 +84,7 @@ fn int8_pack_of_784_100_10_tracks_the_float_pack() {
     };
     let q = pack_int8(&model, &data, RangeMethod::MinMax).unwrap().blob;
     let mq = Model::parse(&q).unwrap();
-    assert_eq!(mq.arena_bytes(), 884); // max(784, 10) + 100, FORMAT.md §4
+    assert_eq!(mq.scratch_bytes(), 884); // max(784, 10) + 100, FORMAT.md §4
     for (x, want) in c.inputs.iter().zip(&c.expected.rows) {
         let (_, scores) = run(&mq, x);
         for (s, w) in scores.iter().zip(want) {

@@ -106,10 +106,10 @@ fn integer_pixel_path_matches_the_float_input_path() {
     for r in 0..data.rows {
         let row = data.row(r);
         let pixels: Vec<u8> = row.iter().map(|&v| v as u8).collect();
-        let mut arena = vec![0u8; m.arena_bytes()];
+        let mut scratch = vec![0u8; m.scratch_bytes()];
         let mut s = vec![0f32; 10];
         let mut first_f = Vec::new();
-        m.infer_traced(Input::F32(row), &mut arena, &mut s, &mut |st| {
+        m.infer_traced(Input::F32(row), &mut scratch, &mut s, &mut |st| {
             if st.index == 0 {
                 first_f = (0..st.values.len())
                     .map(|i| st.values.int8(i).unwrap())
@@ -119,7 +119,7 @@ fn integer_pixel_path_matches_the_float_input_path() {
         .unwrap();
         let mut first_i = Vec::new();
         let pi = m
-            .infer_traced(Input::U8(&pixels), &mut arena, &mut s, &mut |st| {
+            .infer_traced(Input::U8(&pixels), &mut scratch, &mut s, &mut |st| {
                 if st.index == 0 {
                     first_i = (0..st.values.len())
                         .map(|i| st.values.int8(i).unwrap())

@@ -18,11 +18,11 @@ use kinglet_vibration_features::{window_features, window_from_le_bytes, FEATURES
 /// Runs every vector of `set`: (lines, predicted classes).
 fn run_set(set: &VectorSet) -> (Vec<String>, Vec<usize>) {
     let model = Model::parse(set.model).unwrap_or_else(|e| panic!("{}: {e}", set.name));
-    let mut arena = vec![0u8; model.arena_bytes()];
+    let mut scratch = vec![0u8; model.scratch_bytes()];
     let mut line = Line::new();
     (0..set.count)
         .map(|i| {
-            let class = format_vector(set, &model, i, &mut arena, &mut line)
+            let class = format_vector(set, &model, i, &mut scratch, &mut line)
                 .unwrap_or_else(|e| panic!("{} {i}: {e:?}", set.name));
             (line.as_str().to_string(), class)
         })

@@ -12,10 +12,10 @@
 //! CI regenerates every fixture with the pinned reference libraries (`tests/python/run_all.sh`)
 //! and fails if any differs from the committed file.
 use kinglet_converter::quantise::params::decompose_multiplier;
-use kinglet_runtime::dense::{dense_i8, DenseI8};
-use kinglet_runtime::output::softmax;
-use kinglet_runtime::requant::requantize;
-use kinglet_runtime::scale::quantize_linear;
+use kinglet_runtime::unstable::dense::{dense_i8, DenseI8};
+use kinglet_runtime::unstable::output::softmax;
+use kinglet_runtime::unstable::requant::requantise_reference;
+use kinglet_runtime::unstable::scale::quantize_linear;
 use kinglet_tests::path;
 
 fn rows(rel: &str) -> Vec<Vec<String>> {
@@ -31,7 +31,7 @@ fn requantisation_matches_numpy_reference() {
     assert!(cases.len() >= 2000);
     for (i, c) in cases.iter().enumerate() {
         let v: Vec<i64> = c.iter().map(|s| s.parse().unwrap()).collect();
-        let got = requantize(
+        let got = requantise_reference(
             v[0] as i32,
             v[1] as i32,
             v[2] as i8,

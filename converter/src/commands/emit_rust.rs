@@ -31,10 +31,10 @@ pub fn run(a: Args) -> Result<Outcome> {
     );
     write_atomic(&a.out, render(&bytes, &model, &name).as_bytes())?;
     super::out::line(&format!(
-        "wrote {} ({} bytes of model, arena {} bytes)",
+        "wrote {} ({} bytes of model, scratch buffer {} bytes)",
         a.out.display(),
         bytes.len(),
-        model.arena_bytes()
+        model.scratch_bytes()
     ))?;
     Ok(Outcome::Pass)
 }

@@ -7,7 +7,7 @@ pub mod request;
 
 use anyhow::{bail, Result};
 use kinglet_builder::OwnedLayer;
-use kinglet_runtime::format::{Precision, WeightLayout};
+use kinglet_runtime::unstable::wire::format::{Precision, WeightLayout};
 use kinglet_runtime::Model;
 
 use crate::dataset::Dataset;

@@ -94,12 +94,12 @@ pub fn calibrate(
         .iter()
         .map(|w| Vec::with_capacity(w.saturating_mul(data.rows)))
         .collect();
-    let mut arena = vec![0u8; float_model.arena_bytes()];
+    let mut scratch = vec![0u8; float_model.scratch_bytes()];
     let mut scores = vec![0f32; float_model.output_len()];
     for r in 0..data.rows {
         let row = data.row(r);
         float_model
-            .infer_traced(Input::F32(row), &mut arena, &mut scores, &mut |s| {
+            .infer_traced(Input::F32(row), &mut scratch, &mut scores, &mut |s| {
                 if let Some(v) = values.get_mut(s.index) {
                     v.extend((0..s.values.len()).filter_map(|i| s.values.real(i)));
                 }

@@ -10,14 +10,14 @@ pub mod plausible;
 pub mod spread;
 
 use anyhow::{anyhow, bail, Result};
-use kinglet_runtime::format::Precision;
+use kinglet_runtime::unstable::wire::format::Precision;
 
 use crate::graph::FloatModel;
 use crate::layer_table::{owned_table, wire_u32};
 use advice::num;
 use calibrate::TensorRange;
 use kinglet_builder::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
-use params::{activation_quant, decompose_multiplier, quantize_weight, weight_scale, AffineQuant};
+use params::{activation_quant, decompose_multiplier, quantise_weight, weight_scale, AffineQuant};
 
 /// Quantises `model` given the calibrated range of each tensor (input, then each layer output).
 pub fn quantise(model: &FloatModel, ranges: &[TensorRange]) -> Result<OwnedModel> {
@@ -77,7 +77,7 @@ fn quantise_layer(
     let mut shifts = Vec::with_capacity(l.outputs);
     for (o, row) in l.weights.chunks_exact(l.inputs.max(1)).enumerate() {
         let s_w = weight_scale(row);
-        let row_q: Vec<i8> = row.iter().map(|&w| quantize_weight(w, s_w)).collect();
+        let row_q: Vec<i8> = row.iter().map(|&w| quantise_weight(w, s_w)).collect();
         let acc_scale = f64::from(qi.scale) * f64::from(s_w);
         let b = f64::from(l.bias.get(o).copied().unwrap_or(0.0));
         let sum_w: i64 = row_q.iter().map(|&w| i64::from(w)).sum();
@@ -174,7 +174,7 @@ fn integer_input(model: &FloatModel, q: AffineQuant) -> Result<OwnedInput> {
 mod tests {
     use super::*;
     use crate::graph::DenseLayer;
-    use kinglet_runtime::format::{Activation, OutputKind};
+    use kinglet_runtime::unstable::wire::format::{Activation, OutputKind};
 
     fn identity() -> FloatModel {
         FloatModel {

@@ -38,7 +38,7 @@ pub fn weight_scale(row: &[f32]) -> f32 {
 }
 
 /// Rounds `w / scale` to the nearest int8 (ties to even), clamped to `[-127, 127]`.
-pub fn quantize_weight(w: f32, scale: f32) -> i8 {
+pub fn quantise_weight(w: f32, scale: f32) -> i8 {
     (f64::from(w) / f64::from(scale))
         .round_ties_even()
         .clamp(-127.0, 127.0) as i8
@@ -87,11 +87,11 @@ mod tests {
     fn weights_are_symmetric_per_channel() {
         let s = weight_scale(&[0.5, -1.27, 0.0]);
         assert!((s - 0.01).abs() < 1e-9);
-        assert_eq!(quantize_weight(-1.27, s), -127);
-        assert_eq!(quantize_weight(0.5, s), 50);
+        assert_eq!(quantise_weight(-1.27, s), -127);
+        assert_eq!(quantise_weight(0.5, s), 50);
         assert_eq!(weight_scale(&[0.0, 0.0]), 1.0);
-        assert_eq!(quantize_weight(2.5, 1.0), 2); // ties to even
-        assert_eq!(quantize_weight(-3.5, 1.0), -4);
+        assert_eq!(quantise_weight(2.5, 1.0), 2); // ties to even
+        assert_eq!(quantise_weight(-3.5, 1.0), -4);
     }
 
     #[test]

@@ -1,5 +1,5 @@
 //! What a packed blob holds, as data: shapes, parameters, bytes, memory, quantisation.
-use kinglet_runtime::format::{Activation, OutputKind, Precision};
+use kinglet_runtime::unstable::wire::format::{Activation, OutputKind, Precision};
 use kinglet_runtime::Model;
 use serde::Serialize;
 
@@ -49,8 +49,8 @@ pub struct BlobReport {
     pub macs: usize,
     /// Flash bytes: the blob.
     pub flash_bytes: usize,
-    /// RAM bytes: the arena.
-    pub arena_bytes: usize,
+    /// RAM bytes: the scratch buffer.
+    pub scratch_bytes: usize,
     /// Estimated instructions per inference on each target (from measured rates; an estimate).
     pub cycle_estimate: Vec<super::cycles::CycleEstimate>,
 }
@@ -114,7 +114,7 @@ impl BlobReport {
                     .collect::<Vec<_>>(),
             ),
             flash_bytes: model.blob_bytes(),
-            arena_bytes: model.arena_bytes(),
+            scratch_bytes: model.scratch_bytes(),
         }
     }
 }

@@ -65,7 +65,7 @@ pub fn render(r: &BlobReport) -> String {
         ("parameters", r.parameters.to_string()),
         ("MACs/inference", r.macs.to_string()),
         ("flash (blob)", format!("{} bytes", r.flash_bytes)),
-        ("RAM (arena)", format!("{} bytes", r.arena_bytes)),
+        ("RAM (scratch)", format!("{} bytes", r.scratch_bytes)),
         ("cycles (est.)", cycles(r)),
     ];
     let mut out = t.to_string();

@@ -10,7 +10,7 @@ use rayon::prelude::*;
 
 use super::feed::{Entry, Rows};
 
-/// The last layer's outputs, before softmax or sigmoid, as the arena holds them.
+/// The last layer's outputs, before softmax or sigmoid, as the scratch buffer holds them.
 #[derive(Debug, Clone, PartialEq)]
 pub enum LastOutputs {
     /// int8 values (int8 blobs).
@@ -37,7 +37,7 @@ pub struct ScoredRow {
 }
 
 struct Scratch {
-    arena: Vec<u8>,
+    scratch: Vec<u8>,
     scores: Vec<f32>,
 }
 
@@ -53,7 +53,7 @@ fn score_row(
     let mut outputs = LastOutputs::Int8(Vec::new());
     let p = model.infer_traced(
         rows.input(r),
-        &mut s.arena,
+        &mut s.scratch,
         &mut s.scores,
         &mut |st: &Stage<'_>| {
             if st.index != last {
@@ -69,7 +69,7 @@ fn score_row(
             };
         },
     )?;
-    let classify_class = model.classify(rows.input(r), &mut s.arena)?;
+    let classify_class = model.classify(rows.input(r), &mut s.scratch)?;
     Ok(ScoredRow {
         class: match entry {
             Entry::Infer => p.class,
@@ -91,7 +91,7 @@ fn score_row(
 pub fn score_rows(model: &Model<'_>, rows: &Rows, entry: Entry) -> Result<Vec<ScoredRow>> {
     rows.data.check_width(model.input_len())?;
     let new = || Scratch {
-        arena: vec![0; model.arena_bytes()],
+        scratch: vec![0; model.scratch_bytes()],
         scores: vec![0.0; model.output_len()],
     };
     let results: Vec<Result<ScoredRow, kinglet_runtime::RunError>> = (0..rows.data.rows)

@@ -1,7 +1,7 @@
 //! Loading the float side of a comparison: an `.onnx` or `.json` model packed to f32 in memory,
 //! or an f32 `.kgl` blob as it is.
 use anyhow::{bail, Context, Result};
-use kinglet_runtime::format::ScalerDesc;
+use kinglet_runtime::unstable::wire::format::ScalerDesc;
 use kinglet_runtime::{Model, Precision};
 use std::path::Path;
 

@@ -1,6 +1,6 @@
 //! The two models being compared: a float (f32) blob and an int8 blob of the same network.
 use anyhow::{bail, Result};
-use kinglet_runtime::format::{Activation, OutputKind, Precision};
+use kinglet_runtime::unstable::wire::format::{Activation, OutputKind, Precision};
 use kinglet_runtime::Model;
 
 /// A float model and its int8 counterpart, checked to have the same shape.
@@ -113,7 +113,7 @@ impl<'a> ModelPair<'a> {
     }
 }
 
-fn shape(d: &kinglet_runtime::format::LayerDesc<'_>) -> (u32, u32, Activation) {
+fn shape(d: &kinglet_runtime::unstable::wire::format::LayerDesc<'_>) -> (u32, u32, Activation) {
     (d.inputs, d.outputs, d.activation)
 }
 

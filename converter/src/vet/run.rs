@@ -66,8 +66,8 @@ const CHUNK: usize = 64;
 
 /// Buffers one worker reuses across rows.
 struct Scratch {
-    arena_f: Vec<u8>,
-    arena_q: Vec<u8>,
+    scratch_f: Vec<u8>,
+    scratch_q: Vec<u8>,
     scores_f: Vec<f32>,
     scores_q: Vec<f32>,
     stages: Vec<Vec<f32>>,
@@ -76,8 +76,8 @@ struct Scratch {
 impl Scratch {
     fn new(pair: &ModelPair<'_>) -> Self {
         Scratch {
-            arena_f: vec![0; pair.float.arena_bytes()],
-            arena_q: vec![0; pair.int8.arena_bytes()],
+            scratch_f: vec![0; pair.float.scratch_bytes()],
+            scratch_q: vec![0; pair.int8.scratch_bytes()],
             scores_f: vec![0.0; pair.float.output_len()],
             scores_q: vec![0.0; pair.int8.output_len()],
             stages: pair
@@ -132,7 +132,7 @@ fn eval_row(
         .float
         .infer_traced(
             Input::F32(row),
-            &mut s.arena_f,
+            &mut s.scratch_f,
             &mut s.scores_f,
             &mut |st: &Stage<'_>| {
                 if let Some(buf) = stages.get_mut(st.index) {
@@ -153,11 +153,11 @@ fn eval_row(
     };
     let pq = pair
         .int8
-        .infer_traced(input, &mut s.arena_q, &mut s.scores_q, &mut add_error)
+        .infer_traced(input, &mut s.scratch_q, &mut s.scores_q, &mut add_error)
         .map_err(|e| ("int8", e))?;
     let classified = pair
         .int8
-        .classify(input, &mut s.arena_q)
+        .classify(input, &mut s.scratch_q)
         .map_err(|e| ("int8", e))?;
     Ok(RowOutcome {
         float_class: pf.class,

@@ -12,7 +12,7 @@
 //! printed either way. With the `defmt`
 //! feature each result is also logged through defmt (RTT), which needs a probe to read.
 //!
-//! The arena: a `static` byte array of exactly `kinglet_runtime::arena_bytes(VIBRATION)` bytes,
+//! The scratch buffer: a `static` byte array of exactly `kinglet_runtime::scratch_bytes(VIBRATION)` bytes,
 //! handed out once by `cortex_m::singleton!`. That keeps it in `.bss`, where the linker counts
 //! it against RAM (an oversized model fails the link, not the run), needs no `static mut`, and
 //! keeps it off the stack. What stack the runtime itself needs is in BENCHMARKS.md (measured by
@@ -27,7 +27,7 @@ use kinglet_firmware_example::{board, console};
 use kinglet_fw_sensor::pins::show_class;
 use kinglet_fw_sensor::replay::ReplaySource;
 use kinglet_fw_sensor::{Window, WindowSource, AXES, WINDOW};
-use kinglet_fw_vectors::assets::{REPLAY_LABELS, REPLAY_WINDOWS, VIBRATION, VIBRATION_ARENA};
+use kinglet_fw_vectors::assets::{REPLAY_LABELS, REPLAY_WINDOWS, VIBRATION, VIBRATION_SCRATCH};
 use kinglet_runtime::{Input, Model};
 use kinglet_vibration_features::window_features;
 
@@ -47,8 +47,9 @@ fn fail(what: &str) -> bool {
 }
 
 fn run() -> bool {
-    let Some(arena) = cortex_m::singleton!(: [u8; VIBRATION_ARENA] = [0; VIBRATION_ARENA]) else {
-        return fail("arena already taken");
+    let Some(scratch) = cortex_m::singleton!(: [u8; VIBRATION_SCRATCH] = [0; VIBRATION_SCRATCH])
+    else {
+        return fail("scratch buffer already taken");
     };
     let model = match Model::parse(VIBRATION) {
         Ok(m) => m,
@@ -65,10 +66,10 @@ fn run() -> bool {
     let mut l = console::LineBuf::new();
     let _ = write!(
         l,
-        "classify on {}: model {} bytes in flash, arena {} bytes, {} windows to replay",
+        "classify on {}: model {} bytes in flash, scratch buffer {} bytes, {} windows to replay",
         board::BOARD,
         model.blob_bytes(),
-        arena.len(),
+        scratch.len(),
         REPLAY_WINDOWS.len() / (AXES * WINDOW * 2)
     );
     console::line(&l);
@@ -85,11 +86,11 @@ fn run() -> bool {
     #[cfg(probe_board)]
     let mut pins = board.class_pins;
     let mut source = ReplaySource::new(REPLAY_WINDOWS);
-    let replayed = classify_all(&model, &mut source, arena, &mut pins);
+    let replayed = classify_all(&model, &mut source, scratch, &mut pins);
     #[cfg(feature = "board-microbit-v2")]
     if replayed {
         return match board.source {
-            Ok(mut live_source) => live(&model, &mut live_source, arena, &mut pins),
+            Ok(mut live_source) => live(&model, &mut live_source, scratch, &mut pins),
             Err(e) => {
                 let mut l = console::LineBuf::new();
                 let _ = write!(l, "classify: accelerometer: {e}");
@@ -107,7 +108,7 @@ fn run() -> bool {
 fn live<S: WindowSource, P: StatefulOutputPin>(
     model: &Model<'_>,
     source: &mut S,
-    arena: &mut [u8],
+    scratch: &mut [u8],
     pins: &mut [P; CLASSES],
 ) -> bool {
     let mut window: Window = [[0; WINDOW]; AXES];
@@ -121,7 +122,7 @@ fn live<S: WindowSource, P: StatefulOutputPin>(
             return false;
         }
         let features = window_features(&window);
-        let p = match model.infer(Input::F32(&features), arena, &mut scores) {
+        let p = match model.infer(Input::F32(&features), scratch, &mut scores) {
             Ok(p) => p,
             Err(e) => {
                 let mut l = console::LineBuf::new();
@@ -149,7 +150,7 @@ fn live<S: WindowSource, P: StatefulOutputPin>(
 fn classify_all<S: WindowSource, P: StatefulOutputPin>(
     model: &Model<'_>,
     source: &mut S,
-    arena: &mut [u8],
+    scratch: &mut [u8],
     pins: &mut [P; CLASSES],
 ) -> bool {
     let mut window: Window = [[0; WINDOW]; AXES];
@@ -157,7 +158,7 @@ fn classify_all<S: WindowSource, P: StatefulOutputPin>(
     let (mut n, mut agree, mut same) = (0usize, 0usize, 0usize);
     while source.next_window(&mut window).is_ok() {
         let features = window_features(&window);
-        let p = match model.infer(Input::F32(&features), arena, &mut scores) {
+        let p = match model.infer(Input::F32(&features), scratch, &mut scores) {
             Ok(p) => p,
             Err(e) => {
                 let mut l = console::LineBuf::new();
@@ -167,7 +168,7 @@ fn classify_all<S: WindowSource, P: StatefulOutputPin>(
             }
         };
         // The class alone, by the integer argmax of the last layer: must be `infer`'s.
-        same += usize::from(model.classify(Input::F32(&features), arena) == Ok(p.class));
+        same += usize::from(model.classify(Input::F32(&features), scratch) == Ok(p.class));
         if show_class(pins, p.class).is_err() {
             return fail("could not drive the class pins");
         }

@@ -13,12 +13,12 @@
 use core::fmt::Write;
 use cortex_m_rt::entry;
 use kinglet_firmware_example::{board, console};
-use kinglet_runtime::dense::{dense_f32, dense_i8, DenseF32, DenseI8};
-use kinglet_runtime::output::{argmax, sigmoid, softmax};
-use kinglet_runtime::requant::{
-    requantize, rounding_divide_by_pot, saturating_rounding_doubling_high_mul,
+use kinglet_runtime::unstable::dense::{dense_f32, dense_i8, DenseF32, DenseI8};
+use kinglet_runtime::unstable::output::{argmax, sigmoid, softmax};
+use kinglet_runtime::unstable::requant::{
+    requantise_reference, rounding_divide_by_pot, saturating_rounding_doubling_high_mul,
 };
-use kinglet_runtime::scale::quantize_linear;
+use kinglet_runtime::unstable::scale::quantize_linear;
 
 /// An int8 dense reference case (`tests/fixtures/dense_int8_cases.json`).
 struct DenseCase {
@@ -83,10 +83,10 @@ fn main() -> ! {
 
 fn requant_reference(t: &mut Tally) {
     for (i, &(acc, m, s, zp, lo, hi, want)) in cases::REQUANT.iter().enumerate() {
-        let got = requantize(acc, m, s, zp, lo, hi);
+        let got = requantise_reference(acc, m, s, zp, lo, hi);
         t.check(
             got == want,
-            format_args!("FAIL requantize case {i}: got {got}, want {want}"),
+            format_args!("FAIL requantise_reference case {i}: got {got}, want {want}"),
         );
     }
 }
@@ -117,10 +117,10 @@ fn requant_edges(t: &mut Tally) {
     // Negative shifts saturate the left shift to i32 before the multiply.
     let half = 1 << 30;
     for (acc, want) in [(i32::MAX, 127), (i32::MIN, -128), (7, 127)] {
-        let got = requantize(acc, half, -31, 0, -128, 127);
+        let got = requantise_reference(acc, half, -31, 0, -128, 127);
         t.check(
             got == want,
-            format_args!("FAIL requantize({acc}, shift -31) = {got}"),
+            format_args!("FAIL requantise_reference({acc}, shift -31) = {got}"),
         );
     }
 }

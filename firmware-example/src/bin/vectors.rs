@@ -13,24 +13,24 @@
 //! inputs of each of its expected lines and compares its line the same way
 //! (`kinglet_fw_vectors::own::check_line`); the summary counts both.
 //!
-//! One arena serves every shipped model: a `static` of `MAX_ARENA` bytes (the largest
-//! `kinglet_runtime::arena_bytes` of the embedded blobs, computed at compile time), handed out
+//! One scratch buffer serves every shipped model: a `static` of `MAX_SCRATCH` bytes (the largest
+//! `kinglet_runtime::scratch_bytes` of the embedded blobs, computed at compile time), handed out
 //! once by `cortex_m::singleton!`.
 #![no_std]
 #![no_main]
 
 use core::fmt::Write;
 use cortex_m_rt::entry;
-use kinglet_firmware_example::own::{OwnSet, OWN, OWN_ARENA};
+use kinglet_firmware_example::own::{OwnSet, OWN, OWN_SCRATCH};
 use kinglet_firmware_example::{board, console};
-use kinglet_fw_vectors::assets::MAX_ARENA;
+use kinglet_fw_vectors::assets::MAX_SCRATCH;
 use kinglet_fw_vectors::own::check_line;
 use kinglet_fw_vectors::{format_vector, Line, VectorSet, SETS, TOTAL};
 use kinglet_runtime::Model;
 
 #[entry]
 fn main() -> ! {
-    let Some(arena) = cortex_m::singleton!(: [u8; MAX_ARENA] = [0; MAX_ARENA]) else {
+    let Some(scratch) = cortex_m::singleton!(: [u8; MAX_SCRATCH] = [0; MAX_SCRATCH]) else {
         console::exit(false)
     };
     let mut l = console::LineBuf::new();
@@ -43,16 +43,16 @@ fn main() -> ! {
     console::line(&l);
     let (mut passed, mut failed) = (0usize, 0usize);
     for set in &SETS {
-        let (p, f) = run_set(set, arena);
+        let (p, f) = run_set(set, scratch);
         passed += p;
         failed += f;
     }
     let mut want = TOTAL;
     if let Some(own) = OWN {
-        let Some(own_arena) = cortex_m::singleton!(: [u8; OWN_ARENA] = [0; OWN_ARENA]) else {
+        let Some(own_scratch) = cortex_m::singleton!(: [u8; OWN_SCRATCH] = [0; OWN_SCRATCH]) else {
             console::exit(false)
         };
-        let (p, f) = run_own(&own, own_arena);
+        let (p, f) = run_own(&own, own_scratch);
         passed += p;
         failed += f;
         want += own.lines;
@@ -64,13 +64,13 @@ fn main() -> ! {
 }
 
 /// Runs the model of your own on the inputs of its expected lines; returns (passed, failed).
-fn run_own(own: &OwnSet, arena: &mut [u8]) -> (usize, usize) {
+fn run_own(own: &OwnSet, scratch: &mut [u8]) -> (usize, usize) {
     let mut l = console::LineBuf::new();
     let _ = write!(
         l,
-        "own model: {} bytes, arena {} bytes, {} vectors, feed {:?}",
+        "own model: {} bytes, scratch {} bytes, {} vectors, feed {:?}",
         own.model.len(),
-        arena.len(),
+        scratch.len(),
         own.lines,
         own.feed
     );
@@ -87,7 +87,7 @@ fn run_own(own: &OwnSet, arena: &mut [u8]) -> (usize, usize) {
     let mut line = Line::new();
     let (mut passed, mut failed) = (0, 0);
     for (i, want) in own.vectors.lines().enumerate() {
-        match check_line(&model, own.feed, want, arena, &mut line) {
+        match check_line(&model, own.feed, want, scratch, &mut line) {
             Ok(same) => {
                 console::line(&line);
                 if same {
@@ -111,7 +111,7 @@ fn run_own(own: &OwnSet, arena: &mut [u8]) -> (usize, usize) {
 }
 
 /// Runs one set; returns (passed, failed).
-fn run_set(set: &VectorSet, arena: &mut [u8]) -> (usize, usize) {
+fn run_set(set: &VectorSet, scratch: &mut [u8]) -> (usize, usize) {
     let model = match Model::parse(set.model) {
         Ok(m) => m,
         Err(e) => {
@@ -126,7 +126,7 @@ fn run_set(set: &VectorSet, arena: &mut [u8]) -> (usize, usize) {
     let (mut passed, mut failed) = (0, 0);
     for i in 0..set.count {
         let want = expected.next();
-        match format_vector(set, &model, i, arena, &mut line) {
+        match format_vector(set, &model, i, scratch, &mut line) {
             Ok(_) => {
                 console::line(&line);
                 if want == Some(line.as_str()) {

@@ -32,15 +32,15 @@ pub const REPLAY_LABELS: &[u8] = include_bytes!("../../models/vibration_replay_l
 /// Windows in [`REPLAY_WINDOWS`].
 pub const REPLAY_COUNT: usize = REPLAY_WINDOWS.len() / WINDOW_BYTES;
 
-/// Arena bytes of [`DIGITS`], read from its header at compile time.
-pub const DIGITS_ARENA: usize = kinglet_runtime::arena_bytes(DIGITS);
-/// Arena bytes of [`DIGITS_FLOAT`].
-pub const DIGITS_FLOAT_ARENA: usize = kinglet_runtime::arena_bytes(DIGITS_FLOAT);
-/// Arena bytes of [`VIBRATION`].
-pub const VIBRATION_ARENA: usize = kinglet_runtime::arena_bytes(VIBRATION);
+/// Scratch bytes of [`DIGITS`], read from its header at compile time.
+pub const DIGITS_SCRATCH: usize = kinglet_runtime::scratch_bytes(DIGITS);
+/// Scratch bytes of [`DIGITS_FLOAT`].
+pub const DIGITS_FLOAT_SCRATCH: usize = kinglet_runtime::scratch_bytes(DIGITS_FLOAT);
+/// Scratch bytes of [`VIBRATION`].
+pub const VIBRATION_SCRATCH: usize = kinglet_runtime::scratch_bytes(VIBRATION);
 
-/// The largest arena any of the models needs.
-pub const MAX_ARENA: usize = max(max(DIGITS_ARENA, DIGITS_FLOAT_ARENA), VIBRATION_ARENA);
+/// The largest scratch buffer any of the models needs.
+pub const MAX_SCRATCH: usize = max(max(DIGITS_SCRATCH, DIGITS_FLOAT_SCRATCH), VIBRATION_SCRATCH);
 
 const fn max(a: usize, b: usize) -> usize {
     if a > b {

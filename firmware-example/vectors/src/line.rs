@@ -56,13 +56,13 @@ pub(crate) enum Outputs {
 
 /// Runs vector `i` of `set` (0-based within the set) and writes its line into `line`.
 ///
-/// `model` must be `set.model` parsed; `arena` needs `model.arena_bytes()` bytes. Returns the
+/// `model` must be `set.model` parsed; `scratch` needs `model.scratch_bytes()` bytes. Returns the
 /// predicted class.
 pub fn format_vector(
     set: &VectorSet,
     model: &Model<'_>,
     i: usize,
-    arena: &mut [u8],
+    scratch: &mut [u8],
     line: &mut Line,
 ) -> Result<usize, VectorError> {
     line.clear();
@@ -77,13 +77,13 @@ pub fn format_vector(
                 .get(row)
                 .ok_or(VectorError::MissingInput)?;
             let p = if set.path == Path::DigitsU8 {
-                run_traced(model, Input::U8(pixels), arena, &mut scores)
+                run_traced(model, Input::U8(pixels), scratch, &mut scores)
             } else {
                 let mut x = [0f32; assets::DIGITS_PIXELS];
                 for (d, &p) in x.iter_mut().zip(pixels) {
                     *d = f32::from(p);
                 }
-                run_traced(model, Input::F32(&x), arena, &mut scores)
+                run_traced(model, Input::F32(&x), scratch, &mut scores)
             };
             (label, p)
         }
@@ -94,7 +94,7 @@ pub fn format_vector(
                 .get(row)
                 .ok_or(VectorError::MissingInput)?;
             features = window_features(&window);
-            let p = run_traced(model, Input::F32(&features), arena, &mut scores);
+            let p = run_traced(model, Input::F32(&features), scratch, &mut scores);
             (label, p)
         }
     };
@@ -117,7 +117,7 @@ pub fn format_vector(
 pub(crate) fn run_traced(
     model: &Model<'_>,
     input: Input<'_>,
-    arena: &mut [u8],
+    scratch: &mut [u8],
     scores: &mut [f32; MAX_OUTPUTS],
 ) -> Result<(Prediction, Outputs), VectorError> {
     let n_out = model.output_len();
@@ -148,7 +148,7 @@ pub(crate) fn run_traced(
         };
     };
     let p = model
-        .infer_traced(input, arena, scores, &mut capture)
+        .infer_traced(input, scratch, scores, &mut capture)
         .map_err(VectorError::Run)?;
     Ok((p, outputs))
 }

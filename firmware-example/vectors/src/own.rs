@@ -67,12 +67,12 @@ fn parse_inputs(list: &str, feed: Feed) -> Result<(Inputs, usize), VectorError> 
 }
 
 /// Runs the inputs of `expected` through `model` fed as `feed`, writes the target's line into
-/// `line` and returns whether it equals `expected`. `arena` needs `model.arena_bytes()` bytes.
+/// `line` and returns whether it equals `expected`. `scratch` needs `model.scratch_bytes()` bytes.
 pub fn check_line(
     model: &Model<'_>,
     feed: Feed,
     expected: &str,
-    arena: &mut [u8],
+    scratch: &mut [u8],
     line: &mut Line,
 ) -> Result<bool, VectorError> {
     line.clear();
@@ -96,16 +96,21 @@ pub fn check_line(
         Inputs::F32(v) => run_traced(
             model,
             Input::F32(v.get(..n).ok_or(bad)?),
-            arena,
+            scratch,
             &mut scores,
         ),
         Inputs::I16(v) => run_traced(
             model,
             Input::I16(v.get(..n).ok_or(bad)?),
-            arena,
+            scratch,
             &mut scores,
         ),
-        Inputs::U8(v) => run_traced(model, Input::U8(v.get(..n).ok_or(bad)?), arena, &mut scores),
+        Inputs::U8(v) => run_traced(
+            model,
+            Input::U8(v.get(..n).ok_or(bad)?),
+            scratch,
+            &mut scores,
+        ),
     };
     let (prediction, outputs) = run?;
     write!(line, "{name} {index} ")?;
@@ -130,20 +135,20 @@ pub fn check_line(
 #[allow(clippy::unwrap_used)]
 mod tests {
     use super::*;
-    use crate::assets::{VIBRATION, VIBRATION_ARENA};
+    use crate::assets::{VIBRATION, VIBRATION_SCRATCH};
 
     /// The committed vibration vectors carry their inputs: every line must check out on the
     /// host too (this is the same code the firmware runs).
     #[test]
     fn committed_vibration_lines_check_out() {
         let model = Model::parse(VIBRATION).unwrap();
-        let mut arena = [0u8; VIBRATION_ARENA];
+        let mut scratch = [0u8; VIBRATION_SCRATCH];
         let mut line = Line::new();
         let text = include_str!("../../../tests/fixtures/vectors/vibration.txt");
         let mut n = 0;
         for want in text.lines() {
             assert!(
-                check_line(&model, Feed::F32, want, &mut arena, &mut line).unwrap(),
+                check_line(&model, Feed::F32, want, &mut scratch, &mut line).unwrap(),
                 "{want}\n{line}"
             );
             n += 1;
@@ -154,29 +159,29 @@ mod tests {
     #[test]
     fn a_changed_output_is_a_mismatch() {
         let model = Model::parse(VIBRATION).unwrap();
-        let mut arena = [0u8; VIBRATION_ARENA];
+        let mut scratch = [0u8; VIBRATION_SCRATCH];
         let mut line = Line::new();
         let text = include_str!("../../../tests/fixtures/vectors/vibration.txt");
         let first = text.lines().next().unwrap();
         let changed = first.replacen("class=1", "class=2", 1);
-        assert!(!check_line(&model, Feed::F32, &changed, &mut arena, &mut line).unwrap());
+        assert!(!check_line(&model, Feed::F32, &changed, &mut scratch, &mut line).unwrap());
         assert_eq!(line.as_str(), first);
     }
 
     #[test]
     fn a_line_without_inputs_is_refused() {
         let model = Model::parse(VIBRATION).unwrap();
-        let mut arena = [0u8; VIBRATION_ARENA];
+        let mut scratch = [0u8; VIBRATION_SCRATCH];
         let mut line = Line::new();
         let text = include_str!("../../../tests/fixtures/vectors/digits_u8.txt");
         let first = text.lines().next().unwrap();
         assert_eq!(
-            check_line(&model, Feed::U8, first, &mut arena, &mut line),
+            check_line(&model, Feed::U8, first, &mut scratch, &mut line),
             Err(VectorError::BadExpectedLine)
         );
         let bad = "x 000 class=0 score=0 out=0 feat=zz";
         assert_eq!(
-            check_line(&model, Feed::F32, bad, &mut arena, &mut line),
+            check_line(&model, Feed::F32, bad, &mut scratch, &mut line),
             Err(VectorError::BadExpectedLine)
         );
     }

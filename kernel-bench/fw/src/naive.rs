@@ -3,8 +3,8 @@
 //! outputs agree (the self-check compares them too). The indexed loops are the point of the
 //! baseline, so clippy's iterator advice (`needless_range_loop`) is turned off here.
 #![allow(clippy::needless_range_loop)]
-use kinglet_runtime::dense::DenseI8;
-use kinglet_runtime::requant::requantize;
+use kinglet_runtime::unstable::dense::DenseI8;
+use kinglet_runtime::unstable::requant::requantise_reference;
 
 fn word(b: &[u8], i: usize) -> [u8; 4] {
     [b[4 * i], b[4 * i + 1], b[4 * i + 2], b[4 * i + 3]]
@@ -21,7 +21,7 @@ pub fn dense_i8(p: &DenseI8<'_>, x: &[u8], out: &mut [u8]) {
         }
         let m = i32::from_le_bytes(word(p.multiplier, o));
         let s = p.shift[o] as i8;
-        out[o] = requantize(acc, m, s, p.zero_point, p.act_min, p.act_max) as u8;
+        out[o] = requantise_reference(acc, m, s, p.zero_point, p.act_min, p.act_max) as u8;
     }
 }
 

@@ -4,8 +4,9 @@ use crate::blobs::Aligned;
 use crate::naive;
 use crate::rng::Rng;
 #[cfg(kb_big_f32)]
-use kinglet_runtime::dense::DenseF32;
-use kinglet_runtime::dense::{self, layout, portable, DenseI8};
+use kinglet_runtime::unstable::dense::DenseF32;
+use kinglet_runtime::unstable::dense::{self, portable, DenseI8};
+use kinglet_runtime::unstable::wire::layout;
 
 const MAX_IN: usize = 70;
 #[cfg(kb_big_f32)]
@@ -103,13 +104,13 @@ fn int8_case(rng: &mut Rng) -> bool {
     portable::dense_i8(&base, &x[..n], &mut reference[..m]);
     let mut ok = true;
     let mut out = [0u8; MAX_OUT];
-    dense::dense_i8_blocked(&blocked, &x[..n], &mut out[..m]);
+    dense::dense_i8_blocked_auto(&blocked, &x[..n], &mut out[..m]);
     ok &= out[..m] == reference[..m];
     let mut out = [0u8; MAX_OUT];
-    portable::dense_i8_blocked(&blocked, &x[..n], &mut out[..m]);
+    portable::dense_i8_blocked_portable(&blocked, &x[..n], &mut out[..m]);
     ok &= out[..m] == reference[..m];
     let mut out = [0u8; MAX_OUT];
-    dense::m0::dense_i8_blocked(&blocked, &x[..n], &mut out[..m]);
+    dense::m0::dense_i8_blocked_m0_rust(&blocked, &x[..n], &mut out[..m]);
     ok &= out[..m] == reference[..m];
     let mut out = [0u8; MAX_OUT];
     naive::dense_i8(&base, &x[..n], &mut out[..m]);
@@ -163,10 +164,10 @@ fn f32_case(rng: &mut Rng) -> bool {
     portable::dense_f32(&output_major, x, &mut reference[..4 * m]);
     let mut ok = true;
     let mut out = [0u8; 4 * MAX_OUT];
-    dense::dense_f32_blocked(&blocked, x, &mut out[..4 * m]);
+    dense::dense_f32_blocked_auto(&blocked, x, &mut out[..4 * m]);
     ok &= out[..4 * m] == reference[..4 * m];
     let mut out = [0u8; 4 * MAX_OUT];
-    portable::dense_f32_blocked(&blocked, x, &mut out[..4 * m]);
+    portable::dense_f32_blocked_portable(&blocked, x, &mut out[..4 * m]);
     ok &= out[..4 * m] == reference[..4 * m];
     let mut out = [0u8; 4 * MAX_OUT];
     naive::dense_f32(n, om, b, relu, x, &mut out[..4 * m]);

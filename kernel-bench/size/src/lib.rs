@@ -1,12 +1,12 @@
 //! The skeleton every code-size probe shares: a blob the optimiser cannot see into, a 64-byte
-//! arena, four `u8` features, and an exit through semihosting. `size_base` runs it without the
+//! scratch buffer, four `u8` features, and an exit through semihosting. `size_base` runs it without the
 //! runtime; the difference of a probe's `.text` and `size_base`'s is the runtime's code for
 //! what that probe calls. `scripts/kernel-bench.sh` builds the crate with and without the `f32`
 //! feature (the runtime with f32 models, and int8-only).
 //!
 //! Register allocation in the probes' `main` moves their size by tens of bytes: keeping the
 //! blob alive after the call, as the baseline must, made the M4 `infer` probe 76 bytes larger.
-//! So the skeleton keeps only the arena and the features alive, and `size_base` the blob too.
+//! So the skeleton keeps only the scratch buffer and the features alive, and `size_base` the blob too.
 #![no_std]
 
 use cortex_m_semihosting::debug;
@@ -17,12 +17,12 @@ fn panic(_: &core::panic::PanicInfo<'_>) -> ! {
     loop {}
 }
 
-/// `probe!(|blob, features, arena| { body })`: the `main` of a probe. `blob: &[u8]`,
-/// `features: [u8; 4]`, `arena: [u8; 64]` are in scope for `body`; the arena and the features
+/// `probe!(|blob, features, scratch buffer| { body })`: the `main` of a probe. `blob: &[u8]`,
+/// `features: [u8; 4]`, `scratch buffer: [u8; 64]` are in scope for `body`; the scratch buffer and the features
 /// are kept alive after it, and the probe exits.
 #[macro_export]
 macro_rules! probe {
-    (|$blob:ident, $features:ident, $arena:ident| { $($body:tt)* }) => {
+    (|$blob:ident, $features:ident, $scratch:ident| { $($body:tt)* }) => {
         #[cortex_m_rt::entry]
         fn main() -> ! {
             use core::hint::black_box;
@@ -30,10 +30,10 @@ macro_rules! probe {
             static BLOB: [u8; 4] = [0; 4];
             let $blob: &[u8] = black_box(&BLOB);
             #[allow(unused_mut)]
-            let mut $arena = [0u8; 64];
+            let mut $scratch = [0u8; 64];
             let $features = [0u8; 4];
             $($body)*
-            black_box((&mut $arena, &$features));
+            black_box((&mut $scratch, &$features));
             cortex_m_semihosting::debug::exit(cortex_m_semihosting::debug::EXIT_SUCCESS);
             loop {}
         }

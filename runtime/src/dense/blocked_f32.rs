@@ -1,8 +1,8 @@
 //! What every f32 `Blocked4x4` kernel (portable, soft-float `m0`, Cortex-M4F `asm!`) shares:
 //! cutting the weight field and the inputs, and finishing a block's rows (bias, ReLU, store).
 //! The accumulation, which is where the kernels differ, stays in each kernel.
-use super::layout::{self, BLOCK_ROWS};
 use super::DenseF32;
+use crate::wire::layout::{self, BLOCK_ROWS};
 
 /// A layer's blocked f32 weights without their alignment bytes, its inputs, and the bytes of
 /// one 4-row block.

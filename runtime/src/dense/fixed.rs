@@ -1,39 +1,7 @@
-//! Requantisation for the kernels: the same results as [`crate::requant::requantize`] for every
-//! parameter validation lets through (multiplier in `[2^30, 2^31 - 1]`, shift in `[-31, 31]`),
-//! in fewer instructions.
-//!
-//! - `SaturatingRoundingDoublingHighMul(x, m)` is `round(x·m / 2^31)` with ties upward, which
-//!   for both signs equals `floor((x·m + 2^30) / 2^31)` (for `x·m < 0` the nudge `1 - 2^30` and
-//!   the truncation toward zero add up to the same floor); its one saturating case needs
-//!   `m = i32::MIN`, which validation excludes.
-//! - `RoundingDivideByPOT(v, e)`, ties away from zero, is gemmlowp's mask-and-threshold form
-//!   (as [`crate::requant::rounding_divide_by_pot`]), in 32 bits, without a branch for `e = 0`.
-//!
-//! `kernels_prop.rs` checks the equality against [`crate::requant::requantize`].
-//!
-//! `blocks_i8` is the block loop around the accumulation that the target kernels share.
-use super::layout::{self, BLOCK_ROWS, GROUP, GROUP_ELEMS};
+//! `blocks_i8`: the block loop around the accumulation that the target kernels share.
+//! Requantisation is [`crate::requant::requantise_validated`].
 use super::DenseI8;
-
-/// [`crate::requant::requantize`] for a validated multiplier (`≥ 2^30`).
-#[inline(always)]
-pub fn requantize(acc: i32, multiplier: i32, shift: i8, zero_point: i8, lo: i8, hi: i8) -> i8 {
-    let x = if shift < 0 {
-        let wide = i64::from(acc) << u32::from(shift.unsigned_abs()).min(31);
-        wide.clamp(i64::from(i32::MIN), i64::from(i32::MAX))
-    } else {
-        i64::from(acc)
-    };
-    // |x · multiplier| ≤ 2^62, so the rounded high half fits in i32 (see the module docs).
-    let high = ((x * i64::from(multiplier) + (1 << 30)) >> 31) as i32;
-    // RoundingDivideByPOT in its own 32-bit form: `e = 0` gives mask 0 and no rounding.
-    let e = u32::from(shift.max(0) as u8).min(31);
-    let mask = ((1u32 << e) - 1) as i32;
-    let threshold = (mask >> 1) + i32::from(high < 0);
-    let scaled = (high >> e) + i32::from(high & mask > threshold);
-    let y = scaled.saturating_add(i32::from(zero_point));
-    y.clamp(i32::from(lo), i32::from(hi)) as i8
-}
+use crate::wire::layout::{self, BLOCK_ROWS, GROUP, GROUP_ELEMS};
 
 /// The first `N` bytes of a short slice, zero-padded (the parameters of the last block of a
 /// layer whose width is not a multiple of 4).
@@ -68,7 +36,8 @@ fn finish(
             .wrapping_add(a)
             .wrapping_sub(correction);
         let m = i32::from_le_bytes(*m);
-        *o = requantize(v, m, s as i8, p.zero_point, p.act_min, p.act_max) as u8;
+        *o = crate::requant::requantise_validated(v, m, s as i8, p.zero_point, p.act_min, p.act_max)
+            as u8;
     }
     y
 }

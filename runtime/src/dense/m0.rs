@@ -7,9 +7,9 @@
 //! is a single `LDRB` with an immediate offset into the 16-byte group; each input is loaded once
 //! and reused for the 4 rows of a block (`MULS` + `ADD` per weight). `128 · Σ x` is subtracted
 //! once per layer (see [`super::portable::excess_correction`]).
-use super::layout::{BLOCK_ROWS, GROUP, GROUP_ELEMS};
 use super::portable::excess_correction;
 use super::{DenseF32, DenseI8};
+use crate::wire::layout::{BLOCK_ROWS, GROUP, GROUP_ELEMS};
 
 /// Adds one input's products with the 4 rows of a group: weights `g[k]`, `g[4 + k]`, ...
 #[inline(always)]
@@ -37,17 +37,17 @@ fn block_groups(groups: &[[u8; GROUP_ELEMS]], x: &[[u8; GROUP]]) -> [i32; BLOCK_
 }
 
 /// Runs an int8 dense layer with `Blocked4x4` weights; the same results as
-/// [`super::portable::dense_i8_blocked`].
-pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+/// [`super::portable::dense_i8_blocked_portable`].
+pub fn dense_i8_blocked_m0_rust(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     let correction = excess_correction(input, p.inputs);
     super::fixed::blocks_i8(p, input, output, correction, block_groups);
 }
 
 /// Runs an f32 dense layer with `Blocked4x4` weights, one block at a time; the same results as
-/// [`super::portable::dense_f32_blocked`] (each row adds its products in input order from
+/// [`super::portable::dense_f32_blocked_portable`] (each row adds its products in input order from
 /// `+0.0`, then the bias). The soft-float targets use it: it is several times smaller than the
 /// portable kernel, which interleaves two blocks for speed on hosts.
-pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
+pub fn dense_f32_blocked_m0_rust(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
     let outs = output.as_chunks_mut::<4>().0;
     let Some(super::blocked_f32::Cut { data, x, block_len }) =
         super::blocked_f32::cut(p, outs.len(), input)
@@ -75,7 +75,8 @@ pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::dense::{layout, portable};
+    use crate::dense::portable;
+    use crate::wire::layout;
 
     /// Small deterministic generator (xorshift32) for test data.
     fn next(s: &mut u32) -> u32 {
@@ -117,7 +118,7 @@ mod tests {
                     };
                     portable::dense_f32(&output_major, &x, &mut want);
                     let mut got = vec![1u8; 4 * m];
-                    dense_f32_blocked(&blocked, &x, &mut got);
+                    dense_f32_blocked_m0_rust(&blocked, &x, &mut got);
                     assert_eq!(got, want, "{n}x{m} relu {relu}");
                 }
             }

@@ -2,7 +2,7 @@
 //!
 //! [`portable`] holds plain-Rust kernels for every weight layout; they are always compiled and
 //! are the reference. On Cortex-M the entry points here pick a faster kernel for
-//! [`WeightLayout::Blocked4x4`](crate::format::WeightLayout::Blocked4x4) weights, chosen when
+//! [`WeightLayout::Blocked4x4`](crate::wire::format::WeightLayout::Blocked4x4) weights, chosen when
 //! the runtime is compiled (the runtime's build script maps the compilation target to a kernel,
 //! because ARM target features are not visible to `cfg` on stable Rust):
 //!
@@ -23,7 +23,6 @@
 //! with the same results.
 mod blocked_f32;
 pub mod fixed;
-pub mod layout;
 pub mod portable;
 
 /// The `asm!` kernels; the crate's only module where `unsafe` is allowed.
@@ -69,7 +68,7 @@ pub struct DenseI8<'a> {
     pub act_max: i8,
 }
 
-/// Name of the int8 kernel [`dense_i8_blocked`] uses on this build.
+/// Name of the int8 kernel [`dense_i8_blocked_auto`] uses on this build.
 pub const KERNEL: &str = if cfg!(kinglet_kernel = "dsp") {
     "dsp"
 } else if cfg!(kinglet_kernel = "m0") {
@@ -81,13 +80,13 @@ pub const KERNEL: &str = if cfg!(kinglet_kernel = "dsp") {
 /// Runs an int8 dense layer with `Blocked4x4` weights on the fastest kernel of this build;
 /// `output.len()` is the layer's output width.
 #[inline]
-pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+pub fn dense_i8_blocked_auto(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     #[cfg(kinglet_kernel = "dsp")]
-    return asm::m4::dense_i8_blocked(p, input, output);
+    return asm::m4::dense_i8_blocked_m4_asm(p, input, output);
     #[cfg(kinglet_kernel = "m0")]
-    return asm::m0::dense_i8_blocked(p, input, output);
+    return asm::m0::dense_i8_blocked_m0_asm(p, input, output);
     #[allow(unreachable_code)]
-    portable::dense_i8_blocked(p, input, output)
+    portable::dense_i8_blocked_portable(p, input, output)
 }
 
 /// Parameters of one f32 dense layer, borrowed from the blob.
@@ -107,12 +106,12 @@ pub struct DenseF32<'a> {
 /// Runs an f32 dense layer with `Blocked4x4` weights on the fastest kernel of this build;
 /// `output.len() / 4` is the layer's output width.
 #[inline]
-pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
+pub fn dense_f32_blocked_auto(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
     #[cfg(all(kinglet_kernel = "dsp", kinglet_fpu))]
-    return asm::m4::dense_f32_blocked(p, input, output);
+    return asm::m4::dense_f32_blocked_m4_asm(p, input, output);
     // Soft-float targets: the one-block kernel, for flash.
     #[cfg(all(any(kinglet_kernel = "dsp", kinglet_kernel = "m0"), not(kinglet_fpu)))]
-    return m0::dense_f32_blocked(p, input, output);
+    return m0::dense_f32_blocked_m0_rust(p, input, output);
     #[allow(unreachable_code)]
-    portable::dense_f32_blocked(p, input, output)
+    portable::dense_f32_blocked_portable(p, input, output)
 }

@@ -3,12 +3,12 @@
 //!
 //! Validation guarantees the slice lengths agree with the shapes; should they not, the zipped
 //! iterators simply stop early — they never index out of bounds.
-use super::layout::{self, BLOCK_ROWS, GROUP, GROUP_ELEMS};
 use super::{DenseF32, DenseI8};
 use crate::le;
-use crate::requant::requantize;
+use crate::requant::{requantise_reference, requantise_validated};
+use crate::wire::layout::{self, BLOCK_ROWS, GROUP, GROUP_ELEMS};
 
-/// Runs an int8 dense layer with [`crate::format::WeightLayout::OutputMajor`] weights: `input` holds `inputs` int8 values, `output` receives one per row.
+/// Runs an int8 dense layer with [`crate::wire::format::WeightLayout::OutputMajor`] weights: `input` holds `inputs` int8 values, `output` receives one per row.
 ///
 /// Accumulates in i32; [`crate::Model::parse`] proved that no int8 input can overflow it.
 pub fn dense_i8(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
@@ -22,7 +22,8 @@ pub fn dense_i8(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
         for (&w, &x) in row.iter().zip(input) {
             acc += i32::from(w as i8) * i32::from(x as i8);
         }
-        *out = requantize(acc, mult, shift as i8, p.zero_point, p.act_min, p.act_max) as u8;
+        *out =
+            requantise_reference(acc, mult, shift as i8, p.zero_point, p.act_min, p.act_max) as u8;
     }
 }
 
@@ -73,7 +74,7 @@ pub(crate) fn finish_block(
 ) {
     for (o, (a, (bias, mult, shift))) in out.iter_mut().zip(acc.into_iter().zip(params)) {
         let acc = bias.wrapping_add(a).wrapping_sub(correction);
-        *o = super::fixed::requantize(acc, mult, shift, p.zero_point, p.act_min, p.act_max) as u8;
+        *o = requantise_validated(acc, mult, shift, p.zero_point, p.act_min, p.act_max) as u8;
     }
 }
 
@@ -117,9 +118,9 @@ fn block_lanes_i8(block: &[u8], x: &[u8]) -> [i32; BLOCK_ROWS] {
     acc
 }
 
-/// Runs an int8 dense layer with [`crate::format::WeightLayout::Blocked4x4`] weights (the whole
+/// Runs an int8 dense layer with [`crate::wire::format::WeightLayout::Blocked4x4`] weights (the whole
 /// field, alignment bytes included); `output.len()` is the layer's output width.
-pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+pub fn dense_i8_blocked_portable(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     let n = p.inputs;
     let Some((_, data)) = layout::split(p.weights, n, output.len(), 1) else {
         return;
@@ -153,9 +154,9 @@ fn groups_f32<const B: usize>(groups: [&[u8]; B], x: &[u8], acc: &mut [[f32; BLO
     }
 }
 
-/// Runs an f32 dense layer with [`crate::format::WeightLayout::Blocked4x4`] weights; each row
+/// Runs an f32 dense layer with [`crate::wire::format::WeightLayout::Blocked4x4`] weights; each row
 /// adds its products in input order from `+0.0`, then the bias, exactly as [`dense_f32`].
-pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
+pub fn dense_f32_blocked_portable(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
     let outs = output.as_chunks_mut::<4>().0;
     let Some(super::blocked_f32::Cut { data, x, block_len }) =
         super::blocked_f32::cut(p, outs.len(), input)

@@ -25,7 +25,7 @@ fn panic(_: &core::panic::PanicInfo<'_>) -> ! {
 #[no_mangle]
 pub extern "C" fn _start() -> ! {
     let blob: &[u8] = black_box(&FLASH[..]);
-    let mut arena = [0u8; 2048];
+    let mut scratch = [0u8; 2048];
     let mut scores = [0f32; 16];
     loop {
         if let Ok(model) = Model::parse(blob) {
@@ -38,13 +38,13 @@ pub extern "C" fn _start() -> ! {
                 Input::I16(black_box(&h[..n])),
                 Input::U8(black_box(&u[..n])),
             ] {
-                let arena = black_box(&mut arena[..]);
+                let scratch = black_box(&mut scratch[..]);
                 let scores = black_box(&mut scores[..]);
-                black_box(model.infer(input, arena, scores).ok());
-                black_box(model.classify(input, arena).ok());
+                black_box(model.infer(input, scratch, scores).ok());
+                black_box(model.classify(input, scratch).ok());
                 black_box(
                     model
-                        .infer_traced(input, arena, scores, &mut |s| {
+                        .infer_traced(input, scratch, scores, &mut |s| {
                             black_box(s.values.real(0));
                         })
                         .ok(),
@@ -52,8 +52,8 @@ pub extern "C" fn _start() -> ! {
             }
             black_box(model.labels().count());
             black_box(model.label(black_box(1)));
-            black_box(model.arena_bytes());
-            black_box(kinglet_runtime::arena_bytes(blob));
+            black_box(model.scratch_bytes());
+            black_box(kinglet_runtime::scratch_bytes(blob));
         }
     }
 }

@@ -9,9 +9,9 @@ use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
 use kinglet_firmware_bench::blobs::{self, Aligned};
 use kinglet_firmware_bench::{marker, naive, rng::Rng, selfcheck};
-use kinglet_runtime::dense::{self, portable, DenseF32, DenseI8};
-use kinglet_runtime::format::{LayerDesc, WeightLayout};
-use kinglet_runtime::requant::activation_range;
+use kinglet_runtime::unstable::dense::{self, portable, DenseF32, DenseI8};
+use kinglet_runtime::unstable::requant::activation_range;
+use kinglet_runtime::unstable::wire::format::{LayerDesc, WeightLayout};
 use kinglet_runtime::{Input, Model};
 
 #[panic_handler]
@@ -56,7 +56,7 @@ fn params<'a>(l: &LayerDesc<'a>) -> DenseI8<'a> {
 fn run_i8(l: &LayerDesc<'_>, x: &[u8], out: &mut [u8]) {
     let p = params(l);
     match l.layout {
-        WeightLayout::Blocked4x4 => dense::dense_i8_blocked(&p, x, out),
+        WeightLayout::Blocked4x4 => dense::dense_i8_blocked_auto(&p, x, out),
         _ => dense::dense_i8(&p, x, out),
     }
 }
@@ -92,7 +92,7 @@ fn int8_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut R
     });
     assert!(out[..m] == reference[..m], "{} portable differs", name);
     case(name, "portable-blocked", n * m, || {
-        portable::dense_i8_blocked(black_box(&pb), black_box(x), &mut out[..m])
+        portable::dense_i8_blocked_portable(black_box(&pb), black_box(x), &mut out[..m])
     });
     assert!(
         out[..m] == reference[..m],
@@ -100,7 +100,7 @@ fn int8_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut R
         name
     );
     case(name, "kernel", n * m, || {
-        dense::dense_i8_blocked(black_box(&pb), black_box(x), &mut out[..m])
+        dense::dense_i8_blocked_auto(black_box(&pb), black_box(x), &mut out[..m])
     });
     assert!(out[..m] == reference[..m], "{} kernel differs", name);
     black_box(&out);
@@ -148,7 +148,7 @@ fn f32_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rn
             bias: lb.bias,
             relu,
         };
-        dense::dense_f32_blocked(&p, black_box(x), &mut out[..4 * m])
+        dense::dense_f32_blocked_auto(&p, black_box(x), &mut out[..4 * m])
     });
     assert!(
         out[..4 * m] == reference[..4 * m],
@@ -166,16 +166,16 @@ fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut 
         *f = (rng.next_u32() % 17) as f32 * if n == 64 { 1.0 } else { 0.25 };
     }
     let input = Input::F32(&features[..n]);
-    let mut arena = Aligned([0u8; 512]);
+    let mut scratch = Aligned([0u8; 512]);
     let mut scores = [0f32; 16];
     let macs: usize = mb.layers().map(|l| l.macs()).sum();
     let mut pred = None;
     case(name, "model-portable", macs, || {
-        pred = Some(mo.infer(black_box(input), &mut arena.0, &mut scores));
+        pred = Some(mo.infer(black_box(input), &mut scratch.0, &mut scores));
     });
     let want = pred.take();
     case(name, "model-kernel", macs, || {
-        pred = Some(mb.infer(black_box(input), &mut arena.0, &mut scores));
+        pred = Some(mb.infer(black_box(input), &mut scratch.0, &mut scores));
     });
     assert!(
         pred == want && want.is_some_and(|p| p.is_ok()),
@@ -190,11 +190,11 @@ fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut 
     }
     let ints = Input::I16(&counts[..n]);
     case(name, "model-infer-i16", macs, || {
-        pred = Some(mb.infer(black_box(ints), &mut arena.0, &mut scores));
+        pred = Some(mb.infer(black_box(ints), &mut scratch.0, &mut scores));
     });
     let mut class = None;
     case(name, "model-classify-i16", macs, || {
-        class = Some(mb.classify(black_box(ints), &mut arena.0));
+        class = Some(mb.classify(black_box(ints), &mut scratch.0));
     });
     assert!(
         pred.is_some_and(|p| p.is_ok_and(|p| class == Some(Ok(p.class)))),
@@ -202,7 +202,7 @@ fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut 
         name
     );
     for (k, l) in mb.desc().layers.iter().enumerate() {
-        let (src, dst) = arena.0.split_at_mut(256);
+        let (src, dst) = scratch.0.split_at_mut(256);
         fill(&mut src[..l.inputs as usize], rng);
         let mut label = [0u8; 24];
         let text = layer_name(&mut label, name, k);

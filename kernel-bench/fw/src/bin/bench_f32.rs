@@ -13,8 +13,8 @@ use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
 use kinglet_firmware_bench::blobs::{self, Aligned};
 use kinglet_firmware_bench::{marker, rng::Rng};
-use kinglet_runtime::dense::{self, DenseF32};
-use kinglet_runtime::format::{Activation, WeightLayout};
+use kinglet_runtime::unstable::dense::{self, DenseF32};
+use kinglet_runtime::unstable::wire::format::{Activation, WeightLayout};
 use kinglet_runtime::{Input, Model};
 
 #[panic_handler]
@@ -54,16 +54,16 @@ fn whole_f32(name: &str, blob: &'static [u8], rng: &mut Rng) {
         *f = (rng.next_u32() % 17) as f32 * if n == 64 { 1.0 } else { 0.25 };
     }
     let input = Input::F32(&features[..n]);
-    let mut arena = Aligned([0u8; 1024]);
+    let mut scratch = Aligned([0u8; 1024]);
     let mut scores = [0f32; 16];
     let macs: usize = m.layers().map(|l| l.macs()).sum();
     let mut pred = None;
     case(name, "model-kernel", macs, || {
-        pred = Some(m.infer(black_box(input), &mut arena.0, &mut scores));
+        pred = Some(m.infer(black_box(input), &mut scratch.0, &mut scores));
     });
     assert!(pred.is_some_and(|p| p.is_ok()), "{} failed", name);
     for (k, l) in m.desc().layers.iter().enumerate() {
-        let (src, dst) = arena.0.split_at_mut(512);
+        let (src, dst) = scratch.0.split_at_mut(512);
         let (inputs, outputs) = (l.inputs as usize, l.outputs as usize);
         for c in src[..4 * inputs].chunks_exact_mut(4) {
             c.copy_from_slice(&rng.f32().to_le_bytes());
@@ -79,7 +79,7 @@ fn whole_f32(name: &str, blob: &'static [u8], rng: &mut Rng) {
             };
             let (x, y) = (black_box(&src[..4 * inputs]), &mut dst[..4 * outputs]);
             match l.layout {
-                WeightLayout::Blocked4x4 => dense::dense_f32_blocked(&p, x, y),
+                WeightLayout::Blocked4x4 => dense::dense_f32_blocked_auto(&p, x, y),
                 _ => dense::dense_f32(&p, x, y),
             }
         });

@@ -26,7 +26,7 @@ fn report(model: &str, call: &str, used: stack::Used) {
 
 /// Parse, then `infer` from f32 features; with `every_path`, also `infer` from u8 and i16 and
 /// `classify` from i16 counts.
-fn calls(name: &str, blob: &'static [u8], arena: &mut [u8], rng: &mut Rng, every_path: bool) {
+fn calls(name: &str, blob: &'static [u8], scratch: &mut [u8], rng: &mut Rng, every_path: bool) {
     let blob = black_box(blob);
     let (model, used) = stack::measure(|| Model::parse(blob));
     report(name, "parse", used);
@@ -47,7 +47,7 @@ fn calls(name: &str, blob: &'static [u8], arena: &mut [u8], rng: &mut Rng, every
         ("infer-i16", Input::I16(&counts[..n])),
     ];
     for (call, input) in inputs.into_iter().take(if every_path { 3 } else { 1 }) {
-        let (r, used) = stack::measure(|| model.infer(black_box(input), arena, &mut scores));
+        let (r, used) = stack::measure(|| model.infer(black_box(input), scratch, &mut scores));
         assert!(r.is_ok(), "{} {} failed", name, call);
         report(name, call, used);
     }
@@ -55,7 +55,7 @@ fn calls(name: &str, blob: &'static [u8], arena: &mut [u8], rng: &mut Rng, every
         return;
     }
     let input = Input::I16(&counts[..n]);
-    let (r, used) = stack::measure(|| model.classify(black_box(input), arena));
+    let (r, used) = stack::measure(|| model.classify(black_box(input), scratch));
     assert!(r.is_ok(), "{} classify failed", name);
     report(name, "classify-i16", used);
 }
@@ -63,16 +63,22 @@ fn calls(name: &str, blob: &'static [u8], arena: &mut [u8], rng: &mut Rng, every
 #[entry]
 fn main() -> ! {
     hprintln!("kb model_struct {}", core::mem::size_of::<Model<'_>>());
-    let mut arena = Aligned([0u8; 1024]);
+    let mut scratch = Aligned([0u8; 1024]);
     let mut rng = Rng::new(42);
-    calls("digits", blobs::DIGITS, &mut arena.0, &mut rng, true);
-    calls("vibration", blobs::VIBRATION, &mut arena.0, &mut rng, true);
+    calls("digits", blobs::DIGITS, &mut scratch.0, &mut rng, true);
+    calls(
+        "vibration",
+        blobs::VIBRATION,
+        &mut scratch.0,
+        &mut rng,
+        true,
+    );
     // The f32 model's other input paths convert to f32 and run the same layers; on the M0,
     // in software float, each is 1.6 million traced instructions.
     calls(
         "digits-f32",
         blobs::DIGITS_F32,
-        &mut arena.0,
+        &mut scratch.0,
         &mut rng,
         false,
     );

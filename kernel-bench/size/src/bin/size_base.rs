@@ -2,6 +2,6 @@
 #![no_std]
 #![no_main]
 
-kinglet_size_probe::probe!(|blob, features, arena| {
+kinglet_size_probe::probe!(|blob, features, scratch| {
     black_box(blob);
 });

@@ -5,8 +5,8 @@
 
 use kinglet_runtime::{Input, Model};
 
-kinglet_size_probe::probe!(|blob, features, arena| {
+kinglet_size_probe::probe!(|blob, features, scratch| {
     if let Ok(m) = Model::parse(blob) {
-        black_box(m.classify(Input::U8(black_box(&features)), &mut arena)).ok();
+        black_box(m.classify(Input::U8(black_box(&features)), &mut scratch)).ok();
     }
 });

@@ -5,9 +5,9 @@
 
 use kinglet_runtime::{Input, Model};
 
-kinglet_size_probe::probe!(|blob, features, arena| {
+kinglet_size_probe::probe!(|blob, features, scratch| {
     let mut scores = [0f32; 4];
     if let Ok(m) = Model::parse(blob) {
-        black_box(m.infer(Input::U8(black_box(&features)), &mut arena, &mut scores)).ok();
+        black_box(m.infer(Input::U8(black_box(&features)), &mut scratch, &mut scores)).ok();
     }
 });

@@ -8,9 +8,9 @@
 use core::arch::asm;
 
 use crate::dense::fixed::blocks_i8;
-use crate::dense::layout::{BLOCK_ROWS, GROUP, GROUP_ELEMS};
 use crate::dense::portable::excess_correction;
 use crate::dense::DenseI8;
+use crate::wire::layout::{BLOCK_ROWS, GROUP, GROUP_ELEMS};
 
 /// The 4 rows' products with input `$x` (already in r2) of the group at weight offset `$g`.
 macro_rules! column {
@@ -130,8 +130,8 @@ fn groups(w: &[[u8; GROUP_ELEMS]], x: &[[u8; GROUP]]) -> [i32; BLOCK_ROWS] {
 }
 
 /// Runs an int8 dense layer with `Blocked4x4` weights; the same results as
-/// [`crate::dense::portable::dense_i8_blocked`].
-pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+/// [`crate::dense::portable::dense_i8_blocked_portable`].
+pub fn dense_i8_blocked_m0_asm(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     let correction = excess_correction(input, p.inputs);
     blocks_i8(p, input, output, correction, groups);
 }

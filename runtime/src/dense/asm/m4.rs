@@ -3,10 +3,10 @@
 use core::arch::asm;
 
 use crate::dense::fixed::blocks_i8;
-use crate::dense::layout::{BLOCK_ROWS, GROUP, GROUP_ELEMS};
 #[cfg(kinglet_fpu)]
 use crate::dense::DenseF32;
 use crate::dense::DenseI8;
+use crate::wire::layout::{BLOCK_ROWS, GROUP, GROUP_ELEMS};
 
 /// One 4-input group for 4 rows. `$load` loads the next two rows' weight words into r4, r5.
 macro_rules! group_i8 {
@@ -127,8 +127,8 @@ fn excess_correction(input: &[u8], n: usize) -> i32 {
 }
 
 /// Runs an int8 dense layer with `Blocked4x4` weights; the same results as
-/// [`crate::dense::portable::dense_i8_blocked`].
-pub fn dense_i8_blocked(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+/// [`crate::dense::portable::dense_i8_blocked_portable`].
+pub fn dense_i8_blocked_m4_asm(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     let correction = excess_correction(input, p.inputs);
     blocks_i8(p, input, output, correction, groups_i8);
 }
@@ -217,10 +217,10 @@ fn groups_f32(w: &[[u8; GROUP_ELEMS * 4]], x: &[[u8; GROUP * 4]], acc: &mut [f32
 }
 
 /// Runs an f32 dense layer with `Blocked4x4` weights; the same results as
-/// [`crate::dense::portable::dense_f32_blocked`]. Weight data that is not 4-byte aligned takes
+/// [`crate::dense::portable::dense_f32_blocked_portable`]. Weight data that is not 4-byte aligned takes
 /// a plain Rust loop (slower, same results).
 #[cfg(kinglet_fpu)]
-pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
+pub fn dense_f32_blocked_m4_asm(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
     let outs = output.as_chunks_mut::<4>().0;
     let Some(crate::dense::blocked_f32::Cut { data, x, block_len }) =
         crate::dense::blocked_f32::cut(p, outs.len(), input)
@@ -236,7 +236,7 @@ pub fn dense_f32_blocked(p: &DenseF32<'_>, input: &[u8], output: &mut [u8]) {
     for (block, out) in data
         .chunks_exact(block_len.max(1))
         .zip(&mut outs.chunks_mut(BLOCK_ROWS))
-    // `&mut`: see `dense_i8_blocked`
+    // `&mut`: see `dense_i8_blocked_m4_asm`
     {
         let groups = block.as_chunks::<{ GROUP_ELEMS * 4 }>().0;
         let mut acc = [0.0f32; BLOCK_ROWS];

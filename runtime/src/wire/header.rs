@@ -1,36 +1,9 @@
 //! The fixed 20-byte header (`FORMAT.md` §2) and the `const fn`s that read it at build time.
 use crate::error::FormatError;
+use crate::wire::version::{FORMAT_VERSION, OLDEST_VERSION};
 
 /// Magic bytes at offset 0.
 pub const MAGIC: [u8; 4] = *b"KGLT";
-
-/// The newest format version this reader accepts (and writes when a blob needs it).
-pub const FORMAT_VERSION: u16 = 2;
-
-/// The oldest format version this reader accepts. Version 1 is version 2 without the
-/// `Blocked4x4` weight layout; a blob carries exactly the lowest version that holds it
-/// ([`version_for`]), which writers emit and the reader requires.
-pub const OLDEST_VERSION: u16 = 1;
-
-/// The version a blob with this layer table carries: 2 if any layer uses the `Blocked4x4`
-/// layout, else 1 (so readers of version 1 still read it). Writers put it in the header and
-/// `Model::parse` rejects any other (`FormatError::VersionMismatch`): the CRC does not cover
-/// the version field, this rule protects it.
-pub fn version_for(desc: &crate::format::ModelDesc<'_>) -> u16 {
-    version_for_layers(&desc.layers)
-}
-
-/// [`version_for`] of a table with these layers.
-pub fn version_for_layers(layers: &[crate::format::LayerDesc<'_>]) -> u16 {
-    let blocked = layers
-        .iter()
-        .any(|l| l.layout == crate::format::WeightLayout::Blocked4x4);
-    if blocked {
-        2
-    } else {
-        OLDEST_VERSION
-    }
-}
 
 /// Length of the fixed header in bytes.
 pub const HEADER_LEN: usize = 20;
@@ -47,12 +20,12 @@ pub mod offset {
     pub const TOTAL_LEN: usize = 8;
     /// The CRC, `u32`.
     pub const CRC: usize = 12;
-    /// The arena size, `u32` (the first checksummed field).
-    pub const ARENA: usize = 16;
+    /// The scratch size, `u32` (the first checksummed field).
+    pub const SCRATCH: usize = 16;
 }
 
-/// Byte offset where the checksummed region starts (the arena field and the body).
-pub const CHECKED_FROM: usize = offset::ARENA;
+/// Byte offset where the checksummed region starts (the scratch field and the body).
+pub const CHECKED_FROM: usize = offset::SCRATCH;
 
 /// The checksum: CRC-32/ISO-HDLC (the CRC of zlib, PNG and Ethernet).
 pub const CHECKSUM: crc::Crc<u32> = crc::Crc::<u32>::new(&crc::CRC_32_ISO_HDLC);
@@ -68,8 +41,8 @@ pub struct Header {
     pub total_len: u32,
     /// CRC-32/ISO-HDLC of bytes `16..total_len`.
     pub crc: u32,
-    /// Arena bytes inference needs.
-    pub arena_bytes: u32,
+    /// Scratch bytes inference needs.
+    pub scratch_bytes: u32,
 }
 
 /// Byte `i` of `b`, or 0 past the end. `slice::get` is not yet callable in a `const fn`, so
@@ -100,7 +73,7 @@ const fn has_magic(b: &[u8]) -> bool {
     matches!(b, [b'K', b'G', b'L', b'T', ..])
 }
 
-/// Arena bytes the blob's model needs, read from its header at compile time.
+/// Scratch bytes the blob's model needs, read from its header at compile time.
 ///
 /// Returns 0 for bytes that do not start with a Kinglet header; [`crate::Model::parse`] checks
 /// the value against the layer table, so a firmware sizing a `static` with this cannot be
@@ -108,14 +81,14 @@ const fn has_magic(b: &[u8]) -> bool {
 ///
 /// ```
 /// const BLOB: &[u8] = &[0; 4]; // in firmware: include_bytes!("model.kgl")
-/// static ARENA_LEN: usize = kinglet_runtime::arena_bytes(BLOB);
-/// assert_eq!(ARENA_LEN, 0);
+/// static SCRATCH_LEN: usize = kinglet_runtime::scratch_bytes(BLOB);
+/// assert_eq!(SCRATCH_LEN, 0);
 /// ```
-pub const fn arena_bytes(blob: &[u8]) -> usize {
+pub const fn scratch_bytes(blob: &[u8]) -> usize {
     if blob.len() < HEADER_LEN || !has_magic(blob) {
         return 0;
     }
-    u32_at(blob, offset::ARENA) as usize
+    u32_at(blob, offset::SCRATCH) as usize
 }
 
 /// Total length of the blob as its header states (0 without a Kinglet header). Use it to cut a
@@ -149,7 +122,7 @@ impl Header {
             flags: u16_at(blob, offset::FLAGS),
             total_len: u32_at(blob, offset::TOTAL_LEN),
             crc: u32_at(blob, offset::CRC),
-            arena_bytes: u32_at(blob, offset::ARENA),
+            scratch_bytes: u32_at(blob, offset::SCRATCH),
         };
         if !(OLDEST_VERSION..=FORMAT_VERSION).contains(&h.version) {
             return Err(FormatError::UnsupportedVersion { found: h.version });
@@ -191,7 +164,7 @@ impl Header {
             &self.flags.to_le_bytes(),
             &self.total_len.to_le_bytes(),
             &self.crc.to_le_bytes(),
-            &self.arena_bytes.to_le_bytes(),
+            &self.scratch_bytes.to_le_bytes(),
         ];
         let mut at = 0;
         for f in fields {
@@ -222,14 +195,14 @@ mod tests {
             flags: 0,
             total_len: 20,
             crc: CHECKSUM.checksum(&[7, 0, 0, 0]),
-            arena_bytes: 7,
+            scratch_bytes: 7,
         };
         let b = h.to_bytes();
         assert_eq!(&b[..4], b"KGLT");
         assert_eq!(Header::read(&b), Ok(h));
-        assert_eq!(arena_bytes(&b), 7);
+        assert_eq!(scratch_bytes(&b), 7);
         assert_eq!(blob_len(&b), 20);
-        assert_eq!(arena_bytes(b"nope, not a model at all"), 0);
+        assert_eq!(scratch_bytes(b"nope, not a model at all"), 0);
         assert_eq!(blob_len(&b[..19]), 0);
     }
 
@@ -240,7 +213,7 @@ mod tests {
             flags: 0,
             total_len: 20,
             crc: CHECKSUM.checksum(&[0, 0, 0, 0]),
-            arena_bytes: 0,
+            scratch_bytes: 0,
         }
         .to_bytes();
         assert_eq!(

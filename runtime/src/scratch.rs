@@ -1,21 +1,21 @@
-//! Arena planning: two ping-pong buffers hold every activation tensor.
+//! Scratch planning: two ping-pong buffers hold every activation tensor.
 //!
 //! Tensor 0 is the (scaled, quantised) input; tensor k is the output of layer k. Even tensors
 //! live in the first buffer, odd ones in the second, so a layer always reads one buffer and
-//! writes the other. The arena is the two buffers back to back: `ping + pong` bytes, where
+//! writes the other. The scratch buffer is the two buffers back to back: `ping + pong` bytes, where
 //! `ping` is the widest even tensor and `pong` the widest odd one, times the element size
-//! (1 byte for int8, 4 for f32). There is no other scratch.
+//! (1 byte for int8, 4 for f32). There is no other working memory.
 
 /// Sizes of the two activation buffers, in bytes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub struct ArenaPlan {
+pub struct ScratchPlan {
     /// Bytes of the buffer holding tensors 0, 2, 4, ...
     pub ping: usize,
     /// Bytes of the buffer holding tensors 1, 3, 5, ...
     pub pong: usize,
 }
 
-impl ArenaPlan {
+impl ScratchPlan {
     /// Plans the buffers for an input of `input_len` elements followed by layers of the given
     /// output widths, with `element_bytes` per element.
     pub fn new(
@@ -23,7 +23,7 @@ impl ArenaPlan {
         outputs: impl Iterator<Item = usize>,
         element_bytes: usize,
     ) -> Self {
-        let mut plan = ArenaPlan {
+        let mut plan = ScratchPlan {
             ping: input_len.saturating_mul(element_bytes),
             pong: 0,
         };
@@ -38,7 +38,7 @@ impl ArenaPlan {
         plan
     }
 
-    /// Total arena bytes.
+    /// Total scratch bytes.
     pub const fn total(&self) -> usize {
         self.ping.saturating_add(self.pong)
     }
@@ -51,18 +51,24 @@ mod tests {
     #[test]
     fn ping_pong_sizes_hand_worked() {
         // 784 inputs → 100 → 10, int8: even tensors {784, 10}, odd {100}: 884 bytes.
-        let p = ArenaPlan::new(784, [100, 10].into_iter(), 1);
+        let p = ScratchPlan::new(784, [100, 10].into_iter(), 1);
         assert_eq!(
             p,
-            ArenaPlan {
+            ScratchPlan {
                 ping: 784,
                 pong: 100
             }
         );
         assert_eq!(p.total(), 884);
         // Same shapes in f32: four bytes per element.
-        assert_eq!(ArenaPlan::new(784, [100, 10].into_iter(), 4).total(), 3536);
+        assert_eq!(
+            ScratchPlan::new(784, [100, 10].into_iter(), 4).total(),
+            3536
+        );
         // 64 → 64 → 32 → 10: even {64, 32}, odd {64, 10}.
-        assert_eq!(ArenaPlan::new(64, [64, 32, 10].into_iter(), 1).total(), 128);
+        assert_eq!(
+            ScratchPlan::new(64, [64, 32, 10].into_iter(), 1).total(),
+            128
+        );
     }
 }

@@ -1,4 +1,4 @@
-//! Geometry of the [`WeightLayout::Blocked4x4`](crate::format::WeightLayout::Blocked4x4) weight
+//! Geometry of the [`WeightLayout::Blocked4x4`](crate::wire::format::WeightLayout::Blocked4x4) weight
 //! layout (`FORMAT.md` §3.1), shared by the reader, the kernels and the packer.
 //!
 //! The matrix is padded to `R × C` elements, `R` = outputs and `C` = inputs each rounded up to
@@ -109,12 +109,12 @@ pub const fn pad_for(offset: usize) -> usize {
 pub fn wanted_pads(
     model: &crate::Model<'_>,
     blob: &[u8],
-) -> [Option<usize>; crate::format::MAX_LAYERS] {
-    let mut pads = [None; crate::format::MAX_LAYERS];
+) -> [Option<usize>; crate::wire::format::MAX_LAYERS] {
+    let mut pads = [None; crate::wire::format::MAX_LAYERS];
     let elem = model.precision().activation_bytes();
     for (slot, l) in pads.iter_mut().zip(model.layers()) {
         let d = l.desc;
-        if d.layout != crate::format::WeightLayout::Blocked4x4 {
+        if d.layout != crate::wire::format::WeightLayout::Blocked4x4 {
             continue;
         }
         let data = elements(d.inputs as usize, d.outputs as usize) * elem;

@@ -74,7 +74,7 @@ pub enum WeightLayout {
     OutputMajor,
     /// Blocks of 4 rows by groups of 4 inputs, padded to multiples of 4, int8 stored
     /// excess-128, optionally preceded by up to 3 alignment bytes (`FORMAT.md` §3.1;
-    /// [`crate::dense::layout`] has the geometry). Format version 2.
+    /// [`crate::wire::layout`] has the geometry). Format version 2.
     Blocked4x4,
 }
 
