@@ -1562,6 +1562,107 @@ fn c87_score_bad_blob_wrong_width_unknown_label() {
 }
 
 #[test]
+fn c94_inspect_clock_that_is_not_a_clock() {
+    let c = Case::new().packed("v.kgl");
+    for bad in ["0", "-8", "nan", "inf", "1e9", "fast", ""] {
+        c.fails(
+            &["inspect", "v.kgl", "--clock-mhz", bad],
+            &[
+                "for '--clock-mhz <MHZ>': expected a clock in MHz, greater than 0 and at most 10000",
+                "(see --help)",
+            ],
+        );
+    }
+}
+
+#[test]
+fn c95_inspect_load_address_that_is_not_an_address() {
+    let c = Case::new().packed("v.kgl");
+    for bad in ["0x", "0xZZ", "-4", "flash", "8k", ""] {
+        c.fails(
+            &["inspect", "v.kgl", "--load-address", bad],
+            &["for '--load-address <ADDRESS>': expected an address: hex (0x08004000) or decimal digits"],
+        );
+    }
+    for beyond in ["0x100000000", "4294967296", "0xFFFFFFFFFFFFFFFFFF"] {
+        c.fails(
+            &["inspect", "v.kgl", "--load-address", beyond],
+            &["beyond the 32-bit address space of a Cortex-M core"],
+        );
+    }
+}
+
+#[test]
+fn c96_inspect_blob_that_would_run_past_the_address_space() {
+    let c = Case::new().packed("v.kgl");
+    c.fails(
+        &["inspect", "v.kgl", "--load-address", "0xFFFFFFF0", "--json"],
+        &[
+            "--load-address 0xfffffff0: the",
+            "bytes of v.kgl would run past the end of the 32-bit address space",
+        ],
+    );
+}
+
+#[test]
+fn inspect_says_whether_the_weights_are_aligned_and_gives_a_latency_range() {
+    let c = Case::new().packed("v.kgl");
+    let json = |args: &[&str]| -> serde_json::Value {
+        let out = c.run(&[&["inspect", "v.kgl", "--json"], args].concat());
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        serde_json::from_slice(&out.stdout).expect("JSON")
+    };
+    // The packer aligns the weights within the blob: aligned at any multiple of 4, not at
+    // an odd address.
+    for (address, aligned) in [
+        ("0x08004000", true),
+        ("0x08004001", false),
+        ("134234114", false),
+    ] {
+        let j = json(&["--load-address", address]);
+        assert_eq!(j["alignment"]["weights_aligned"], aligned, "{address}");
+    }
+    assert!(json(&[]).get("alignment").is_none());
+    // At 64 MHz every estimate gets a range of instructions / 64 µs times the stated CPI.
+    let j = json(&["--clock-mhz", "64"]);
+    let estimates = j["instruction_estimate"].as_array().expect("estimates");
+    assert!(!estimates.is_empty());
+    for e in estimates {
+        let n = e["instructions"].as_f64().expect("count");
+        let l = &e["latency"];
+        assert!(l["assumption"].as_str().unwrap().contains("from memory"));
+        assert!(
+            (l["low_us"].as_f64().unwrap() - n / 64.0).abs() < 1e-6,
+            "{e}"
+        );
+        assert!(l["high_us"].as_f64().unwrap() > l["low_us"].as_f64().unwrap());
+    }
+    let text = c.run(&[
+        "inspect",
+        "v.kgl",
+        "--clock-mhz",
+        "64",
+        "--load-address",
+        "0x1",
+    ]);
+    let text = String::from_utf8_lossy(&text.stdout);
+    assert!(
+        text.contains("weights aligned  NO at load address 0x1"),
+        "{text}"
+    );
+    assert!(
+        text.contains("i16/u8 counts") && text.contains("at 64 MHz"),
+        "{text}"
+    );
+    assert!(!text.contains("cycles (est.)"), "{text}");
+}
+
+#[test]
 fn c90_budget_sizes_read_as_the_firmware_build_reads_them() {
     // Was: `--flash 32` alone asked for --board (which conflicts with it); 32K and 0.5 refused.
     let c = Case::new().packed("v.kgl");

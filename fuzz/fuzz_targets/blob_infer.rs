@@ -37,6 +37,9 @@ fuzz_target!(|data: &[u8]| {
     // Everything the header promises agrees with the parsed model.
     assert_eq!(kinglet_runtime::scratch_bytes(&blob), model.scratch_bytes());
     assert_eq!(kinglet_runtime::blob_len(&blob), blob.len());
+    // So do the widths the `const fn`s read by walking the layer table.
+    assert_eq!(kinglet_runtime::input_len(&blob), model.input_len());
+    assert_eq!(kinglet_runtime::output_len(&blob), model.output_len());
     // `kinglet inspect` reports on any blob the reader accepts (table and JSON).
     if flags & 16 != 0 {
         let report = kinglet_converter::report::BlobReport::of(&model);

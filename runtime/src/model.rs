@@ -78,7 +78,7 @@ impl LayerView<'_> {
 pub struct Model<'a> {
     desc: ModelDesc<'a>,
     plan: ScratchPlan,
-    blob_len: usize,
+    blob: &'a [u8],
 }
 
 impl<'a> Model<'a> {
@@ -128,11 +128,7 @@ impl<'a> Model<'a> {
                 computed,
             });
         }
-        Ok(Model {
-            desc,
-            plan,
-            blob_len: blob.len(),
-        })
+        Ok(Model { desc, plan, blob })
     }
 
     /// The decoded layer table.
@@ -152,7 +148,38 @@ impl<'a> Model<'a> {
 
     /// Bytes of the blob (its flash footprint).
     pub fn blob_bytes(&self) -> usize {
-        self.blob_len
+        self.blob.len()
+    }
+
+    /// Whether every `Blocked4x4` weight field's data is 4-byte aligned in memory, where the
+    /// blob is now: what the Cortex-M4 kernels need for `LDM`/`VLDM` (other layouts and other
+    /// cores do not care). The packer aligns the data within the blob, so this holds when the
+    /// blob starts at a multiple of 4, which [`crate::embed_blob!`] makes sure of. When it does
+    /// not hold, inference gives the same results on a slower path.
+    pub fn weights_aligned(&self) -> bool {
+        self.weights_aligned_at(self.blob.as_ptr() as usize)
+    }
+
+    /// [`Model::weights_aligned`] for the blob loaded with its first byte at `load_address`
+    /// (e.g. where a linker script or a bootloader places it in flash).
+    pub fn weights_aligned_at(&self, load_address: usize) -> bool {
+        let elem = self.precision().activation_bytes();
+        let start = self.blob.as_ptr() as usize;
+        self.desc
+            .layers
+            .iter()
+            .filter(|l| l.layout == crate::wire::format::WeightLayout::Blocked4x4)
+            .all(|l| {
+                let data = crate::wire::layout::split(
+                    l.weights,
+                    l.inputs as usize,
+                    l.outputs as usize,
+                    elem,
+                )
+                .map_or(l.weights, |(_, data)| data);
+                let offset = (data.as_ptr() as usize).wrapping_sub(start);
+                load_address.wrapping_add(offset).is_multiple_of(4)
+            })
     }
 
     /// Input width.

@@ -1,92 +1,280 @@
-//! An estimate of the instructions (≈ cycles) one inference takes on each Cortex-M target,
-//! from rates fitted to the exact guest instruction counts under QEMU 7.2 of
+//! An estimate of the instructions one inference executes on each Cortex-M target and input
+//! path, from rates fitted to the exact guest instruction counts under QEMU 7.2 of
 //! `bash scripts/kernel-bench.sh` (BENCHMARKS.md); the measurement harness writes the rates
-//! (`INT8`, `F32`) from the same run as the tables, and its `--check` fails when they differ.
-//! It is an estimate from an instruction count: real parts take more than one cycle for some
-//! instructions (loads, multiplies on a small M0+ multiplier, flash wait states) and less for
-//! none, so read it as a lower bound near the right order of magnitude.
+//! ([`RATES`]) from the same run as the tables, computes its estimate of every measured model
+//! with [`estimate`] (this file is compiled into the harness), and its `--check` fails when the
+//! estimate is more than [`TOLERANCE`] off a measured whole-model count.
+//!
+//! It is an instruction count, not a cycle count. [`Latency`] turns it into a time range at a
+//! given clock with stated cycles-per-instruction assumptions ([`CPI`]), which are figures
+//! from memory of the cores' timing, not measurements.
+//!
+//! The model: each dense layer costs `per_mac` per multiply-accumulate of its weight matrix
+//! padded to the `Blocked4x4` layout (both widths rounded up to 4: what the kernels loop
+//! over), `per_row` per padded output row, `per_partial_row` more per padded row when the
+//! input width is not a multiple of 4 (the kernels finish the last, partial group of inputs
+//! apart), `per_input` per padded input (the `128·Σx` correction of the int8 kernels) and
+//! `per_layer`; the rest of an inference costs
+//! `per_feature` per raw input feature (scaling and quantisation), `per_class` per score
+//! (dequantisation, softmax, argmax) and `fixed`. The layer rates are fitted to every
+//! measured layer (two synthetic layers and the examples' layers) and the rest to the whole
+//! models less the estimated layers, by least squares on relative error.
 use serde::Serialize;
 
-/// Measured rates of one target and precision: instructions per MAC, per output row (bias,
-/// requantisation, store, loop), per input feature (scaling and quantisation) and per class
-/// (dequantisation, softmax), plus a fixed part per inference.
+/// How far (relative) the estimate may be from a measured whole-model count: what the
+/// measurement harness's `--check` holds it to on every model it measures.
+pub const TOLERANCE: f64 = 0.05;
+
+/// What the features arrive as.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Feed {
+    /// `Input::F32`: float features, scaled and quantised in float.
+    F32,
+    /// `Input::I16` or `Input::U8`: raw integer counts through the integer input path
+    /// (measured with `i16`; `u8` takes the same path).
+    Integer,
+}
+
+impl Feed {
+    /// As printed.
+    pub fn name(self) -> &'static str {
+        match self {
+            Feed::F32 => "f32 features",
+            Feed::Integer => "i16/u8 counts",
+        }
+    }
+}
+
+/// Which models a set of rates is for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Weights {
+    /// int8 models.
+    Int8,
+    /// f32 models.
+    F32,
+}
+
+/// Measured rates of one target, weight precision and input path (instructions).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Rates {
     /// Target name as printed.
     pub target: &'static str,
-    /// Instructions per multiply-accumulate.
+    /// Core class, for the [`CPI`] assumption.
+    pub core: Core,
+    /// Models these rates are for.
+    pub weights: Weights,
+    /// Input path.
+    pub feed: Feed,
+    /// Per multiply-accumulate of the padded weight matrix.
     pub per_mac: f64,
-    /// Instructions per output row of a layer.
+    /// Per padded output row of a layer.
     pub per_row: f64,
-    /// Instructions per input feature.
+    /// Per padded output row more, when the layer's input width is not a multiple of 4.
+    pub per_partial_row: f64,
+    /// Per padded input of a layer.
     pub per_input: f64,
-    /// Instructions per class.
+    /// Per layer.
+    pub per_layer: f64,
+    /// Per raw input feature of the model.
+    pub per_feature: f64,
+    /// Per score (the last layer's width).
     pub per_class: f64,
-    /// Instructions per inference besides the above.
+    /// Per inference besides the above.
     pub fixed: f64,
 }
 
+/// The core classes the rates were measured on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Core {
+    /// Cortex-M4F (`thumbv7em-none-eabihf`).
+    M4,
+    /// Cortex-M0 (`thumbv6m-none-eabi`).
+    M0,
+}
+
+/// Cycles per instruction assumed for a latency range: (core, low, high, where it comes from).
+pub const CPI: [(Core, f64, f64, &str); 2] = [
+    (
+        Core::M4,
+        1.0,
+        2.0,
+        "CPI 1-2 for the Cortex-M4, from memory of its timing (1-cycle SMLAD/VMLA, 2-cycle LDR, \
+         1+n LDM; more with flash wait states)",
+    ),
+    (
+        Core::M0,
+        1.0,
+        2.5,
+        "CPI 1-2.5 for the Cortex-M0, from memory of its timing (2-cycle loads, 3-cycle taken \
+         branches; a part with the small 32-cycle multiplier is slower still)",
+    ),
+];
+
 // kb-harness:begin rates: generated by `bash scripts/kernel-bench.sh --write`, do not edit
-/// int8 models (kernel-bench, opt-level "s"): per MAC and per row fitted to the 784×100 and
-/// 64×32 layers, per input and per class solved from the digits and vibration whole-model
-/// counts (f32 features in) less their layers, with the fixed part held. Whole − Σ layers:
-/// 2815 and 1025 on the Cortex-M4 (DSP), 81051 and 22622 on the Cortex-M0.
-pub const INT8: [Rates; 2] = [
+/// Fitted by the measurement harness (kernel-bench, opt-level "s"): the layer rates to every
+/// layer counted alone, the rest to the whole-model counts (digits, vibration and the
+/// synthetic one-layer models, each through the input path named) less the estimated layers.
+pub const RATES: [Rates; 5] = [
     Rates {
         target: "Cortex-M4 (DSP)",
-        per_mac: 1.38,
-        per_row: 93.0,
-        per_input: 27.0,
-        per_class: 82.0,
-        fixed: 300.0,
+        core: Core::M4,
+        weights: Weights::Int8,
+        feed: Feed::F32,
+        per_mac: 1.3,
+        per_row: 74.32,
+        per_partial_row: 24.99,
+        per_input: 9.28,
+        per_layer: 291.92,
+        per_feature: 24.81,
+        per_class: 87.81,
+        fixed: 373.42,
+    },
+    Rates {
+        target: "Cortex-M4 (DSP)",
+        core: Core::M4,
+        weights: Weights::Int8,
+        feed: Feed::Integer,
+        per_mac: 1.3,
+        per_row: 74.32,
+        per_partial_row: 24.99,
+        per_input: 9.28,
+        per_layer: 291.92,
+        per_feature: 67.77,
+        per_class: 88.35,
+        fixed: 366.17,
+    },
+    Rates {
+        target: "Cortex-M4F (FPU)",
+        core: Core::M4,
+        weights: Weights::F32,
+        feed: Feed::F32,
+        per_mac: 1.28,
+        per_row: 51.26,
+        per_partial_row: 31.47,
+        per_input: -3.46,
+        per_layer: 161.7,
+        per_feature: 38.18,
+        per_class: 101.84,
+        fixed: 275.31,
     },
     Rates {
         target: "Cortex-M0",
-        per_mac: 3.59,
-        per_row: 187.0,
-        per_input: 981.0,
-        per_class: 1727.0,
-        fixed: 1000.0,
+        core: Core::M0,
+        weights: Weights::Int8,
+        feed: Feed::F32,
+        per_mac: 3.49,
+        per_row: 156.53,
+        per_partial_row: 33.54,
+        per_input: 14.03,
+        per_layer: 404.65,
+        per_feature: 752.27,
+        per_class: 2779.31,
+        fixed: 1392.9,
+    },
+    Rates {
+        target: "Cortex-M0",
+        core: Core::M0,
+        weights: Weights::Int8,
+        feed: Feed::Integer,
+        per_mac: 3.49,
+        per_row: 156.53,
+        per_partial_row: 33.54,
+        per_input: 14.03,
+        per_layer: 404.65,
+        per_feature: 120.61,
+        per_class: 2775.54,
+        fixed: 1482.81,
     },
 ];
-
-/// f32 models: the Cortex-M4F FPU kernel (the M0 has no FPU; soft-float is not estimated),
-/// fitted the same way to the f32 layers and the f32 digits and vibration models. Whole − Σ
-/// layers: 3580 and 1207.
-pub const F32: [Rates; 1] = [Rates {
-    target: "Cortex-M4F (FPU)",
-    per_mac: 1.25,
-    per_row: 53.0,
-    per_input: 38.0,
-    per_class: 83.0,
-    fixed: 300.0,
-}];
 // kb-harness:end rates
 
-/// One target's estimate.
+/// One estimate: a target and input path, and the instructions of one inference.
 #[derive(Debug, Clone, Serialize, PartialEq)]
-pub struct CycleEstimate {
+pub struct Estimate {
     /// Target.
     pub target: String,
-    /// Estimated instructions per inference (≈ cycles at one instruction per cycle).
+    /// Its core class.
+    pub core: Core,
+    /// Input path.
+    pub feed: Feed,
+    /// Estimated instructions per inference (an instruction count, not cycles).
     pub instructions: u64,
+    /// The time range at the clock asked for, if one was.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub latency: Option<Latency>,
 }
 
-/// The estimate for a model with `layers` (inputs, outputs) and `inputs` features.
-pub fn estimate(rates: &[Rates], inputs: usize, layers: &[(usize, usize)]) -> Vec<CycleEstimate> {
+/// A latency range from an instruction count, a clock, and a [`CPI`] assumption.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Latency {
+    /// The clock, MHz.
+    pub clock_mhz: f64,
+    /// Microseconds at the low CPI.
+    pub low_us: f64,
+    /// Microseconds at the high CPI.
+    pub high_us: f64,
+    /// The assumption, as stated in [`CPI`].
+    pub assumption: &'static str,
+}
+
+/// `v` rounded up to a multiple of 4 (the `Blocked4x4` padding).
+fn pad4(v: usize) -> f64 {
+    v.div_ceil(4) as f64 * 4.0
+}
+
+/// Instructions one inference takes with `rates`, for a model with `features` raw inputs and
+/// `layers` (inputs, outputs) in order.
+pub fn instructions(r: &Rates, features: usize, layers: &[(usize, usize)]) -> f64 {
     let classes = layers.last().map_or(0, |l| l.1);
+    let dense: f64 = layers
+        .iter()
+        .map(|&(i, o)| {
+            let partial = if i % 4 == 0 { 0.0 } else { pad4(o) };
+            r.per_mac * pad4(i) * pad4(o)
+                + r.per_row * pad4(o)
+                + r.per_partial_row * partial
+                + r.per_input * pad4(i)
+                + r.per_layer
+        })
+        .sum();
+    dense + r.per_feature * features as f64 + r.per_class * classes as f64 + r.fixed
+}
+
+/// The time range of `instructions` at `clock_mhz` on `core`.
+pub fn latency(core: Core, instructions: u64, clock_mhz: f64) -> Option<Latency> {
+    let &(_, low, high, assumption) = CPI.iter().find(|c| c.0 == core)?;
+    let us = instructions as f64 / clock_mhz;
+    Some(Latency {
+        clock_mhz,
+        low_us: us * low,
+        high_us: us * high,
+        assumption,
+    })
+}
+
+/// Every estimate `rates` hold for models of `weights` with `features` inputs and `layers`,
+/// with a latency range when `clock_mhz` is given.
+pub fn estimate(
+    rates: &[Rates],
+    weights: Weights,
+    features: usize,
+    layers: &[(usize, usize)],
+    clock_mhz: Option<f64>,
+) -> Vec<Estimate> {
     rates
         .iter()
+        .filter(|r| r.weights == weights)
         .map(|r| {
-            let dense: f64 = layers
-                .iter()
-                .map(|&(i, o)| r.per_mac * (i * o) as f64 + r.per_row * o as f64)
-                .sum();
-            let total =
-                dense + r.per_input * inputs as f64 + r.per_class * classes as f64 + r.fixed;
-            CycleEstimate {
+            let n = instructions(r, features, layers).round().max(0.0) as u64;
+            Estimate {
                 target: r.target.into(),
-                instructions: total.round() as u64,
+                core: r.core,
+                feed: r.feed,
+                instructions: n,
+                latency: clock_mhz.and_then(|f| latency(r.core, n, f)),
             }
         })
         .collect()
@@ -96,20 +284,64 @@ pub fn estimate(rates: &[Rates], inputs: usize, layers: &[(usize, usize)]) -> Ve
 mod tests {
     use super::*;
 
-    #[test]
-    fn estimate_adds_the_rates() {
-        let r = Rates {
+    fn rates() -> Rates {
+        Rates {
             target: "t",
+            core: Core::M4,
+            weights: Weights::Int8,
+            feed: Feed::F32,
             per_mac: 2.0,
             per_row: 10.0,
+            per_partial_row: 6.0,
             per_input: 1.0,
-            per_class: 3.0,
+            per_layer: 7.0,
+            per_feature: 3.0,
+            per_class: 4.0,
             fixed: 5.0,
-        };
-        // 4→3→2: MACs 12 + 6 = 18 (36), rows 5 (50), inputs 4, classes 2 (6), fixed 5.
-        assert_eq!(
-            estimate(&[r], 4, &[(4, 3), (3, 2)])[0].instructions,
-            36 + 50 + 4 + 6 + 5
-        );
+        }
+    }
+
+    #[test]
+    fn estimate_adds_the_rates_on_padded_widths() {
+        // 3→5→2, padded 4→8 and 8→4: MACs 32 + 32 (128), rows 8 + 4 (120), partial groups
+        // in both layers (3 and 5 inputs: 12 rows, 72), padded inputs 4 + 8 (12), 2 layers
+        // (14); 3 features (9), 2 classes (8), fixed 5.
+        let e = estimate(&[rates()], Weights::Int8, 3, &[(3, 5), (5, 2)], None);
+        assert_eq!(e.len(), 1);
+        assert_eq!(e[0].instructions, 128 + 120 + 72 + 12 + 14 + 9 + 8 + 5);
+        // 8 inputs: no partial group. MACs 32 (64), rows 4 (40), inputs 8, layer 7; 8
+        // features (24), 4 classes (16), fixed 5.
+        let whole = estimate(&[rates()], Weights::Int8, 8, &[(8, 4)], None)[0].instructions;
+        assert_eq!(whole, 64 + 40 + 8 + 7 + 24 + 16 + 5);
+        assert_eq!(e[0].latency, None);
+        assert!(estimate(&[rates()], Weights::F32, 3, &[(3, 5)], None).is_empty());
+    }
+
+    #[test]
+    fn latency_is_the_count_over_the_clock_times_the_stated_cpi() {
+        // 64,000 instructions at 64 MHz: 1000 µs at CPI 1, 2000 µs at CPI 2 (the M4 range).
+        let l = latency(Core::M4, 64_000, 64.0).unwrap();
+        assert!((l.low_us - 1000.0).abs() < 1e-9 && (l.high_us - 2000.0).abs() < 1e-9);
+        assert!(l.assumption.contains("from memory"));
+        let l0 = latency(Core::M0, 16_000, 16.0).unwrap();
+        assert!((l0.high_us - 2500.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn shipped_rates_cover_both_targets_and_both_paths() {
+        for (core, weights, feed) in [
+            (Core::M4, Weights::Int8, Feed::F32),
+            (Core::M4, Weights::Int8, Feed::Integer),
+            (Core::M0, Weights::Int8, Feed::F32),
+            (Core::M0, Weights::Int8, Feed::Integer),
+            (Core::M4, Weights::F32, Feed::F32),
+        ] {
+            assert!(
+                RATES
+                    .iter()
+                    .any(|r| (r.core, r.weights, r.feed) == (core, weights, feed)),
+                "{core:?} {weights:?} {feed:?}"
+            );
+        }
     }
 }

@@ -51,8 +51,23 @@ pub struct BlobReport {
     pub flash_bytes: usize,
     /// RAM bytes: the scratch buffer.
     pub scratch_bytes: usize,
-    /// Estimated instructions per inference on each target (from measured rates; an estimate).
-    pub cycle_estimate: Vec<super::cycles::CycleEstimate>,
+    /// Estimated instructions per inference on each target and input path (from measured
+    /// rates; an instruction count, not cycles), with a latency range once [`Self::at_clock`]
+    /// gave a clock.
+    pub instruction_estimate: Vec<super::cycles::Estimate>,
+    /// Whether the weights are 4-byte aligned for the Cortex-M4 kernels once the blob is loaded
+    /// at an address, when one was given ([`Self::at_load_address`]).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub alignment: Option<Alignment>,
+}
+
+/// The weights' alignment at a load address.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Alignment {
+    /// The address the blob's first byte is loaded at.
+    pub load_address: u64,
+    /// Whether every `Blocked4x4` weight field's data is 4-byte aligned there.
+    pub weights_aligned: bool,
 }
 
 impl BlobReport {
@@ -102,19 +117,42 @@ impl BlobReport {
             parameters: layers.iter().map(|l| l.parameters).sum(),
             macs: layers.iter().map(|l| l.macs).sum(),
             layers,
-            cycle_estimate: super::cycles::estimate(
+            instruction_estimate: super::cycles::estimate(
+                &super::cycles::RATES,
                 match d.precision {
-                    Precision::Int8 => &super::cycles::INT8,
-                    Precision::F32 => &super::cycles::F32,
+                    Precision::Int8 => super::cycles::Weights::Int8,
+                    Precision::F32 => super::cycles::Weights::F32,
                 },
                 model.input_len(),
                 &model
                     .layers()
                     .map(|l| (l.desc.inputs as usize, l.desc.outputs as usize))
                     .collect::<Vec<_>>(),
+                None,
             ),
+            alignment: None,
             flash_bytes: model.blob_bytes(),
             scratch_bytes: model.scratch_bytes(),
         }
+    }
+}
+
+impl BlobReport {
+    /// Adds a latency range at `clock_mhz` to every estimate.
+    pub fn at_clock(mut self, clock_mhz: f64) -> Self {
+        for e in &mut self.instruction_estimate {
+            e.latency = super::cycles::latency(e.core, e.instructions, clock_mhz);
+        }
+        self
+    }
+
+    /// Records whether `model`'s weights are aligned when its blob is loaded at `address`.
+    pub fn at_load_address(mut self, model: &Model<'_>, address: u64) -> Self {
+        self.alignment = Some(Alignment {
+            load_address: address,
+            // Only the address modulo 4 matters, and it fits any `usize`.
+            weights_aligned: model.weights_aligned_at((address % 4) as usize),
+        });
+        self
     }
 }

@@ -7,17 +7,50 @@ fn quant(q: Option<(f32, i8)>) -> String {
     q.map_or_else(|| "-".into(), |(s, z)| format!("{s:.3e} @ {z}"))
 }
 
-/// The cycle estimate line: instruction counts from measured rates, an estimate.
-fn cycles(r: &BlobReport) -> String {
-    let parts: Vec<String> = r
-        .cycle_estimate
-        .iter()
-        .map(|c| format!("{}: ~{}", c.target, c.instructions))
-        .collect();
-    format!(
-        "{} (estimate from instruction counts under QEMU; see BENCHMARKS.md)",
-        parts.join(", ")
-    )
+/// The estimate lines: one per target and input path, an instruction count from measured
+/// rates, with the latency range when a clock was given, then what the figures are.
+fn estimate_lines(r: &BlobReport) -> Vec<(&'static str, String)> {
+    let mut lines = Vec::new();
+    let mut assumptions: Vec<&str> = Vec::new();
+    for (i, e) in r.instruction_estimate.iter().enumerate() {
+        let mut v = format!("{}, {}: ~{}", e.target, e.feed.name(), e.instructions);
+        if let Some(l) = &e.latency {
+            v += &format!(
+                " → {}–{} at {} MHz",
+                micros(l.low_us),
+                micros(l.high_us),
+                l.clock_mhz
+            );
+            if !assumptions.contains(&l.assumption) {
+                assumptions.push(l.assumption);
+            }
+        }
+        let key = if i == 0 { "instructions (est.)" } else { "" };
+        lines.push((key, v));
+    }
+    if lines.is_empty() {
+        lines.push((
+            "instructions (est.)",
+            "(no measured rates for this model kind)".into(),
+        ));
+    }
+    lines.push((
+        "",
+        "fitted to instruction counts under QEMU, not cycles; see BENCHMARKS.md".into(),
+    ));
+    for a in assumptions {
+        lines.push(("", format!("latency assumes {a}")));
+    }
+    lines
+}
+
+/// A time in microseconds, in µs or ms.
+fn micros(us: f64) -> String {
+    if us >= 1000.0 {
+        format!("{:.2} ms", us / 1000.0)
+    } else {
+        format!("{us:.1} µs")
+    }
 }
 
 /// Renders the report as text.
@@ -66,12 +99,23 @@ pub fn render(r: &BlobReport) -> String {
         ("MACs/inference", r.macs.to_string()),
         ("flash (blob)", format!("{} bytes", r.flash_bytes)),
         ("RAM (scratch)", format!("{} bytes", r.scratch_bytes)),
-        ("cycles (est.)", cycles(r)),
     ];
     let mut out = t.to_string();
     out.push('\n');
-    for (k, v) in lines {
-        out.push_str(&format!("{k:>15}  {v}\n"));
+    let mut all: Vec<(&str, String)> = lines.to_vec();
+    if let Some(a) = &r.alignment {
+        all.push((
+            "weights aligned",
+            format!(
+                "{} at load address {:#x} (the Cortex-M4 kernels need 4-byte aligned weights)",
+                if a.weights_aligned { "yes" } else { "NO" },
+                a.load_address
+            ),
+        ));
+    }
+    all.extend(estimate_lines(r));
+    for (k, v) in all {
+        out.push_str(&format!("{k:>19}  {v}\n"));
     }
     out
 }

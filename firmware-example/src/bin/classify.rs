@@ -12,7 +12,10 @@
 //! printed either way. With the `defmt`
 //! feature each result is also logged through defmt (RTT), which needs a probe to read.
 //!
-//! The scratch buffer: a `static` byte array of exactly `kinglet_runtime::scratch_bytes(VIBRATION)` bytes,
+//! The model is embedded with `kinglet_runtime::embed_blob!` (4-byte aligned, which the run
+//! checks with `Model::weights_aligned`), and the score buffer is sized with the `const fn`
+//! `kinglet_runtime::output_len`. The scratch buffer: a `static` byte array of exactly
+//! `kinglet_runtime::scratch_bytes(VIBRATION)` bytes,
 //! handed out once by `cortex_m::singleton!`. That keeps it in `.bss`, where the linker counts
 //! it against RAM (an oversized model fails the link, not the run), needs no `static mut`, and
 //! keeps it off the stack. What stack the runtime itself needs is in BENCHMARKS.md (measured by
@@ -31,7 +34,8 @@ use kinglet_fw_vectors::assets::{REPLAY_LABELS, REPLAY_WINDOWS, VIBRATION, VIBRA
 use kinglet_runtime::{Input, Model};
 use kinglet_vibration_features::window_features;
 
-const CLASSES: usize = 4;
+/// Scores (and pins) per window: the model's output width, read from the blob at compile time.
+const CLASSES: usize = kinglet_runtime::output_len(VIBRATION);
 
 #[entry]
 fn main() -> ! {
@@ -61,7 +65,11 @@ fn run() -> bool {
         }
     };
     if model.classes() != CLASSES {
-        return fail("the vibration model must have 4 classes");
+        return fail("the model's classes differ from its output width");
+    }
+    // `embed_blob!` placed the blob at a multiple of 4: the Cortex-M4 kernels' fast path.
+    if !model.weights_aligned() {
+        return fail("the embedded model's weights are not 4-byte aligned");
     }
     let mut l = console::LineBuf::new();
     let _ = write!(

@@ -21,8 +21,40 @@ impl Rng {
     }
 }
 
-/// One int8 layer `n → m`: blocked blob and output-major twin.
-fn int8_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Vec<u8>, Vec<u8>), String> {
+/// A per-feature scaler of `n` maps `x − 0.25` (offset 0.25, scale 1), little-endian `f32`:
+/// the synthetic layers are also run as whole models, which like the examples' scale every
+/// feature and end in a softmax (the whole-model counts the estimate of `kinglet inspect` is
+/// fitted to).
+fn scaler(n: usize) -> (Vec<u8>, Vec<u8>) {
+    let bytes = |v: f32| {
+        (0..n)
+            .flat_map(move |_| v.to_le_bytes())
+            .collect::<Vec<u8>>()
+    };
+    (bytes(0.25), bytes(1.0))
+}
+
+/// The integer input path of that scaler and an input scale of 1/64 (zero point 0), per
+/// feature as the packer writes it for a per-feature scaler: `q = round(64 x − 16)` as
+/// `(x · 64·2^16 − 16·2^16 + 2^15) >> 16`.
+fn int_path(n: usize) -> OwnedInput {
+    OwnedInput::new(
+        1.0 / 64.0,
+        0,
+        &vec![64 << 16; n],
+        &vec![-16 << 16; n],
+        &vec![16; n],
+    )
+}
+
+/// The blobs of one int8 layer `n → m`: blocked and output-major twin.
+type Pair = (Vec<u8>, Vec<u8>);
+
+/// One int8 layer `n → m`: the blobs with a per-feature scaler and integer input path (as the
+/// packer writes a model with a per-feature scaler: what the whole-model cases run) and, with
+/// the same weights, with a uniform one (a few bytes instead of 14 per feature: what the
+/// 784-wide layer cases run, which must fit the Cortex-M0's flash twice).
+fn int8_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Pair, Pair), String> {
     let w: Vec<i8> = (0..n * m)
         .map(|_| ((rng.next() % 255) as i32 - 127) as i8)
         .collect();
@@ -34,17 +66,23 @@ fn int8_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Vec<u8>, Vec<u8>), S
     let spread = (n as f64).sqrt() * 73.0 * 73.0 / 64.0;
     let shift = vec![(spread.log2().ceil() as i32 - 1).clamp(0, 31) as i8; m];
     let quant = OwnedQuant::new(&vec![0.01; m], &mult, &shift, 0.1, 0);
-    let (n, m) = (n as u32, m as u32);
-    let model = OwnedModel {
-        input_len: n,
+    let model = |features: usize| OwnedModel {
+        input_len: n as u32,
         precision: Precision::Int8,
-        scaler: None,
-        input_quant: Some(OwnedInput::new(1.0 / 64.0, 0, &[64], &[0], &[0])),
-        layers: vec![OwnedLayer::int8(n, m, Activation::Linear, &w, &bias, quant)],
-        output: OutputKind::Logits,
+        scaler: Some(scaler(features)),
+        input_quant: Some(int_path(features)),
+        layers: vec![OwnedLayer::int8(
+            n as u32,
+            m as u32,
+            Activation::Linear,
+            &w,
+            &bias,
+            quant.clone(),
+        )],
+        output: OutputKind::Softmax,
         labels: String::new(),
     };
-    both_layouts(&model)
+    Ok((both_layouts(&model(n))?, both_layouts(&model(1))?))
 }
 
 /// One f32 layer `n → m`: blocked blob and output-major twin.
@@ -52,14 +90,15 @@ fn f32_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Vec<u8>, Vec<u8>), St
     let k = 1.0 / (n as f32).sqrt();
     let w: Vec<f32> = (0..n * m).map(|_| rng.unit() * k).collect();
     let bias: Vec<f32> = (0..m).map(|_| rng.unit() * 0.1).collect();
+    let scaler = Some(scaler(n));
     let (n, m) = (n as u32, m as u32);
     let model = OwnedModel {
         input_len: n,
         precision: Precision::F32,
-        scaler: None,
+        scaler,
         input_quant: None,
         layers: vec![OwnedLayer::f32(n, m, Activation::Linear, &w, &bias)],
-        output: OutputKind::Logits,
+        output: OutputKind::Softmax,
         labels: String::new(),
     };
     both_layouts(&model)
@@ -84,10 +123,20 @@ fn write(dir: &str, name: &str, bytes: &[u8]) -> Result<(), String> {
 pub fn synth(dir: &str) -> Result<(), String> {
     std::fs::create_dir_all(dir).map_err(|e| format!("{dir}: {e}"))?;
     let mut rng = Rng(0x4B47_4C54);
-    for (n, m) in [(784, 100), (64, 32)] {
-        let (b, o) = int8_layer(n, m, &mut rng)?;
-        write(dir, &format!("i8_{n}x{m}.kgl"), &b)?;
-        write(dir, &format!("i8_{n}x{m}.om.kgl"), &o)?;
+    // 18 → 40 only runs whole (few features, many classes, a partial input group): a whole-model
+    // count unlike the others for the estimate's fit, and one that fits the Cortex-M0.
+    for (n, m) in [(784, 100), (64, 32), (18, 40)] {
+        let ((b, o), (bu, ou)) = int8_layer(n, m, &mut rng)?;
+        if n == 784 {
+            // The layer cases run the compact blobs; the whole model (Cortex-M4) the full ones.
+            write(dir, &format!("i8_{n}x{m}.kgl"), &bu)?;
+            write(dir, &format!("i8_{n}x{m}.om.kgl"), &ou)?;
+            write(dir, &format!("i8_{n}x{m}.whole.kgl"), &b)?;
+            write(dir, &format!("i8_{n}x{m}.whole.om.kgl"), &o)?;
+        } else {
+            write(dir, &format!("i8_{n}x{m}.kgl"), &b)?;
+            write(dir, &format!("i8_{n}x{m}.om.kgl"), &o)?;
+        }
         let (b, o) = f32_layer(n, m, &mut rng)?;
         write(dir, &format!("f32_{n}x{m}.kgl"), &b)?;
         write(dir, &format!("f32_{n}x{m}.om.kgl"), &o)?;

@@ -44,12 +44,12 @@ fn region(text: &str, file: &str, name: &str) -> Result<std::ops::Range<usize>, 
     Ok(start..start + len)
 }
 
-/// Bytes of the number `text` starts with: an optional `-`, digits, and a fraction only where
+/// Bytes of the number `text` starts with: an optional sign, digits, and a fraction only where
 /// a digit follows the point (so a sentence's full stop is not taken in).
 fn number_len(text: &str) -> usize {
     let b = text.as_bytes();
     let digits = |from: usize| from + b[from..].iter().take_while(|c| c.is_ascii_digit()).count();
-    let mut end = digits(usize::from(b.first() == Some(&b'-')));
+    let mut end = digits(usize::from(matches!(b.first(), Some(b'-' | b'+'))));
     if b.get(end) == Some(&b'.') && b.get(end + 1).is_some_and(u8::is_ascii_digit) {
         end = digits(end + 1);
     }
@@ -182,6 +182,10 @@ mod tests {
         let sentence = format!("layers: {} and {}.\n", approx(3580), approx("1.25"));
         assert_eq!(disagreement(&sentence, "layers: 3580 and 1.25.\n"), None);
         assert_eq!(disagreement(&sentence, "layers: 3580 and 1.5.\n"), Some(17));
+        // Signed numbers (an estimate's error): the sign belongs to the number.
+        let signed = format!("| {}% | {}% |\n", approx("+0.9"), approx("-4.5"));
+        assert_eq!(disagreement(&signed, "| +0.9% | -4.5% |\n"), None);
+        assert_eq!(disagreement(&signed, "| -0.9% | -4.5% |\n"), Some(2));
     }
 
     #[test]

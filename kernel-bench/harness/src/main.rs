@@ -120,16 +120,9 @@ fn run(p: &Paths, mode: Mode) -> Result<(), String> {
     for m in &steps::MACHINES {
         targets.push(measure(p, m, &blobs, &plugin)?);
     }
-    let int8 = targets
-        .iter()
-        .map(|t| rates::int8(t, shapes))
-        .collect::<Result<Vec<_>, _>>()?;
-    let fpu = targets
-        .iter()
-        .find(|t| t.bench.kernel == "dsp")
-        .ok_or("no Cortex-M4F run")?;
-    let f32_rates = rates::f32(fpu, shapes)?;
-    let results = render::results(&targets);
+    let fitted = rates::all(&targets, &shapes)?;
+    let estimates = rates::check(&targets, &shapes, &fitted)?;
+    let results = render::results(&targets, &estimates);
     let footprint = render::footprint(&targets);
     println!(
         "== results (QEMU {}, {})\n",
@@ -157,7 +150,7 @@ fn run(p: &Paths, mode: Mode) -> Result<(), String> {
         consumers::Part {
             file: "converter/src/report/cycles.rs",
             region: Some("rates"),
-            fresh: render::rates(&int8, &f32_rates),
+            fresh: render::rates(&fitted),
         },
     ];
     let c = consumers::Consumers::new(&p.root);
@@ -179,10 +172,38 @@ fn run(p: &Paths, mode: Mode) -> Result<(), String> {
     if failed > 0 || passed == 0 {
         return Err("the on-target self-check failed".into());
     }
+    let off: Vec<String> = estimates
+        .iter()
+        .filter(|e| !e.ok())
+        .map(|e| {
+            format!(
+                "{} {} ({}): estimate {} vs measured {} ({:+.1}%)",
+                e.target,
+                e.model,
+                e.feed.name(),
+                e.estimated,
+                e.measured,
+                100.0 * e.error()
+            )
+        })
+        .collect();
+    for o in &off {
+        println!(
+            "estimate off by more than {:.0}%: {o}",
+            100.0 * rates::cycles::TOLERANCE
+        );
+    }
     if mode == Mode::Check {
         let missed = goals::goals(&targets).iter().filter(|g| g.fails()).count();
         if missed > 0 {
             return Err(format!("{missed} goal(s) missed by more than the margin"));
+        }
+        if !off.is_empty() {
+            return Err(format!(
+                "{} whole-model estimate(s) off by more than {:.0}%",
+                off.len(),
+                100.0 * rates::cycles::TOLERANCE
+            ));
         }
         if !stale.is_empty() {
             return Err(format!(
@@ -194,7 +215,7 @@ fn run(p: &Paths, mode: Mode) -> Result<(), String> {
     Ok(())
 }
 
-/// Writes the blobs the firmware embeds; returns the example models' shapes.
+/// Writes the blobs the firmware embeds; returns the shapes of every model the benchmark runs.
 fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
     let dir = blobs.to_str().ok_or("non-UTF-8 target directory")?;
     blobs::synth(dir)?;
@@ -218,21 +239,43 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
             .stdout(Stdio::null());
         steps::run(&format!("kinglet pack {name}"), &mut cmd)?;
     }
-    let shape = |name: &str| -> Result<(usize, usize), String> {
-        let path = blobs.join(format!("{name}.kgl"));
-        let bytes = std::fs::read(&path).map_err(|e| format!("{}: {e}", path.display()))?;
+    for name in ["digits", "vibration"] {
         // The output-major twin, the baseline of the int8 whole-model cases.
         blobs::twin_file(
-            &path.display().to_string(),
+            &blobs.join(format!("{name}.kgl")).display().to_string(),
             &blobs.join(format!("{name}.om.kgl")).display().to_string(),
         )?;
-        let m = kinglet_runtime::Model::parse(&bytes).map_err(|e| format!("{name}: {e}"))?;
-        Ok((m.input_len(), m.classes()))
-    };
-    Ok(rates::Shapes {
-        digits: shape("digits")?,
-        vibration: shape("vibration")?,
-    })
+    }
+    let mut shapes = rates::Shapes::new();
+    let files = [
+        ("digits", "digits"),
+        ("vibration", "vibration"),
+        ("digits-f32", "digits_float"),
+        ("vibration-f32", "vibration_float"),
+        ("i8-784x100", "i8_784x100.whole"),
+        ("i8-64x32", "i8_64x32"),
+        ("f32-784x100", "f32_784x100"),
+        ("f32-64x32", "f32_64x32"),
+        ("i8-18x40", "i8_18x40"),
+        ("f32-18x40", "f32_18x40"),
+    ];
+    for (case, file) in files {
+        let path = blobs.join(format!("{file}.kgl"));
+        let bytes = std::fs::read(&path).map_err(|e| format!("{}: {e}", path.display()))?;
+        let m = kinglet_runtime::Model::parse(&bytes).map_err(|e| format!("{file}: {e}"))?;
+        let layers = m
+            .layers()
+            .map(|l| (l.desc.inputs as usize, l.desc.outputs as usize))
+            .collect();
+        shapes.insert(
+            case.to_string(),
+            rates::Shape {
+                features: m.input_len(),
+                layers,
+            },
+        );
+    }
+    Ok(shapes)
 }
 
 fn read(path: &Path) -> Result<String, String> {

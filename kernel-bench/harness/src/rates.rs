@@ -1,125 +1,290 @@
-//! The instruction rates `kinglet inspect` estimates cycles from
-//! (`converter/src/report/cycles.rs`), fitted to this run's counts.
+//! The instruction rates `kinglet inspect` estimates from (`converter/src/report/cycles.rs`,
+//! compiled into this crate as [`cycles`]), fitted to this run's counts, and the check of the
+//! estimate against every measured whole-model count.
 use crate::Target;
+use std::collections::BTreeMap;
 
-/// One target's rates, as `cycles::Rates` has them.
-pub struct Rates {
-    /// Target name as `kinglet inspect` prints it.
-    pub target: &'static str,
-    /// Instructions per multiply-accumulate.
-    pub per_mac: f64,
-    /// Instructions per output row of a layer.
-    pub per_row: f64,
-    /// Instructions per input feature.
-    pub per_input: f64,
-    /// Instructions per class.
-    pub per_class: f64,
-    /// Instructions per inference besides the above (held, not fitted).
-    pub fixed: f64,
-    /// What the per-input and per-class rates were solved from: whole − Σ layers of the two
-    /// models (digits, vibration), when they were.
-    pub overheads: Option<(u64, u64)>,
+/// The converter's estimator itself, so that the harness checks the code `kinglet inspect`
+/// runs, not a copy of it.
+#[path = "../../../converter/src/report/cycles.rs"]
+#[allow(dead_code)]
+pub mod cycles;
+
+use cycles::{Core, Feed, Rates, Weights};
+
+/// A measured model: raw input features and (inputs, outputs) of each layer, read from its blob.
+#[derive(Clone, Debug)]
+pub struct Shape {
+    /// Raw input features.
+    pub features: usize,
+    /// (inputs, outputs) per layer.
+    pub layers: Vec<(usize, usize)>,
 }
 
-/// Inputs and classes of the two example models, read from their blobs.
-#[derive(Clone, Copy)]
-pub struct Shapes {
-    /// (inputs, classes) of digits.
-    pub digits: (usize, usize),
-    /// (inputs, classes) of vibration.
-    pub vibration: (usize, usize),
-}
+/// The shapes of every model the benchmark runs, by case name (`digits`, `digits-f32`,
+/// `i8-784x100`, ...).
+pub type Shapes = BTreeMap<String, Shape>;
 
-/// Solves `a·x1 + b·y1 = c1`, `a·x2 + b·y2 = c2`.
-fn solve(x1: f64, y1: f64, c1: f64, x2: f64, y2: f64, c2: f64) -> Result<(f64, f64), String> {
-    let det = x1 * y2 - x2 * y1;
-    if det.abs() < 1e-9 {
-        return Err("the rate fit has no unique solution".into());
+/// The whole-model cases of int8 models (`bench`) and of f32 models (`bench_f32`).
+pub const INT8_MODELS: [&str; 5] = ["digits", "vibration", "i8-784x100", "i8-64x32", "i8-18x40"];
+/// The f32 whole-model cases (Cortex-M4F only; `f32-784x100` does not fit the M0).
+pub const F32_MODELS: [&str; 5] = [
+    "digits-f32",
+    "vibration-f32",
+    "f32-784x100",
+    "f32-64x32",
+    "f32-18x40",
+];
+
+/// Least squares `min Σ (a_i · x − b_i)²` over the rows `(a_i, b_i)`, by the normal equations on
+/// columns scaled to unit size (the rows here are a handful, the unknowns at most 5).
+fn least_squares<const N: usize>(rows: &[([f64; N], f64)]) -> Result<[f64; N], String> {
+    if rows.len() < N {
+        return Err(format!(
+            "the rate fit has {} data points for {N} unknowns",
+            rows.len()
+        ));
     }
-    Ok(((c1 * y2 - c2 * y1) / det, (x1 * c2 - x2 * c1) / det))
+    let mut scale = [0f64; N];
+    for (a, _) in rows {
+        for (s, v) in scale.iter_mut().zip(a) {
+            *s = s.max(v.abs());
+        }
+    }
+    if scale.contains(&0.0) {
+        return Err("the rate fit has a column of zeros".into());
+    }
+    // M = AᵀA, v = Aᵀb on the scaled columns.
+    let mut m = [[0f64; N]; N];
+    let mut v = [0f64; N];
+    for (a, b) in rows {
+        let a: Vec<f64> = a.iter().zip(&scale).map(|(x, s)| x / s).collect();
+        for i in 0..N {
+            v[i] += a[i] * b;
+            for j in 0..N {
+                m[i][j] += a[i] * a[j];
+            }
+        }
+    }
+    // Gaussian elimination with partial pivoting.
+    for c in 0..N {
+        let p = (c..N)
+            .max_by(|&i, &j| m[i][c].abs().total_cmp(&m[j][c].abs()))
+            .unwrap_or(c);
+        if m[p][c].abs() < 1e-12 {
+            return Err("the rate fit has no unique solution".into());
+        }
+        m.swap(c, p);
+        v.swap(c, p);
+        for r in c + 1..N {
+            let f = m[r][c] / m[c][c];
+            let pivot = m[c];
+            for (x, p) in m[r].iter_mut().zip(pivot).skip(c) {
+                *x -= f * p;
+            }
+            v[r] -= f * v[c];
+        }
+    }
+    let mut x = [0f64; N];
+    for c in (0..N).rev() {
+        let tail: f64 = (c + 1..N).map(|k| m[c][k] * x[k]).sum();
+        x[c] = (v[c] - tail) / m[c][c];
+    }
+    for (x, s) in x.iter_mut().zip(scale) {
+        *x /= s;
+    }
+    Ok(x)
 }
 
-/// Per MAC and per row from the 784×100 and 64×32 layers of `kind` (`i8`, `f32`).
-fn layer_rates(t: &Target, kind: &str) -> Result<(f64, f64), String> {
-    let get = |n: usize, m: usize| {
-        t.bench
-            .case(&format!("{kind}-{n}x{m}"), "kernel")
-            .map(|c| c.count as f64)
-            .ok_or(format!("{}: no {kind}-{n}x{m} kernel count", t.name))
-    };
-    let (big, small) = (get(784, 100)?, get(64, 32)?);
-    solve(78400.0, 100.0, big, 2048.0, 32.0, small)
+/// The fit of `rows` that makes the largest residual smallest (minimax), by Lawson's
+/// iteratively reweighted least squares (C. L. Lawson, 1961; the weights move to the rows with
+/// the largest residuals until they balance). Rows whose residual is already 0 keep a tiny
+/// weight so that the system stays determined.
+fn minimax<const N: usize>(rows: &[([f64; N], f64)]) -> Result<[f64; N], String> {
+    let mut w = vec![1.0 / rows.len() as f64; rows.len()];
+    let mut x = least_squares(rows)?;
+    for _ in 0..500 {
+        let weighted: Vec<([f64; N], f64)> = rows
+            .iter()
+            .zip(&w)
+            .map(|((a, b), w)| (a.map(|v| v * w.sqrt()), b * w.sqrt()))
+            .collect();
+        x = least_squares(&weighted)?;
+        let r: Vec<f64> = rows
+            .iter()
+            .map(|(a, b)| (a.iter().zip(&x).map(|(a, x)| a * x).sum::<f64>() - b).abs())
+            .collect();
+        let total: f64 = w.iter().zip(&r).map(|(w, r)| w * r).sum();
+        if total <= 0.0 {
+            break;
+        }
+        for (w, r) in w.iter_mut().zip(&r) {
+            *w = (*w * r / total).max(1e-12);
+        }
+    }
+    Ok(x)
 }
 
 fn round2(v: f64) -> f64 {
     (v * 100.0).round() / 100.0
 }
 
-/// Per input and per class from the whole − Σ layers of the two example models (`suffix`
-/// names their cases: `""` int8, `"-f32"` f32), with the fixed part held: it cannot be told
-/// apart from the other two with two models.
-fn model_rates(
+fn pad4(v: usize) -> f64 {
+    v.div_ceil(4) as f64 * 4.0
+}
+
+fn shape<'a>(shapes: &'a Shapes, name: &str) -> Result<&'a Shape, String> {
+    shapes.get(name).ok_or(format!("no shape for {name}"))
+}
+
+/// The layer rates (per MAC, per row, per partial-group row, per input, per layer) of
+/// `weights` on `t`, fitted to every layer of `models` counted alone (`MODEL-L1`, ...), on
+/// relative error.
+fn layer_rates(t: &Target, shapes: &Shapes, models: &[&str]) -> Result<[f64; 5], String> {
+    let mut rows = Vec::new();
+    for m in models {
+        let s = shape(shapes, m)?;
+        for (k, &(i, o)) in s.layers.iter().enumerate() {
+            let Some(c) = t.bench.case(&format!("{m}-L{}", k + 1), "layer-kernel") else {
+                continue;
+            };
+            let y = c.count as f64;
+            let partial = if i % 4 == 0 { 0.0 } else { pad4(o) };
+            let a = [pad4(i) * pad4(o), pad4(o), partial, pad4(i), 1.0];
+            rows.push((a.map(|v| v / y), 1.0));
+        }
+    }
+    least_squares(&rows)
+}
+
+/// The variant that counts a whole inference of a model through `feed`.
+fn whole_variant(feed: Feed) -> &'static str {
+    match feed {
+        Feed::F32 => "model-kernel",
+        Feed::Integer => "model-infer-i16",
+    }
+}
+
+/// One target's rates for `weights` models through `feed`: the layer rates from every layer,
+/// then per feature, per class and the fixed part from the whole-model counts less the
+/// estimated layers (relative error).
+fn fit(
     t: &Target,
-    shapes: Shapes,
-    suffix: &str,
-    fixed: f64,
-) -> Result<(f64, f64, (u64, u64)), String> {
-    let overhead = |m: &str| {
-        let m = format!("{m}{suffix}");
-        t.bench
-            .whole_and_layers(&m)
-            .map(|(whole, layers)| whole.saturating_sub(layers))
-            .ok_or(format!("{}: no {m} whole-model count", t.name))
+    shapes: &Shapes,
+    weights: Weights,
+    feed: Feed,
+    layers: [f64; 5],
+) -> Result<Rates, String> {
+    let (models, target, core): (&[&str], _, _) = match (weights, t.bench.kernel == "dsp") {
+        (Weights::Int8, true) => (&INT8_MODELS, "Cortex-M4 (DSP)", Core::M4),
+        (Weights::Int8, false) => (&INT8_MODELS, "Cortex-M0", Core::M0),
+        (Weights::F32, true) => (&F32_MODELS, "Cortex-M4F (FPU)", Core::M4),
+        (Weights::F32, false) => return Err("f32 rates are fitted on the FPU target only".into()),
     };
-    let (od, ov) = (overhead("digits")?, overhead("vibration")?);
-    let ((di, dc), (vi, vc)) = (shapes.digits, shapes.vibration);
-    let (per_input, per_class) = solve(
-        di as f64,
-        dc as f64,
-        od as f64 - fixed,
-        vi as f64,
-        vc as f64,
-        ov as f64 - fixed,
-    )?;
-    Ok((per_input, per_class, (od, ov)))
-}
-
-/// The int8 rates of one target: per MAC and per row from the two synthetic layers, per input
-/// and per class from the two whole-model counts (f32 features in) less their layers.
-pub fn int8(t: &Target, shapes: Shapes) -> Result<Rates, String> {
-    let (per_mac, per_row) = layer_rates(t, "i8")?;
-    let (target, fixed) = if t.bench.kernel == "dsp" {
-        ("Cortex-M4 (DSP)", 300.0)
-    } else {
-        ("Cortex-M0", 1000.0)
-    };
-    let (per_input, per_class, overheads) = model_rates(t, shapes, "", fixed)?;
-    Ok(Rates {
+    let [per_mac, per_row, per_partial_row, per_input, per_layer] = layers.map(round2);
+    let mut r = Rates {
         target,
-        per_mac: round2(per_mac),
-        per_row: per_row.round(),
-        per_input: per_input.round(),
-        per_class: per_class.round(),
-        fixed,
-        overheads: Some(overheads),
-    })
+        core,
+        weights,
+        feed,
+        per_mac,
+        per_row,
+        per_partial_row,
+        per_input,
+        per_layer,
+        per_feature: 0.0,
+        per_class: 0.0,
+        fixed: 0.0,
+    };
+    let mut rows = Vec::new();
+    for m in models {
+        let Some(c) = t.bench.case(m, whole_variant(feed)) else {
+            continue;
+        };
+        let s = shape(shapes, m)?;
+        // The layers as estimated (the other rates are still 0 here).
+        let rest = c.count as f64 - cycles::instructions(&r, 0, &s.layers);
+        let classes = s.layers.last().map_or(0, |l| l.1) as f64;
+        let y = c.count as f64;
+        rows.push(([s.features as f64 / y, classes / y, 1.0 / y], rest / y));
+    }
+    // Minimax rather than least squares: the check holds the largest error, not the mean.
+    let [per_feature, per_class, fixed] = minimax(&rows)?;
+    r.per_feature = round2(per_feature);
+    r.per_class = round2(per_class);
+    r.fixed = round2(fixed);
+    Ok(r)
 }
 
-/// The f32 rates of the FPU target, fitted like int8 to the f32 layers and the f32 twins of
-/// the two example models.
-pub fn f32(t: &Target, shapes: Shapes) -> Result<Rates, String> {
-    let (per_mac, per_row) = layer_rates(t, "f32")?;
-    let fixed = 300.0;
-    let (per_input, per_class, overheads) = model_rates(t, shapes, "-f32", fixed)?;
-    Ok(Rates {
-        target: "Cortex-M4F (FPU)",
-        per_mac: round2(per_mac),
-        per_row: per_row.round(),
-        per_input: per_input.round(),
-        per_class: per_class.round(),
-        fixed,
-        overheads: Some(overheads),
-    })
+/// Every set of rates: int8 on each target through both input paths, f32 on the FPU target.
+pub fn all(targets: &[Target], shapes: &Shapes) -> Result<Vec<Rates>, String> {
+    let mut out = Vec::new();
+    for t in targets {
+        let l8 = layer_rates(t, shapes, &INT8_MODELS)?;
+        for feed in [Feed::F32, Feed::Integer] {
+            out.push(fit(t, shapes, Weights::Int8, feed, l8)?);
+        }
+        if t.bench.kernel == "dsp" {
+            let lf = layer_rates(t, shapes, &F32_MODELS)?;
+            out.push(fit(t, shapes, Weights::F32, Feed::F32, lf)?);
+        }
+    }
+    Ok(out)
+}
+
+/// One measured whole-model count and the estimate of it.
+pub struct Checked {
+    /// Target (`m4`, `m0`).
+    pub target: &'static str,
+    /// Model case name.
+    pub model: String,
+    /// Input path.
+    pub feed: Feed,
+    /// Measured instructions.
+    pub measured: u64,
+    /// The converter's estimate.
+    pub estimated: u64,
+}
+
+impl Checked {
+    /// Relative error of the estimate.
+    pub fn error(&self) -> f64 {
+        (self.estimated as f64 - self.measured as f64) / self.measured.max(1) as f64
+    }
+
+    /// Whether it is within the estimator's tolerance.
+    pub fn ok(&self) -> bool {
+        self.error().abs() <= cycles::TOLERANCE
+    }
+}
+
+/// The estimate, through the converter's [`cycles::estimate`] with `rates`, of every measured
+/// whole-model count.
+pub fn check(targets: &[Target], shapes: &Shapes, rates: &[Rates]) -> Result<Vec<Checked>, String> {
+    let mut out = Vec::new();
+    for t in targets {
+        let dsp = t.bench.kernel == "dsp";
+        let target = if dsp { Core::M4 } else { Core::M0 };
+        let mine: Vec<Rates> = rates.iter().copied().filter(|r| r.core == target).collect();
+        for (weights, models) in [(Weights::Int8, &INT8_MODELS), (Weights::F32, &F32_MODELS)] {
+            for m in models {
+                let s = shape(shapes, m)?;
+                for e in cycles::estimate(&mine, weights, s.features, &s.layers, None) {
+                    let Some(c) = t.bench.case(m, whole_variant(e.feed)) else {
+                        continue;
+                    };
+                    out.push(Checked {
+                        target: t.name,
+                        model: (*m).to_string(),
+                        feed: e.feed,
+                        measured: c.count,
+                        estimated: e.instructions,
+                    });
+                }
+            }
+        }
+    }
+    Ok(out)
 }
 
 #[cfg(test)]
@@ -127,19 +292,35 @@ mod tests {
     use super::*;
 
     #[test]
-    fn solve_recovers_a_known_pair() {
-        // 1.5 per MAC and 90 per row on both layer shapes.
-        let c = |n: f64, m: f64| 1.5 * n + 90.0 * m;
-        let (a, b) = solve(
-            78400.0,
-            100.0,
-            c(78400.0, 100.0),
-            2048.0,
-            32.0,
-            c(2048.0, 32.0),
-        )
-        .unwrap();
-        assert!((a - 1.5).abs() < 1e-9 && (b - 90.0).abs() < 1e-6);
-        assert!(solve(1.0, 2.0, 3.0, 2.0, 4.0, 6.0).is_err());
+    fn least_squares_recovers_an_exact_fit_and_fits_an_overdetermined_one() {
+        // y = 1.5 a + 90 b + 300 on four points: recovered exactly.
+        let f = |a: f64, b: f64| 1.5 * a + 90.0 * b + 300.0;
+        let pts = [
+            (78400.0, 100.0),
+            (2048.0, 32.0),
+            (4096.0, 64.0),
+            (320.0, 10.0),
+        ];
+        let rows: Vec<([f64; 3], f64)> = pts.iter().map(|&(a, b)| ([a, b, 1.0], f(a, b))).collect();
+        let x = least_squares(&rows).unwrap();
+        assert!(
+            (x[0] - 1.5).abs() < 1e-6 && (x[1] - 90.0).abs() < 1e-3 && (x[2] - 300.0).abs() < 1e-2
+        );
+        // The mean of 1, 2, 3 minimises the squared distance to them.
+        let m = least_squares(&[([1.0], 1.0), ([1.0], 2.0), ([1.0], 3.0)]).unwrap();
+        assert!((m[0] - 2.0).abs() < 1e-12);
+        assert!(least_squares::<2>(&[([1.0, 2.0], 3.0), ([2.0, 4.0], 6.0)]).is_err());
+        assert!(least_squares::<2>(&[([1.0, 2.0], 3.0)]).is_err());
+    }
+
+    #[test]
+    fn minimax_balances_the_largest_residuals() {
+        // One constant for 0, 1, 10: least squares gives the mean (3.67, worst residual 6.33),
+        // minimax the midrange 5 (worst residual 5, reached at both ends).
+        let rows = [([1.0], 0.0), ([1.0], 1.0), ([1.0], 10.0)];
+        let ls = least_squares(&rows).unwrap()[0];
+        let mm = minimax(&rows).unwrap()[0];
+        assert!((ls - 11.0 / 3.0).abs() < 1e-9);
+        assert!((mm - 5.0).abs() < 1e-3, "{mm}");
     }
 }

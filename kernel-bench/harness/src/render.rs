@@ -6,7 +6,8 @@
 //! recorded count to [`MARGIN`] while every size, stack figure and word must match exactly.
 //! [`plain`] drops the marks.
 use crate::goals::{self, MARGIN};
-use crate::rates::Rates;
+use crate::rates::cycles::Rates;
+use crate::rates::Checked;
 use crate::Target;
 use std::fmt::{Display, Write};
 
@@ -39,7 +40,7 @@ macro_rules! w {
 
 /// The results region of BENCHMARKS.md: dense layers, whole inferences, the integer input
 /// path, code size, stack, goals, self-check.
-pub fn results(targets: &[Target]) -> String {
+pub fn results(targets: &[Target], estimates: &[Checked]) -> String {
     let mut s = String::new();
     w!(s, "Dense layers, instructions per MAC (lower is better):\n");
     w!(s, "| layer | target | naive | portable, output-major (before) | portable, blocked | kernel (after) | kernel |");
@@ -73,7 +74,7 @@ pub fn results(targets: &[Target]) -> String {
     );
     w!(s, "| model | target | MACs | before (portable) | after (kernel) | instr/MAC after | Σ dense layers | whole / Σ layers |");
     w!(s, "|---|---|---:|---:|---:|---:|---:|---:|");
-    for model in ["digits", "vibration"] {
+    for model in ["digits", "vibration", "i8-784x100", "i8-64x32", "i8-18x40"] {
         for t in targets {
             if let Some((portable, whole, layers, ratio)) = t.bench.model_ratio(model) {
                 let macs = t.bench.case(model, "model-kernel").map_or(0, |c| c.macs);
@@ -99,7 +100,13 @@ pub fn results(targets: &[Target]) -> String {
         "| model | target | MACs | whole | instr/MAC | Σ dense layers | whole / Σ layers |"
     );
     w!(s, "|---|---|---:|---:|---:|---:|---:|");
-    for model in ["digits-f32", "vibration-f32"] {
+    for model in [
+        "digits-f32",
+        "vibration-f32",
+        "f32-784x100",
+        "f32-64x32",
+        "f32-18x40",
+    ] {
         for t in targets {
             let (Some((whole, layers)), Some(c)) = (
                 t.bench.whole_and_layers(model),
@@ -126,7 +133,7 @@ pub fn results(targets: &[Target]) -> String {
     );
     w!(s, "| model | target | `infer` | `classify` | Σ dense layers | `infer` / Σ layers | `classify` / Σ layers |");
     w!(s, "|---|---|---:|---:|---:|---:|---:|");
-    for model in ["digits", "vibration"] {
+    for model in ["digits", "vibration", "i8-784x100", "i8-64x32", "i8-18x40"] {
         for t in targets {
             let r = &t.bench;
             let (Some(infer), Some(classify), Some((_, _, layers, _))) = (
@@ -149,6 +156,8 @@ pub fn results(targets: &[Target]) -> String {
             );
         }
     }
+    unaligned(&mut s, targets);
+    estimate_table(&mut s, estimates);
     w!(s, "\nCode size:\n");
     w!(s, "| target | runtime .text, int8-only build (bytes) | int8-only, `classify` (bytes) | default build with f32 (bytes) | self-check |");
     w!(s, "|---|---:|---:|---:|---|");
@@ -321,45 +330,111 @@ pub fn measured(targets: &[Target], rustc: &str) -> String {
     s
 }
 
-fn rates_literal(s: &mut String, r: &Rates, indent: &str) {
-    let f = |v: f64| approx(format!("{v:?}"));
-    w!(s, "{indent}    target: \"{}\",", r.target);
-    w!(s, "{indent}    per_mac: {},", f(r.per_mac));
-    w!(s, "{indent}    per_row: {},", f(r.per_row));
-    w!(s, "{indent}    per_input: {},", f(r.per_input));
-    w!(s, "{indent}    per_class: {},", f(r.per_class));
-    w!(s, "{indent}    fixed: {:?},", r.fixed);
-}
-
-/// The rates region of `converter/src/report/cycles.rs`: `INT8` (one entry per target) and
-/// `F32` (the FPU target).
-pub fn rates(int8: &[Rates], f32: &Rates) -> String {
+/// The rates region of `converter/src/report/cycles.rs`: `RATES`, one entry per target,
+/// weight precision and input path.
+pub fn rates(rates: &[Rates]) -> String {
     let mut s = String::new();
-    let overheads: Vec<String> = int8
-        .iter()
-        .filter_map(|r| {
-            r.overheads
-                .map(|(d, v)| format!("{} and {} on the {}", approx(d), approx(v), r.target))
-        })
-        .collect();
-    w!(s, "/// int8 models (kernel-bench, opt-level \"s\"): per MAC and per row fitted to the 784×100 and");
-    w!(s, "/// 64×32 layers, per input and per class solved from the digits and vibration whole-model");
-    w!(s, "/// counts (f32 features in) less their layers, with the fixed part held. Whole − Σ layers:");
-    w!(s, "/// {}.", overheads.join(", "));
-    w!(s, "pub const INT8: [Rates; {}] = [", int8.len());
-    for r in int8 {
+    let f = |v: f64| approx(format!("{v:?}"));
+    w!(s, "/// Fitted by the measurement harness (kernel-bench, opt-level \"s\"): the layer rates to every");
+    w!(
+        s,
+        "/// layer counted alone, the rest to the whole-model counts (digits, vibration and the"
+    );
+    w!(s, "/// synthetic one-layer models, each through the input path named) less the estimated layers.");
+    w!(s, "pub const RATES: [Rates; {}] = [", rates.len());
+    for r in rates {
         w!(s, "    Rates {{");
-        rates_literal(&mut s, r, "    ");
+        w!(s, "        target: \"{}\",", r.target);
+        w!(s, "        core: Core::{:?},", r.core);
+        w!(s, "        weights: Weights::{:?},", r.weights);
+        w!(s, "        feed: Feed::{:?},", r.feed);
+        for (name, v) in [
+            ("per_mac", r.per_mac),
+            ("per_row", r.per_row),
+            ("per_partial_row", r.per_partial_row),
+            ("per_input", r.per_input),
+            ("per_layer", r.per_layer),
+            ("per_feature", r.per_feature),
+            ("per_class", r.per_class),
+            ("fixed", r.fixed),
+        ] {
+            w!(s, "        {name}: {},", f(v));
+        }
         w!(s, "    }},");
     }
     w!(s, "];");
-    w!(s, "");
-    let (d, v) = f32.overheads.unwrap_or_default();
-    w!(s, "/// f32 models: the Cortex-M4F FPU kernel (the M0 has no FPU; soft-float is not estimated),");
-    w!(s, "/// fitted the same way to the f32 layers and the f32 digits and vibration models. Whole − Σ");
-    w!(s, "/// layers: {} and {}.", approx(d), approx(v));
-    w!(s, "pub const F32: [Rates; 1] = [Rates {{");
-    rates_literal(&mut s, f32, "");
-    w!(s, "}}];");
     s
+}
+
+/// The Cortex-M4 cases on blobs one byte past a 4-byte boundary, against the aligned ones.
+fn unaligned(s: &mut String, targets: &[Target]) {
+    let rows: Vec<String> = targets
+        .iter()
+        .flat_map(|t| {
+            let r = &t.bench;
+            let layers = ["i8-784x100", "i8-64x32", "f32-784x100", "f32-64x32"]
+                .into_iter()
+                .filter_map(move |name| {
+                    let (a, u) = (
+                        r.per_mac(name, "kernel")?,
+                        r.per_mac(name, "kernel-unaligned")?,
+                    );
+                    Some(format!(
+                        "| {name} (layer, instr/MAC) | {} | {} | {} | {} |",
+                        t.name,
+                        approx(format!("{a:.2}")),
+                        approx(format!("{u:.2}")),
+                        approx(format!("{:.3}", u / a))
+                    ))
+                });
+            let models = ["digits", "vibration"].into_iter().filter_map(move |name| {
+                let (a, u) = (
+                    r.case(name, "model-kernel")?,
+                    r.case(name, "model-unaligned")?,
+                );
+                Some(format!(
+                    "| {name} (whole `infer`, instructions) | {} | {} | {} | {} |",
+                    t.name,
+                    approx(a.count),
+                    approx(u.count),
+                    approx(format!("{:.3}", u.count as f64 / a.count.max(1) as f64))
+                ))
+            });
+            layers.chain(models)
+        })
+        .collect();
+    if rows.is_empty() {
+        return;
+    }
+    w!(s, "\nUnaligned blob (the same blob one byte past a 4-byte boundary; only the Cortex-M4 kernels care), instruction counts:\n");
+    w!(
+        s,
+        "| case | target | aligned | unaligned | unaligned / aligned |"
+    );
+    w!(s, "|---|---|---:|---:|---:|");
+    for r in rows {
+        w!(s, "{r}");
+    }
+}
+
+/// Every measured whole-model count against the estimate of `kinglet inspect`.
+fn estimate_table(s: &mut String, estimates: &[Checked]) {
+    w!(s, "\nThe estimate of `kinglet inspect` (`converter/src/report/cycles.rs`, rates fitted by this run) against every whole-model count, instructions (`--check` fails beyond ±{:.0}%):\n", 100.0 * crate::rates::cycles::TOLERANCE);
+    w!(
+        s,
+        "| model | target | input path | measured | estimate | error |"
+    );
+    w!(s, "|---|---|---|---:|---:|---:|");
+    for e in estimates {
+        w!(
+            s,
+            "| {} | {} | {} | {} | {} | {}% |",
+            e.model,
+            e.target,
+            e.feed.name(),
+            approx(e.measured),
+            approx(e.estimated),
+            approx(format!("{:+.1}", 100.0 * e.error()))
+        );
+    }
 }

@@ -73,8 +73,17 @@ fn fill_f32(buf: &mut [u8], rng: &mut Rng) {
     }
 }
 
-/// The int8 cases of one synthetic layer: naive, portable output-major, portable blocked, kernel.
-fn int8_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rng) {
+/// The int8 cases of one synthetic layer: naive, portable output-major, portable blocked, kernel,
+/// and (Cortex-M4) the kernel on the same blob one byte past a 4-byte boundary.
+// Not inlined: main would hold every case's buffers at once (the Cortex-M0 has 16 KiB).
+#[inline(never)]
+fn int8_layer(
+    name: &str,
+    blocked: &'static [u8],
+    om: &'static [u8],
+    unaligned: Option<&'static [u8]>,
+    rng: &mut Rng,
+) {
     let (mb, mo) = (model(blocked), model(om));
     let (lb, lo) = (mb.desc().layers[0], mo.desc().layers[0]);
     let (n, m) = (lb.inputs as usize, lb.outputs as usize);
@@ -103,11 +112,29 @@ fn int8_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut R
         dense::dense_i8_blocked_auto(black_box(&pb), black_box(x), &mut out[..m])
     });
     assert!(out[..m] == reference[..m], "{} kernel differs", name);
+    if let Some(blob) = unaligned {
+        let mu = model(blob);
+        let pu = params(&mu.desc().layers[0]);
+        out[..m].fill(0);
+        case(name, "kernel-unaligned", n * m, || {
+            dense::dense_i8_blocked_auto(black_box(&pu), black_box(x), &mut out[..m])
+        });
+        assert!(out[..m] == reference[..m], "{} unaligned differs", name);
+    }
     black_box(&out);
 }
 
-/// The f32 cases of one synthetic layer: naive, portable output-major, kernel.
-fn f32_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rng) {
+/// The f32 cases of one synthetic layer: naive, portable output-major, kernel, and (Cortex-M4)
+/// the kernel on the blob one byte past a 4-byte boundary.
+// Not inlined: main would hold every case's buffers at once (the Cortex-M0 has 16 KiB).
+#[inline(never)]
+fn f32_layer(
+    name: &str,
+    blocked: &'static [u8],
+    om: &'static [u8],
+    unaligned: Option<&'static [u8]>,
+    rng: &mut Rng,
+) {
     let (mb, mo) = (model(blocked), model(om));
     let (lb, lo) = (mb.desc().layers[0], mo.desc().layers[0]);
     let (n, m) = (lb.inputs as usize, lb.outputs as usize);
@@ -155,19 +182,47 @@ fn f32_layer(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rn
         "{} kernel differs",
         name
     );
+    if let Some(blob) = unaligned {
+        let mu = model(blob);
+        let lu = mu.desc().layers[0];
+        out[..4 * m].fill(0);
+        case(name, "kernel-unaligned", n * m, || {
+            let p = DenseF32 {
+                inputs: n,
+                weights: black_box(lu.weights),
+                bias: lu.bias,
+                relu,
+            };
+            dense::dense_f32_blocked_auto(&p, black_box(x), &mut out[..4 * m])
+        });
+        assert!(
+            out[..4 * m] == reference[..4 * m],
+            "{} unaligned differs",
+            name
+        );
+    }
 }
 
-/// Whole inference of a packed model (blocked and its output-major twin) and each layer alone.
-fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut Rng) {
+/// Whole inference of a packed model (blocked and its output-major twin; on the Cortex-M4 also
+/// the blocked blob one byte past a 4-byte boundary) and each layer alone.
+// Not inlined: main would hold every case's buffers at once (the Cortex-M0 has 16 KiB).
+#[inline(never)]
+fn whole_model(
+    name: &str,
+    blocked: &'static [u8],
+    om: &'static [u8],
+    unaligned: Option<&'static [u8]>,
+    rng: &mut Rng,
+) {
     let (mb, mo) = (model(blocked), model(om));
     let n = mb.input_len();
-    let mut features = [0f32; 64];
+    let mut features = [0f32; MAX_INPUTS];
     for f in features[..n].iter_mut() {
         *f = (rng.next_u32() % 17) as f32 * if n == 64 { 1.0 } else { 0.25 };
     }
     let input = Input::F32(&features[..n]);
-    let mut scratch = Aligned([0u8; 512]);
-    let mut scores = [0f32; 16];
+    let mut scratch = Aligned([0u8; MAX_SCRATCH]);
+    let mut scores = [0f32; MAX_SCORES];
     let macs: usize = mb.layers().map(|l| l.macs()).sum();
     let mut pred = None;
     case(name, "model-portable", macs, || {
@@ -182,9 +237,16 @@ fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut 
         "{} predictions differ",
         name
     );
+    if let Some(blob) = unaligned {
+        let mu = model(blob);
+        case(name, "model-unaligned", macs, || {
+            pred = Some(mu.infer(black_box(input), &mut scratch.0, &mut scores));
+        });
+        assert!(pred == want, "{} unaligned prediction differs", name);
+    }
     // The integer input path (the same features as i16 counts): `infer`, and `classify`, which
     // stays in integers to the class.
-    let mut counts = [0i16; 64];
+    let mut counts = [0i16; MAX_INPUTS];
     for (c, f) in counts.iter_mut().zip(&features[..n]) {
         *c = *f as i16;
     }
@@ -202,7 +264,7 @@ fn whole_model(name: &str, blocked: &'static [u8], om: &'static [u8], rng: &mut 
         name
     );
     for (k, l) in mb.desc().layers.iter().enumerate() {
-        let (src, dst) = scratch.0.split_at_mut(256);
+        let (src, dst) = scratch.0.split_at_mut(MAX_SCRATCH - 128);
         fill(&mut src[..l.inputs as usize], rng);
         let mut label = [0u8; 24];
         let text = layer_name(&mut label, name, k);
@@ -234,6 +296,33 @@ fn layer_name<'b>(buf: &'b mut [u8; 24], model: &str, k: usize) -> &'b str {
     core::str::from_utf8(&buf[..len + 3]).unwrap_or("layer")
 }
 
+/// The widest input, scratch buffer and score count of the whole-model cases: the 784 → 100 layer run
+/// whole on the Cortex-M4, the 64-wide models on the M0 (16 KiB of RAM).
+#[cfg(kb_big_models)]
+const MAX_INPUTS: usize = 784;
+#[cfg(kb_big_models)]
+const MAX_SCRATCH: usize = 1024;
+#[cfg(kb_big_models)]
+const MAX_SCORES: usize = 100;
+#[cfg(not(kb_big_models))]
+const MAX_INPUTS: usize = 64;
+#[cfg(not(kb_big_models))]
+const MAX_SCRATCH: usize = 512;
+#[cfg(not(kb_big_models))]
+const MAX_SCORES: usize = 40;
+
+/// `Some(blobs::$name)` on the Cortex-M4 (`kb_unaligned`: the unaligned twins exist there),
+/// `None` elsewhere.
+macro_rules! unaligned {
+    ($name:ident) => {{
+        #[cfg(kb_unaligned)]
+        let blob = Some(blobs::$name);
+        #[cfg(not(kb_unaligned))]
+        let blob: Option<&'static [u8]> = None;
+        blob
+    }};
+}
+
 #[entry]
 fn main() -> ! {
     hprintln!("kb target {}", dense::KERNEL);
@@ -249,19 +338,69 @@ fn main() -> ! {
         "i8-784x100",
         blobs::I8_784X100,
         blobs::I8_784X100_OM,
+        unaligned!(I8_784X100_UNALIGNED),
         &mut rng,
     );
-    int8_layer("i8-64x32", blobs::I8_64X32, blobs::I8_64X32_OM, &mut rng);
+    int8_layer(
+        "i8-64x32",
+        blobs::I8_64X32,
+        blobs::I8_64X32_OM,
+        unaligned!(I8_64X32_UNALIGNED),
+        &mut rng,
+    );
     #[cfg(kb_big_f32)]
     f32_layer(
         "f32-784x100",
         blobs::F32_784X100,
         blobs::F32_784X100_OM,
+        unaligned!(F32_784X100_UNALIGNED),
         &mut rng,
     );
-    f32_layer("f32-64x32", blobs::F32_64X32, blobs::F32_64X32_OM, &mut rng);
-    whole_model("digits", blobs::DIGITS, blobs::DIGITS_OM, &mut rng);
-    whole_model("vibration", blobs::VIBRATION, blobs::VIBRATION_OM, &mut rng);
+    f32_layer(
+        "f32-64x32",
+        blobs::F32_64X32,
+        blobs::F32_64X32_OM,
+        unaligned!(F32_64X32_UNALIGNED),
+        &mut rng,
+    );
+    whole_model(
+        "digits",
+        blobs::DIGITS,
+        blobs::DIGITS_OM,
+        unaligned!(DIGITS_UNALIGNED),
+        &mut rng,
+    );
+    whole_model(
+        "vibration",
+        blobs::VIBRATION,
+        blobs::VIBRATION_OM,
+        unaligned!(VIBRATION_UNALIGNED),
+        &mut rng,
+    );
+    // The synthetic layers as whole models (scaler, one layer, softmax): more whole-model
+    // counts for the estimate of `kinglet inspect` to be fitted to and checked against.
+    #[cfg(kb_big_models)]
+    whole_model(
+        "i8-784x100",
+        blobs::I8_784X100_WHOLE,
+        blobs::I8_784X100_WHOLE_OM,
+        None,
+        &mut rng,
+    );
+    whole_model(
+        "i8-64x32",
+        blobs::I8_64X32,
+        blobs::I8_64X32_OM,
+        None,
+        &mut rng,
+    );
+    whole_model(
+        "i8-18x40",
+        blobs::I8_18X40,
+        blobs::I8_18X40_OM,
+        None,
+        &mut rng,
+    );
     hprintln!("kb end");
     debug::exit(if t.failed == 0 {
         debug::EXIT_SUCCESS

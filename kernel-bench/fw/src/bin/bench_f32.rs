@@ -49,13 +49,13 @@ fn whole_f32(name: &str, blob: &'static [u8], rng: &mut Rng) {
         Err(e) => panic!("{} rejected: {}", name, e),
     };
     let n = m.input_len();
-    let mut features = [0f32; 64];
+    let mut features = [0f32; 784];
     for f in features[..n].iter_mut() {
         *f = (rng.next_u32() % 17) as f32 * if n == 64 { 1.0 } else { 0.25 };
     }
     let input = Input::F32(&features[..n]);
-    let mut scratch = Aligned([0u8; 1024]);
-    let mut scores = [0f32; 16];
+    let mut scratch = Aligned([0u8; 4096]);
+    let mut scores = [0f32; 100];
     let macs: usize = m.layers().map(|l| l.macs()).sum();
     let mut pred = None;
     case(name, "model-kernel", macs, || {
@@ -63,7 +63,7 @@ fn whole_f32(name: &str, blob: &'static [u8], rng: &mut Rng) {
     });
     assert!(pred.is_some_and(|p| p.is_ok()), "{} failed", name);
     for (k, l) in m.desc().layers.iter().enumerate() {
-        let (src, dst) = scratch.0.split_at_mut(512);
+        let (src, dst) = scratch.0.split_at_mut(3584);
         let (inputs, outputs) = (l.inputs as usize, l.outputs as usize);
         for c in src[..4 * inputs].chunks_exact_mut(4) {
             c.copy_from_slice(&rng.f32().to_le_bytes());
@@ -93,6 +93,11 @@ fn main() -> ! {
     let mut rng = Rng::new(42);
     whole_f32("digits-f32", blobs::DIGITS_F32, &mut rng);
     whole_f32("vibration-f32", blobs::VIBRATION_F32, &mut rng);
+    // The synthetic f32 layers as whole models (scaler, one layer, softmax), as in `bench`.
+    #[cfg(kb_big_f32)]
+    whole_f32("f32-784x100", blobs::F32_784X100, &mut rng);
+    whole_f32("f32-64x32", blobs::F32_64X32, &mut rng);
+    whole_f32("f32-18x40", blobs::F32_18X40, &mut rng);
     hprintln!("kb end");
     debug::exit(debug::EXIT_SUCCESS);
     park()
