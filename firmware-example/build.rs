@@ -282,7 +282,7 @@ fn own_model(dir: &Path, out: &Path) -> Option<(PathBuf, u64, u64)> {
         format!(
             "/// The model of your own given at build time ({}).\n\
              pub const OWN: Option<OwnSet> = Some(OwnSet {{\n\
-             \x20   model: include_bytes!({:?}),\n\
+             \x20   model: kinglet_runtime::embed_blob!({:?}),\n\
              \x20   vectors: include_str!({:?}),\n\
              \x20   feed: Feed::{feed},\n\
              \x20   lines: {lines},\n\

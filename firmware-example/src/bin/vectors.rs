@@ -84,6 +84,11 @@ fn run_own(own: &OwnSet, scratch: &mut [u8]) -> (usize, usize) {
             return (0, own.lines);
         }
     };
+    // build.rs embeds it with `embed_blob!`, at a multiple of 4.
+    if !model.weights_aligned() {
+        console::line("own model: weights not 4-byte aligned");
+        return (0, own.lines);
+    }
     let mut line = Line::new();
     let (mut passed, mut failed) = (0, 0);
     for (i, want) in own.vectors.lines().enumerate() {
