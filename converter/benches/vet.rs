@@ -11,10 +11,13 @@ use kinglet_converter::dataset::Dataset;
 use kinglet_converter::graph::{
     Activation, DenseLayer, FloatModel, OutputKind, Scaler, ScalerKind,
 };
+use kinglet_converter::host::{FloatHost, Int8Host};
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
+use kinglet_converter::vet::run::BATCH;
 use kinglet_converter::vet::{self, Criteria, ModelPair, Parallelism, Sources};
 use kinglet_runtime::Model;
+use rayon::prelude::*;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::time::Instant;
@@ -175,10 +178,58 @@ fn main() {
         .expect("vet");
         (t.elapsed().as_secs_f64(), r)
     };
-    let (par_t, par_r): (Vec<f64>, Vec<_>) = (0..3).map(|_| run(Parallelism::Parallel)).unzip();
+    let (par_t, par_r): (Vec<f64>, Vec<_>) = (0..5).map(|_| run(Parallelism::Parallel)).unzip();
     let (ser_t, ser_r): (Vec<f64>, Vec<_>) = (0..3).map(|_| run(Parallelism::Serial)).unzip();
     assert_eq!(par_r[0], ser_r[0], "parallel and serial reports differ");
     let our_class_sum: usize = par_r[0].predictions.float.iter().sum();
+    // The per-row engine (each row through `Model::infer_traced`, as before batching).
+    let rows_fed = kinglet_converter::score::Rows::floats(data.clone());
+    let per_row = |p: Parallelism| {
+        let t = Instant::now();
+        let r = vet::vet_rows(
+            &pair,
+            &rows_fed,
+            kinglet_converter::score::Entry::Infer,
+            &Sources::default(),
+            &Criteria::default(),
+            vet::How {
+                parallelism: p,
+                engine: vet::Engine::PerRow,
+            },
+            &|_| {},
+        )
+        .expect("vet");
+        (t.elapsed().as_secs_f64(), r)
+    };
+    let (row_t, row_r): (Vec<f64>, Vec<_>) = (0..2).map(|_| per_row(Parallelism::Parallel)).unzip();
+    assert_eq!(
+        row_r[0].predictions.int8, par_r[0].predictions.int8,
+        "batched and per-row int8 classes differ"
+    );
+
+    // The two batched forward passes alone (what numpy's pass is compared with): f32 and int8,
+    // batches of `vet::run::BATCH` rows over rayon's threads, as `vet` runs them.
+    let fh = FloatHost::new(&pair.float).expect("f32 host");
+    let qh = Int8Host::new(&pair.int8).expect("int8 host");
+    let passes = || {
+        let t = Instant::now();
+        let batches = ROWS.div_ceil(BATCH);
+        let sum: usize = (0..batches)
+            .into_par_iter()
+            .map(|b| {
+                let (start, n) = (b * BATCH, BATCH.min(ROWS - b * BATCH));
+                let x = &data.features[start * INPUTS..(start + n) * INPUTS];
+                let f = fh.run(x, n).expect("f32 pass");
+                let q = qh
+                    .run(n, |r| kinglet_runtime::Input::F32(data.row(start + r)))
+                    .expect("int8 pass");
+                f.class.iter().sum::<usize>() + q.infer_class.iter().sum::<usize>()
+            })
+            .sum();
+        std::hint::black_box(sum);
+        t.elapsed().as_secs_f64()
+    };
+    let pass_t: Vec<f64> = (0..7).map(|_| passes()).collect();
 
     // Where the time goes: each runtime path alone, one thread, all rows.
     let path_time = |m: &Model<'_>| {
@@ -225,14 +276,20 @@ fn main() {
         );
     }
 
+    let best = |t: &[f64]| t.iter().copied().fold(f64::INFINITY, f64::min);
     println!(
         "vet benchmark: {ROWS} rows, {INPUTS}-{HIDDEN}-{CLASSES} softmax, {} threads for rayon",
         rayon::current_num_threads()
     );
     println!("numpy {}: {}", np["dtype"], np["blas"]);
     println!("{:<62} {:>10} {:>10}", "case", "median s", "best s");
-    let best = |t: &[f64]| t.iter().copied().fold(f64::INFINITY, f64::min);
+    let np_best = np["forward_best_s"].as_f64().unwrap_or(f64::NAN);
     let rows = [
+        (
+            "kinglet batched f32 + int8 forward passes (7 runs)",
+            median(pass_t.clone()),
+            best(&pass_t),
+        ),
         (
             "numpy float forward pass only (in process, 5 runs)",
             np["forward_median_s"].as_f64().unwrap_or(f64::NAN),
@@ -247,6 +304,11 @@ fn main() {
             "kinglet vet, library, parallel: f32 + int8 + report",
             median(par_t.clone()),
             best(&par_t),
+        ),
+        (
+            "kinglet vet --per-row, library, parallel: f32 + int8 + report",
+            median(row_t.clone()),
+            best(&row_t),
         ),
         (
             "kinglet vet, library, serial: f32 + int8 + report",
@@ -272,6 +334,11 @@ fn main() {
     for (name, med, b) in rows {
         println!("{name:<62} {med:>10.4} {b:>10.4}");
     }
+    println!(
+        "best times: our two passes / numpy's one pass = {:.2}; vet per-row / vet batched = {:.2}",
+        best(&pass_t) / np_best,
+        best(&row_t) / best(&par_t)
+    );
     println!(
         "float predictions agree with numpy's on the class checksum: {} (ours {our_class_sum}, numpy {})",
         np["class_sum"].as_u64() == Some(our_class_sum as u64),

@@ -9,6 +9,7 @@ pub mod emit_rust;
 pub mod error_line;
 pub mod fit;
 pub mod graph;
+pub mod host;
 pub mod import;
 mod layer_table;
 pub mod output_guard;

@@ -4,13 +4,58 @@ use anyhow::{anyhow, bail, Result};
 use kinglet_converter::atomic::write_atomic;
 use kinglet_converter::dataset::LabelColumn;
 use kinglet_converter::output_guard::{check_distinct, Named};
-use kinglet_converter::pack::request::{named, pack, PackRequest, Precision, ScalerSource};
+use kinglet_converter::pack::request::{
+    named, pack_with, PackProgress, PackRequest, Precision, ScalerSource,
+};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_converter::report::calibration;
 use kinglet_converter::report::table;
 use std::path::PathBuf;
 
 use super::Outcome;
+
+/// Progress of a pack on the terminal: a spinner while a large calibration file is read, then
+/// a bar over the calibration rows.
+#[derive(Default)]
+struct TerminalProgress {
+    shown: std::sync::Mutex<Option<indicatif::ProgressBar>>,
+}
+
+impl TerminalProgress {
+    fn show(&self, bar: indicatif::ProgressBar) {
+        if let Ok(mut s) = self.shown.lock() {
+            if let Some(old) = s.replace(bar) {
+                old.finish_and_clear();
+            }
+        }
+    }
+}
+
+impl PackProgress for TerminalProgress {
+    fn loading(&self, path: &std::path::Path) {
+        self.show(super::progress::loading(path));
+    }
+    fn calibrating(&self, rows: usize) {
+        self.show(super::progress::rows_bar("calibrating", rows));
+    }
+    fn rows_done(&self, n: u64) {
+        if let Ok(s) = self.shown.lock() {
+            if let Some(b) = s.as_ref() {
+                b.inc(n);
+            }
+        }
+    }
+}
+
+impl Drop for TerminalProgress {
+    fn drop(&mut self) {
+        if let Ok(mut s) = self.shown.lock() {
+            if let Some(b) = s.take() {
+                b.finish_and_clear();
+            }
+        }
+    }
+}
 
 /// How calibration ranges are taken.
 #[derive(Debug, Clone, Copy, clap::ValueEnum)]
@@ -114,7 +159,7 @@ pub fn run(a: Args) -> Result<Outcome> {
     let out = a.out.clone().unwrap_or_else(|| req.default_out());
     let inputs = req.inputs();
     check_distinct(&[Named::new("the output (-o)", &out)], &named(&inputs))?;
-    let packed = pack(&req)?;
+    let packed = pack_with(&req, &TerminalProgress::default())?;
     write_atomic(&out, &packed.blob)?;
     // Warnings go to stderr (seen also when stdout is JSON or piped), after the write succeeded.
     for w in packed.calibration.iter().flat_map(|c| &c.warnings) {

@@ -107,7 +107,10 @@ pub fn load(s: &RowArgs) -> Result<Rows> {
         has_header,
         label_file: s.label_file.clone(),
     };
-    load_rows(&s.data, &opts, s.feed.into()).map_err(|e| match e {
+    let spinner = super::progress::loading(&s.data);
+    let loaded = load_rows(&s.data, &opts, s.feed.into());
+    spinner.finish_and_clear();
+    loaded.map_err(|e| match e {
         DatasetError::LabelColumnForNpy { .. } => anyhow::Error::new(e).context(
             "--label names a CSV column (for .npy features give --label-file <labels.npy>)",
         ),

@@ -1,6 +1,5 @@
 //! `kinglet vet`: compare an int8 blob with its float model on labelled (or unlabelled) rows.
 use anyhow::{anyhow, bail, Context, Result};
-use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use kinglet_converter::atomic::write_atomic;
 use kinglet_converter::echo;
 use kinglet_converter::output_guard::{check_distinct, Named};
@@ -15,9 +14,6 @@ use std::path::PathBuf;
 
 use super::rows::RowArgs;
 use super::Outcome;
-
-/// Rows from which a progress bar is worth drawing.
-const PROGRESS_FROM_ROWS: usize = 5_000;
 
 /// What `--max-drop` is compared with.
 #[derive(Debug, Clone, Copy, clap::ValueEnum)]
@@ -68,6 +64,11 @@ pub struct Args {
     /// Evaluate rows on one thread (the results are the same).
     #[arg(long)]
     serial: bool,
+    /// Run every row through the runtime's own `Model::infer_traced` and `Model::classify`
+    /// rather than in batches (slower; the int8 results are the same bit for bit, the float
+    /// ones agree to rounding).
+    #[arg(long)]
+    per_row: bool,
 }
 
 /// `--max-drop`: percentage points, -100 to 100 (a negative bound asks int8 to gain accuracy).
@@ -128,18 +129,7 @@ pub fn run(a: Args) -> Result<Outcome> {
         float_model: a.float_model.display().to_string(),
         int8_model: a.int8_blob.display().to_string(),
     };
-    let bar = if std::io::stderr().is_terminal() && data.rows >= PROGRESS_FROM_ROWS {
-        let b = ProgressBar::with_draw_target(Some(data.rows as u64), ProgressDrawTarget::stderr());
-        if let Ok(style) =
-            ProgressStyle::with_template("{prefix} [{bar:40}] {pos}/{len} rows, {eta} left")
-        {
-            b.set_style(style.progress_chars("=> "));
-        }
-        b.set_prefix("vetting");
-        b
-    } else {
-        ProgressBar::hidden()
-    };
+    let bar = super::progress::rows_bar("vetting", data.rows);
     let parallelism = if a.serial {
         Parallelism::Serial
     } else {
@@ -151,7 +141,14 @@ pub fn run(a: Args) -> Result<Outcome> {
         a.source.entry.into(),
         &sources,
         &criteria,
-        parallelism,
+        vet::How {
+            parallelism,
+            engine: if a.per_row {
+                vet::Engine::PerRow
+            } else {
+                vet::Engine::Batched
+            },
+        },
         &|n| bar.inc(n),
     )?;
     bar.finish_and_clear();

@@ -68,12 +68,15 @@ impl NpyValues {
         }
     }
 
-    /// Values as `f64` for any numeric element type (integers converted), else `None`.
-    pub fn numbers(&self) -> Option<Vec<f64>> {
+    /// The values as `f64`, one at a time, for any numeric element type (integers converted),
+    /// else `None`: without a second copy of a large array.
+    pub fn number_iter(&self) -> Option<Box<dyn Iterator<Item = f64> + '_>> {
         match self {
-            NpyValues::Int(v) => Some(v.iter().map(|&x| x as f64).collect()),
-            NpyValues::UInt(v) => Some(v.iter().map(|&x| x as f64).collect()),
-            other => other.floats(),
+            NpyValues::F32(v) => Some(Box::new(v.iter().map(|&x| f64::from(x)))),
+            NpyValues::F64(v) => Some(Box::new(v.iter().copied())),
+            NpyValues::Int(v) => Some(Box::new(v.iter().map(|&x| x as f64))),
+            NpyValues::UInt(v) => Some(Box::new(v.iter().map(|&x| x as f64))),
+            NpyValues::Str(_) => None,
         }
     }
 }
@@ -351,7 +354,10 @@ pub(crate) mod tests {
     fn integer_types_widen() {
         let a = parse_npy(&npy_bytes(&[-3i16, 7], &[2], Order::C)).unwrap();
         assert_eq!(a.dtype, "int16");
-        assert_eq!(a.values.numbers(), Some(vec![-3.0, 7.0]));
+        assert_eq!(
+            a.values.number_iter().map(Iterator::collect::<Vec<_>>),
+            Some(vec![-3.0, 7.0])
+        );
         assert_eq!(a.values.floats(), None);
         let b = parse_npy(&npy_bytes(&[200u8, 1], &[2], Order::C)).unwrap();
         assert_eq!(b.values, NpyValues::UInt(vec![200, 1]));

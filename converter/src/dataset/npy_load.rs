@@ -14,10 +14,10 @@ pub fn load_npy(features: &Path, labels: Option<&Path>) -> Result<Dataset, Datas
     let (rows, width, arr) = read_features(features)?;
     let values = arr
         .values
-        .numbers()
+        .number_iter()
         .ok_or_else(|| not_numbers(features, &arr))?;
-    let mut out = Vec::with_capacity(values.len());
-    for (k, v) in values.into_iter().enumerate() {
+    let mut out = Vec::with_capacity(rows * width);
+    for (k, v) in values.enumerate() {
         let f = v as f32;
         if !f.is_finite() {
             return Err(DatasetError::NotFiniteNpy {

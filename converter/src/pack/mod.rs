@@ -14,7 +14,7 @@ use crate::dataset::Dataset;
 use crate::graph::FloatModel;
 use crate::layer_table::{owned_table, wire_u32};
 use crate::quantise::advice::{self, num, percentile_option, rows_text, suggested_percentile};
-use crate::quantise::calibrate::{calibrate, range_of, Calibration, RangeMethod, TensorRange};
+use crate::quantise::calibrate::{range_of, Calibration, RangeMethod, TensorRange};
 use crate::quantise::plausible::biases_lost;
 use crate::quantise::quantise;
 use crate::quantise::spread::TensorStats;
@@ -57,10 +57,20 @@ pub struct Int8Pack {
 
 /// Calibrates on `data` (raw feature rows) with `method` and packs the int8 blob.
 pub fn pack_int8(model: &FloatModel, data: &Dataset, method: RangeMethod) -> Result<Int8Pack> {
+    pack_int8_observed(model, data, method, &|_| {})
+}
+
+/// [`pack_int8`], calling `progress` with the calibration rows just run.
+pub fn pack_int8_observed(
+    model: &FloatModel,
+    data: &Dataset,
+    method: RangeMethod,
+    progress: &dyn Fn(u64),
+) -> Result<Int8Pack> {
     let float_blob = pack_f32(model)?;
     let float_model = Model::parse(&float_blob)
         .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
-    let cal = calibrate(&float_model, data, method)?;
+    let cal = crate::quantise::calibrate::calibrate_observed(&float_model, data, method, progress)?;
     check_plausible(model, &cal, &data.source)?;
     let blob = quantise(model, &cal.ranges)?.encode_in(WeightLayout::Blocked4x4)?;
     Ok(Int8Pack {

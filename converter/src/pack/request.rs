@@ -14,7 +14,7 @@ use crate::report::calibration::CalibrationReport;
 use crate::report::BlobReport;
 use crate::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
 
-use super::{pack_f32, pack_int8};
+use super::{pack_f32, pack_int8_observed};
 
 /// Where the input scaler comes from, when the model carries none.
 #[derive(Debug, Clone, PartialEq)]
@@ -139,12 +139,33 @@ fn shown_labels(labels: &[String]) -> String {
     s
 }
 
+/// What a long pack reports as it goes (every method does nothing by default).
+pub trait PackProgress {
+    /// The calibration rows at `path` are being read.
+    fn loading(&self, _path: &Path) {}
+    /// Calibration over `rows` rows starts.
+    fn calibrating(&self, _rows: usize) {}
+    /// `n` more calibration rows have been run.
+    fn rows_done(&self, _n: u64) {}
+}
+
+/// Reports nothing.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Quiet;
+
+impl PackProgress for Quiet {}
+
 /// Runs the pack `req` describes; writes nothing.
 ///
 /// # Errors
 /// Whatever the import, the scaler, the labels, the calibration rows or the quantiser refuse,
 /// each naming the file (and row, column, node or layer) at fault.
 pub fn pack(req: &PackRequest) -> Result<Packed> {
+    pack_with(req, &Quiet)
+}
+
+/// [`pack`], telling `progress` how loading and calibration go.
+pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packed> {
     let model_path = &req.model;
     let mut model = import_file(model_path)
         .with_context(|| format!("cannot import {}", model_path.display()))?;
@@ -175,9 +196,11 @@ pub fn pack(req: &PackRequest) -> Result<Packed> {
             label,
             method,
         } => {
+            progress.loading(rows);
             let data = load_rows(rows, label.clone())?;
             check_calibration_width(&data, model.input_len, label.is_some())?;
-            let p = pack_int8(&model, &data, *method)
+            progress.calibrating(data.rows);
+            let p = pack_int8_observed(&model, &data, *method, &|n| progress.rows_done(n))
                 .with_context(|| format!("cannot pack {}", model_path.display()))?;
             notes.push(format!(
                 "calibrated on {} rows of {} ({})",

@@ -78,6 +78,20 @@ pub fn calibrate(
     data: &Dataset,
     method: RangeMethod,
 ) -> Result<Calibration> {
+    calibrate_observed(float_model, data, method, &|_| {})
+}
+
+/// Rows between two calls of a calibration's progress callback.
+const PROGRESS_STEP: usize = 1024;
+
+/// [`calibrate`], calling `progress` with the number of rows just run (every 1,024 rows and at
+/// the end).
+pub fn calibrate_observed(
+    float_model: &Model<'_>,
+    data: &Dataset,
+    method: RangeMethod,
+    progress: &dyn Fn(u64),
+) -> Result<Calibration> {
     if data.rows == 0 {
         bail!("calibration set {} has no rows", data.source);
     }
@@ -105,7 +119,11 @@ pub fn calibrate(
                 }
             })
             .map_err(|e| anyhow!("{}: {}: {e}", data.source, row_label(&data.source, r)))?;
+        if (r + 1) % PROGRESS_STEP == 0 {
+            progress(PROGRESS_STEP as u64);
+        }
     }
+    progress((data.rows % PROGRESS_STEP) as u64);
     let mut ranges = Vec::with_capacity(values.len());
     let mut tensors = Vec::with_capacity(values.len());
     for (t, (v, &width)) in values.iter().zip(&widths).enumerate() {

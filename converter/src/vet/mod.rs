@@ -1,6 +1,7 @@
 //! `kinglet vet`: the accuracy comparison of an int8 blob against its float model, on the
-//! host, with the runtime's own kernels on both sides; the int8 blob is fed the way the
-//! firmware feeds it (f32 features or raw `i16` / `u8` integers, `infer` or `classify`).
+//! host, with the runtime's own arithmetic on both sides (in batches, the int8 side bit for bit;
+//! see [`run`]); the int8 blob is fed the way the firmware feeds it (f32 features or raw `i16` /
+//! `u8` integers, `infer` or `classify`).
 //!
 //! - [`run`] evaluates every row through both models (in parallel, with serial results);
 //! - [`metrics`] computes accuracy, confusion matrices, precision and recall, agreement;
@@ -11,6 +12,7 @@
 //! - [`fidelity`] sums each tensor's SQNR (int8 dequantised against float);
 //! - [`summary`] assembles the [`summary::VetReport`]; [`render_text`] and [`render_html`]
 //!   show it.
+mod batched;
 pub mod charts;
 pub mod faults;
 pub mod fidelity;
@@ -30,7 +32,7 @@ use anyhow::{bail, Context, Result};
 use crate::dataset::{resolve_labels, Dataset};
 use crate::score::feed::{Entry, Rows};
 pub use pair::ModelPair;
-pub use run::{Fed, Parallelism};
+pub use run::{Engine, Fed, Parallelism};
 pub use summary::{Criteria, EntrySplit, Gate, Measured, Sources, VetReport};
 
 /// Turns the dataset's labels (class names or indices, as written) into class indices of the
@@ -62,27 +64,51 @@ pub fn vet(
         integers: None,
         entry: Entry::Infer,
     };
-    vet_fed(pair, &fed, sources, criteria, parallelism, progress)
+    let how = How {
+        parallelism,
+        engine: Engine::Batched,
+    };
+    vet_fed(pair, &fed, sources, criteria, how, progress)
 }
 
 /// [`vet`] through the path a firmware uses: `rows` as loaded for its input type (the int8 blob
 /// gets the exact integers of an integer path, the float model the same values as f32) and
-/// `entry` for the int8 blob's class.
+/// `entry` for the int8 blob's class; `how` is a [`Parallelism`] (batched) or a [`How`].
 pub fn vet_rows(
     pair: &ModelPair<'_>,
     rows: &Rows,
     entry: Entry,
     sources: &Sources,
     criteria: &Criteria,
-    parallelism: Parallelism,
+    how: impl Into<How>,
     progress: &(dyn Fn(u64) + Sync),
 ) -> Result<VetReport> {
+    let how = how.into();
     let fed = Fed {
         data: &rows.data,
         integers: rows.integers.as_ref(),
         entry,
     };
-    vet_fed(pair, &fed, sources, criteria, parallelism, progress)
+    vet_fed(pair, &fed, sources, criteria, how, progress)
+}
+
+/// How the rows are run: on how many threads, and batched or row by row.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct How {
+    /// Threads.
+    pub parallelism: Parallelism,
+    /// Batched or row by row.
+    pub engine: Engine,
+}
+
+impl From<Parallelism> for How {
+    /// Batched, on `parallelism`.
+    fn from(parallelism: Parallelism) -> Self {
+        How {
+            parallelism,
+            engine: Engine::Batched,
+        }
+    }
 }
 
 fn vet_fed(
@@ -90,7 +116,7 @@ fn vet_fed(
     fed: &Fed<'_>,
     sources: &Sources,
     criteria: &Criteria,
-    parallelism: Parallelism,
+    how: How,
     progress: &(dyn Fn(u64) + Sync),
 ) -> Result<VetReport> {
     let data = fed.data;
@@ -115,7 +141,7 @@ fn vet_fed(
             pair.classes(),
         )?)
     };
-    let outcomes = run::evaluate(pair, fed, parallelism, progress)?;
+    let outcomes = run::evaluate(pair, fed, how.parallelism, how.engine, progress)?;
     let mut report = summary::summarise(
         pair,
         &data.source,

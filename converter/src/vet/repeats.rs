@@ -1,8 +1,35 @@
 //! Repeated rows: the accuracy interval and McNemar's test assume independent rows, and a row
 //! that appears twice counts twice, which narrows the interval without new evidence.
 use std::collections::HashSet;
+use std::hash::{Hash, Hasher};
 
 use crate::dataset::Dataset;
+
+/// A row compared and hashed by its values' bits (`-0.0` taken as `0.0`), borrowed from the
+/// dataset: the set of rows seen costs a pointer per row, not a copy of every row.
+struct RowKey<'a>(&'a [f32]);
+
+impl RowKey<'_> {
+    fn bits(&self) -> impl Iterator<Item = u32> + '_ {
+        self.0.iter().map(|v| (v + 0.0).to_bits())
+    }
+}
+
+impl PartialEq for RowKey<'_> {
+    fn eq(&self, other: &Self) -> bool {
+        self.bits().eq(other.bits())
+    }
+}
+
+impl Eq for RowKey<'_> {}
+
+impl Hash for RowKey<'_> {
+    fn hash<H: Hasher>(&self, state: &mut H) {
+        for b in self.bits() {
+            state.write_u32(b);
+        }
+    }
+}
 
 /// How many rows repeat an earlier row exactly (every feature bit for bit; `-0.0` and `0.0`
 /// count as the same value, NaN cannot occur in a loaded dataset).
@@ -13,10 +40,7 @@ pub fn repeated_rows(data: &Dataset) -> u64 {
     let mut seen = HashSet::with_capacity(data.rows);
     data.features
         .chunks_exact(data.width)
-        .filter(|row| {
-            let key: Vec<u32> = row.iter().map(|v| (v + 0.0).to_bits()).collect();
-            !seen.insert(key)
-        })
+        .filter(|row| !seen.insert(RowKey(row)))
         .count() as u64
 }
 

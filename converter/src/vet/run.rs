@@ -9,6 +9,12 @@
 //! its class is that of the chosen [`Entry`]. The float model is always `infer` on the same
 //! values as f32.
 //!
+//! That is [`Engine::PerRow`]. The default, [`Engine::Batched`], runs chunks of rows through
+//! [`crate::host`]'s batched forward passes instead: the int8 side gives the runtime's results
+//! bit for bit (tensors, scores, classes of both entries), the f32 side the runtime's steps
+//! with dot products summed in another order (within the rounding bound stated in
+//! [`crate::host::float`]).
+//!
 //! Rows are independent, so they run in parallel (rayon); each row's result depends only on
 //! the row, results are collected in row order, and every sum over rows is taken afterwards in
 //! row order — so a parallel run gives exactly the numbers of a serial one.
@@ -61,8 +67,21 @@ pub enum Parallelism {
     Parallel,
 }
 
-/// Rows per unit of parallel work (and per progress step).
+/// How rows are run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Engine {
+    /// Chunks of rows at once, as matrix products ([`crate::host`]).
+    #[default]
+    Batched,
+    /// Every row through the runtime's own `Model::infer_traced` and `Model::classify`.
+    PerRow,
+}
+
+/// Rows per unit of parallel work (and per progress step) for [`Engine::PerRow`].
 const CHUNK: usize = 64;
+
+/// Rows per batch for [`Engine::Batched`].
+pub const BATCH: usize = 1024;
 
 /// Buffers one worker reuses across rows.
 struct Scratch {
@@ -91,10 +110,10 @@ impl Scratch {
 
 /// A row that could not be run, with which model refused it.
 #[derive(Debug, Clone, PartialEq)]
-struct RowFailure {
-    row: usize,
-    which: &'static str,
-    error: RunError,
+pub(crate) struct RowFailure {
+    pub(crate) row: usize,
+    pub(crate) which: &'static str,
+    pub(crate) error: RunError,
 }
 
 /// The rows as the int8 blob is fed: the f32 values, or the exact integers of an integer path.
@@ -200,10 +219,15 @@ pub fn evaluate(
     pair: &ModelPair<'_>,
     fed: &Fed<'_>,
     parallelism: Parallelism,
+    engine: Engine,
     progress: &(dyn Fn(u64) + Sync),
 ) -> Result<Vec<RowOutcome>> {
     let data = fed.data;
     data.check_width(pair.int8.input_len())?;
+    if let (Engine::Batched, Some(hosts)) = (engine, super::batched::Hosts::new(pair)) {
+        return super::batched::evaluate(&hosts, fed, parallelism, progress)
+            .map_err(|f| failure(data, f));
+    }
     let chunks = data.rows.div_ceil(CHUNK);
     let per_chunk: Vec<Vec<Result<RowOutcome, RowFailure>>> = match parallelism {
         Parallelism::Serial => {
@@ -231,16 +255,17 @@ pub fn evaluate(
     per_chunk
         .into_iter()
         .flatten()
-        .map(|r| {
-            r.map_err(|f| {
-                anyhow!(
-                    "{}: data row {} (1-based, header not counted): the {} model cannot run it: {}",
-                    data.source,
-                    f.row + 1,
-                    f.which,
-                    f.error
-                )
-            })
-        })
+        .map(|r| r.map_err(|f| failure(data, f)))
         .collect()
+}
+
+/// The error for a row that could not be run.
+fn failure(data: &Dataset, f: RowFailure) -> anyhow::Error {
+    anyhow!(
+        "{}: data row {} (1-based, header not counted): the {} model cannot run it: {}",
+        data.source,
+        f.row + 1,
+        f.which,
+        f.error
+    )
 }

@@ -1,0 +1,19 @@
+//! Batched forward passes on the host: many rows at once through a model's layers as matrix
+//! products, with the runtime's own per-element steps (input scaling and quantisation,
+//! requantisation, softmax, argmax) around them.
+//!
+//! - [`layers`] reads each layer of a validated blob into plain matrices;
+//! - [`int8`] runs an int8 blob: its results are the runtime's bit for bit (every tensor,
+//!   score and class), because the integer dot products are computed exactly (see there);
+//! - [`float`] runs an f32 blob through a matrix-multiplication crate: it sums each dot
+//!   product in another order than the runtime's kernels, so its values may differ from the
+//!   runtime's in the last bits (see there for the bound).
+//!
+//! `kinglet vet` uses these by default; its `--per-row` flag runs every row through
+//! [`kinglet_runtime::Model::infer_traced`] instead.
+pub mod float;
+pub mod int8;
+pub mod layers;
+
+pub use float::{FloatBatch, FloatHost};
+pub use int8::{Int8Batch, Int8Host};

@@ -1,0 +1,137 @@
+//! [`super::run::Engine::Batched`]: chunks of rows through [`crate::host`]'s batched forward
+//! passes, giving the per-row outcomes [`super::run::evaluate`] gives.
+use rayon::prelude::*;
+
+use super::fidelity::Energy;
+use super::pair::ModelPair;
+use super::run::{Fed, Parallelism, RowFailure, RowOutcome, BATCH};
+use crate::host::{FloatBatch, FloatHost, Int8Batch, Int8Host};
+use crate::score::feed::{input_at, Entry};
+
+/// The models read for batches.
+pub(crate) struct Hosts {
+    float: FloatHost,
+    int8: Int8Host,
+}
+
+impl Hosts {
+    /// Both sides of `pair`; `None` if either is not the precision it should be (a
+    /// [`ModelPair`] has checked that).
+    pub(crate) fn new(pair: &ModelPair<'_>) -> Option<Self> {
+        Some(Hosts {
+            float: FloatHost::new(&pair.float)?,
+            int8: Int8Host::new(&pair.int8)?,
+        })
+    }
+}
+
+/// The first failure of two sides' first failing rows: the earlier row, the float model's on a
+/// tie (the per-row path runs the float model first).
+fn first_failure(
+    float: Option<(usize, kinglet_runtime::RunError)>,
+    int8: Option<(usize, kinglet_runtime::RunError)>,
+    start: usize,
+) -> Option<RowFailure> {
+    let pick = match (float, int8) {
+        (Some(f), Some(q)) if q.0 < f.0 => ("int8", q),
+        (Some(f), _) => ("float", f),
+        (None, Some(q)) => ("int8", q),
+        (None, None) => return None,
+    };
+    let (which, (row, error)) = pick;
+    Some(RowFailure {
+        row: start + row,
+        which,
+        error,
+    })
+}
+
+/// Per-row outcomes of one batch of both sides.
+fn outcomes(f: &FloatBatch, q: &Int8Batch, entry: Entry) -> Vec<RowOutcome> {
+    let out_len = f.scores.len().checked_div(f.rows).unwrap_or(0);
+    (0..f.rows)
+        .map(|r| {
+            let energy = f
+                .stages
+                .iter()
+                .zip(&q.stages)
+                .map(|(fs, qs)| {
+                    let mut e = Energy::default();
+                    for (i, &v) in fs.row(r).iter().enumerate() {
+                        e.add(v, qs.real(r, i));
+                    }
+                    e
+                })
+                .collect();
+            let span = r * out_len..(r + 1) * out_len;
+            let infer = q.infer_class.get(r).copied().unwrap_or(0);
+            let classify = q.classify_class.get(r).copied().unwrap_or(0);
+            RowOutcome {
+                float_class: f.class.get(r).copied().unwrap_or(0),
+                int8_class: match entry {
+                    Entry::Infer => infer,
+                    Entry::Classify => classify,
+                },
+                int8_infer_class: infer,
+                int8_classify_class: classify,
+                float_scores: f.scores.get(span.clone()).unwrap_or(&[]).to_vec(),
+                int8_scores: q.scores.get(span).unwrap_or(&[]).to_vec(),
+                energy,
+            }
+        })
+        .collect()
+}
+
+/// Rows `start..start + rows` of `fed` through both models.
+fn run_batch(
+    hosts: &Hosts,
+    fed: &Fed<'_>,
+    start: usize,
+    rows: usize,
+) -> Result<Vec<RowOutcome>, RowFailure> {
+    let w = fed.data.width;
+    let x = fed
+        .data
+        .features
+        .get(start * w..(start + rows) * w)
+        .unwrap_or(&[]);
+    let f = hosts.float.run(x, rows);
+    let q = hosts
+        .int8
+        .run(rows, |r| input_at(fed.data, fed.integers, start + r));
+    match (f, q) {
+        (Ok(f), Ok(q)) => Ok(outcomes(&f, &q, fed.entry)),
+        (f, q) => match first_failure(f.err(), q.err(), start) {
+            Some(e) => Err(e),
+            None => Ok(Vec::new()),
+        },
+    }
+}
+
+/// Every row of `fed` through both models in batches of [`BATCH`] rows; the failure of the
+/// first row that cannot be run.
+pub(crate) fn evaluate(
+    hosts: &Hosts,
+    fed: &Fed<'_>,
+    parallelism: Parallelism,
+    progress: &(dyn Fn(u64) + Sync),
+) -> Result<Vec<RowOutcome>, RowFailure> {
+    let rows = fed.data.rows;
+    let one = |b: usize| {
+        let start = b * BATCH;
+        let n = BATCH.min(rows - start);
+        let r = run_batch(hosts, fed, start, n);
+        progress(n as u64);
+        r
+    };
+    let batches = rows.div_ceil(BATCH);
+    let per_batch: Vec<Result<Vec<RowOutcome>, RowFailure>> = match parallelism {
+        Parallelism::Serial => (0..batches).map(one).collect(),
+        Parallelism::Parallel => (0..batches).into_par_iter().map(one).collect(),
+    };
+    let mut out = Vec::with_capacity(rows);
+    for b in per_batch {
+        out.extend(b?);
+    }
+    Ok(out)
+}
