@@ -1,12 +1,18 @@
 //! Build script of the firmware example.
 //!
-//! 1. Picks the board from the compilation target (`boards.toml`) and puts its memory map into
-//!    `OUT_DIR/memory.x`, where cortex-m-rt's `link.x` looks for it.
+//! 1. Picks the board (`boards.toml`): the one whose `feature` is enabled (`board-pico`,
+//!    `board-microbit-v2`), else the QEMU machine of the compilation target; puts its memory map
+//!    into `OUT_DIR/memory.x`, where cortex-m-rt's `link.x` looks for it.
 //! 2. Turns the Python reference fixtures in `tests/fixtures/` (numpy / ONNX reference
 //!    results) into Rust tables in `OUT_DIR/selftest_cases.rs` for the on-target `selftest`.
 //! 3. Parses every packed model the firmware embeds with the runtime's own parser
 //!    (`kinglet-runtime` is a build-dependency), reports flash and scratch buffer RAM as cargo warnings,
 //!    and fails the build when the board's model budget is exceeded.
+//! 4. Takes a model of your own for the `vectors` binary when `KINGLET_OWN_MODEL` (a packed
+//!    blob) and `KINGLET_OWN_VECTORS` (its `kinglet score --format vectors --with-inputs`
+//!    lines) are set, with `KINGLET_OWN_FEED` (`f32`, `i16` or `u8`; default `f32`): checks
+//!    both, counts the blob against the budget and writes `OUT_DIR/own.rs` (README, "Your own
+//!    model, step by step").
 use serde::Deserialize;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -27,7 +33,12 @@ struct Boards {
 struct Board {
     target: String,
     memory: String,
-    qemu_machine: String,
+    /// Cargo feature that selects a development board (absent for the QEMU machines).
+    feature: Option<String>,
+    /// QEMU machine that emulates the board.
+    qemu_machine: Option<String>,
+    /// probe-rs chip name of a development board.
+    chip: Option<String>,
     model_flash: u64,
     model_ram: u64,
 }
@@ -68,12 +79,13 @@ fn main() {
         .unwrap_or_else(|e| fail(&format!("reading {}: {e}", boards_path.display())));
     let boards: Boards =
         toml::from_str(&text).unwrap_or_else(|e| fail(&format!("{}: {e}", boards_path.display())));
-    let Some((name, board)) = boards.board.iter().find(|(_, b)| b.target == target) else {
-        let known: Vec<&str> = boards.board.values().map(|b| b.target.as_str()).collect();
-        fail(&format!(
-            "no board in boards.toml for target {target:?}; build with --target one of {known:?}"
-        ));
-    };
+    let (name, board) = select_board(&boards, &target);
+
+    // Development boards print through defmt (RTT) instead of semihosting output.
+    println!("cargo:rustc-check-cfg=cfg(probe_board)");
+    if board.feature.is_some() {
+        println!("cargo:rustc-cfg=probe_board");
+    }
 
     // Memory map.
     let memory = dir.join(&board.memory);
@@ -92,6 +104,15 @@ fn main() {
     let flash_budget = env_budget("KINGLET_FLASH_BUDGET").unwrap_or(board.model_flash);
     let ram_budget = env_budget("KINGLET_RAM_BUDGET").unwrap_or(board.model_ram);
     let (mut flash, mut ram) = (0u64, 0u64);
+    let own = own_model(&dir, &out);
+    if let Some((path, blob, scratch)) = &own {
+        println!(
+            "cargo:warning={name}: {} (KINGLET_OWN_MODEL): model flash: {blob} bytes, scratch buffer RAM: {scratch} bytes",
+            path.display()
+        );
+        flash += blob;
+        ram += scratch;
+    }
     for rel in MODELS {
         println!("cargo:rerun-if-changed={rel}");
         let (blob, scratch) = model_footprint(&dir.join(rel));
@@ -129,11 +150,152 @@ fn main() {
         out.join("board.rs"),
         format!(
             "/// Board this build is for.\npub const BOARD: &str = {name:?};\n\
-             /// QEMU machine of the board.\npub const QEMU_MACHINE: &str = {:?};\n",
-            board.qemu_machine
+             /// QEMU machine of the board (`None` on a development board).\n\
+             pub const QEMU_MACHINE: Option<&str> = {:?};\n\
+             /// probe-rs chip name of the board (`None` on a QEMU machine).\n\
+             pub const CHIP: Option<&str> = {:?};\n",
+            board.qemu_machine, board.chip
         ),
     )
     .unwrap_or_else(|e| fail(&format!("writing board.rs: {e}")));
+}
+
+/// The board of this build: the one whose `feature` is enabled, else the board of `target`
+/// without a feature (a QEMU machine). Fails on two board features, on a board feature built
+/// for another target, and on a target no board has.
+fn select_board<'a>(boards: &'a Boards, target: &str) -> (&'a String, &'a Board) {
+    let enabled: Vec<(&String, &Board)> = boards
+        .board
+        .iter()
+        .filter(|(_, b)| {
+            b.feature.as_ref().is_some_and(|f| {
+                let var = format!("CARGO_FEATURE_{}", f.to_uppercase().replace('-', "_"));
+                std::env::var_os(var).is_some()
+            })
+        })
+        .collect();
+    match enabled.as_slice() {
+        [] => {}
+        [(name, board)] => {
+            if board.target != target {
+                fail(&format!(
+                    "board {name} is built for --target {}, not {target:?}",
+                    board.target
+                ));
+            }
+            return (name, board);
+        }
+        more => {
+            let names: Vec<&str> = more.iter().map(|(n, _)| n.as_str()).collect();
+            fail(&format!(
+                "more than one board feature enabled ({names:?}); enable at most one"
+            ));
+        }
+    }
+    let Some(found) = boards
+        .board
+        .iter()
+        .find(|(_, b)| b.target == target && b.feature.is_none())
+    else {
+        let known: Vec<&str> = boards
+            .board
+            .values()
+            .filter(|b| b.feature.is_none())
+            .map(|b| b.target.as_str())
+            .collect();
+        fail(&format!(
+            "no board in boards.toml for target {target:?}; build with --target one of {known:?}"
+        ));
+    };
+    found
+}
+
+/// A path from the environment, relative to the firmware-example directory unless absolute.
+fn env_path(dir: &Path, name: &str) -> Option<PathBuf> {
+    println!("cargo:rerun-if-env-changed={name}");
+    let raw = std::env::var_os(name).filter(|v| !v.is_empty())?;
+    Some(dir.join(raw))
+}
+
+/// The model of your own (`KINGLET_OWN_*`): checks it, copies blob and vectors into `OUT_DIR`
+/// and writes `own.rs`; returns its path, flash and scratch bytes when one is given.
+fn own_model(dir: &Path, out: &Path) -> Option<(PathBuf, u64, u64)> {
+    let model = env_path(dir, "KINGLET_OWN_MODEL");
+    let vectors = env_path(dir, "KINGLET_OWN_VECTORS");
+    println!("cargo:rerun-if-env-changed=KINGLET_OWN_FEED");
+    let feed = match std::env::var("KINGLET_OWN_FEED").as_deref() {
+        Err(_) | Ok("") | Ok("f32") => "F32",
+        Ok("i16") => "I16",
+        Ok("u8") => "U8",
+        Ok(other) => fail(&format!("KINGLET_OWN_FEED={other:?}: use f32, i16 or u8")),
+    };
+    let (model, vectors) = match (model, vectors) {
+        (None, None) => {
+            std::fs::write(
+                out.join("own.rs"),
+                "/// No model of your own in this build (KINGLET_OWN_MODEL is not set).\n\
+                 pub const OWN: Option<OwnSet> = None;\n\
+                 /// No scratch buffer for it.\n\
+                 pub const OWN_SCRATCH: usize = 0;\n",
+            )
+            .unwrap_or_else(|e| fail(&format!("writing own.rs: {e}")));
+            return None;
+        }
+        (Some(m), Some(v)) => (m, v),
+        _ => fail("set both KINGLET_OWN_MODEL and KINGLET_OWN_VECTORS, or neither"),
+    };
+    println!("cargo:rerun-if-changed={}", model.display());
+    println!("cargo:rerun-if-changed={}", vectors.display());
+    let (blob, scratch) = model_footprint(&model);
+    let text = std::fs::read_to_string(&vectors).unwrap_or_else(|e| {
+        fail(&format!(
+            "KINGLET_OWN_VECTORS: reading {}: {e}",
+            vectors.display()
+        ))
+    });
+    let lines = text.lines().count();
+    if lines == 0 {
+        fail(&format!(
+            "KINGLET_OWN_VECTORS: {} has no lines",
+            vectors.display()
+        ));
+    }
+    if let Some((i, _)) = text
+        .lines()
+        .enumerate()
+        .find(|(_, l)| !l.contains(" feat="))
+    {
+        fail(&format!(
+            "KINGLET_OWN_VECTORS: {} line {} has no inputs: write it with `kinglet score ... --format vectors --with-inputs`",
+            vectors.display(),
+            i + 1
+        ));
+    }
+    let blob_copy = out.join("own_model.kgl");
+    let vectors_copy = out.join("own_vectors.txt");
+    std::fs::copy(&model, &blob_copy)
+        .unwrap_or_else(|e| fail(&format!("copying {}: {e}", model.display())));
+    std::fs::write(&vectors_copy, &text)
+        .unwrap_or_else(|e| fail(&format!("writing own_vectors.txt: {e}")));
+    std::fs::write(
+        out.join("own.rs"),
+        format!(
+            "/// The model of your own given at build time ({}).\n\
+             pub const OWN: Option<OwnSet> = Some(OwnSet {{\n\
+             \x20   model: kinglet_runtime::embed_blob!({:?}),\n\
+             \x20   vectors: include_str!({:?}),\n\
+             \x20   feed: Feed::{feed},\n\
+             \x20   lines: {lines},\n\
+             }});\n\
+             /// Scratch buffer bytes of that model (from its header, read by build.rs).\n\
+             pub const OWN_SCRATCH: usize = {scratch};\n",
+            model.display(),
+            blob_copy.display(),
+            vectors_copy.display(),
+        ),
+    )
+    .unwrap_or_else(|e| fail(&format!("writing own.rs: {e}")));
+    Some((model, blob, scratch))
 }
 
 /// Flash and scratch bytes of one packed model, checked by the runtime's parser.

@@ -14,7 +14,11 @@
 # 4. the flash and RAM of the binaries per target (the runtime's own code size and stack, and
 #    converter/src/fit/measured.rs, are the measurement harness's: scripts/kernel-bench.sh);
 # 5. the build-time model budget: passes as configured, fails with a clear message when
-#    KINGLET_RAM_BUDGET / KINGLET_FLASH_BUDGET are set too small; the defmt feature builds.
+#    KINGLET_RAM_BUDGET / KINGLET_FLASH_BUDGET are set too small; the defmt feature builds;
+# 6. your own model, step by step (README): scripts/firmware-own-model.sh on both QEMU targets;
+# 7. the development boards (Raspberry Pi Pico, micro:bit v2; boards.toml): their release builds
+#    of classify, vectors and selftest, with the boot block and vector table where the board's
+#    boot ROM looks. They are built only: CI has no board or probe to flash one.
 #
 # Installs qemu-system-arm (apt-get) and the two rustup targets if they are missing.
 set -euo pipefail
@@ -144,6 +148,39 @@ grep -o 'model flash [0-9]* bytes exceeds the microbit flash budget of 8192 byte
 fwcargo build -q --release --target "$t" --bin classify 2>/dev/null && echo "default budget: builds" \
   || fail "build under the default budget failed"
 
+step "your own model, step by step (README), on QEMU"
+KINGLET="$root_target/release/kinglet" FW_TARGET_DIR="$fw_target" \
+  bash "$root/scripts/firmware-own-model.sh" "${targets[@]}" || fail "own model steps"
+
+# <board> <target> <feature> <flash origin>: the board's boards.toml entry and memory map.
+boards=(
+  "pico thumbv6m-none-eabi board-pico 0x10000100"
+  "microbit-v2 thumbv7em-none-eabihf board-microbit-v2 0x00000000"
+)
+for b in "${boards[@]}"; do
+  read -r name t feature origin <<<"$b"
+  step "board $name: build ($t, --features $feature; not flashed: no probe in CI)"
+  if ! fwcargo build --release --target "$t" --features "$feature" --bin classify --bin vectors \
+    --bin selftest 2>"$work/build-$name.log"; then
+    cat "$work/build-$name.log"; fail "board $name: build"; continue
+  fi
+  grep 'all models' "$work/build-$name.log" | sed 's/^warning: [^:]*: /  /' | sort -u || true
+  for bin in classify vectors selftest; do
+    elf="$fw_target/$t/release/$bin"
+    vt=$(llvm-objdump -h "$elf" | awk '$2 == ".vector_table" { print "0x" $4 }')
+    (( vt == origin )) || fail "board $name: $bin: vector table at $vt, not $origin"
+    grep -q _SEGGER_RTT < <(llvm-nm "$elf") || fail "board $name: $bin: no RTT control block (defmt-rtt)"
+    printf '  %-9s flash %7d bytes, RAM .bss %d bytes\n' "$bin" \
+      $(( $(section "$elf" .vector_table) + $(section "$elf" .text) + $(section "$elf" .rodata) )) \
+      "$(section "$elf" .bss)"
+  done
+  if [[ $name == pico ]]; then
+    # The RP2040 boot ROM runs the 256 bytes at the start of flash (boot stage 2).
+    nm_boot2=$(llvm-nm "$fw_target/$t/release/vectors" | awk '$3 == "BOOT2_FIRMWARE" { print $1 }')
+    [[ $nm_boot2 == 10000000 ]] || fail "board pico: boot stage 2 at ${nm_boot2:-nowhere}, not 0x10000000"
+  fi
+done
+
 step "defmt feature builds"
 fwcargo build -q --release --target thumbv7em-none-eabihf --features defmt --bin classify 2>/dev/null \
   && echo "classify with defmt: built" || fail "defmt build"
@@ -157,6 +194,13 @@ fwcargo clippy -q --target "$host" -p kinglet-vibration-features -p kinglet-fw-s
 if ! fwcargo clippy -q --release --target thumbv6m-none-eabi -p kinglet-firmware-example --bins -- -D warnings 2>"$work/clippy.log"; then
   grep -v 'model flash' "$work/clippy.log"; fail "clippy (firmware)"
 fi
+# Each board's own code (its HAL, pins and sensor) on its target.
+for b in "${boards[@]}"; do
+  read -r name t feature _ <<<"$b"
+  if ! fwcargo clippy -q --release --target "$t" --features "$feature" -p kinglet-firmware-example --bins -- -D warnings 2>"$work/clippy-$name.log"; then
+    grep -v 'model flash' "$work/clippy-$name.log"; fail "clippy (board $name)"
+  fi
+done
 
 echo
 if (( failures )); then

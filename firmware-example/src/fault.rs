@@ -1,25 +1,40 @@
-//! Fault and panic handlers: print, then exit with failure through semihosting.
+//! Fault and panic handlers: print (through [`crate::console`]), then exit with failure.
+use crate::console;
+use core::fmt::Write;
 use cortex_m_rt::{exception, ExceptionFrame};
 
 #[exception]
 unsafe fn HardFault(frame: &ExceptionFrame) -> ! {
-    cortex_m_semihosting::hprintln!(
+    let mut l = console::LineBuf::new();
+    let _ = write!(
+        l,
         "HARDFAULT pc={:#010x} lr={:#010x} xpsr={:#010x}",
         frame.pc(),
         frame.lr(),
         frame.xpsr()
     );
-    crate::console::exit(false)
+    console::line(&l);
+    console::exit(false)
 }
 
 #[exception]
 unsafe fn DefaultHandler(irqn: i16) {
-    cortex_m_semihosting::hprintln!("UNEXPECTED EXCEPTION irqn={}", irqn);
-    crate::console::exit(false)
+    let mut l = console::LineBuf::new();
+    let _ = write!(l, "UNEXPECTED EXCEPTION irqn={irqn}");
+    console::line(&l);
+    console::exit(false)
 }
 
 #[panic_handler]
 fn panic(info: &core::panic::PanicInfo<'_>) -> ! {
-    cortex_m_semihosting::hprintln!("PANIC {}", info);
-    crate::console::exit(false)
+    let mut l = console::LineBuf::new();
+    // A message longer than the buffer is cut; the location comes first so it survives.
+    if let Some(loc) = info.location() {
+        let _ = write!(l, "PANIC at {}:{}: ", loc.file(), loc.line());
+    } else {
+        let _ = write!(l, "PANIC ");
+    }
+    let _ = write!(l, "{}", info.message());
+    console::line(&l);
+    console::exit(false)
 }

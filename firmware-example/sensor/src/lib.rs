@@ -1,9 +1,11 @@
 //! Where the firmware's sensor windows come from.
 //!
-//! [`WindowSource`] is the one interface the classifier loop sees. Two implementations:
+//! [`WindowSource`] is the one interface the classifier loop sees. Three implementations:
 //!
 //! * [`kla3::Kla3Source`] reads live windows from the KLA-3 accelerometer (an invented part for
 //!   this example, see [`kla3`]) over any `embedded_hal::i2c::I2c` bus;
+//! * [`lsm303::Lsm303Source`] reads live windows from ST's LSM303AGR (the micro:bit v2's motion
+//!   sensor) through the `lsm303agr` driver crate;
 //! * [`replay::ReplaySource`] plays back windows recorded in flash, which is what runs under
 //!   QEMU, where no accelerometer exists.
 #![cfg_attr(not(test), no_std)]
@@ -20,6 +22,7 @@
 )]
 
 pub mod kla3;
+pub mod lsm303;
 pub mod pins;
 pub mod replay;
 

@@ -1,13 +1,15 @@
 //! The demo: classify fan-vibration windows and show the class on one output pin per class.
 //!
-//! Windows come from a [`WindowSource`]; under QEMU that is the flash replay of the 64
-//! recorded windows (`models/vibration_replay.bin`), on a board it would be
-//! `kinglet_fw_sensor::kla3::Kla3Source` over the board's I2C bus. For each window the firmware
+//! Windows come from a [`WindowSource`]: first the flash replay of the 64 recorded windows
+//! (`models/vibration_replay.bin`), on every build; then, on the micro:bit v2 (feature
+//! `board-microbit-v2`), live windows from its LSM303AGR
+//! (`kinglet_fw_sensor::lsm303::Lsm303Source`), classified until the board is stopped. For each window the firmware
 //! computes the 15 features of `examples/vibration/FEATURES.md`
 //! ([`kinglet_vibration_features`], in f32), runs the int8 model and drives the pins: the
 //! predicted class's pin high, the others low. QEMU's machines have no LEDs the firmware could
-//! drive, so the pins are [`RecordingPin`]s (they only remember their level) and their levels
-//! are printed; on hardware the same code takes the HAL's `OutputPin`s. With the `defmt`
+//! drive, so there the pins are `RecordingPin`s (they only remember their level); on a board
+//! they are the HAL's output pins (`kinglet_firmware_example::boards`). Their levels are
+//! printed either way. With the `defmt`
 //! feature each result is also logged through defmt (RTT), which needs a probe to read.
 //!
 //! The model is embedded with `kinglet_runtime::embed_blob!` (4-byte aligned, which the run
@@ -25,7 +27,7 @@ use core::fmt::Write;
 use cortex_m_rt::entry;
 use embedded_hal::digital::StatefulOutputPin;
 use kinglet_firmware_example::{board, console};
-use kinglet_fw_sensor::pins::{show_class, RecordingPin};
+use kinglet_fw_sensor::pins::show_class;
 use kinglet_fw_sensor::replay::ReplaySource;
 use kinglet_fw_sensor::{Window, WindowSource, AXES, WINDOW};
 use kinglet_fw_vectors::assets::{REPLAY_LABELS, REPLAY_WINDOWS, VIBRATION, VIBRATION_SCRATCH};
@@ -79,9 +81,77 @@ fn run() -> bool {
         REPLAY_WINDOWS.len() / (AXES * WINDOW * 2)
     );
     console::line(&l);
-    let mut pins = [RecordingPin::new(); CLASSES];
+    #[cfg(not(probe_board))]
+    let mut pins = [kinglet_fw_sensor::pins::RecordingPin::new(); CLASSES];
+    #[cfg(feature = "board-pico")]
+    let Some(board) = kinglet_firmware_example::boards::pico::take() else {
+        return fail("board peripherals already taken, or the clocks did not start");
+    };
+    #[cfg(feature = "board-microbit-v2")]
+    let Some(board) = kinglet_firmware_example::boards::microbit_v2::take() else {
+        return fail("board peripherals already taken");
+    };
+    #[cfg(probe_board)]
+    let mut pins = board.class_pins;
     let mut source = ReplaySource::new(REPLAY_WINDOWS);
-    classify_all(&model, &mut source, scratch, &mut pins)
+    let replayed = classify_all(&model, &mut source, scratch, &mut pins);
+    #[cfg(feature = "board-microbit-v2")]
+    if replayed {
+        return match board.source {
+            Ok(mut live_source) => live(&model, &mut live_source, scratch, &mut pins),
+            Err(e) => {
+                let mut l = console::LineBuf::new();
+                let _ = write!(l, "classify: accelerometer: {e}");
+                console::line(&l);
+                false
+            }
+        };
+    }
+    replayed
+}
+
+/// Classifies live windows until the source fails (on success it runs until the board is
+/// stopped); returns `false` when it fails.
+#[cfg(feature = "board-microbit-v2")]
+fn live<S: WindowSource, P: StatefulOutputPin>(
+    model: &Model<'_>,
+    source: &mut S,
+    scratch: &mut [u8],
+    pins: &mut [P; CLASSES],
+) -> bool {
+    let mut window: Window = [[0; WINDOW]; AXES];
+    let mut scores = [0f32; CLASSES];
+    let mut n = 0usize;
+    loop {
+        if let Err(e) = source.next_window(&mut window) {
+            let mut l = console::LineBuf::new();
+            let _ = write!(l, "classify: live window {n}: {e:?}");
+            console::line(&l);
+            return false;
+        }
+        let features = window_features(&window);
+        let p = match model.infer(Input::F32(&features), scratch, &mut scores) {
+            Ok(p) => p,
+            Err(e) => {
+                let mut l = console::LineBuf::new();
+                let _ = write!(l, "classify: live window {n}: {e}");
+                console::line(&l);
+                return false;
+            }
+        };
+        if show_class(pins, p.class).is_err() {
+            return fail("could not drive the class pins");
+        }
+        let mut l = console::LineBuf::new();
+        let _ = write!(
+            l,
+            "live {n}: {:<12} p={:>4}\u{2030}",
+            model.label(p.class).unwrap_or("?"),
+            (p.score * 1000.0) as u32
+        );
+        console::line(&l);
+        n = n.wrapping_add(1);
+    }
 }
 
 /// Classifies every window `source` yields; returns whether all went well.

@@ -8,7 +8,12 @@
 //! `vectors: N passed, M failed`. `scripts/firmware.sh` also diffs the printed lines against
 //! the same files.
 //!
-//! One scratch buffer serves every model: a `static` of `MAX_SCRATCH` bytes (the largest
+//! With a model of your own given at build time (`KINGLET_OWN_MODEL`, `KINGLET_OWN_VECTORS`,
+//! `KINGLET_OWN_FEED`; README, "Your own model, step by step") it then runs that model on the
+//! inputs of each of its expected lines and compares its line the same way
+//! (`kinglet_fw_vectors::own::check_line`); the summary counts both.
+//!
+//! One scratch buffer serves every shipped model: a `static` of `MAX_SCRATCH` bytes (the largest
 //! `kinglet_runtime::scratch_bytes` of the embedded blobs, computed at compile time), handed out
 //! once by `cortex_m::singleton!`.
 #![no_std]
@@ -16,8 +21,10 @@
 
 use core::fmt::Write;
 use cortex_m_rt::entry;
+use kinglet_firmware_example::own::{OwnSet, OWN, OWN_SCRATCH};
 use kinglet_firmware_example::{board, console};
 use kinglet_fw_vectors::assets::MAX_SCRATCH;
+use kinglet_fw_vectors::own::check_line;
 use kinglet_fw_vectors::{format_vector, Line, VectorSet, SETS, TOTAL};
 use kinglet_runtime::Model;
 
@@ -40,10 +47,72 @@ fn main() -> ! {
         passed += p;
         failed += f;
     }
+    let mut want = TOTAL;
+    if let Some(own) = OWN {
+        let Some(own_scratch) = cortex_m::singleton!(: [u8; OWN_SCRATCH] = [0; OWN_SCRATCH]) else {
+            console::exit(false)
+        };
+        let (p, f) = run_own(&own, own_scratch);
+        passed += p;
+        failed += f;
+        want += own.lines;
+    }
     let mut l = console::LineBuf::new();
     let _ = write!(l, "vectors: {passed} passed, {failed} failed");
     console::line(&l);
-    console::exit(failed == 0 && passed == TOTAL)
+    console::exit(failed == 0 && passed == want)
+}
+
+/// Runs the model of your own on the inputs of its expected lines; returns (passed, failed).
+fn run_own(own: &OwnSet, scratch: &mut [u8]) -> (usize, usize) {
+    let mut l = console::LineBuf::new();
+    let _ = write!(
+        l,
+        "own model: {} bytes, scratch {} bytes, {} vectors, feed {:?}",
+        own.model.len(),
+        scratch.len(),
+        own.lines,
+        own.feed
+    );
+    console::line(&l);
+    let model = match Model::parse(own.model) {
+        Ok(m) => m,
+        Err(e) => {
+            let mut l = console::LineBuf::new();
+            let _ = write!(l, "own model rejected: {e}");
+            console::line(&l);
+            return (0, own.lines);
+        }
+    };
+    // build.rs embeds it with `embed_blob!`, at a multiple of 4.
+    if !model.weights_aligned() {
+        console::line("own model: weights not 4-byte aligned");
+        return (0, own.lines);
+    }
+    let mut line = Line::new();
+    let (mut passed, mut failed) = (0, 0);
+    for (i, want) in own.vectors.lines().enumerate() {
+        match check_line(&model, own.feed, want, scratch, &mut line) {
+            Ok(same) => {
+                console::line(&line);
+                if same {
+                    passed += 1;
+                } else {
+                    failed += 1;
+                    let mut l = console::LineBuf::new();
+                    let _ = write!(l, "MISMATCH own line {}: expected {want:?}", i + 1);
+                    console::line(&l);
+                }
+            }
+            Err(e) => {
+                failed += 1;
+                let mut l = console::LineBuf::new();
+                let _ = write!(l, "ERROR own line {}: {e:?}", i + 1);
+                console::line(&l);
+            }
+        }
+    }
+    (passed, failed)
 }
 
 /// Runs one set; returns (passed, failed).

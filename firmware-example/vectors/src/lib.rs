@@ -20,6 +20,7 @@
 
 pub mod assets;
 mod line;
+pub mod own;
 
 pub use line::{format_vector, Line, VectorError, LINE_CAPACITY, MAX_OUTPUTS};
 
