@@ -1735,7 +1735,7 @@ fn pack_linear_fixture(name: &str, wants: &[&str]) -> String {
 }
 
 #[test]
-fn c300_linear_classifier_probit_or_softmax_zero() {
+fn c97_linear_classifier_probit_or_softmax_zero() {
     for (name, post) in [
         ("bad_linear_probit", "PROBIT"),
         ("bad_linear_softmax_zero", "SOFTMAX_ZERO"),
@@ -1751,7 +1751,7 @@ fn c300_linear_classifier_probit_or_softmax_zero() {
 }
 
 #[test]
-fn c301_per_class_logistic_without_normalizer() {
+fn c98_per_class_logistic_without_normalizer() {
     pack_linear_fixture(
         "bad_linear_logistic_no_normalizer",
         &[
@@ -1762,7 +1762,7 @@ fn c301_per_class_logistic_without_normalizer() {
 }
 
 #[test]
-fn c302_linear_classifier_unknown_attribute() {
+fn c99_linear_classifier_unknown_attribute() {
     pack_linear_fixture(
         "bad_linear_unknown_attribute",
         &[
@@ -1773,7 +1773,7 @@ fn c302_linear_classifier_unknown_attribute() {
 }
 
 #[test]
-fn c303_normalizer_other_than_l1() {
+fn c100_normalizer_other_than_l1() {
     pack_linear_fixture(
         "bad_normalizer_l2",
         &[
@@ -1784,7 +1784,7 @@ fn c303_normalizer_other_than_l1() {
 }
 
 #[test]
-fn c304_raw_score_column_other_than_the_positive_class() {
+fn c101_raw_score_column_other_than_the_positive_class() {
     pack_linear_fixture(
         "bad_svc_column_0",
         &[
@@ -1795,7 +1795,7 @@ fn c304_raw_score_column_other_than_the_positive_class() {
 }
 
 #[test]
-fn c305_sgd_log_loss_one_vs_rest_in_elementary_ops() {
+fn c102_sgd_log_loss_one_vs_rest_in_elementary_ops() {
     pack_linear_fixture(
         "bad_sgd_log_multiclass",
         &[

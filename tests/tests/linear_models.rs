@@ -322,7 +322,7 @@ fn every_fixture_is_checked() {
         "linear_svc_digits",
         "lr_pixels784_div255",
     ];
-    // Each refused in converter/tests/cli_bad_inputs.rs (rows C300 to C305 of
+    // Each refused in converter/tests/cli_bad_inputs.rs (rows C97 to C102 of
     // docs/bad-inputs.md); the first three also below.
     let refused = [
         "bad_sgd_log_multiclass",
