@@ -15,7 +15,7 @@ use super::Measured;
 /// Cortex-M0 / M0+ (`thumbv6m-none-eabi`, no FPU: float is software).
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
-    runtime_text: 13728,
+    runtime_text: 13680,
     runtime_rodata: 1327,
     stack_parse: 2944,
     stack_infer: 584,
@@ -25,7 +25,7 @@ pub const CORTEX_M0: Measured = Measured {
 /// Cortex-M4F / M7 class (`thumbv7em-none-eabihf`, single-precision FPU).
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
-    runtime_text: 10688,
+    runtime_text: 10668,
     runtime_rodata: 1327,
     stack_parse: 2868,
     stack_infer: 564,
