@@ -15,6 +15,84 @@ use super::{constant_input, single_output};
 
 const FORM: &str = "supported after a Sigmoid output: Sub(1, p) and Concat([1 - p, p], axis 1)";
 
+const RAW_FORM: &str = "supported after a single raw score: Mul(s, -1) and Concat([-s, s], axis 1)";
+
+/// Which of `a` and `b` (the two readers of `t`, itself a `what`) is the `op` node and which
+/// the `Concat`.
+fn op_and_concat<'g>(
+    a: Node<'g>,
+    b: Node<'g>,
+    op: &str,
+    t: &str,
+    what: &str,
+    form: &str,
+) -> Result<(Node<'g>, Node<'g>), OnnxImportError> {
+    let is = |n: &Node<'_>, op: &str| n.domain() == Domain::Onnx && n.op() == op;
+    match (is(&a, op), is(&b, op), is(&a, "Concat"), is(&b, "Concat")) {
+        (true, _, _, true) => Ok((a, b)),
+        (_, true, true, _) => Ok((b, a)),
+        _ => Err(b.err(format!(
+            "the {what} '{t}' is read by {} and by this node; {form}",
+            a.node_ref()
+        ))),
+    }
+}
+
+/// Input `k` of `node` is a constant holding the single value `value`.
+fn single_constant(
+    g: &GraphIndex<'_>,
+    node: &Node<'_>,
+    k: usize,
+    value: f32,
+    form: &str,
+) -> Result<(), OnnxImportError> {
+    let c = constant_input(g, node, k, &format!("constant {value}"))?;
+    if c.len() == 1 && c.finite_floats().is_ok_and(|v| v.first() == Some(&value)) {
+        Ok(())
+    } else {
+        Err(node.err(format!(
+            "the constant '{}' is not a single {value:.1}; {form}",
+            c.name
+        )))
+    }
+}
+
+/// The single output of `node`, which only `concat` reads; and `concat` joins over axis 1.
+fn feeds_only<'g>(
+    g: &GraphIndex<'g>,
+    node: &Node<'g>,
+    concat: &Node<'g>,
+    form: &str,
+) -> Result<&'g str, OnnxImportError> {
+    let q = single_output(g, node)?;
+    if g.consumers(q) != [concat.index] || g.is_graph_output(q) {
+        return Err(node.err(format!(
+            "its output '{q}' is used other than by the Concat; {form}"
+        )));
+    }
+    let axis = attr::int_or(concat.proto, "axis", 0).map_err(|e| concat.err(e))?;
+    if axis != 1 && axis != -1 {
+        return Err(concat.err(format!("Concat over axis {axis}; {form}")));
+    }
+    Ok(q)
+}
+
+/// Marks `nodes` as taken into the model; returns the `Concat`'s output.
+fn finish<'g>(
+    g: &GraphIndex<'g>,
+    nodes: [Node<'g>; 2],
+    concat: &Node<'g>,
+    visited: &mut [bool],
+) -> Result<&'g str, OnnxImportError> {
+    let out = single_output(g, concat)?;
+    for n in nodes {
+        if let Some(v) = visited.get_mut(n.index) {
+            *v = true;
+        }
+    }
+    Ok(out)
+}
+
 /// Recognises the two-class form on `p` read by `a` and `b`; returns the `Concat` output.
 pub fn two_class<'g>(
     g: &GraphIndex<'g>,
@@ -23,43 +101,12 @@ pub fn two_class<'g>(
     p: &'g str,
     visited: &mut [bool],
 ) -> Result<&'g str, OnnxImportError> {
-    let is = |n: &Node<'_>, op: &str| n.domain() == Domain::Onnx && n.op() == op;
-    let (sub, concat) = match (
-        is(&a, "Sub"),
-        is(&b, "Sub"),
-        is(&a, "Concat"),
-        is(&b, "Concat"),
-    ) {
-        (true, _, _, true) => (a, b),
-        (_, true, true, _) => (b, a),
-        _ => {
-            return Err(b.err(format!(
-                "the sigmoid output '{p}' is read by {} and by this node; {FORM}",
-                a.node_ref()
-            )))
-        }
-    };
+    let (sub, concat) = op_and_concat(a, b, "Sub", p, "sigmoid output", FORM)?;
     if sub.inputs().len() != 2 || sub.input(1) != Some(p) {
         return Err(sub.err(format!("expected Sub(1, '{p}'); {FORM}")));
     }
-    let one = constant_input(g, &sub, 0, "constant 1")?;
-    let ok = one.len() == 1 && one.finite_floats().is_ok_and(|v| v.first() == Some(&1.0));
-    if !ok {
-        return Err(sub.err(format!(
-            "the constant '{}' is not a single 1.0; {FORM}",
-            one.name
-        )));
-    }
-    let q = single_output(g, &sub)?;
-    if g.consumers(q) != [concat.index] || g.is_graph_output(q) {
-        return Err(sub.err(format!(
-            "its output '{q}' is used other than by the Concat; {FORM}"
-        )));
-    }
-    let axis = attr::int_or(concat.proto, "axis", 0).map_err(|e| concat.err(e))?;
-    if axis != 1 && axis != -1 {
-        return Err(concat.err(format!("Concat over axis {axis}; {FORM}")));
-    }
+    single_constant(g, &sub, 0, 1.0, FORM)?;
+    let q = feeds_only(g, &sub, &concat, FORM)?;
     match concat.inputs() {
         [x, y] if x == q && y == p => {}
         [x, y] if x == p && y == q => {
@@ -69,16 +116,8 @@ pub fn two_class<'g>(
         }
         _ => return Err(concat.err(format!("unexpected inputs; {FORM}"))),
     }
-    let out = single_output(g, &concat)?;
-    for n in [sub, concat] {
-        if let Some(v) = visited.get_mut(n.index) {
-            *v = true;
-        }
-    }
-    Ok(out)
+    finish(g, [sub, concat], &concat, visited)
 }
-
-const RAW_FORM: &str = "supported after a single raw score: Mul(s, -1) and Concat([-s, s], axis 1)";
 
 /// Recognises the raw two-class form on the score `s` read by `a` and `b`; returns the
 /// `Concat` output. The caller turns the layer into its two rows.
@@ -89,48 +128,14 @@ pub fn negated_pair<'g>(
     s: &'g str,
     visited: &mut [bool],
 ) -> Result<&'g str, OnnxImportError> {
-    let is = |n: &Node<'_>, op: &str| n.domain() == Domain::Onnx && n.op() == op;
-    let (mul, concat) = match (
-        is(&a, "Mul"),
-        is(&b, "Mul"),
-        is(&a, "Concat"),
-        is(&b, "Concat"),
-    ) {
-        (true, _, _, true) => (a, b),
-        (_, true, true, _) => (b, a),
-        _ => {
-            return Err(b.err(format!(
-                "the score '{s}' is read by {} and by this node; {RAW_FORM}",
-                a.node_ref()
-            )))
-        }
-    };
+    let (mul, concat) = op_and_concat(a, b, "Mul", s, "score", RAW_FORM)?;
     let k = match mul.inputs() {
         [x, _] if x == s => 1,
         [_, y] if y == s => 0,
         _ => return Err(mul.err(format!("expected Mul('{s}', -1); {RAW_FORM}"))),
     };
-    let minus_one = constant_input(g, &mul, k, "constant -1")?;
-    let ok = minus_one.len() == 1
-        && minus_one
-            .finite_floats()
-            .is_ok_and(|v| v.first() == Some(&-1.0));
-    if !ok {
-        return Err(mul.err(format!(
-            "the constant '{}' is not a single -1.0; {RAW_FORM}",
-            minus_one.name
-        )));
-    }
-    let neg = single_output(g, &mul)?;
-    if g.consumers(neg) != [concat.index] || g.is_graph_output(neg) {
-        return Err(mul.err(format!(
-            "its output '{neg}' is used other than by the Concat; {RAW_FORM}"
-        )));
-    }
-    let axis = attr::int_or(concat.proto, "axis", 0).map_err(|e| concat.err(e))?;
-    if axis != 1 && axis != -1 {
-        return Err(concat.err(format!("Concat over axis {axis}; {RAW_FORM}")));
-    }
+    single_constant(g, &mul, k, -1.0, RAW_FORM)?;
+    let neg = feeds_only(g, &mul, &concat, RAW_FORM)?;
     match concat.inputs() {
         [x, y] if x == neg && y == s => {}
         _ => {
@@ -139,11 +144,5 @@ pub fn negated_pair<'g>(
             )))
         }
     }
-    let out = single_output(g, &concat)?;
-    for n in [mul, concat] {
-        if let Some(v) = visited.get_mut(n.index) {
-            *v = true;
-        }
-    }
-    Ok(out)
+    finish(g, [mul, concat], &concat, visited)
 }
