@@ -38,3 +38,27 @@ pub fn read_float_csv(rel: &str) -> Vec<Vec<f64>> {
         })
         .collect()
 }
+
+/// The output kind a fixture's expectations name (`softmax`, `sigmoid`, `logits`, `one_vs_rest`).
+pub fn output_kind(s: &str) -> kinglet_converter::graph::OutputKind {
+    use kinglet_converter::graph::OutputKind;
+    match s {
+        "softmax" => OutputKind::Softmax,
+        "sigmoid" => OutputKind::Sigmoid,
+        "logits" => OutputKind::Logits,
+        "one_vs_rest" => OutputKind::OneVsRest,
+        other => panic!("unknown output kind {other}"),
+    }
+}
+
+/// The scaler kind a fixture's expectations name.
+pub fn scaler_kind(s: &str) -> kinglet_converter::graph::ScalerKind {
+    use kinglet_converter::graph::ScalerKind;
+    match s {
+        "Standardise" => ScalerKind::Standardise,
+        "MinMax" => ScalerKind::MinMax,
+        "Uniform" => ScalerKind::Uniform,
+        "Affine" => ScalerKind::Affine,
+        other => panic!("unknown scaler kind {other}"),
+    }
+}

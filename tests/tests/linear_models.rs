@@ -15,12 +15,12 @@
 //! the held-out rows.
 
 use kinglet_converter::dataset::Dataset;
-use kinglet_converter::graph::{FloatModel, OutputKind, ScalerKind};
+use kinglet_converter::graph::{FloatModel, OutputKind};
 use kinglet_converter::import::onnx::{import_onnx_file, OnnxImportError};
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_runtime::Model;
-use kinglet_tests::{path, run};
+use kinglet_tests::{output_kind, path, run, scaler_kind};
 use serde::Deserialize;
 
 #[derive(Deserialize)]
@@ -97,25 +97,6 @@ fn dataset(rows: &[Vec<f32>]) -> Dataset {
         features: rows.concat(),
         labels: None,
         source: "fixture".into(),
-    }
-}
-
-fn output_kind(s: &str) -> OutputKind {
-    match s {
-        "softmax" => OutputKind::Softmax,
-        "sigmoid" => OutputKind::Sigmoid,
-        "logits" => OutputKind::Logits,
-        "one_vs_rest" => OutputKind::OneVsRest,
-        other => panic!("unknown output kind {other}"),
-    }
-}
-
-fn scaler_kind(s: &str) -> ScalerKind {
-    match s {
-        "Standardise" => ScalerKind::Standardise,
-        "MinMax" => ScalerKind::MinMax,
-        "Uniform" => ScalerKind::Uniform,
-        other => panic!("unknown scaler kind {other}"),
     }
 }
 

@@ -6,8 +6,9 @@
 
 use std::path::{Path, PathBuf};
 
-use kinglet_converter::graph::{FloatModel, OutputKind, ScalerKind};
+use kinglet_converter::graph::{FloatModel, OutputKind};
 use kinglet_converter::import::onnx::{import_onnx, import_onnx_file, OnnxImportError};
+use kinglet_tests::{output_kind, scaler_kind};
 use serde::Deserialize;
 
 /// Largest accepted difference between our f64 forward pass of the imported f32 weights and a
@@ -89,25 +90,6 @@ fn compare(m: &FloatModel, c: &Case, r: &Reference) {
                 r.source
             );
         }
-    }
-}
-
-fn output_kind(s: &str) -> OutputKind {
-    match s {
-        "softmax" => OutputKind::Softmax,
-        "sigmoid" => OutputKind::Sigmoid,
-        "logits" => OutputKind::Logits,
-        other => panic!("unknown output kind {other}"),
-    }
-}
-
-fn scaler_kind(s: &str) -> ScalerKind {
-    match s {
-        "Standardise" => ScalerKind::Standardise,
-        "MinMax" => ScalerKind::MinMax,
-        "Uniform" => ScalerKind::Uniform,
-        "Affine" => ScalerKind::Affine,
-        other => panic!("unknown scaler kind {other}"),
     }
 }
 
