@@ -113,6 +113,8 @@ pub struct Budget {
     pub flash: Region,
     /// RAM.
     pub ram: Region,
+    /// What fits but will not run as the user may expect (an f32 blob on a core without an FPU).
+    pub warnings: Vec<String>,
 }
 
 impl Budget {
@@ -219,7 +221,15 @@ pub fn budget(name: &str, model: &kinglet_runtime::Model<'_>, target: &Target) -
             source: "measured".into(),
         },
     ];
+    let mut warnings = Vec::new();
+    if model.precision() == kinglet_runtime::Precision::F32 && !target.core.has_fpu() {
+        warnings.push(format!(
+            "an f32 blob on a {} (no FPU): every float operation is a software routine, tens to hundreds of instructions each (f32 layers on the M0 in BENCHMARKS.md); an int8 blob (`kinglet pack --calibration ...`) runs integer kernels",
+            target.core.name()
+        ));
+    }
     Ok(Budget {
+        warnings,
         model: name.into(),
         profile: target.profile.clone(),
         part: target.part.clone(),
@@ -278,7 +288,25 @@ mod tests {
             model.scratch_bytes() as u64 + stack + u64::from(m.model_struct)
         );
         assert!(r.fits() && r.reasons().is_empty());
+        assert!(r.warnings.is_empty(), "{:?}", r.warnings);
         assert_eq!(r.flash.headroom(), 256 * 1024 - i128::from(r.flash.used));
+    }
+
+    #[test]
+    fn an_f32_blob_on_a_core_without_fpu_is_warned_about() {
+        let b = blob("digits_float.kgl");
+        let model = Model::parse(&b).unwrap();
+        let m0 = budget("f", &model, &custom(Core::M0, 1024, 256, None)).unwrap();
+        assert_eq!(m0.warnings.len(), 1);
+        assert!(
+            m0.warnings[0].starts_with("an f32 blob on a Cortex-M0"),
+            "{:?}",
+            m0.warnings
+        );
+        assert!(render::table(&m0).contains("warning: an f32 blob on a Cortex-M0"));
+        assert_eq!(render::json(&m0)["warnings"][0], m0.warnings[0].as_str());
+        let m4 = budget("f", &model, &custom(Core::M4f, 1024, 256, None)).unwrap();
+        assert!(m4.warnings.is_empty());
     }
 
     #[test]

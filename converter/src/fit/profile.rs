@@ -13,6 +13,11 @@ pub enum Core {
 }
 
 impl Core {
+    /// Whether the core has a hardware FPU (single precision).
+    pub fn has_fpu(self) -> bool {
+        matches!(self, Core::M4f)
+    }
+
     /// The runtime's measured footprint on this core.
     pub fn measured(self) -> Measured {
         match self {

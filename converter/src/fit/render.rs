@@ -69,6 +69,9 @@ pub fn table(b: &Budget) -> String {
     } else {
         out += &format!("does not fit: {}\n", b.reasons().join("; "));
     }
+    for w in &b.warnings {
+        out += &format!("warning: {w}\n");
+    }
     out
 }
 
@@ -90,6 +93,7 @@ pub fn json(b: &Budget) -> serde_json::Value {
         "core": b.core,
         "fits": b.fits(),
         "reasons": b.reasons(),
+        "warnings": b.warnings,
         "flash": region(&b.flash),
         "ram": region(&b.ram),
     })
