@@ -49,21 +49,14 @@ fn fail(msg: &str) -> ! {
     std::process::exit(1);
 }
 
-/// A budget from the environment: bytes, or KiB with a `K`/`KiB` suffix.
+/// A budget from the environment: bytes, or with a `K`/`KiB` or `M`/`MiB` suffix, in the
+/// grammar `kinglet budget --flash/--ram` reads (the `kinglet-sizes` crate), at most 4 GiB.
 fn env_budget(name: &str) -> Option<u64> {
     println!("cargo:rerun-if-env-changed={name}");
     let raw = std::env::var(name).ok()?;
-    let s = raw.trim();
-    let (digits, mult) = if let Some(k) = s.strip_suffix("KiB").or_else(|| s.strip_suffix('K')) {
-        (k.trim(), 1024)
-    } else {
-        (s, 1)
-    };
-    match digits.parse::<u64>() {
-        Ok(v) => Some(v * mult),
-        Err(_) => fail(&format!(
-            "{name}={raw:?} is not a byte count (use e.g. 4096 or 4K)"
-        )),
+    match kinglet_sizes::parse(&raw, 1 << 32) {
+        Ok(size) => Some(size.bytes),
+        Err(e) => fail(&format!("{name}={raw:?}: {e}")),
     }
 }
 
@@ -107,7 +100,7 @@ fn main() {
     let own = own_model(&dir, &out);
     if let Some((path, blob, scratch)) = &own {
         println!(
-            "cargo:warning={name}: {} (KINGLET_OWN_MODEL): model flash: {blob} bytes, scratch buffer RAM: {scratch} bytes",
+            "cargo:warning={name}: {} (KINGLET_OWN_MODEL): model flash: {blob} bytes, scratch buffer RAM: {scratch} bytes (`kinglet budget`'s model_flash and model_ram)",
             path.display()
         );
         flash += blob;

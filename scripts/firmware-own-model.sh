@@ -89,8 +89,34 @@ echo "own model: 3. expected vectors, with their inputs"
   --entry infer --format vectors --name sorter --with-inputs -o "$work/sorter.txt"
 [[ $(wc -l <"$work/sorter.txt") -eq $rows ]] || fail "score wrote $(wc -l <"$work/sorter.txt") lines, not $rows"
 
-# 4. the budget and 5. the build: the blob counts against it (here set through the environment).
-export KINGLET_FLASH_BUDGET=64K KINGLET_RAM_BUDGET=2K
+echo "own model: 4. the budget, in the bytes the firmware build counts"
+# `kinglet budget` reports the model's own flash and RAM (model_flash, model_ram); the build's
+# model budget counts the same bytes for every blob it embeds: the shipped three and this one.
+# So the exact sum is the tightest budget that builds, and one byte less must fail the build.
+model_bytes() { # model_bytes <blob> <key> <budget options...>; empty when budget refuses the blob
+  local blob=$1 key=$2; shift 2
+  { "$KINGLET" budget "$blob" "$@" --json 2>/dev/null || true; } \
+    | sed -n "s/^  \"$key\": \([0-9]*\),\$/\1/p"
+}
+flash_sum=0 ram_sum=0
+for blob in "$work/sorter.kgl" "$fw"/models/{digits,digits_float,vibration}.kgl; do
+  # digits_float is an f32 blob, which the int8-only build refuses: count it with the default.
+  f=$(model_bytes "$blob" model_flash --board m0-16k --runtime int8-only)
+  r=$(model_bytes "$blob" model_ram --board m0-16k --runtime int8-only)
+  if [[ -z $f ]]; then
+    f=$(model_bytes "$blob" model_flash --board m4f-64k)
+    r=$(model_bytes "$blob" model_ram --board m4f-64k)
+  fi
+  [[ -n $f && -n $r ]] || { fail "budget --json of $blob has no model_flash/model_ram"; exit 1; }
+  flash_sum=$((flash_sum + f)) ram_sum=$((ram_sum + r))
+done
+own_flash=$(model_bytes "$work/sorter.kgl" model_flash --board m0-16k)
+own_ram=$(model_bytes "$work/sorter.kgl" model_ram --board m0-16k)
+echo "  kinglet budget: this model $own_flash + $own_ram bytes; all four $flash_sum + $ram_sum bytes"
+"$KINGLET" budget "$work/sorter.kgl" --board m0-16k --runtime classify-only | grep -E 'runtime code|stack|model alone'
+
+# 5. the build: the blobs count against the budget, here set to the exact sum (bytes).
+export KINGLET_FLASH_BUDGET=$flash_sum KINGLET_RAM_BUDGET=$ram_sum
 build() { # build <target> <vectors file>
   (cd "$fw" && KINGLET_OWN_MODEL="$work/sorter.kgl" KINGLET_OWN_VECTORS="$2" KINGLET_OWN_FEED=f32 \
     CARGO_TARGET_DIR="$fw_target" cargo build --release --target "$1" --bin vectors) 2>"$work/build.log"
@@ -102,6 +128,10 @@ for t in "${targets[@]}"; do
   fi
   grep -o 'sorter.kgl (KINGLET_OWN_MODEL): .*' "$work/build.log" | head -1 \
     || fail "$t: the build did not count the model against the budget"
+  grep -q "sorter.kgl (KINGLET_OWN_MODEL): model flash: $own_flash bytes, scratch buffer RAM: $own_ram bytes" \
+    "$work/build.log" || fail "$t: the build counted other bytes than kinglet budget's"
+  grep -q "all models: model flash: $flash_sum bytes of $flash_sum budgeted, scratch RAM: $ram_sum bytes of $ram_sum budgeted" \
+    "$work/build.log" || fail "$t: the build's sum differs from kinglet budget's"
   rc=0
   (cd "$fw" && ./qemu-run.sh "$fw_target/$t/release/vectors") >"$work/run-$t.txt" 2>&1 || rc=$?
   (( rc == 0 )) || fail "$t: vectors exited $rc"
@@ -114,8 +144,18 @@ for t in "${targets[@]}"; do
   grep -Eq "^vectors: $((244 + rows)) passed, 0 failed$" "$work/run-$t.txt" || fail "$t: summary"
 done
 
-# A broken expectation must fail the run: line 7 claims another class.
+# One byte under the exact sum must fail the build, for flash and for RAM.
 t="${targets[-1]}"
+for over in "KINGLET_FLASH_BUDGET=$((flash_sum - 1))" "KINGLET_RAM_BUDGET=$((ram_sum - 1))"; do
+  echo "own model: $t: $over (one byte short) fails the build"
+  if (export "${over?}"; build "$t" "$work/sorter.txt"); then
+    fail "$t: built with $over"
+  elif ! grep -q 'model budget exceeded' "$work/build.log"; then
+    cat "$work/build.log"; fail "$t: $over failed for another reason"
+  fi
+done
+
+# A broken expectation must fail the run: line 7 claims another class.
 echo "own model: $t: a changed expected line fails"
 awk 'NR == 7 { n = sub(/ class=[0-9]+ /, " class=9 ") } 1' "$work/sorter.txt" >"$work/changed.txt"
 cmp -s "$work/changed.txt" "$work/sorter.txt" && fail "could not change a line"

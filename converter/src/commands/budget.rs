@@ -1,6 +1,6 @@
 //! `kinglet budget`: does a packed model fit a part's flash and RAM?
 use anyhow::{anyhow, bail, Context, Result};
-use kinglet_converter::fit::{self, profile, render, Core, Target};
+use kinglet_converter::fit::{self, profile, render, Core, RuntimeBuild, Target};
 use kinglet_runtime::Model;
 use std::path::PathBuf;
 
@@ -39,6 +39,9 @@ pub struct Args {
     /// Core of a custom part, for the measured runtime code and stack [default: m0, the larger]
     #[arg(long, value_enum, requires = "flash")]
     core: Option<Core>,
+    /// The runtime build the firmware links: its code and stack differ (measured per build)
+    #[arg(long, value_enum, default_value_t = RuntimeBuild::Default)]
+    runtime: RuntimeBuild,
     /// Stack bytes to reserve instead of the runtime's measured peak (at most 4294967296).
     #[arg(long, value_parser = clap::value_parser!(u64).range(0..=fit::MAX_BYTES))]
     stack: Option<u64>,
@@ -68,6 +71,7 @@ fn target(a: &Args) -> Result<Target> {
             flash: p.flash_kib * 1024,
             ram: p.ram_kib * 1024,
             stack: a.stack,
+            build: a.runtime,
         });
     }
     let (Some(flash), Some(ram)) = (a.flash, a.ram) else {
@@ -86,6 +90,7 @@ fn target(a: &Args) -> Result<Target> {
         flash,
         ram,
         stack: a.stack,
+        build: a.runtime,
     })
 }
 

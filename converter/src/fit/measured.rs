@@ -2,32 +2,57 @@
 //! measurement harness `kernel-bench/harness`; do not edit: `--check` fails on any change).
 //!
 //! Measured with rustc 1.95.0 and the release profile of the probes' workspaces (opt-level "s",
-//! fat LTO, one codegen unit). Code: `.text` and `.rodata` of the example firmware's
-//! `size_runtime` (parse + one inference per input path, default features) minus those of
-//! its `size_base` (same start-up and console, no runtime), with the embedded blob taken out
-//! of `.rodata`. Stack: the stack probe `kernel-bench/fw/src/bin/stack.rs` under QEMU, per
-//! call the deeper of the painted stack and the lowest stack pointer a register trace saw;
-//! `stack_parse` is the deepest `Model::parse`, `stack_infer` the deepest `infer` or
-//! `classify` (int8 digits and vibration, f32 digits; f32, u8 and i16 features).
-//! BENCHMARKS.md lists every call.
-use super::Measured;
+//! fat LTO, one codegen unit). Code, one entry per runtime build a firmware can link:
+//! `default_build` is `.text` and `.rodata` of the example firmware's `size_runtime` (parse +
+//! one inference per input path, default features) minus those of its `size_base` (same
+//! start-up and console, no runtime), with the embedded blob taken out of `.rodata`;
+//! `int8_only` and `classify_only` are the size probes of `kernel-bench/size` built without
+//! the `f32` feature (`size_infer`: parse + `infer`; `size_classify`: parse + `classify` from
+//! `u8`) minus their `size_base`. Stack: the stack probe `kernel-bench/fw/src/bin/stack.rs`
+//! under QEMU, per call the deeper of the painted stack and the lowest stack pointer a
+//! register trace saw; `stack_parse` is the deepest `Model::parse`, `stack_infer` the deepest
+//! `infer` or `classify` (int8 digits and vibration, f32 digits; f32, u8 and i16 features),
+//! `stack_classify` the deepest `classify`. BENCHMARKS.md lists every call.
+use super::{Code, Measured};
 
 /// Cortex-M0 / M0+ (`thumbv6m-none-eabi`, no FPU: float is software).
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
-    runtime_text: 13680,
-    runtime_rodata: 1327,
+    default_build: Code {
+        text: 13680,
+        rodata: 1327,
+    },
+    int8_only: Code {
+        text: 11016,
+        rodata: 1316,
+    },
+    classify_only: Code {
+        text: 8004,
+        rodata: 1308,
+    },
     stack_parse: 2944,
     stack_infer: 584,
+    stack_classify: 584,
     model_struct: 564,
 };
 
 /// Cortex-M4F / M7 class (`thumbv7em-none-eabihf`, single-precision FPU).
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
-    runtime_text: 10668,
-    runtime_rodata: 1327,
+    default_build: Code {
+        text: 10668,
+        rodata: 1327,
+    },
+    int8_only: Code {
+        text: 8260,
+        rodata: 1316,
+    },
+    classify_only: Code {
+        text: 7412,
+        rodata: 1308,
+    },
     stack_parse: 2868,
     stack_infer: 564,
+    stack_classify: 540,
     model_struct: 564,
 };

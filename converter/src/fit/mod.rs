@@ -8,6 +8,7 @@
 pub mod measured;
 pub mod profile;
 pub mod render;
+pub mod runtime_build;
 pub mod size;
 
 use anyhow::{bail, Result};
@@ -19,20 +20,34 @@ use serde::Serialize;
 pub const MAX_BYTES: u64 = 1 << 32;
 
 pub use profile::{Core, Profile, PROFILES};
+pub use runtime_build::RuntimeBuild;
 
-/// The runtime's footprint on one core, measured on the example firmware.
+/// What one runtime build adds to a firmware's flash, bytes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Code {
+    /// Code (`.text`).
+    pub text: u32,
+    /// Constant data (`.rodata`, blob excluded).
+    pub rodata: u32,
+}
+
+/// The runtime's footprint on one core, measured on the example firmware and the size probes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Measured {
     /// Rust target triple it was measured for.
     pub target: &'static str,
-    /// Code the runtime adds to a firmware (`.text`), bytes.
-    pub runtime_text: u32,
-    /// Constant data the runtime adds (`.rodata`, blob excluded), bytes.
-    pub runtime_rodata: u32,
+    /// The default build (feature `f32`), every input path.
+    pub default_build: Code,
+    /// Without the `f32` feature: parse + `infer`.
+    pub int8_only: Code,
+    /// Without the `f32` feature: parse + `classify` only.
+    pub classify_only: Code,
     /// Peak stack of `Model::parse`, bytes.
     pub stack_parse: u32,
-    /// Peak stack of one inference, bytes.
+    /// Peak stack of one inference (`infer` or `classify`, the deeper), bytes.
     pub stack_infer: u32,
+    /// Peak stack of one `classify`, bytes.
+    pub stack_classify: u32,
     /// Size of a parsed `Model` value, bytes.
     pub model_struct: u32,
 }
@@ -109,6 +124,14 @@ pub struct Budget {
     pub part: String,
     /// Core whose measurements were used.
     pub core: Core,
+    /// The runtime build whose code was counted.
+    pub build: RuntimeBuild,
+    /// The model's own flash, bytes: its blob. The firmware build's model budget
+    /// (`firmware-example/boards.toml`, `KINGLET_FLASH_BUDGET`) counts exactly this.
+    pub model_flash: u64,
+    /// The model's own RAM, bytes: its scratch buffer, which the firmware build's RAM budget
+    /// (`KINGLET_RAM_BUDGET`) counts.
+    pub model_ram: u64,
     /// Flash.
     pub flash: Region,
     /// RAM.
@@ -156,13 +179,16 @@ pub struct Target {
     pub ram: u64,
     /// Stack bytes to reserve instead of the measured peak.
     pub stack: Option<u64>,
+    /// The runtime build the firmware links.
+    pub build: RuntimeBuild,
 }
 
 /// Counts `model` (from the file `name`) against `target`.
 ///
 /// # Errors
-/// When a size in `target` is over [`MAX_BYTES`] (the caller's options are bounded by it), or
-/// a region's items would not add up in `u64`.
+/// When a size in `target` is over [`MAX_BYTES`] (the caller's options are bounded by it), when
+/// the runtime build cannot run the blob (an f32 blob without the `f32` feature), or when a
+/// region's items would not add up in `u64`.
 pub fn budget(name: &str, model: &kinglet_runtime::Model<'_>, target: &Target) -> Result<Budget> {
     for (what, v) in [
         ("flash", Some(target.flash)),
@@ -176,6 +202,15 @@ pub fn budget(name: &str, model: &kinglet_runtime::Model<'_>, target: &Target) -
         }
     }
     let m = target.core.measured();
+    let build = target.build;
+    if !build.runs(model.precision()) {
+        bail!(
+            "an f32 blob needs the runtime's default build (feature `f32`); the {} build parses int8 blobs only",
+            build.name()
+        );
+    }
+    let code = build.code(&m);
+    let measured = format!("measured, {} build", build.name());
     let flash = vec![
         Item {
             what: "model blob".into(),
@@ -184,15 +219,16 @@ pub fn budget(name: &str, model: &kinglet_runtime::Model<'_>, target: &Target) -
         },
         Item {
             what: "runtime code".into(),
-            bytes: u64::from(m.runtime_text),
-            source: "measured".into(),
+            bytes: u64::from(code.text),
+            source: measured.clone(),
         },
         Item {
             what: "runtime constants".into(),
-            bytes: u64::from(m.runtime_rodata),
-            source: "measured".into(),
+            bytes: u64::from(code.rodata),
+            source: measured,
         },
     ];
+    let inference = build.stack_inference(&m);
     let stack = match target.stack {
         Some(s) => Item {
             what: "stack".into(),
@@ -201,10 +237,15 @@ pub fn budget(name: &str, model: &kinglet_runtime::Model<'_>, target: &Target) -
         },
         None => Item {
             what: "stack, runtime peak".into(),
-            bytes: u64::from(m.stack_parse.max(m.stack_infer)),
+            bytes: u64::from(m.stack_parse.max(inference)),
             source: format!(
-                "measured: parse {}, inference {}",
-                m.stack_parse, m.stack_infer
+                "measured: parse {}, {} {inference}",
+                m.stack_parse,
+                if build == RuntimeBuild::ClassifyOnly {
+                    "classify"
+                } else {
+                    "inference"
+                }
             ),
         },
     };
@@ -234,6 +275,9 @@ pub fn budget(name: &str, model: &kinglet_runtime::Model<'_>, target: &Target) -
         profile: target.profile.clone(),
         part: target.part.clone(),
         core: target.core,
+        build,
+        model_flash: model.blob_bytes() as u64,
+        model_ram: model.scratch_bytes() as u64,
         flash: Region::new("flash", flash, target.flash)?,
         ram: Region::new("RAM", ram, target.ram)?,
     })
@@ -259,6 +303,7 @@ mod tests {
             flash: flash_kib * 1024,
             ram: ram_kib * 1024,
             stack,
+            build: RuntimeBuild::Default,
         }
     }
 
@@ -266,7 +311,7 @@ mod tests {
     fn measurements_are_recorded() {
         for m in [measured::CORTEX_M0, measured::CORTEX_M4F] {
             assert!(
-                m.runtime_text > 1000 && m.stack_infer > 0 && m.stack_parse > 0,
+                m.default_build.text > 1000 && m.stack_infer > 0 && m.stack_parse > 0,
                 "{m:?}"
             );
         }
@@ -280,7 +325,7 @@ mod tests {
         let r = budget("d", &model, &custom(Core::M0, 256, 16, None)).unwrap();
         assert_eq!(
             r.flash.used,
-            b.len() as u64 + u64::from(m.runtime_text) + u64::from(m.runtime_rodata)
+            b.len() as u64 + u64::from(m.default_build.text) + u64::from(m.default_build.rodata)
         );
         let stack = u64::from(m.stack_parse.max(m.stack_infer));
         assert_eq!(
@@ -290,6 +335,50 @@ mod tests {
         assert!(r.fits() && r.reasons().is_empty());
         assert!(r.warnings.is_empty(), "{:?}", r.warnings);
         assert_eq!(r.flash.headroom(), 256 * 1024 - i128::from(r.flash.used));
+    }
+
+    #[test]
+    fn the_runtime_build_decides_code_and_stack() {
+        let b = blob("digits.kgl");
+        let model = Model::parse(&b).unwrap();
+        let m = Core::M0.measured();
+        let mut t = custom(Core::M0, 256, 16, None);
+        let default = budget("d", &model, &t).unwrap();
+        t.build = RuntimeBuild::ClassifyOnly;
+        let classify = budget("d", &model, &t).unwrap();
+        // Only the runtime's lines change: the blob is the same bytes in every build.
+        assert_eq!(
+            default.flash.used - classify.flash.used,
+            u64::from(m.default_build.text + m.default_build.rodata)
+                - u64::from(m.classify_only.text + m.classify_only.rodata)
+        );
+        let code = classify
+            .flash
+            .items
+            .iter()
+            .find(|i| i.what == "runtime code");
+        assert_eq!(code.map(|i| i.bytes), Some(u64::from(m.classify_only.text)));
+        assert_eq!(
+            code.map(|i| i.source.as_str()),
+            Some("measured, classify-only build")
+        );
+        let stack = &classify.ram.items[1];
+        assert_eq!(stack.bytes, u64::from(m.stack_parse.max(m.stack_classify)));
+        assert!(stack.source.contains("classify"), "{}", stack.source);
+        assert_eq!(render::json(&classify)["build"], "classify-only");
+        assert!(render::table(&classify).contains("classify-only build"));
+    }
+
+    #[test]
+    fn an_f32_blob_with_an_int8_only_build_is_an_error() {
+        let b = blob("digits_float.kgl");
+        let model = Model::parse(&b).unwrap();
+        for build in [RuntimeBuild::Int8Only, RuntimeBuild::ClassifyOnly] {
+            let mut t = custom(Core::M4f, 1024, 256, None);
+            t.build = build;
+            let e = budget("f", &model, &t).unwrap_err().to_string();
+            assert!(e.contains("needs the runtime's default build"), "{e}");
+        }
     }
 
     #[test]

@@ -52,14 +52,20 @@ pub fn table(b: &Budget) -> String {
     region_rows(&mut t, &b.flash);
     region_rows(&mut t, &b.ram);
     let mut out = format!(
-        "{} on {} ({})\nruntime numbers measured on {} (kinglet's example firmware)\n",
+        "{} on {} ({})\nruntime numbers: the {} build, measured on {} (kinglet's example firmware and size probes)\n",
         b.model,
         b.profile,
         b.part,
+        b.build.name(),
         b.core.measured().target
     );
     out += &t.to_string();
     out.push('\n');
+    out += &format!(
+        "model alone (what the firmware build's budget counts): flash {} bytes (blob), RAM {} bytes (scratch buffer)\n",
+        b.model_flash,
+        b.model_ram
+    );
     if b.fits() {
         out += &format!(
             "fits: {} bytes of flash and {} bytes of RAM remain for the application\n",
@@ -91,6 +97,9 @@ pub fn json(b: &Budget) -> serde_json::Value {
         "profile": b.profile,
         "part": b.part,
         "core": b.core,
+        "build": b.build,
+        "model_flash": b.model_flash,
+        "model_ram": b.model_ram,
         "fits": b.fits(),
         "reasons": b.reasons(),
         "warnings": b.warnings,

@@ -1,63 +1,33 @@
 //! Memory sizes as the user writes them: `4096` (bytes), `32K` or `32KiB`, `1M` or `1MiB`, and
-//! fractions where the result is a whole number of bytes (`0.5K` is 512). The firmware build's
-//! budget variables take the same forms, so one size reads the same everywhere.
+//! fractions where the result is a whole number of bytes (`0.5K` is 512). The grammar is the
+//! `kinglet-sizes` crate's, which the firmware build's budget variables read too, so one size
+//! reads the same everywhere; a part's size adds one rule (see [`SMALLEST_PART_BYTES`]).
 
 use crate::echo;
+use kinglet_sizes::SizeError;
 
 /// The smallest plain byte count a part's flash or RAM can be: a smaller bare number is almost
 /// certainly meant in KiB (the unit `budget` took before), so it is refused with a hint rather
 /// than read as bytes.
 pub const SMALLEST_PART_BYTES: u64 = 1024;
 
-/// Parses a size in bytes, at most `max` bytes.
+/// Parses a part's size in bytes, at most `max` bytes.
 pub fn parse(s: &str, max: u64) -> Result<u64, String> {
-    let t = s.trim();
-    let lower = t.to_ascii_lowercase();
-    let (number, unit) = [
-        ("kib", 1u64 << 10),
-        ("k", 1 << 10),
-        ("mib", 1 << 20),
-        ("m", 1 << 20),
-    ]
-    .iter()
-    .find_map(|&(suffix, unit)| lower.strip_suffix(suffix).map(|n| (n.trim(), unit)))
-    .unwrap_or((lower.as_str(), 1));
-    let bad = || {
-        format!(
-            "expected a size such as 4096 (bytes), 32K or 32KiB, 1M, not {}",
+    let size = kinglet_sizes::parse(s, max).map_err(|e| match e {
+        SizeError::NotASize => format!("{e}, not {}", echo::quoted(s)),
+        SizeError::NotWholeBytes => format!("{} is {e}", echo::quoted(s)),
+        SizeError::TooLarge { max } => format!(
+            "{} is larger than {max} bytes, the most a Cortex-M addresses",
             echo::quoted(s)
-        )
-    };
-    if number.is_empty() || !number.bytes().all(|b| b.is_ascii_digit() || b == b'.') {
-        return Err(bad());
-    }
-    let bytes = if let Ok(n) = number.parse::<u64>() {
-        n.checked_mul(unit)
-    } else {
-        // A fraction: exact in f64 for every size up to `max` (2^32) times the unit.
-        let x: f64 = number.parse().map_err(|_| bad())?;
-        let b = x * unit as f64;
-        if b.fract() != 0.0 {
-            return Err(format!(
-                "{} is not a whole number of bytes",
-                echo::quoted(s)
-            ));
-        }
-        (b < u64::MAX as f64).then_some(b as u64)
-    };
-    let bytes = bytes.filter(|&b| b <= max).ok_or_else(|| {
-        format!(
-            "{} is larger than {} bytes, the most a Cortex-M addresses",
-            echo::quoted(s),
-            max
-        )
+        ),
     })?;
-    if unit == 1 && bytes < SMALLEST_PART_BYTES {
+    if size.plain && size.bytes < SMALLEST_PART_BYTES {
+        let bytes = size.bytes;
         return Err(format!(
             "{bytes} bytes is smaller than any part; sizes are in bytes, write {bytes}K for KiB"
         ));
     }
-    Ok(bytes)
+    Ok(size.bytes)
 }
 
 #[cfg(test)]

@@ -47,6 +47,10 @@ pub struct Target {
     pub size_classify: u64,
     /// Software float and division routines the classify probe links (should be none).
     pub classify_soft: Vec<String>,
+    /// Runtime `.rodata` of the int8-only `infer` probe (`size_infer` − `size_base`).
+    pub rodata_int8_only: u64,
+    /// Runtime `.rodata` of the `classify` probe.
+    pub rodata_classify: u64,
     /// The stack probe's calls.
     pub stack: stack::Probe,
     /// Runtime `.text` in the example firmware (`size_runtime` − `size_base`).
@@ -320,7 +324,8 @@ fn measure(p: &Paths, m: &Machine, blobs: &Path, plugin: &Path) -> Result<Target
     )?;
     let elf = |dir: &Path, name: &str| Elf::read(&dir.join(m.triple).join("release").join(name));
     let (s8, sf) = (p.out.join("size-int8"), p.out.join("size-f32"));
-    let base = elf(&s8, "size_base")?.text()?;
+    let base_elf = elf(&s8, "size_base")?;
+    let (base, base_rodata) = (base_elf.text()?, base_elf.section(".rodata")?);
     let int8_only = elf(&s8, "size_infer")?;
     let classify = elf(&s8, "size_classify")?;
     // The detector's own check: on the Cortex-M0 the int8-only `infer` probe does use software
@@ -376,6 +381,8 @@ fn measure(p: &Paths, m: &Machine, blobs: &Path, plugin: &Path) -> Result<Target
         size_int8_only: int8_only.text()?.saturating_sub(base),
         size_classify: classify.text()?.saturating_sub(base),
         classify_soft: classify.soft_routines()?,
+        rodata_int8_only: int8_only.section(".rodata")?.saturating_sub(base_rodata),
+        rodata_classify: classify.section(".rodata")?.saturating_sub(base_rodata),
         stack,
         footprint_text: fw_rt.text()?.saturating_sub(fw_base.text()?),
         footprint_rodata,

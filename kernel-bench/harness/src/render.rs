@@ -255,18 +255,19 @@ fn core_name(t: &Target) -> &'static str {
 /// The footprint region of BENCHMARKS.md: what `measured.rs` records.
 pub fn footprint(targets: &[Target]) -> String {
     let mut s = String::new();
-    w!(s, "| target | runtime `.text` (bytes) | runtime `.rodata` (bytes) | peak stack, parse (bytes) | peak stack, one inference (bytes) | `Model` value (bytes) |");
-    w!(s, "|---|---:|---:|---:|---:|---:|");
+    w!(s, "| target | runtime `.text` (bytes) | runtime `.rodata` (bytes) | peak stack, parse (bytes) | peak stack, one inference (bytes) | peak stack, `classify` (bytes) | `Model` value (bytes) |");
+    w!(s, "|---|---:|---:|---:|---:|---:|---:|");
     for t in footprint_order(targets) {
         w!(
             s,
-            "| {} (`{}`) | {} | {} | {} | {} | {} |",
+            "| {} (`{}`) | {} | {} | {} | {} | {} | {} |",
             core_name(t),
             t.triple,
             t.footprint_text,
             t.footprint_rodata,
             t.stack.parse(),
             t.stack.inference(None),
+            t.stack.classify(),
             t.stack.model_struct
         );
     }
@@ -287,24 +288,18 @@ pub fn measured(targets: &[Target], rustc: &str) -> String {
     w!(s, "//! measurement harness `kernel-bench/harness`; do not edit: `--check` fails on any change).");
     w!(s, "//!");
     w!(s, "//! Measured with {rustc} and the release profile of the probes' workspaces (opt-level \"s\",");
-    w!(
-        s,
-        "//! fat LTO, one codegen unit). Code: `.text` and `.rodata` of the example firmware's"
-    );
-    w!(s, "//! `size_runtime` (parse + one inference per input path, default features) minus those of");
-    w!(s, "//! its `size_base` (same start-up and console, no runtime), with the embedded blob taken out");
-    w!(s, "//! of `.rodata`. Stack: the stack probe `kernel-bench/fw/src/bin/stack.rs` under QEMU, per");
-    w!(s, "//! call the deeper of the painted stack and the lowest stack pointer a register trace saw;");
-    w!(
-        s,
-        "//! `stack_parse` is the deepest `Model::parse`, `stack_infer` the deepest `infer` or"
-    );
-    w!(
-        s,
-        "//! `classify` (int8 digits and vibration, f32 digits; f32, u8 and i16 features)."
-    );
-    w!(s, "//! BENCHMARKS.md lists every call.");
-    w!(s, "use super::Measured;");
+    w!(s, "//! fat LTO, one codegen unit). Code, one entry per runtime build a firmware can link:");
+    w!(s, "//! `default_build` is `.text` and `.rodata` of the example firmware's `size_runtime` (parse +");
+    w!(s, "//! one inference per input path, default features) minus those of its `size_base` (same");
+    w!(s, "//! start-up and console, no runtime), with the embedded blob taken out of `.rodata`;");
+    w!(s, "//! `int8_only` and `classify_only` are the size probes of `kernel-bench/size` built without");
+    w!(s, "//! the `f32` feature (`size_infer`: parse + `infer`; `size_classify`: parse + `classify` from");
+    w!(s, "//! `u8`) minus their `size_base`. Stack: the stack probe `kernel-bench/fw/src/bin/stack.rs`");
+    w!(s, "//! under QEMU, per call the deeper of the painted stack and the lowest stack pointer a");
+    w!(s, "//! register trace saw; `stack_parse` is the deepest `Model::parse`, `stack_infer` the deepest");
+    w!(s, "//! `infer` or `classify` (int8 digits and vibration, f32 digits; f32, u8 and i16 features),");
+    w!(s, "//! `stack_classify` the deepest `classify`. BENCHMARKS.md lists every call.");
+    w!(s, "use super::{{Code, Measured}};");
     for t in footprint_order(targets) {
         let (doc, name) = if t.bench.kernel == "dsp" {
             (
@@ -320,10 +315,20 @@ pub fn measured(targets: &[Target], rustc: &str) -> String {
         w!(s, "\n/// {doc}");
         w!(s, "pub const {name}: Measured = Measured {{");
         w!(s, "    target: \"{}\",", t.triple);
-        w!(s, "    runtime_text: {},", t.footprint_text);
-        w!(s, "    runtime_rodata: {},", t.footprint_rodata);
+        // In rustfmt's layout, so `cargo fmt --check` and `--check` agree on the file.
+        for (field, text, rodata) in [
+            ("default_build", t.footprint_text, t.footprint_rodata),
+            ("int8_only", t.size_int8_only, t.rodata_int8_only),
+            ("classify_only", t.size_classify, t.rodata_classify),
+        ] {
+            w!(s, "    {field}: Code {{");
+            w!(s, "        text: {text},");
+            w!(s, "        rodata: {rodata},");
+            w!(s, "    }},");
+        }
         w!(s, "    stack_parse: {},", t.stack.parse());
         w!(s, "    stack_infer: {},", t.stack.inference(None));
+        w!(s, "    stack_classify: {},", t.stack.classify());
         w!(s, "    model_struct: {},", t.stack.model_struct);
         w!(s, "}};");
     }

@@ -65,6 +65,16 @@ impl Probe {
             .unwrap_or(0)
     }
 
+    /// The deepest `classify` (the integer-only call), of every model.
+    pub fn classify(&self) -> u64 {
+        self.calls
+            .iter()
+            .filter(|c| c.call.starts_with("classify"))
+            .map(Call::bytes)
+            .max()
+            .unwrap_or(0)
+    }
+
     /// The call `model`/`call`.
     pub fn get(&self, model: &str, call: &str) -> Option<&Call> {
         self.calls
