@@ -440,6 +440,47 @@ mod tests {
     }
 
     #[test]
+    fn constant_subgraphs_are_folded_in_order() {
+        // Identity(Transpose(w)) feeds the chain; the nodes come before their inputs in the file.
+        let g = graph(
+            vec![
+                node("id", "Identity", &["wt"], &["w2"]),
+                node("tr", "Transpose", &["w"], &["wt"]),
+                node("a", "Relu", &["x"], &["y"]),
+                node("mm", "MatMul", &["y", "w2"], &["z"]),
+            ],
+            vec![floats("w", &[1, 2], &[3.0, 4.0])],
+            vec![value("x", &[0, 2])],
+            &["z"],
+        );
+        let ix = GraphIndex::build(&g).unwrap();
+        let t = ix.constant("w2").unwrap().unwrap();
+        assert_eq!((t.dims.clone(), t.name.as_str()), (vec![2, 1], "w2"));
+        assert!(ix.computes_constant(0) && ix.computes_constant(1));
+        assert!(!ix.computes_constant(2) && !ix.computes_constant(3));
+
+        // An op that is not folded, on constants the model reads: refused naming it.
+        let mut g2 = g.clone();
+        g2.node[1] = node("sin", "Sin", &["w"], &["wt"]);
+        let e = GraphIndex::build(&g2).unwrap_err().to_string();
+        assert!(
+            e.contains("'sin' (op Sin") && e.contains("not folded at import"),
+            "{e}"
+        );
+        // A fold that fails names the node too.
+        let mut g3 = g.clone();
+        g3.node[1] = with_attr(
+            node("tr", "Transpose", &["w"], &["wt"]),
+            attr_int("perm", 0),
+        );
+        let e = GraphIndex::build(&g3).unwrap_err().to_string();
+        assert!(
+            e.contains("'tr' (op Transpose") && e.contains("permutation"),
+            "{e}"
+        );
+    }
+
+    #[test]
     fn cycle_is_found_without_looping() {
         let g = graph(
             vec![
