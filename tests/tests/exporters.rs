@@ -54,6 +54,8 @@ struct Case {
     calibration: Option<Vec<Vec<f32>>>,
     #[serde(default)]
     inputs_from: Option<String>,
+    #[serde(default)]
+    bias_free_layers: usize,
     framework: Reference,
     expected: Reference,
 }
@@ -141,12 +143,14 @@ fn check_with(name: &str, min_agreement: f64) -> FloatModel {
         .iter()
         .map(|l| l.inputs * l.outputs + l.outputs)
         .sum();
-    // A bias-free PyTorch layer gets a zero bias: its outputs count once more.
-    let bias_free: usize = if name.ends_with("nofold") && name.contains("digits") {
-        32
-    } else {
-        0
-    };
+    // The first `bias_free_layers` layers have no bias in PyTorch; imported, they get a zero
+    // bias, one more parameter per output.
+    let bias_free: usize = model
+        .layers
+        .iter()
+        .take(c.bias_free_layers)
+        .map(|l| l.outputs)
+        .sum();
     assert_eq!(params, c.params + bias_free, "{name}: parameters");
     assert_eq!(
         model.scaler.as_ref().map(|s| s.kind),
