@@ -18,10 +18,12 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 /// The packed models embedded by `kinglet-fw-vectors::assets` (and so by the binaries).
-const MODELS: [&str; 3] = [
+const MODELS: [&str; 5] = [
     "models/digits.kgl",
     "models/digits_float.kgl",
     "models/vibration.kgl",
+    "models/lr_digits.kgl",
+    "models/lr_digits_float.kgl",
 ];
 
 #[derive(Deserialize)]

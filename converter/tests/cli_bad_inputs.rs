@@ -1804,3 +1804,59 @@ fn c102_sgd_log_loss_one_vs_rest_in_elementary_ops() {
         ],
     );
 }
+
+#[test]
+fn c115_constant_that_is_not_a_pure_function_of_constants() {
+    pack_onnx_fixture(
+        "bad_constant_not_folded.onnx",
+        &[
+            "node 'noise_bias' (op RandomNormal, domain ai.onnx)",
+            "computes a constant",
+            "not folded at import; folded: Identity, Transpose, Cast",
+        ],
+    );
+}
+
+#[test]
+fn c116_constant_cast_that_is_not_exact() {
+    pack_onnx_fixture(
+        "bad_fold_cast_fp16.onnx",
+        &[
+            "node 'weight_fp16' (op Cast, domain ai.onnx)",
+            "Cast of a float constant to FLOAT16 is not folded",
+        ],
+    );
+}
+
+#[test]
+fn c117_arithmetic_on_the_batch_size() {
+    pack_onnx_fixture(
+        "bad_shape_arith.onnx",
+        &[
+            "node 'double_batch' (op Mul, domain ai.onnx)",
+            "in a computation on the data's shape: op Mul is not evaluated; supported: Shape, Gather",
+        ],
+    );
+}
+
+#[test]
+fn c118_reshape_with_the_batch_size_not_first() {
+    pack_onnx_fixture(
+        "bad_shape_batch_last.onnx",
+        &[
+            "node 'flatten' (op Reshape, domain ai.onnx)",
+            "the target shape has the batch size at position 1; supported: the batch size first",
+        ],
+    );
+}
+
+#[test]
+fn c119_shape_of_undeclared_dims() {
+    pack_onnx_fixture(
+        "bad_shape_unknown_dim.onnx",
+        &[
+            "node 'shape' (op Shape, domain ai.onnx)",
+            "dim 1 of the data's shape [?, ?, ?] is not known",
+        ],
+    );
+}

@@ -36,7 +36,7 @@ fn kinglet(args: &[&str]) -> Output {
 }
 
 /// The committed sets: name, blob, data arguments, feed.
-const SETS: [(&str, &str, &[&str], &str); 4] = [
+const SETS: [(&str, &str, &[&str], &str); 6] = [
     (
         "digits_u8",
         "firmware-example/models/digits.kgl",
@@ -87,6 +87,32 @@ const SETS: [(&str, &str, &[&str], &str); 4] = [
         ],
         "f32",
     ),
+    (
+        "lr_digits_u8",
+        "firmware-example/models/lr_digits.kgl",
+        &[
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--rows",
+            "0..60",
+        ],
+        "u8",
+    ),
+    (
+        "lr_digits_float",
+        "firmware-example/models/lr_digits_float.kgl",
+        &[
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--rows",
+            "60..70",
+        ],
+        "f32",
+    ),
 ];
 
 fn committed(set: &str) -> String {
@@ -122,7 +148,7 @@ fn the_committed_vectors_are_what_kinglet_score_writes() {
         );
         lines += want.lines().count();
     }
-    assert_eq!(lines, 244);
+    assert_eq!(lines, 314);
 }
 
 /// One committed line's fields.
@@ -182,7 +208,7 @@ fn json_classes_scores_and_outputs_equal_every_committed_line() {
             checked += 1;
         }
     }
-    assert_eq!(checked, 244);
+    assert_eq!(checked, 314);
 }
 
 #[test]

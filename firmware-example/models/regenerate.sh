@@ -1,6 +1,9 @@
 #!/usr/bin/env bash
 # Regenerates everything in firmware-example/models/ from examples/, without Python:
 #   digits.kgl, digits_float.kgl, vibration.kgl        kinglet pack (int8 with calibration; f32)
+#   lr_digits.kgl, lr_digits_float.kgl                 kinglet pack of the scikit-learn
+#                                                      LogisticRegression (MinMaxScaler, skl2onnx
+#                                                      LinearClassifier) in tests/fixtures/linear/
 #   digits_heldout_*.bin, vibration_replay*.bin        make-assets (this workspace)
 #
 # Usage: bash firmware-example/models/regenerate.sh [OUT_DIR]   (default: firmware-example/models)
@@ -20,6 +23,9 @@ fi
 "$KINGLET" pack "$root/examples/digits/model.onnx" \
   --calibration "$root/examples/digits/calibration.csv" -o "$out/digits.kgl"
 "$KINGLET" pack "$root/examples/digits/model.onnx" --float -o "$out/digits_float.kgl"
+"$KINGLET" pack "$root/tests/fixtures/linear/lr_digits_minmax.onnx" \
+  --calibration "$root/examples/digits/calibration.csv" -o "$out/lr_digits.kgl"
+"$KINGLET" pack "$root/tests/fixtures/linear/lr_digits_minmax.onnx" --float -o "$out/lr_digits_float.kgl"
 "$KINGLET" pack "$root/examples/vibration/model.onnx" \
   --calibration "$root/examples/vibration/calibration.csv" -o "$out/vibration.kgl"
 

@@ -366,6 +366,81 @@ def constant_nodes(out_dir):
                 "output_kind": "softmax", "params": dense_params((4, 6), (6, 3))})
 
 
+def exporter_forms(out_dir):
+    """Built by hand with onnx.helper, mimicking exporters where no framework made the graph
+    (the framework-made ones are in tests/fixtures/exporters/: make_torch_cases.py,
+    make_tf_cases.py).
+
+    tf_transposed_weight: tf2onnx's naming (values 'dense/MatMul:0', initializers
+    'dense/MatMul/ReadVariableOp:0'), a Reshape whose [-1, 6] target is a Constant node cast from
+    INT32 to INT64, and a Transpose applied to an initializer before MatMul. tf2onnx 1.17 with
+    TensorFlow 2.21 never writes that Transpose itself (TensorFlow folds it before conversion,
+    even with tf2onnx's optimizers off), so this form is hand-built."""
+    rng = np.random.default_rng(120)
+    w_out_in = rng.normal(0, 0.5, (4, 6))  # [out, in]: transposed in the graph
+    b = rng.normal(0, 0.1, (4,))
+    shape32 = helper.make_tensor("shape_i32", TensorProto.INT32, [2], [-1, 6])
+    nodes = [
+        helper.make_node("Constant", [], ["flatten/Const:0"], name="flatten/Const", value=shape32),
+        helper.make_node("Cast", ["flatten/Const:0"], ["flatten/Reshape__7:0"], name="flatten/Reshape__7", to=TensorProto.INT64),
+        helper.make_node("Reshape", ["input:0", "flatten/Reshape__7:0"], ["flatten/Reshape:0"], name="flatten/Reshape"),
+        helper.make_node("Transpose", ["dense/MatMul/ReadVariableOp:0"], ["dense/MatMul/ReadVariableOp/transpose:0"],
+                         name="dense/MatMul/ReadVariableOp/transpose", perm=[1, 0]),
+        helper.make_node("MatMul", ["flatten/Reshape:0", "dense/MatMul/ReadVariableOp/transpose:0"], ["dense/MatMul:0"],
+                         name="dense/MatMul"),
+        helper.make_node("Add", ["dense/MatMul:0", "dense/BiasAdd/ReadVariableOp:0"], ["dense/BiasAdd:0"], name="dense/BiasAdd"),
+        helper.make_node("Softmax", ["dense/BiasAdd:0"], ["Identity:0"], name="dense/Softmax"),
+    ]
+    inits = [f32("dense/MatMul/ReadVariableOp:0", w_out_in), f32("dense/BiasAdd/ReadVariableOp:0", b)]
+    m = model(nodes, inits, [inp("input:0", ["unk__8", 2, 3])], [out("Identity:0", ["unk__8", 4])],
+              opset=[helper.make_opsetid("", 15)])
+    save_valid(out_dir, "tf_transposed_weight", m, rows(rng, 10, 6), ["N", 2, 3],
+               {"pattern": "hand-built tf2onnx form: Constant INT32 shape + Cast, Reshape [-1, 6], Transpose of an initializer, MatMul + Add",
+                "output_kind": "softmax", "params": dense_params((6, 4))})
+
+    # Refused (docs/bad-inputs.md C115-C119).
+    w = f32("W", rng.normal(0, 0.5, (4, 3)))
+    # C115: a constant that is no pure function of constants (RandomNormal draws at run time).
+    nodes = [
+        helper.make_node("RandomNormal", [], ["noise"], name="noise_bias", shape=[4], seed=1.0),
+        helper.make_node("Gemm", ["x", "W", "noise"], ["p"], name="fc1", transB=1),
+    ]
+    write(out_dir, "bad_constant_not_folded", model(nodes, [w], [inp("x", ["N", 3])], [out("p", ["N", 4])]))
+    # C116: a weight cast to FLOAT16 (its rounding is not folded).
+    nodes = [
+        helper.make_node("Cast", ["W"], ["W16"], name="weight_fp16", to=TensorProto.FLOAT16),
+        helper.make_node("Gemm", ["x", "W16"], ["p"], name="fc1", transB=1),
+    ]
+    write(out_dir, "bad_fold_cast_fp16", model(nodes, [w], [inp("x", ["N", 3])], [out("p", ["N", 4])]))
+
+    def view(tail_nodes, target, dims):
+        """Reshape(x, target) after a shape computation; then Gemm over 6 features."""
+        nodes = [helper.make_node("Shape", ["x"], ["s"], name="shape"),
+                 helper.make_node("Constant", [], ["zero"], name="zero", value=helper.make_tensor("z", TensorProto.INT64, [], [0])),
+                 helper.make_node("Gather", ["s", "zero"], ["n"], name="batch"),
+                 *tail_nodes,
+                 helper.make_node("Reshape", ["x", target], ["xf"], name="flatten"),
+                 helper.make_node("Gemm", ["xf", "W6"], ["p"], name="fc1", transB=1)]
+        inits = [f32("W6", rng.normal(0, 0.5, (4, 6))), i64_typed("minus1", [-1]), i64_typed("ax0", [0])]
+        return model(nodes, inits, [inp("x", dims)], [out("p", ["N", 4])])
+
+    # C117: arithmetic on the batch size (x.view(2 * x.size(0), -1)).
+    two = helper.make_tensor("two", TensorProto.INT64, [], [2])
+    write(out_dir, "bad_shape_arith", view([
+        helper.make_node("Constant", [], ["c2"], name="c2", value=two),
+        helper.make_node("Mul", ["n", "c2"], ["n2"], name="double_batch"),
+        helper.make_node("Unsqueeze", ["n2", "ax0"], ["n2u"], name="unsq"),
+        helper.make_node("Concat", ["n2u", "minus1"], ["t"], name="target", axis=0)], "t", ["N", 2, 3]))
+    # C118: the batch size last in the target (x.view(-1, x.size(0))).
+    write(out_dir, "bad_shape_batch_last", view([
+        helper.make_node("Unsqueeze", ["n", "ax0"], ["nu"], name="unsq"),
+        helper.make_node("Concat", ["minus1", "nu"], ["t"], name="target", axis=0)], "t", ["N", 2, 3]))
+    # C119: a shape computation over dims the input does not declare.
+    write(out_dir, "bad_shape_unknown_dim", view([
+        helper.make_node("Unsqueeze", ["n", "ax0"], ["nu"], name="unsq"),
+        helper.make_node("Concat", ["nu", "minus1"], ["t"], name="target", axis=0)], "t", ["N", "H", "W"]))
+
+
 def image_models(out_dir):
     """784-100-10 with Flatten + Gemm(transB=1), its MatMul + Add twin, and 784 -> 10."""
     rng = np.random.default_rng(784)
@@ -585,6 +660,7 @@ def main():
     label_branch_strings(out_dir)
     typed_fields(out_dir)
     constant_nodes(out_dir)
+    exporter_forms(out_dir)
     image_models(out_dir)
     sklearn_pipelines(out_dir)
     malformed(out_dir)

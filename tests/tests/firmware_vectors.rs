@@ -155,10 +155,10 @@ fn argmax(v: &[f64]) -> usize {
 #[test]
 fn vector_classes_agree_with_scikit_learn() {
     // scikit-learn's predictions: examples/digits/reference_metrics.json ("predictions", the
-    // float MLP on the held-out rows) and examples/vibration/expected_proba.csv
-    // (predict_proba of the held-out rows). An int8 model that agrees on at least 97% of rows
-    // is working as intended (rule of thumb, common practice, no source); the f32 model must
-    // agree on every row.
+    // float MLP on the held-out rows), examples/vibration/expected_proba.csv (predict_proba of
+    // the held-out rows) and, for the logistic regression, its predict_proba below. An int8
+    // model that agrees on at least 97% of rows is working as intended (rule of thumb, common
+    // practice, no source); the f32 models must agree on every row.
     let metrics: serde_json::Value = serde_json::from_str(
         &std::fs::read_to_string(path("examples/digits/reference_metrics.json")).unwrap(),
     )
@@ -170,21 +170,54 @@ fn vector_classes_agree_with_scikit_learn() {
         .map(|v| v.as_u64().unwrap() as usize)
         .collect();
     let proba = kinglet_tests::read_float_csv("examples/vibration/expected_proba.csv");
+    // The logistic regression's: LogisticRegression.predict_proba of the same held-out rows
+    // (tests/fixtures/linear/lr_digits_minmax.json, written by make_linear_cases.py).
+    let lr: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(path("tests/fixtures/linear/lr_digits_minmax.json")).unwrap(),
+    )
+    .unwrap();
+    assert!(lr["sklearn"]["source"]
+        .as_str()
+        .unwrap()
+        .contains("predict_proba"));
+    let rows = |v: &serde_json::Value| -> Vec<Vec<f64>> {
+        v.as_array()
+            .unwrap()
+            .iter()
+            .map(|r| {
+                r.as_array()
+                    .unwrap()
+                    .iter()
+                    .map(|x| x.as_f64().unwrap())
+                    .collect()
+            })
+            .collect()
+    };
+    let sk_lr: Vec<usize> = rows(&lr["sklearn"]["rows"])
+        .iter()
+        .map(|p| argmax(p))
+        .collect();
+    // Its rows are the digits example's held-out rows (the same split), row for row.
+    let heldout = kinglet_tests::read_float_csv("examples/digits/heldout.csv");
+    let lr_rows = rows(&lr["heldout"]);
+    assert_eq!(lr_rows.len(), heldout.len());
+    for (a, b) in lr_rows.iter().zip(&heldout) {
+        assert_eq!(&a[..], &b[..64]);
+    }
     for set in &SETS {
         let (_, classes) = run_set(set);
+        let range = set.first..set.first + set.count;
         let reference: Vec<usize> = match set.path {
-            kinglet_fw_vectors::Path::Vibration => proba[set.first..set.first + set.count]
-                .iter()
-                .map(|p| argmax(p))
-                .collect(),
-            _ => sk_digits[set.first..set.first + set.count].to_vec(),
+            kinglet_fw_vectors::Path::Vibration => proba[range].iter().map(|p| argmax(p)).collect(),
+            _ if set.name.starts_with("lr_") => sk_lr[range].to_vec(),
+            _ => sk_digits[range].to_vec(),
         };
         let agree = classes
             .iter()
             .zip(&reference)
             .filter(|(a, b)| a == b)
             .count();
-        let need = if set.model == assets::DIGITS_FLOAT {
+        let need = if set.model == assets::DIGITS_FLOAT || set.model == assets::LR_DIGITS_FLOAT {
             set.count
         } else {
             (set.count * 97).div_ceil(100)

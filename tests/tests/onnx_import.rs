@@ -154,6 +154,9 @@ const VALID: &[&str] = &[
     "label_branch_strings",
     "typed_fields",
     "constant_nodes",
+    // Hand-built in tf2onnx's form (tf2onnx itself folds this Transpose first; the
+    // framework-made exports are checked in tests/tests/exporters.rs).
+    "tf_transposed_weight",
     "mlp_784_100_10_gemm",
     "mlp_784_100_10_matmul",
     "single_784_10",
@@ -309,6 +312,36 @@ fn malformed_fixtures_give_clear_errors() {
             "bad_truncated",
             |e| matches!(e, E::Decode(_)),
             &["truncated"],
+        ),
+        // Constants that are not folded, and shape computations that are not evaluated
+        // (rows C115 to C119 of docs/bad-inputs.md): refused, naming node and op.
+        (
+            "bad_constant_not_folded",
+            |e| matches!(e, E::Node { .. }),
+            &["'noise_bias' (op RandomNormal", "not folded at import"],
+        ),
+        (
+            "bad_fold_cast_fp16",
+            |e| matches!(e, E::Node { .. }),
+            &["'weight_fp16' (op Cast", "FLOAT16 is not folded"],
+        ),
+        (
+            "bad_shape_arith",
+            |e| matches!(e, E::Node { .. }),
+            &["'double_batch' (op Mul", "computation on the data's shape"],
+        ),
+        (
+            "bad_shape_batch_last",
+            |e| matches!(e, E::Node { .. }),
+            &["'flatten' (op Reshape", "batch size at position 1"],
+        ),
+        (
+            "bad_shape_unknown_dim",
+            |e| matches!(e, E::Node { .. }),
+            &[
+                "'shape' (op Shape",
+                "dim 1 of the data's shape [?, ?, ?] is not known",
+            ],
         ),
     ];
     for (name, is_kind, parts) in cases {

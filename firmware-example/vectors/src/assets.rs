@@ -14,6 +14,12 @@ pub const DIGITS: &[u8] = kinglet_runtime::embed_blob!("../../models/digits.kgl"
 pub const DIGITS_FLOAT: &[u8] = kinglet_runtime::embed_blob!("../../models/digits_float.kgl");
 /// The vibration model, int8.
 pub const VIBRATION: &[u8] = kinglet_runtime::embed_blob!("../../models/vibration.kgl");
+/// A scikit-learn `LogisticRegression` on the digits (`MinMaxScaler`, exported by skl2onnx as
+/// `LinearClassifier`: `tests/fixtures/linear/lr_digits_minmax.onnx`, the same split as the
+/// digits example), int8 (`kinglet pack ... --calibration examples/digits/calibration.csv`).
+pub const LR_DIGITS: &[u8] = kinglet_runtime::embed_blob!("../../models/lr_digits.kgl");
+/// The same logistic regression, f32.
+pub const LR_DIGITS_FLOAT: &[u8] = kinglet_runtime::embed_blob!("../../models/lr_digits_float.kgl");
 
 /// Pixels per digits image.
 pub const DIGITS_PIXELS: usize = 64;
@@ -41,8 +47,16 @@ pub const DIGITS_FLOAT_SCRATCH: usize = kinglet_runtime::scratch_bytes(DIGITS_FL
 /// Scratch bytes of [`VIBRATION`].
 pub const VIBRATION_SCRATCH: usize = kinglet_runtime::scratch_bytes(VIBRATION);
 
+/// Scratch bytes of [`LR_DIGITS`].
+pub const LR_DIGITS_SCRATCH: usize = kinglet_runtime::scratch_bytes(LR_DIGITS);
+/// Scratch bytes of [`LR_DIGITS_FLOAT`].
+pub const LR_DIGITS_FLOAT_SCRATCH: usize = kinglet_runtime::scratch_bytes(LR_DIGITS_FLOAT);
+
 /// The largest scratch buffer any of the models needs.
-pub const MAX_SCRATCH: usize = max(max(DIGITS_SCRATCH, DIGITS_FLOAT_SCRATCH), VIBRATION_SCRATCH);
+pub const MAX_SCRATCH: usize = max(
+    max(max(DIGITS_SCRATCH, DIGITS_FLOAT_SCRATCH), VIBRATION_SCRATCH),
+    max(LR_DIGITS_SCRATCH, LR_DIGITS_FLOAT_SCRATCH),
+);
 
 const fn max(a: usize, b: usize) -> usize {
     if a > b {

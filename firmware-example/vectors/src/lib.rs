@@ -54,7 +54,7 @@ pub struct VectorSet {
 }
 
 /// Every set, in the order the firmware prints them.
-pub const SETS: [VectorSet; 4] = [
+pub const SETS: [VectorSet; 6] = [
     VectorSet {
         name: "digits_u8",
         model: assets::DIGITS,
@@ -86,6 +86,22 @@ pub const SETS: [VectorSet; 4] = [
         first: 0,
         count: 64,
         expected: include_str!("../../../tests/fixtures/vectors/vibration.txt"),
+    },
+    VectorSet {
+        name: "lr_digits_u8",
+        model: assets::LR_DIGITS,
+        path: Path::DigitsU8,
+        first: 0,
+        count: 60,
+        expected: include_str!("../../../tests/fixtures/vectors/lr_digits_u8.txt"),
+    },
+    VectorSet {
+        name: "lr_digits_float",
+        model: assets::LR_DIGITS_FLOAT,
+        path: Path::DigitsF32,
+        first: 60,
+        count: 10,
+        expected: include_str!("../../../tests/fixtures/vectors/lr_digits_float.txt"),
     },
 ];
 

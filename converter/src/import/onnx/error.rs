@@ -44,7 +44,9 @@ impl fmt::Display for NodeRef {
 pub const SUPPORTED_OPS: &str = "MatMul, Add, Gemm, Relu, Softmax, Sigmoid, \
     BatchNormalization, Flatten, Reshape, Identity, Dropout, Cast (to float), Sub, Mul, Div, \
     Constant, ArgMax, Concat (binary outputs) in domain ai.onnx, and Scaler, LinearClassifier, \
-    Normalizer (L1), ArrayFeatureExtractor in domain ai.onnx.ml";
+    Normalizer (L1), ArrayFeatureExtractor in domain ai.onnx.ml; on constants also Transpose, \
+    Squeeze, Unsqueeze (folded at import); on the data's shape Shape, Gather, Slice, Squeeze, \
+    Unsqueeze, Concat, Reshape, Cast";
 
 /// Why an ONNX model could not be imported.
 #[derive(Debug, thiserror::Error)]

@@ -1,21 +1,26 @@
 //! An index over a `GraphProto`: who produces and who consumes each value, which values are
 //! constants (initializers and `Constant` nodes), and structural checks done once up front:
 //! one data input, every value defined once, every input defined, no cycle (Kahn's algorithm,
-//! bounded by the node count), every node reachable from the data input.
+//! bounded by the node count), every node reachable from the data input or computing a
+//! constant that the model reads. Nodes of the second kind are folded here (`fold.rs`), so
+//! their outputs are constants like initializers.
 
 use std::collections::{HashMap, HashSet, VecDeque};
 
 use super::attr;
 use super::error::OnnxImportError;
+use super::fold::{self, FOLDABLE_OPS};
 use super::node::{Domain, Node};
 use super::proto::{GraphProto, TensorProto, ValueInfoProto};
 use super::tensor::{decode, Tensor, TensorData};
 
 /// Where a constant value comes from.
-#[derive(Debug, Clone, Copy)]
+#[derive(Debug, Clone)]
 enum ConstSource<'g> {
     Initializer(&'g TensorProto),
     ConstantNode(Node<'g>),
+    /// The output of a node folded at import.
+    Folded(Tensor),
 }
 
 /// Lookup tables over one graph.
@@ -31,6 +36,8 @@ pub struct GraphIndex<'g> {
     pub outputs: Vec<&'g str>,
     consumers: HashMap<&'g str, Vec<usize>>,
     constants: HashMap<&'g str, ConstSource<'g>>,
+    /// Per node: it computes a constant (a `Constant` node or a node folded at import).
+    constant_nodes: Vec<bool>,
 }
 
 /// True for a `Constant` node of the default domain.
@@ -140,10 +147,12 @@ impl<'g> GraphIndex<'g> {
             .map(|(i, _)| i)
             .collect();
         let mut done = vec![false; nodes.len()];
+        let mut order = Vec::with_capacity(nodes.len());
         while let Some(i) = queue.pop_front() {
             if let Some(d) = done.get_mut(i) {
                 *d = true;
             }
+            order.push(i);
             for &s in successors.get(i).map(Vec::as_slice).unwrap_or(&[]) {
                 if let Some(d) = indegree.get_mut(s) {
                     *d = d.saturating_sub(1);
@@ -180,15 +189,14 @@ impl<'g> GraphIndex<'g> {
                 }
             }
         }
-        if let Some(n) = nodes
-            .iter()
-            .find(|n| !is_constant_node(n) && !reached.get(n.index).copied().unwrap_or(false))
-        {
-            return Err(OnnxImportError::Disconnected {
-                node: n.node_ref(),
-                detail: format!("it does not depend on graph input '{input_name}'"),
-            });
-        }
+        let constant_nodes = fold_constants(
+            &nodes,
+            &order,
+            &reached,
+            &producer,
+            &mut constants,
+            input_name,
+        )?;
 
         let outputs: Vec<&'g str> = graph
             .output
@@ -215,7 +223,13 @@ impl<'g> GraphIndex<'g> {
             outputs,
             consumers,
             constants,
+            constant_nodes,
         })
+    }
+
+    /// True when node `index` computes a constant: a `Constant` node, or one folded at import.
+    pub fn computes_constant(&self, index: usize) -> bool {
+        self.constant_nodes.get(index).copied().unwrap_or(false)
     }
 
     /// Indices of the nodes that read `value`.
@@ -243,8 +257,103 @@ impl<'g> GraphIndex<'g> {
         Some(match self.constants.get(value)? {
             ConstSource::Initializer(t) => decode(t),
             ConstSource::ConstantNode(n) => constant_node_value(n, value),
+            ConstSource::Folded(t) => Ok(t.clone()),
         })
     }
+}
+
+/// The nodes that do not depend on the data input: those whose outputs the model reads
+/// (directly or through other such nodes) are folded, in topological `order`; any other is
+/// disconnected. Returns, per node, whether it computes a constant.
+fn fold_constants<'g>(
+    nodes: &[Node<'g>],
+    order: &[usize],
+    reached: &[bool],
+    producer: &HashMap<&'g str, usize>,
+    constants: &mut HashMap<&'g str, ConstSource<'g>>,
+    input_name: &str,
+) -> Result<Vec<bool>, OnnxImportError> {
+    let is_reached = |i: usize| reached.get(i).copied().unwrap_or(false);
+    // Which unreached nodes feed a reached one: walk back from the reached nodes' inputs.
+    let mut feeds = vec![false; nodes.len()];
+    let mut stack: Vec<usize> = Vec::new();
+    let push_producers = |n: &Node<'g>, stack: &mut Vec<usize>, feeds: &mut Vec<bool>| {
+        for inp in n.inputs() {
+            if let Some(&p) = producer.get(inp.as_str()) {
+                if let Some(f) = feeds.get_mut(p) {
+                    if !is_reached(p) && !*f {
+                        *f = true;
+                        stack.push(p);
+                    }
+                }
+            }
+        }
+    };
+    for n in nodes.iter().filter(|n| is_reached(n.index)) {
+        push_producers(n, &mut stack, &mut feeds);
+    }
+    // Each node is pushed at most once (marked before it is pushed).
+    while let Some(i) = stack.pop() {
+        if let Some(n) = nodes.get(i) {
+            push_producers(n, &mut stack, &mut feeds);
+        }
+    }
+
+    let mut constant_nodes = vec![false; nodes.len()];
+    for &i in order {
+        let Some(n) = nodes.get(i) else { continue };
+        if is_reached(i) {
+            continue;
+        }
+        if is_constant_node(n) {
+            if let Some(c) = constant_nodes.get_mut(i) {
+                *c = true;
+            }
+            continue;
+        }
+        if !feeds.get(i).copied().unwrap_or(false) {
+            return Err(OnnxImportError::Disconnected {
+                node: n.node_ref(),
+                detail: format!("it does not depend on graph input '{input_name}'"),
+            });
+        }
+        if !fold::is_foldable(n) {
+            return Err(n.err(format!(
+                "op {} computes a constant (it does not depend on graph input '{input_name}') but is not folded at import; folded: {FOLDABLE_OPS} of constants",
+                n.op()
+            )));
+        }
+        if n.outputs().len() != 1 {
+            return Err(n.err(format!(
+                "{} outputs; supported: one when folded at import",
+                n.outputs().len()
+            )));
+        }
+        let mut values = Vec::with_capacity(n.inputs().len());
+        for inp in n.inputs() {
+            if inp.is_empty() {
+                values.push(None);
+                continue;
+            }
+            let v = match constants.get(inp.as_str()) {
+                Some(ConstSource::Initializer(t)) => decode(t),
+                Some(ConstSource::ConstantNode(c)) => constant_node_value(c, inp),
+                Some(ConstSource::Folded(t)) => Ok(t.clone()),
+                None => Err(format!("input '{inp}' is not a constant")),
+            };
+            values.push(Some(
+                v.map_err(|e| n.err(format!("folding at import: {e}")))?,
+            ));
+        }
+        let out = fold::fold(n, &values).map_err(|e| n.err(format!("folding at import: {e}")))?;
+        if let Some(name) = n.outputs().first() {
+            constants.insert(name.as_str(), ConstSource::Folded(out));
+        }
+        if let Some(c) = constant_nodes.get_mut(i) {
+            *c = true;
+        }
+    }
+    Ok(constant_nodes)
 }
 
 /// The value of a `Constant` node, from whichever `value*` attribute it has.
@@ -327,6 +436,47 @@ mod tests {
         assert_eq!(
             (t.dims.clone(), t.finite_floats().unwrap().to_vec()),
             (vec![2], vec![1.0, 2.0])
+        );
+    }
+
+    #[test]
+    fn constant_subgraphs_are_folded_in_order() {
+        // Identity(Transpose(w)) feeds the chain; the nodes come before their inputs in the file.
+        let g = graph(
+            vec![
+                node("id", "Identity", &["wt"], &["w2"]),
+                node("tr", "Transpose", &["w"], &["wt"]),
+                node("a", "Relu", &["x"], &["y"]),
+                node("mm", "MatMul", &["y", "w2"], &["z"]),
+            ],
+            vec![floats("w", &[1, 2], &[3.0, 4.0])],
+            vec![value("x", &[0, 2])],
+            &["z"],
+        );
+        let ix = GraphIndex::build(&g).unwrap();
+        let t = ix.constant("w2").unwrap().unwrap();
+        assert_eq!((t.dims.clone(), t.name.as_str()), (vec![2, 1], "w2"));
+        assert!(ix.computes_constant(0) && ix.computes_constant(1));
+        assert!(!ix.computes_constant(2) && !ix.computes_constant(3));
+
+        // An op that is not folded, on constants the model reads: refused naming it.
+        let mut g2 = g.clone();
+        g2.node[1] = node("sin", "Sin", &["w"], &["wt"]);
+        let e = GraphIndex::build(&g2).unwrap_err().to_string();
+        assert!(
+            e.contains("'sin' (op Sin") && e.contains("not folded at import"),
+            "{e}"
+        );
+        // A fold that fails names the node too.
+        let mut g3 = g.clone();
+        g3.node[1] = with_attr(
+            node("tr", "Transpose", &["w"], &["wt"]),
+            attr_int("perm", 0),
+        );
+        let e = GraphIndex::build(&g3).unwrap_err().to_string();
+        assert!(
+            e.contains("'tr' (op Transpose") && e.contains("permutation"),
+            "{e}"
         );
     }
 

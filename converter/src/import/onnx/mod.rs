@@ -13,17 +13,23 @@
 //!   raw scores (`ops/linear_classifier.rs`);
 //! - the input scaler: `ai.onnx.ml` `Scaler`, or constant `Sub`/`Add`/`Mul`/`Div` nodes before
 //!   the first dense layer, composed into one `(x - offset) * scale` map;
-//! - `Flatten`/`Reshape` to `[N, features]` at the input; `Identity`, `Dropout` and `Cast` to
-//!   float are removed;
+//! - `Flatten`/`Reshape` to `[N, features]` at the input, the `Reshape` target constant or
+//!   computed from the data's shape (`Shape`, `Gather`, `Slice`, `Squeeze`, `Unsqueeze`,
+//!   `Concat`, `Cast`: `ops/shape_value.rs`); `Identity`, `Dropout` and `Cast` to float are
+//!   removed;
 //! - the class-label branch (`ArgMax` -> `ArrayFeatureExtractor` -> `Reshape` -> `Cast`) is
 //!   dropped and its class labels kept;
-//! - constants from initializers and `Constant` nodes, in `raw_data` or the typed fields.
+//! - constants from initializers and `Constant` nodes, in `raw_data` or the typed fields, and
+//!   nodes that compute constants from them (`Identity`, `Transpose`, `Cast`, `Reshape`,
+//!   `Flatten`, `Squeeze`, `Unsqueeze`), folded at import (`fold.rs`), as PyTorch's exporter
+//!   writes with constant folding off or de-duplicated initializers.
 //!
 //! Anything else is an [`OnnxImportError`] naming the node, what was found and what is
 //! supported.
 
 mod attr;
 mod error;
+mod fold;
 mod graph_index;
 mod node;
 mod normalise;

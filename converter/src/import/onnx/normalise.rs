@@ -10,8 +10,11 @@
 //!    3, a `LinearClassifier` (a dense layer with its output function and class labels),
 //!    optionally followed by a `Normalizer`.
 //!
-//! `Identity`, `Dropout` and `Cast` to float are removed wherever they are. Each step moves to
-//! a node not seen before, so the walk ends within the graph's node count.
+//! `Identity`, `Dropout` and `Cast` to float are removed wherever they are. A `Shape` of the
+//! data starts a computation on the data's shape, evaluated at once (`ops/shape_value.rs`)
+//! for the `Reshape` that reads it. Each step moves to a node not seen before, so the walk ends
+//! within the graph's node count. Nodes that compute constants were folded before the walk
+//! (`fold.rs`, called by the graph index).
 //!
 //! This file holds the walk's state and its dispatch; each op's handler is a method of [`Walk`]
 //! in the op's own file under `ops/` (`ops/dense.rs`: `MatMul`, `Gemm`; `ops/affine.rs`: the
@@ -23,12 +26,12 @@
 use crate::graph::{DenseLayer, FloatModel, OutputKind};
 
 use super::error::OnnxImportError;
-use super::graph_index::{is_constant_node, GraphIndex};
+use super::graph_index::GraphIndex;
 use super::node::{Domain, Node};
 use super::ops::affine::Affine;
 use super::ops::labels::{self, LabelBranch};
 use super::ops::shape::{self, Shape};
-use super::ops::{binary_output, single_output};
+use super::ops::{binary_output, shape_value, single_output};
 use super::proto::data_type;
 
 /// Where the walk is.
@@ -59,6 +62,8 @@ pub(super) struct Walk<'g, 'i> {
     pub(super) pending_logistic: Option<Node<'g>>,
     /// The binary raw-score column (`ArrayFeatureExtractor(scores, [1])`) was met.
     pub(super) score_column_taken: bool,
+    /// Values computed from the data's shape (`ops/shape_value.rs`).
+    pub(super) shape_values: shape_value::ShapeValues<'g>,
 }
 
 /// Turns an indexed graph into a float model.
@@ -75,6 +80,7 @@ pub fn normalise(g: &GraphIndex<'_>) -> Result<FloatModel, OnnxImportError> {
         labels: None,
         pending_logistic: None,
         score_column_taken: false,
+        shape_values: Default::default(),
     };
     let mut current = g.input_name;
     for _ in 0..=g.nodes.len() {
@@ -87,6 +93,11 @@ pub fn normalise(g: &GraphIndex<'_>) -> Result<FloatModel, OnnxImportError> {
             consumers.into_iter().partition(labels::is_argmax);
         for a in argmax {
             w.label_branch(a)?;
+        }
+        let (shapes, rest): (Vec<Node<'_>>, Vec<Node<'_>>) =
+            rest.into_iter().partition(shape_value::is_shape);
+        for s in shapes {
+            shape_value::follow(g, s, &w.shape, &mut w.shape_values, &mut w.visited)?;
         }
         current = match rest.as_slice() {
             [] => return w.finish(current),
@@ -327,11 +338,9 @@ impl<'g> Walk<'g, '_> {
                 ),
             });
         }
-        if let Some(n) = g
-            .nodes
-            .iter()
-            .find(|n| !is_constant_node(n) && !self.visited.get(n.index).copied().unwrap_or(false))
-        {
+        if let Some(n) = g.nodes.iter().find(|n| {
+            !g.computes_constant(n.index) && !self.visited.get(n.index).copied().unwrap_or(false)
+        }) {
             return Err(OnnxImportError::Disconnected {
                 node: n.node_ref(),
                 detail: format!(

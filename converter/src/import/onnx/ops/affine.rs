@@ -181,7 +181,11 @@ impl Affine {
             ScalerKind::Uniform
         } else {
             match self.steps.as_slice() {
-                [Step::ScalerOp] | [Step::Sub, Step::Div] => ScalerKind::Standardise,
+                // `Sub` then `Mul`: TensorFlow writes a division by a constant as a product with
+                // its reciprocal.
+                [Step::ScalerOp] | [Step::Sub, Step::Div] | [Step::Sub, Step::Mul] => {
+                    ScalerKind::Standardise
+                }
                 [Step::Mul, Step::Add] => ScalerKind::MinMax,
                 _ => ScalerKind::Affine,
             }

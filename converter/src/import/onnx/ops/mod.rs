@@ -12,6 +12,7 @@ pub mod normalizer;
 pub mod passthrough;
 pub mod score_column;
 pub mod shape;
+pub mod shape_value;
 
 use super::error::OnnxImportError;
 use super::graph_index::GraphIndex;

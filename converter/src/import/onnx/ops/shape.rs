@@ -6,7 +6,7 @@ use super::super::attr;
 use super::super::error::OnnxImportError;
 use super::super::node::Node;
 use super::super::normalise::Walk;
-use super::constant_input;
+use super::{constant_input, shape_value};
 
 /// A tracked shape; dim 0 is the batch.
 pub type Shape = Vec<Option<usize>>;
@@ -137,11 +137,20 @@ impl<'g> Walk<'g, '_> {
         Ok(())
     }
 
-    /// `Reshape` by a constant target shape.
+    /// `Reshape` by a constant target shape, or by one computed from the data's shape.
     pub(in super::super) fn reshape(&mut self, n: Node<'g>) -> Result<(), OnnxImportError> {
+        let allow_zero = attr::int_or(n.proto, "allowzero", 0).map_err(|e| n.err(e))? != 0;
+        if let Some(v) = n.input(1).and_then(|i| self.shape_values.get(i)) {
+            // The batch size becomes 0, "copy dim 0", which needs allowzero = 0.
+            if allow_zero && v.dims.contains(&shape_value::Dim::Known(0)) {
+                return Err(n.err("allowzero = 1 with a 0 in the computed target; supported: a reshape to [N, features] that keeps the batch dimension"));
+            }
+            let target = shape_value::reshape_target(v).map_err(|e| n.err(e))?;
+            self.shape = reshape(&self.shape, &target, false).map_err(|e| n.err(e))?;
+            return Ok(());
+        }
         let t = constant_input(self.g, &n, 1, "shape")?;
         let target = t.ints().map_err(|e| n.err(e))?;
-        let allow_zero = attr::int_or(n.proto, "allowzero", 0).map_err(|e| n.err(e))? != 0;
         self.shape = reshape(&self.shape, target, allow_zero).map_err(|e| n.err(e))?;
         Ok(())
     }
