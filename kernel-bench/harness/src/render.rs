@@ -288,17 +288,32 @@ pub fn measured(targets: &[Target], rustc: &str) -> String {
     w!(s, "//! measurement harness `kernel-bench/harness`; do not edit: `--check` fails on any change).");
     w!(s, "//!");
     w!(s, "//! Measured with {rustc} and the release profile of the probes' workspaces (opt-level \"s\",");
-    w!(s, "//! fat LTO, one codegen unit). Code, one entry per runtime build a firmware can link:");
+    w!(
+        s,
+        "//! fat LTO, one codegen unit). Code, one entry per runtime build a firmware can link:"
+    );
     w!(s, "//! `default_build` is `.text` and `.rodata` of the example firmware's `size_runtime` (parse +");
-    w!(s, "//! one inference per input path, default features) minus those of its `size_base` (same");
-    w!(s, "//! start-up and console, no runtime), with the embedded blob taken out of `.rodata`;");
+    w!(
+        s,
+        "//! one inference per input path, default features) minus those of its `size_base` (same"
+    );
+    w!(
+        s,
+        "//! start-up and console, no runtime), with the embedded blob taken out of `.rodata`;"
+    );
     w!(s, "//! `int8_only` and `classify_only` are the size probes of `kernel-bench/size` built without");
     w!(s, "//! the `f32` feature (`size_infer`: parse + `infer`; `size_classify`: parse + `classify` from");
     w!(s, "//! `u8`) minus their `size_base`. Stack: the stack probe `kernel-bench/fw/src/bin/stack.rs`");
-    w!(s, "//! under QEMU, per call the deeper of the painted stack and the lowest stack pointer a");
+    w!(
+        s,
+        "//! under QEMU, per call the deeper of the painted stack and the lowest stack pointer a"
+    );
     w!(s, "//! register trace saw; `stack_parse` is the deepest `Model::parse`, `stack_infer` the deepest");
     w!(s, "//! `infer` or `classify` (int8 digits and vibration, f32 digits; f32, u8 and i16 features),");
-    w!(s, "//! `stack_classify` the deepest `classify`. BENCHMARKS.md lists every call.");
+    w!(
+        s,
+        "//! `stack_classify` the deepest `classify`. BENCHMARKS.md lists every call."
+    );
     w!(s, "use super::{{Code, Measured}};");
     for t in footprint_order(targets) {
         let (doc, name) = if t.bench.kernel == "dsp" {
