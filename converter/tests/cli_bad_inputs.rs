@@ -1725,6 +1725,24 @@ fn c92_a_label_column_in_the_calibration_rows_points_at_the_option() {
     );
 }
 
+#[test]
+fn c120_correct_bias_on_a_float_pack() {
+    let c = Case::new().with("model_2in.json");
+    c.fails(
+        &["pack", "model_2in.json", "--float", "--correct-bias", "-o", "m.kgl"],
+        &["--correct-bias corrects for int8 weight rounding and --float keeps f32 weights; drop one of them"],
+    );
+}
+
+#[test]
+fn c121_percentile_with_the_least_error_range() {
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    c.fails(
+        &["pack", "model_2in.json", "--calibration", "rows.csv", "--range", "least-error", "--percentile", "99", "-o", "m.kgl"],
+        &["--percentile applies to --range percentile only (the range method is least-error); add --range percentile"],
+    );
+}
+
 // ---- linear classifiers (tests/fixtures/linear/bad_*.onnx, from make_linear_cases.py) ----
 
 fn pack_linear_fixture(name: &str, wants: &[&str]) -> String {

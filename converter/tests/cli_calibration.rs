@@ -227,3 +227,56 @@ fn pack_json_keeps_inspect_json_order_and_f32_digits() {
         "{packed}"
     );
 }
+
+#[test]
+fn least_error_and_bias_correction_through_the_binary() {
+    let s = Setup::new(None);
+    let o = s.pack(
+        "le.kgl",
+        &["--range", "least-error", "--correct-bias", "--json"],
+    );
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let cal = &v["calibration"];
+    assert_eq!(cal["method"], "least-error");
+    assert_eq!(cal["bias_correction"], true);
+    assert!(v["notes"][0]
+        .as_str()
+        .unwrap()
+        .ends_with("(least-error, biases corrected for the int8 weight rounding)"));
+    // Every range lies within the observed values (the grid only shrinks min/max).
+    for t in cal["tensors"].as_array().unwrap() {
+        let f = |k: &str| t[k].as_f64().unwrap();
+        assert!(
+            f("min") >= f("observed_min") && f("max") <= f("observed_max"),
+            "{t}"
+        );
+    }
+    let o = s.pack("le2.kgl", &["--range", "least-error"]);
+    let t = text(&o.stdout);
+    assert!(t.contains("calibration (least-error, 50 rows;"), "{t}");
+    // The correction changes the blob (its biases) and nothing else about the pack.
+    let read = |f: &str| std::fs::read(s.dir.path().join(f)).unwrap();
+    let (a, b) = (read("le.kgl"), read("le2.kgl"));
+    assert_eq!(a.len(), b.len());
+    assert_ne!(a, b);
+    let (correct, rows) = s.int8_accuracy("le.kgl");
+    assert_eq!(rows, 600);
+    // Float: 592 / 600; int8 min/max: 591 / 600 (docs/calibration.md).
+    assert!(correct >= 585, "{correct}");
+}
+
+#[test]
+fn least_error_keeps_a_range_that_one_far_row_sets() {
+    // The squared error of clipping the 1e6 row's 15 input values (≈ 15 · 6.4e4² / 765) is far
+    // above the rounding error of wide steps, so the least-error range keeps them, and the
+    // warning of C73 stays: the method minimises the error on the calibration values, far
+    // values included (docs/calibration.md).
+    let s = Setup::new(Some("1e6"));
+    let o = s.pack("le.kgl", &["--range", "least-error"]);
+    let err = text(&o.stderr);
+    assert!(
+        err.contains("input: the range [-2.933, 6.45e4] is set by 15 of 765 values")
+            && err.contains("use --range percentile --percentile 98.03 to clip them"),
+        "{err}"
+    );
+}

@@ -64,6 +64,9 @@ enum Range {
     Minmax,
     /// Clip to the `--percentile` and its mirror.
     Percentile,
+    /// Per tensor, the range with the smallest int8 quantisation error on the calibration
+    /// rows (a grid search over clipping thresholds; docs/calibration.md).
+    LeastError,
 }
 
 /// `pack --json`: the written file, then the blob's report in `inspect --json`'s order and
@@ -106,6 +109,10 @@ pub struct Args {
     /// [default: 99.99].
     #[arg(long, value_name = "P")]
     percentile: Option<f64>,
+    /// Correct every layer's bias for the mean error its int8 weights cause on the calibration
+    /// rows (Nagel et al., 2019; docs/calibration.md).
+    #[arg(long)]
+    correct_bias: bool,
     /// A scaler saved separately (JSON: mean/std, min/max, or divide_by), when the model has none.
     #[arg(long, value_name = "FILE", conflicts_with = "divide_by")]
     scaler: Option<PathBuf>,
@@ -128,11 +135,18 @@ pub fn run(a: Args) -> Result<Outcome> {
         (None, None) => None,
     };
     if a.percentile.is_some() && !matches!(a.range, Range::Percentile) {
-        bail!("--percentile applies to --range percentile only (the range method is minmax); add --range percentile");
+        let method = match a.range {
+            Range::LeastError => "least-error",
+            _ => "minmax",
+        };
+        bail!("--percentile applies to --range percentile only (the range method is {method}); add --range percentile");
     }
     let precision = if a.float {
         if a.calibration.is_some() {
             bail!("--float packs f32 weights and needs no --calibration");
+        }
+        if a.correct_bias {
+            bail!("--correct-bias corrects for int8 weight rounding and --float keeps f32 weights; drop one of them");
         }
         Precision::F32
     } else {
@@ -144,10 +158,12 @@ pub fn run(a: Args) -> Result<Outcome> {
             label: a.calibration_label.clone(),
             method: match a.range {
                 Range::Minmax => RangeMethod::MinMax,
+                Range::LeastError => RangeMethod::LeastError,
                 Range::Percentile => {
                     RangeMethod::Percentile(a.percentile.unwrap_or(DEFAULT_PERCENTILE))
                 }
             },
+            bias_correction: a.correct_bias,
         }
     };
     let req = PackRequest {

@@ -14,6 +14,7 @@ use crate::dataset::Dataset;
 use crate::graph::FloatModel;
 use crate::layer_table::{owned_table, wire_u32};
 use crate::quantise::advice::{self, num, percentile_option, rows_text, suggested_percentile};
+use crate::quantise::bias_correction::bias_corrected;
 use crate::quantise::calibrate::{range_of, Calibration, RangeMethod, TensorRange};
 use crate::quantise::plausible::biases_lost;
 use crate::quantise::quantise;
@@ -45,6 +46,8 @@ pub struct Int8Pack {
     pub blob: Vec<u8>,
     /// The calibration method used.
     pub method: RangeMethod,
+    /// Whether the biases were corrected for the int8 weight rounding.
+    pub bias_correction: bool,
     /// The calibrated range of each tensor (scaled input, then each layer output).
     pub ranges: Vec<TensorRange>,
     /// Rows in the calibration set.
@@ -55,9 +58,33 @@ pub struct Int8Pack {
     pub warnings: Vec<String>,
 }
 
+/// How an int8 pack is calibrated.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Int8Options {
+    /// How each tensor's range is taken.
+    pub method: RangeMethod,
+    /// Correct every layer's bias for the mean error of its int8 weights on the calibration
+    /// rows ([`crate::quantise::bias_correction`]).
+    pub bias_correction: bool,
+}
+
+impl From<RangeMethod> for Int8Options {
+    fn from(method: RangeMethod) -> Self {
+        Int8Options {
+            method,
+            bias_correction: false,
+        }
+    }
+}
+
 /// Calibrates on `data` (raw feature rows) with `method` and packs the int8 blob.
 pub fn pack_int8(model: &FloatModel, data: &Dataset, method: RangeMethod) -> Result<Int8Pack> {
     pack_int8_observed(model, data, method, &|_| {})
+}
+
+/// [`pack_int8`] with every option.
+pub fn pack_int8_with(model: &FloatModel, data: &Dataset, opts: Int8Options) -> Result<Int8Pack> {
+    pack_int8_options(model, data, opts, &|_| {})
 }
 
 /// [`pack_int8`], calling `progress` with the calibration rows just run.
@@ -67,15 +94,32 @@ pub fn pack_int8_observed(
     method: RangeMethod,
     progress: &dyn Fn(u64),
 ) -> Result<Int8Pack> {
+    pack_int8_options(model, data, method.into(), progress)
+}
+
+/// [`pack_int8_with`], calling `progress` with the calibration rows just run.
+pub fn pack_int8_options(
+    model: &FloatModel,
+    data: &Dataset,
+    opts: Int8Options,
+    progress: &dyn Fn(u64),
+) -> Result<Int8Pack> {
+    let method = opts.method;
     let float_blob = pack_f32(model)?;
     let float_model = Model::parse(&float_blob)
         .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
     let cal = crate::quantise::calibrate::calibrate_observed(&float_model, data, method, progress)?;
     check_plausible(model, &cal, &data.source)?;
-    let blob = quantise(model, &cal.ranges)?.encode_in(WeightLayout::Blocked4x4)?;
+    let blob = if opts.bias_correction {
+        quantise(&bias_corrected(model, &cal.means)?, &cal.ranges)?
+    } else {
+        quantise(model, &cal.ranges)?
+    }
+    .encode_in(WeightLayout::Blocked4x4)?;
     Ok(Int8Pack {
         blob,
         method,
+        bias_correction: opts.bias_correction,
         warnings: advice::warnings(&cal, &data.source),
         ranges: cal.ranges,
         calibration_rows: data.rows,

@@ -14,7 +14,7 @@ use crate::report::calibration::CalibrationReport;
 use crate::report::BlobReport;
 use crate::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
 
-use super::{pack_f32, pack_int8_observed};
+use super::{pack_f32, pack_int8_options, Int8Options};
 
 /// Where the input scaler comes from, when the model carries none.
 #[derive(Debug, Clone, PartialEq)]
@@ -38,6 +38,8 @@ pub enum Precision {
         label: Option<LabelColumn>,
         /// How each tensor's range is taken.
         method: RangeMethod,
+        /// Correct the biases for the int8 weight rounding (`--correct-bias`).
+        bias_correction: bool,
     },
 }
 
@@ -195,21 +197,32 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
             calibration: rows,
             label,
             method,
+            bias_correction,
         } => {
             progress.loading(rows);
             let data = load_rows(rows, label.clone())?;
             check_calibration_width(&data, model.input_len, label.is_some())?;
             progress.calibrating(data.rows);
-            let p = pack_int8_observed(&model, &data, *method, &|n| progress.rows_done(n))
+            let opts = Int8Options {
+                method: *method,
+                bias_correction: *bias_correction,
+            };
+            let p = pack_int8_options(&model, &data, opts, &|n| progress.rows_done(n))
                 .with_context(|| format!("cannot pack {}", model_path.display()))?;
             notes.push(format!(
-                "calibrated on {} rows of {} ({})",
+                "calibrated on {} rows of {} ({}{})",
                 p.calibration_rows,
                 rows.display(),
-                p.method
+                p.method,
+                if p.bias_correction {
+                    ", biases corrected for the int8 weight rounding"
+                } else {
+                    ""
+                }
             ));
             calibration = Some(CalibrationReport::new(
                 p.method,
+                p.bias_correction,
                 p.calibration_rows,
                 p.tensors,
                 p.warnings,
@@ -315,6 +328,7 @@ mod tests {
                 calibration: example("vibration/calibration.csv"),
                 label: None,
                 method: RangeMethod::MinMax,
+                bias_correction: false,
             },
         };
         let int8 = pack(&req).unwrap();

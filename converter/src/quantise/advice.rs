@@ -57,7 +57,9 @@ pub fn suggested_percentile(tensors: &[TensorStats]) -> Option<f64> {
 /// The command-line option(s) that select percentile `p`, given the method used.
 pub fn percentile_option(method: RangeMethod, p: f64) -> String {
     match method {
-        RangeMethod::MinMax => format!("--range percentile --percentile {p}"),
+        RangeMethod::MinMax | RangeMethod::LeastError => {
+            format!("--range percentile --percentile {p}")
+        }
         RangeMethod::Percentile(_) => format!("--percentile {p}"),
     }
 }
@@ -154,6 +156,7 @@ mod tests {
             ranges: vec![],
             tensors: vec![t],
             scaled_input: vec![],
+            means: vec![],
         };
         // 153 values, 3 far above: 100 · (152 - 3) / 152 = 98.026…
         assert_eq!(suggested_percentile(&cal.tensors), Some(98.02));

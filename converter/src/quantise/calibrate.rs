@@ -4,6 +4,7 @@
 use anyhow::{anyhow, bail, Result};
 use kinglet_runtime::{Input, Model};
 
+use super::least_error::least_error;
 use super::percentile::percentile;
 use super::spread::TensorStats;
 use crate::dataset::Dataset;
@@ -16,6 +17,9 @@ pub enum RangeMethod {
     /// The `(100 - p)`-th and `p`-th percentiles (`p` in `(50, 100]`) of the tensor's values,
     /// by the rank of [`super::percentile`] (numpy's default), clipping rare outliers.
     Percentile(f64),
+    /// Per tensor, the range with the smallest int8 quantisation error on the calibration
+    /// values ([`super::least_error`]: a grid search, Nagel et al., 2021, §3.4).
+    LeastError,
 }
 
 impl std::fmt::Display for RangeMethod {
@@ -23,6 +27,7 @@ impl std::fmt::Display for RangeMethod {
         match self {
             RangeMethod::MinMax => f.write_str("min/max"),
             RangeMethod::Percentile(p) => write!(f, "percentile {p}"),
+            RangeMethod::LeastError => f.write_str("least-error"),
         }
     }
 }
@@ -49,6 +54,9 @@ pub struct Calibration {
     /// The scaled input of every row, row-major (tensor 0's values, as the first layer sees
     /// them in the float model).
     pub scaled_input: Vec<f32>,
+    /// The mean of every element of every tensor over the rows, in the order of `ranges`
+    /// (the float inputs of each layer: what bias correction needs).
+    pub means: Vec<Vec<f64>>,
 }
 
 /// The name of tensor `index` in messages: `input` (the scaled input), then `layer N output`,
@@ -126,6 +134,11 @@ pub fn calibrate_observed(
     progress((data.rows % PROGRESS_STEP) as u64);
     let mut ranges = Vec::with_capacity(values.len());
     let mut tensors = Vec::with_capacity(values.len());
+    let means = values
+        .iter()
+        .zip(&widths)
+        .map(|(v, &w)| element_means(v, w))
+        .collect();
     for (t, (v, &width)) in values.iter().zip(&widths).enumerate() {
         if v.len() != width * data.rows {
             bail!(
@@ -146,7 +159,21 @@ pub fn calibrate_observed(
         ranges,
         tensors,
         scaled_input,
+        means,
     })
+}
+
+/// The mean of each of the `width` elements of row-major `values`, in f64.
+fn element_means(values: &[f32], width: usize) -> Vec<f64> {
+    let mut sum = vec![0f64; width];
+    let mut rows = 0usize;
+    for row in values.chunks_exact(width.max(1)) {
+        for (s, &v) in sum.iter_mut().zip(row) {
+            *s += f64::from(v);
+        }
+        rows += 1;
+    }
+    sum.iter().map(|s| s / rows.max(1) as f64).collect()
 }
 
 /// The range of `sorted` (ascending) by `method`.
@@ -163,6 +190,7 @@ pub fn range_of(sorted: &[f32], method: RangeMethod) -> TensorRange {
             min: percentile(sorted, 100.0 - p),
             max: percentile(sorted, p),
         },
+        RangeMethod::LeastError => least_error(sorted).range,
     }
 }
 

@@ -3,7 +3,9 @@
 //! calibration set, fixed-point requantisation multipliers (Jacob et al., 2018), and integer
 //! tables for raw integer inputs. Each layer is proven free of int32 accumulator overflow.
 pub mod advice;
+pub mod bias_correction;
 pub mod calibrate;
+pub mod least_error;
 pub mod params;
 pub mod percentile;
 pub mod plausible;

@@ -12,6 +12,8 @@ use crate::quantise::spread::{TensorStats, CORE_TRIM, DOMINATED_SPREAD};
 pub struct CalibrationReport {
     /// `min/max` or `percentile P`.
     pub method: String,
+    /// Whether the biases were corrected for the int8 weight rounding (Nagel et al., 2019).
+    pub bias_correction: bool,
     /// How percentiles are ranked.
     pub percentile_definition: &'static str,
     /// Calibration rows.
@@ -29,12 +31,14 @@ impl CalibrationReport {
     /// `warnings` (the parts of a [`crate::pack::Int8Pack`]).
     pub fn new(
         method: RangeMethod,
+        bias_correction: bool,
         rows: usize,
         tensors: Vec<TensorStats>,
         warnings: Vec<String>,
     ) -> Self {
         CalibrationReport {
             method: method.to_string(),
+            bias_correction,
             percentile_definition:
                 "Hyndman & Fan (1996) definition 7, numpy.percentile's default: rank (n - 1) * p / 100, linear between neighbours",
             rows,
@@ -86,7 +90,9 @@ pub fn render(r: &CalibrationReport) -> String {
         ]);
     }
     format!(
-        "calibration ({}, {} rows; spread: the range's width over the width of the values that are not far)\n{t}\n",
-        r.method, r.rows
+        "calibration ({}{}, {} rows; spread: the range's width over the width of the values that are not far)\n{t}\n",
+        r.method,
+        if r.bias_correction { ", biases corrected" } else { "" },
+        r.rows
     )
 }
