@@ -119,6 +119,13 @@ fn check_engines(pair: &ModelPair<'_>, fed: &Fed<'_>) {
                 tol(x.signal, y.signal) && tol(x.noise, y.noise),
                 "row {r}: {x:?} {y:?}"
             );
+            // The same int8 ranges on both paths; a float value right at a range's end may
+            // fall on either side after the float paths' last-bit differences.
+            assert!(x.clipped.abs_diff(y.clipped) <= 1, "row {r}: {x:?} {y:?}");
+            assert!(
+                (x.clip_noise + x.round_noise - x.noise).abs() <= 1e-9 * (1.0 + x.noise),
+                "row {r}: {x:?}"
+            );
         }
     }
 }

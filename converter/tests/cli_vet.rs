@@ -95,6 +95,8 @@ fn text_report_json_and_html() {
         "Newcombe (1998)",
         "McNemar exact",
         "SQNR",
+        "noise from clipping",
+        "rounding alone (dB)",
         "layer 3",
         "PASS",
         "verdict: PASS",
@@ -111,6 +113,10 @@ fn text_report_json_and_html() {
         "two heat maps, SQNR bars, histogram"
     );
     assert!(
+        page.contains("<th>noise from clipping</th>")
+            && page.contains("<th>rounding alone (dB)</th>")
+    );
+    assert!(
         !page.contains("http://")
             || page.matches("http://").count()
                 == page.matches("xmlns=\"http://www.w3.org/2000/svg\"").count(),
@@ -124,6 +130,16 @@ fn text_report_json_and_html() {
     assert_eq!(v["predictions"]["float"].as_array().unwrap().len(), 450);
     assert_eq!(v["fidelity"].as_array().unwrap().len(), 4);
     assert!(v["verdict"].is_null());
+    for f in v["fidelity"].as_array().unwrap() {
+        let e = &f["energy"];
+        let n = |k: &str| e[k].as_f64().unwrap();
+        assert!((n("clip_noise") + n("round_noise") - n("noise")).abs() <= 1e-9 * n("noise"));
+        assert_eq!(f["clipped"], e["clipped"]);
+        assert!(
+            f["clip_share"].is_f64() && f["rounding_sqnr_db"].is_f64(),
+            "{f}"
+        );
+    }
 
     // The f32 blob as the float model gives the same numbers as the ONNX file.
     let o2 = Command::new(env!("CARGO_BIN_EXE_kinglet"))

@@ -7,7 +7,10 @@ use kinglet_converter::pack::{pack_f32, pack_int8_with, Int8Options};
 use kinglet_converter::quantise::bias_correction::bias_corrected;
 use kinglet_converter::quantise::calibrate::{calibrate, RangeMethod};
 use kinglet_converter::quantise::least_error::{least_error, GRID_STEPS};
+use kinglet_converter::quantise::params::activation_quant;
 use kinglet_converter::quantise::percentile::percentile;
+use kinglet_converter::vet::fidelity::{int8_bounds, Energy};
+use kinglet_runtime::unstable::scale::quantize_linear;
 use kinglet_runtime::unstable::wire::format::{Activation, OutputKind};
 use kinglet_runtime::Model;
 use serde_json::Value;
@@ -139,4 +142,37 @@ fn bias_correction_equals_numpy() {
     };
     let p = pack_int8_with(&model, &data, opts).unwrap();
     assert!(p.bias_correction && Model::parse(&p.blob).is_ok());
+}
+
+#[test]
+fn noise_split_equals_numpy() {
+    // vet's split of the squared error into values beyond the int8 range (clipping) and
+    // within it (rounding), against numpy (tests/python/calib_ref.py, `noise`).
+    let doc = cases();
+    let case = &doc["noise"];
+    let v = f32s(&case["values"]);
+    let (min, max) = (
+        case["min"].as_f64().unwrap() as f32,
+        case["max"].as_f64().unwrap() as f32,
+    );
+    let q = activation_quant(min, max);
+    let bounds = int8_bounds(q.scale, q.zero_point);
+    let mut e = Energy::default();
+    for &x in &v {
+        let back = (f32::from(quantize_linear(x, q.scale, q.zero_point)) - f32::from(q.zero_point))
+            * q.scale;
+        e.add(x, back, bounds);
+    }
+    assert_eq!(e.clipped, case["clipped"].as_u64().unwrap());
+    assert!(e.clipped > 0);
+    for (got, key) in [
+        (e.clip_noise, "clip_noise"),
+        (e.round_noise, "round_noise"),
+        (e.noise, "noise"),
+        (e.signal, "signal"),
+    ] {
+        let want = case[key].as_f64().unwrap();
+        assert!((got - want).abs() <= 1e-9 * want, "{key}: {got} vs {want}");
+    }
+    assert!((e.clip_noise + e.round_noise - e.noise).abs() <= 1e-12 * e.noise);
 }

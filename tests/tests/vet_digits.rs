@@ -269,4 +269,16 @@ fn digits_numbers_for_the_record() {
         r.agreement.disagreements.len() as u64
     );
     assert_eq!(r.verdict.as_ref().map(|v| v.passed), Some(a.drop_pp <= 0.5));
+    // The noise split: clipping and rounding add up to the total on every tensor, and the
+    // held-out rows have input values beyond the calibration range (docs/vet.md).
+    for f in &r.fidelity {
+        let e = &f.energy;
+        assert!(
+            (e.clip_noise + e.round_noise - e.noise).abs() <= 1e-9 * e.noise,
+            "{f:?}"
+        );
+        assert_eq!(f.clipped, e.clipped);
+        assert!(f.rounding_sqnr_db >= f.sqnr_db, "{f:?}");
+    }
+    assert!(r.fidelity[0].clipped > 0);
 }

@@ -2,7 +2,7 @@
 //! passes, giving the per-row outcomes [`super::run::evaluate`] gives.
 use rayon::prelude::*;
 
-use super::fidelity::Energy;
+use super::fidelity::{int8_bounds, Energy};
 use super::pair::ModelPair;
 use super::run::{Fed, Parallelism, RowFailure, RowOutcome, BATCH};
 use crate::host::{FloatBatch, FloatHost, Int8Batch, Int8Host};
@@ -57,8 +57,9 @@ fn outcomes(f: &FloatBatch, q: &Int8Batch, entry: Entry) -> Vec<RowOutcome> {
                 .zip(&q.stages)
                 .map(|(fs, qs)| {
                     let mut e = Energy::default();
+                    let bounds = int8_bounds(qs.scale, qs.zero_point);
                     for (i, &v) in fs.row(r).iter().enumerate() {
-                        e.add(v, qs.real(r, i));
+                        e.add(v, qs.real(r, i), bounds);
                     }
                     e
                 })

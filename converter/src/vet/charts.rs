@@ -368,6 +368,8 @@ mod tests {
         let e = Energy {
             signal: 100.0,
             noise: 1.0,
+            round_noise: 1.0,
+            ..Energy::default()
         };
         let s = vec![StageFidelity::new(0, "input".into(), 4, e)];
         let svg = sqnr_svg(&s).unwrap();

@@ -188,6 +188,27 @@ pub fn render(r: &VetReport) -> Result<String> {
         "<p class=\"note\">SQNR = 10·log10(Σ x<sub>f</sub>² / Σ (x<sub>f</sub> − x<sub>q</sub>)²) over every element of every row; x<sub>q</sub> is the int8 tensor dequantised.</p>"
     );
     h.push_str(&sqnr_svg(&r.fidelity)?);
+    let _ = writeln!(
+        h,
+        "<table><tr><th>tensor</th><th>SQNR (dB)</th><th>clipped values</th><th>noise from clipping</th><th>rounding alone (dB)</th></tr>"
+    );
+    for f in &r.fidelity {
+        let db = |v: Option<f64>| v.map_or_else(|| "-".into(), |d| format!("{d:.1}"));
+        let _ = writeln!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+            esc(&f.name),
+            db(f.sqnr_db),
+            f.clipped,
+            f.clip_share
+                .map_or_else(|| "-".into(), |c| format!("{:.1} %", 100.0 * c)),
+            db(f.rounding_sqnr_db)
+        );
+    }
+    let _ = writeln!(
+        h,
+        "</table><p class=\"note\">Clipped: float values beyond the int8 tensor's range (they saturate); their squared errors are the noise from clipping, the others' the rounding noise (with any error that reached the layer through its input).</p>"
+    );
 
     let _ = writeln!(h, "<h2>Score differences</h2>");
     h.push_str(&score_diff_svg(

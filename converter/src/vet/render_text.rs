@@ -167,16 +167,40 @@ pub fn render(r: &VetReport, o: &TextOptions) -> String {
 
     let _ = writeln!(
         s,
-        "\nPer-layer fidelity: SQNR = 10·log10(Σ x_f² / Σ (x_f − x_q)²) over all rows"
+        "\nPer-layer fidelity: SQNR = 10·log10(Σ x_f² / Σ (x_f − x_q)²) over all rows; clipped: float values beyond the int8 range, and their share of the noise; rounding alone: the SQNR without that share"
     );
-    let mut t = table(vec!["tensor".into(), "width".into(), "SQNR (dB)".into()]);
+    let mut t = table(
+        [
+            "tensor",
+            "width",
+            "SQNR (dB)",
+            "clipped",
+            "noise from clipping",
+            "rounding alone (dB)",
+        ]
+        .map(String::from)
+        .to_vec(),
+    );
     for f in &r.fidelity {
         let v = match (f.sqnr_db, &f.note) {
             (Some(db), _) => format!("{db:.1}"),
             (None, Some(n)) => n.clone(),
             (None, None) => "-".into(),
         };
-        t.add_row(vec![Cell::new(&f.name), right(f.width), right(v)]);
+        t.add_row(vec![
+            Cell::new(&f.name),
+            right(f.width),
+            right(v),
+            right(f.clipped),
+            right(
+                f.clip_share
+                    .map_or_else(|| "-".into(), |c| format!("{:.1} %", 100.0 * c)),
+            ),
+            right(
+                f.rounding_sqnr_db
+                    .map_or_else(|| "-".into(), |db| format!("{db:.1}")),
+            ),
+        ]);
     }
     let _ = writeln!(s, "{t}");
 

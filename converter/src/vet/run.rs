@@ -19,10 +19,10 @@
 //! the row, results are collected in row order, and every sum over rows is taken afterwards in
 //! row order — so a parallel run gives exactly the numbers of a serial one.
 use anyhow::{anyhow, Result};
-use kinglet_runtime::{Input, RunError, Stage};
+use kinglet_runtime::{Activations, Input, RunError, Stage};
 use rayon::prelude::*;
 
-use super::fidelity::Energy;
+use super::fidelity::{int8_bounds, Energy};
 use super::pair::ModelPair;
 use crate::dataset::{Dataset, IntegerValues};
 use crate::score::feed::{input_at, Entry, Feed};
@@ -165,8 +165,14 @@ fn eval_row(
     let mut energy = vec![Energy::default(); stages.len()];
     let mut add_error = |st: &Stage<'_>| {
         if let (Some(buf), Some(e)) = (stages.get(st.index), energy.get_mut(st.index)) {
+            let bounds = match st.values {
+                Activations::Int8 {
+                    scale, zero_point, ..
+                } => int8_bounds(scale, zero_point),
+                Activations::F32 { .. } => (f32::NEG_INFINITY, f32::INFINITY),
+            };
             for (i, &f) in buf.iter().enumerate() {
-                e.add(f, st.values.real(i).unwrap_or(0.0));
+                e.add(f, st.values.real(i).unwrap_or(0.0), bounds);
             }
         }
     };
