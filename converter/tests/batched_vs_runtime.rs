@@ -14,7 +14,7 @@ use kinglet_converter::graph::{
 };
 use kinglet_converter::host::{FloatHost, Int8Host};
 use kinglet_converter::import::import_file;
-use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::pack::{pack_f32, pack_int8, pack_int8_with, FoldScaler, Int8Options};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_converter::score::feed::{input_at, Entry};
 use kinglet_converter::vet::run::{evaluate, RowOutcome};
@@ -403,4 +403,46 @@ fn both_engines_name_the_same_failing_row() {
             .starts_with("rows.csv: data row 2501 (1-based, header not counted): the float model"),
         "{batched}"
     );
+}
+
+#[test]
+fn both_engines_compare_a_folded_input_with_the_raw_row() {
+    // digits with the scaler folded into layer 1 (`pack --fold-scaler` when it wins): the int8
+    // input holds the raw pixels exactly, so both engines find no error in it (compared with the
+    // raw row, not the float model's scaled input) and agree on everything else.
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/digits");
+    let model = import_file(&root.join("model.onnx")).unwrap();
+    let calib = load_file(&root.join("calibration.csv"), &LoadOptions::default()).unwrap();
+    let opts = LoadOptions {
+        label: Some(LabelColumn::Name("label".into())),
+        ..LoadOptions::default()
+    };
+    let rows = load_file(&root.join("heldout.csv"), &opts).unwrap();
+    let f = pack_f32(&model).unwrap();
+    let p = pack_int8_with(
+        &model,
+        &calib,
+        Int8Options {
+            method: RangeMethod::MinMax,
+            bias_correction: false,
+            fold_scaler: FoldScaler::Always,
+        },
+    )
+    .unwrap();
+    assert_eq!(p.raw_input.as_ref().map(|c| c.kept), Some("folded"));
+    let pair = ModelPair::new(Model::parse(&f).unwrap(), Model::parse(&p.blob).unwrap()).unwrap();
+    assert!(pair.raw_int8_input());
+    assert!(pair.stage_names()[0].0.starts_with("input (raw, quantised"));
+    let fed = Fed {
+        data: &rows,
+        integers: None,
+        entry: Entry::Infer,
+    };
+    check_engines(&pair, &fed);
+    for e in [Engine::PerRow, Engine::Batched] {
+        let out = evaluate(&pair, &fed, Parallelism::Serial, e, &|_| {}).unwrap();
+        assert!(out
+            .iter()
+            .all(|o| o.energy[0].noise == 0.0 && o.energy[0].signal > 0.0));
+    }
 }

@@ -1735,6 +1735,22 @@ fn c120_correct_bias_on_a_float_pack() {
 }
 
 #[test]
+fn c122_fold_scaler_on_a_float_pack() {
+    let c = Case::new().with("model_2in.json");
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--float",
+            "--fold-scaler",
+            "-o",
+            "m.kgl",
+        ],
+        &["--fold-scaler chooses the int8 input and --float keeps f32 inputs; drop one of them"],
+    );
+}
+
+#[test]
 fn c121_percentile_with_the_least_error_range() {
     let c = Case::new().with("model_2in.json").with("rows.csv");
     c.fails(

@@ -280,3 +280,75 @@ fn least_error_keeps_a_range_that_one_far_row_sets() {
         "{err}"
     );
 }
+
+#[test]
+fn fold_scaler_measures_both_inputs_and_says_which_it_kept() {
+    // digits: whole pixels 0 to 16 and a standardising scaler. Folding makes the input exact but
+    // coarsens layer 1 (docs/vet.md, "Calibration choices on digits"), so the scaled input wins
+    // on the calibration rows; vibration: the features are not whole numbers.
+    let dir = tempfile::tempdir().unwrap();
+    let run = |args: &[&str]| {
+        let o = Command::new(env!("CARGO_BIN_EXE_kinglet"))
+            .args(args)
+            .current_dir(dir.path())
+            .output()
+            .unwrap();
+        assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+        serde_json::from_slice::<serde_json::Value>(&o.stdout).unwrap()
+    };
+    let m = repo("examples/digits/model.onnx");
+    let c = repo("examples/digits/calibration.csv");
+    let v = run(&[
+        "pack",
+        m.to_str().unwrap(),
+        "--calibration",
+        c.to_str().unwrap(),
+        "--fold-scaler",
+        "--json",
+        "-o",
+        "d.kgl",
+    ]);
+    let r = &v["calibration"]["raw_input"];
+    assert_eq!(r["kept"], "scaled", "{r}");
+    let (scaled, folded) = (
+        r["scaled_sqnr_db"].as_f64().unwrap(),
+        r["folded_sqnr_db"].as_f64().unwrap(),
+    );
+    assert!(scaled > folded, "{r}");
+    let note = v["notes"][1].as_str().unwrap();
+    assert!(note.starts_with("--fold-scaler: kept the scaled input (SQNR of the last layer's output on the calibration rows: raw input with the scaler folded into layer 1 "), "{note}");
+    // The kept blob is the plain pack.
+    let v2 = run(&[
+        "pack",
+        m.to_str().unwrap(),
+        "--calibration",
+        c.to_str().unwrap(),
+        "--json",
+        "-o",
+        "plain.kgl",
+    ]);
+    assert!(v2["calibration"].get("raw_input").is_none());
+    let read = |f: &str| std::fs::read(dir.path().join(f)).unwrap();
+    assert_eq!(read("d.kgl"), read("plain.kgl"));
+    let m = repo("examples/vibration/model.onnx");
+    let c = repo("examples/vibration/calibration.csv");
+    let v = run(&[
+        "pack",
+        m.to_str().unwrap(),
+        "--calibration",
+        c.to_str().unwrap(),
+        "--fold-scaler",
+        "--json",
+        "-o",
+        "v.kgl",
+    ]);
+    let r = &v["calibration"]["raw_input"];
+    assert_eq!(r["kept"], "scaled");
+    assert!(
+        r["reason"]
+            .as_str()
+            .unwrap()
+            .contains("not all whole numbers"),
+        "{r}"
+    );
+}

@@ -113,6 +113,11 @@ pub struct Args {
     /// rows (Nagel et al., 2019; docs/calibration.md).
     #[arg(long)]
     correct_bias: bool,
+    /// When the model has a scaler and the calibration rows are small whole numbers (pixels,
+    /// counts), also try the raw input quantised exactly with the scaler folded into the first
+    /// layer, and keep whichever is closer to the float model on the calibration rows.
+    #[arg(long)]
+    fold_scaler: bool,
     /// A scaler saved separately (JSON: mean/std, min/max, or divide_by), when the model has none.
     #[arg(long, value_name = "FILE", conflicts_with = "divide_by")]
     scaler: Option<PathBuf>,
@@ -148,6 +153,9 @@ pub fn run(a: Args) -> Result<Outcome> {
         if a.correct_bias {
             bail!("--correct-bias corrects for int8 weight rounding and --float keeps f32 weights; drop one of them");
         }
+        if a.fold_scaler {
+            bail!("--fold-scaler chooses the int8 input and --float keeps f32 inputs; drop one of them");
+        }
         Precision::F32
     } else {
         let calibration = a.calibration.clone().ok_or_else(|| {
@@ -164,6 +172,7 @@ pub fn run(a: Args) -> Result<Outcome> {
                 }
             },
             bias_correction: a.correct_bias,
+            fold_scaler: a.fold_scaler,
         }
     };
     let req = PackRequest {

@@ -15,9 +15,11 @@ use crate::graph::FloatModel;
 use crate::layer_table::{owned_table, wire_u32};
 use crate::quantise::advice::{self, num, percentile_option, rows_text, suggested_percentile};
 use crate::quantise::bias_correction::bias_corrected;
+use crate::quantise::calibrate::element_means;
 use crate::quantise::calibrate::{range_of, Calibration, RangeMethod, TensorRange};
 use crate::quantise::plausible::biases_lost;
 use crate::quantise::quantise;
+use crate::quantise::raw_input::{exact_integer_range, fold_scaler};
 use crate::quantise::spread::TensorStats;
 
 /// The f32 blob of `model` (for FPU boards, and the float reference of comparisons).
@@ -48,6 +50,8 @@ pub struct Int8Pack {
     pub method: RangeMethod,
     /// Whether the biases were corrected for the int8 weight rounding.
     pub bias_correction: bool,
+    /// What the raw-input trial found (with [`Int8Options::fold_scaler`]).
+    pub raw_input: Option<RawInputChoice>,
     /// The calibrated range of each tensor (scaled input, then each layer output).
     pub ranges: Vec<TensorRange>,
     /// Rows in the calibration set.
@@ -66,6 +70,38 @@ pub struct Int8Options {
     /// Correct every layer's bias for the mean error of its int8 weights on the calibration
     /// rows ([`crate::quantise::bias_correction`]).
     pub bias_correction: bool,
+    /// When the model has a scaler and the calibration rows are small integers, also pack
+    /// the raw input quantised exactly with the scaler folded into the first layer
+    /// ([`crate::quantise::raw_input`]) and keep whichever is closer to the float model on the
+    /// calibration rows.
+    pub fold_scaler: FoldScaler,
+}
+
+/// Whether to fold the scaler into the first layer and quantise the raw input
+/// ([`crate::quantise::raw_input`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FoldScaler {
+    /// Keep the scaler in the blob (the default).
+    No,
+    /// Pack both ways and keep the one closer to the float model on the calibration rows
+    /// (`pack --fold-scaler`).
+    Try,
+    /// Fold whenever it applies, without measuring (for comparisons and tests).
+    Always,
+}
+
+/// Which input the pack kept, when it tried both ([`Int8Options::fold_scaler`]).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct RawInputChoice {
+    /// `folded` (raw integers, the scaler in the first layer) or `scaled` (the scaler in the
+    /// blob), or `scaled` with `reason` when folding did not apply.
+    pub kept: &'static str,
+    /// Why folding was not tried, if it was not.
+    pub reason: Option<String>,
+    /// SQNR of the last layer's output on the calibration rows, scaled input (dB).
+    pub scaled_sqnr_db: Option<f64>,
+    /// The same with the raw input and the folded scaler (dB).
+    pub folded_sqnr_db: Option<f64>,
 }
 
 impl From<RangeMethod> for Int8Options {
@@ -73,6 +109,7 @@ impl From<RangeMethod> for Int8Options {
         Int8Options {
             method,
             bias_correction: false,
+            fold_scaler: FoldScaler::No,
         }
     }
 }
@@ -110,21 +147,85 @@ pub fn pack_int8_options(
         .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
     let cal = crate::quantise::calibrate::calibrate_observed(&float_model, data, method, progress)?;
     check_plausible(model, &cal, &data.source)?;
-    let blob = if opts.bias_correction {
-        quantise(&bias_corrected(model, &cal.means)?, &cal.ranges)?
-    } else {
-        quantise(model, &cal.ranges)?
+    let build = |m: &FloatModel, ranges: &[TensorRange], means: &[Vec<f64>]| -> Result<Vec<u8>> {
+        let owned = if opts.bias_correction {
+            quantise(&bias_corrected(m, means)?, ranges)?
+        } else {
+            quantise(m, ranges)?
+        };
+        Ok(owned.encode_in(WeightLayout::Blocked4x4)?)
+    };
+    let mut blob = build(model, &cal.ranges, &cal.means)?;
+    let mut raw_input = None;
+    if opts.fold_scaler != FoldScaler::No {
+        let choice = match (fold_scaler(model), exact_integer_range(data)) {
+            (None, _) => not_folded("the model has no scaler to fold"),
+            (_, None) => not_folded(
+                "the calibration rows are not all whole numbers that an int8 step of 2^-k (k ≥ 0) holds exactly",
+            ),
+            (Some(folded), Some(r0)) => {
+                let mut ranges = cal.ranges.clone();
+                let mut means = cal.means.clone();
+                if let (Some(r), Some(m)) = (ranges.first_mut(), means.first_mut()) {
+                    *r = r0;
+                    *m = element_means(&data.features, data.width);
+                }
+                let folded_blob = build(&folded, &ranges, &means)?;
+                let (better, scaled_sqnr_db, folded_sqnr_db) = if opts.fold_scaler == FoldScaler::Try {
+                    let scaled = output_sqnr(&float_model, &blob, data)?;
+                    let folded = output_sqnr(&float_model, &folded_blob, data)?;
+                    (folded.unwrap_or(f64::INFINITY) > scaled.unwrap_or(f64::INFINITY), scaled, folded)
+                } else {
+                    (true, None, None)
+                };
+                if better {
+                    blob = folded_blob;
+                }
+                RawInputChoice {
+                    kept: if better { "folded" } else { "scaled" },
+                    reason: None,
+                    scaled_sqnr_db,
+                    folded_sqnr_db,
+                }
+            }
+        };
+        raw_input = Some(choice);
     }
-    .encode_in(WeightLayout::Blocked4x4)?;
     Ok(Int8Pack {
         blob,
         method,
         bias_correction: opts.bias_correction,
+        raw_input,
         warnings: advice::warnings(&cal, &data.source),
         ranges: cal.ranges,
         calibration_rows: data.rows,
         tensors: cal.tensors,
     })
+}
+
+fn not_folded(reason: &str) -> RawInputChoice {
+    RawInputChoice {
+        kept: "scaled",
+        reason: Some(reason.into()),
+        scaled_sqnr_db: None,
+        folded_sqnr_db: None,
+    }
+}
+
+/// The SQNR of the last layer's output of int8 `blob` against `float` on `data` (vet's sums).
+fn output_sqnr(float: &Model<'_>, blob: &[u8], data: &Dataset) -> Result<Option<f64>> {
+    let int8 =
+        Model::parse(blob).map_err(|e| anyhow::anyhow!("internal: int8 pack rejected: {e}"))?;
+    let pair = crate::vet::ModelPair::new(float.clone(), int8)?;
+    let r = crate::vet::vet(
+        &pair,
+        data,
+        &crate::vet::Sources::default(),
+        &crate::vet::Criteria::default(),
+        crate::vet::Parallelism::Parallel,
+        &|_| {},
+    )?;
+    Ok(r.fidelity.last().and_then(|f| f.sqnr_db))
 }
 
 /// Refuses an input range that admits a row on which the float model loses every first-layer

@@ -14,7 +14,7 @@ use crate::report::calibration::CalibrationReport;
 use crate::report::BlobReport;
 use crate::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
 
-use super::{pack_f32, pack_int8_options, Int8Options};
+use super::{pack_f32, pack_int8_options, FoldScaler, Int8Options};
 
 /// Where the input scaler comes from, when the model carries none.
 #[derive(Debug, Clone, PartialEq)]
@@ -40,6 +40,9 @@ pub enum Precision {
         method: RangeMethod,
         /// Correct the biases for the int8 weight rounding (`--correct-bias`).
         bias_correction: bool,
+        /// Also try the raw integer input with the scaler folded in; keep the better
+        /// (`--fold-scaler`).
+        fold_scaler: bool,
     },
 }
 
@@ -198,6 +201,7 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
             label,
             method,
             bias_correction,
+            fold_scaler,
         } => {
             progress.loading(rows);
             let data = load_rows(rows, label.clone())?;
@@ -206,6 +210,11 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
             let opts = Int8Options {
                 method: *method,
                 bias_correction: *bias_correction,
+                fold_scaler: if *fold_scaler {
+                    FoldScaler::Try
+                } else {
+                    FoldScaler::No
+                },
             };
             let p = pack_int8_options(&model, &data, opts, &|n| progress.rows_done(n))
                 .with_context(|| format!("cannot pack {}", model_path.display()))?;
@@ -220,9 +229,13 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
                     ""
                 }
             ));
+            if let Some(c) = &p.raw_input {
+                notes.push(crate::report::calibration::raw_input_line(c));
+            }
             calibration = Some(CalibrationReport::new(
                 p.method,
                 p.bias_correction,
+                p.raw_input.clone(),
                 p.calibration_rows,
                 p.tensors,
                 p.warnings,
@@ -329,6 +342,7 @@ mod tests {
                 label: None,
                 method: RangeMethod::MinMax,
                 bias_correction: false,
+                fold_scaler: false,
             },
         };
         let int8 = pack(&req).unwrap();

@@ -164,7 +164,7 @@ pub fn calibrate_observed(
 }
 
 /// The mean of each of the `width` elements of row-major `values`, in f64.
-fn element_means(values: &[f32], width: usize) -> Vec<f64> {
+pub fn element_means(values: &[f32], width: usize) -> Vec<f64> {
     let mut sum = vec![0f64; width];
     let mut rows = 0usize;
     for row in values.chunks_exact(width.max(1)) {

@@ -9,6 +9,7 @@ pub mod least_error;
 pub mod params;
 pub mod percentile;
 pub mod plausible;
+pub mod raw_input;
 pub mod spread;
 
 use anyhow::{anyhow, bail, Result};

@@ -3,6 +3,7 @@
 use comfy_table::{presets::UTF8_BORDERS_ONLY, Cell, CellAlignment, Table};
 use serde::Serialize;
 
+use crate::pack::RawInputChoice;
 use crate::quantise::advice::num;
 use crate::quantise::calibrate::RangeMethod;
 use crate::quantise::spread::{TensorStats, CORE_TRIM, DOMINATED_SPREAD};
@@ -14,6 +15,9 @@ pub struct CalibrationReport {
     pub method: String,
     /// Whether the biases were corrected for the int8 weight rounding (Nagel et al., 2019).
     pub bias_correction: bool,
+    /// What the raw-input trial found (`--fold-scaler`), if it ran.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub raw_input: Option<RawInputChoice>,
     /// How percentiles are ranked.
     pub percentile_definition: &'static str,
     /// Calibration rows.
@@ -32,6 +36,7 @@ impl CalibrationReport {
     pub fn new(
         method: RangeMethod,
         bias_correction: bool,
+        raw_input: Option<RawInputChoice>,
         rows: usize,
         tensors: Vec<TensorStats>,
         warnings: Vec<String>,
@@ -39,6 +44,7 @@ impl CalibrationReport {
         CalibrationReport {
             method: method.to_string(),
             bias_correction,
+            raw_input,
             percentile_definition:
                 "Hyndman & Fan (1996) definition 7, numpy.percentile's default: rank (n - 1) * p / 100, linear between neighbours",
             rows,
@@ -50,6 +56,23 @@ impl CalibrationReport {
             tensors,
             warnings,
         }
+    }
+}
+
+/// The note on the raw-input trial.
+pub fn raw_input_line(c: &RawInputChoice) -> String {
+    let db = |v: Option<f64>| v.map_or_else(|| "exact".into(), |d| format!("{d:.1} dB"));
+    match &c.reason {
+        Some(why) => format!("--fold-scaler: kept the scaled input: {why}"),
+        None if c.folded_sqnr_db.is_none() && c.scaled_sqnr_db.is_none() => {
+            "raw integer input, the scaler folded into layer 1 (not measured)".into()
+        }
+        None => format!(
+            "--fold-scaler: kept the {} input (SQNR of the last layer's output on the calibration rows: raw input with the scaler folded into layer 1 {}, scaled input {})",
+            if c.kept == "folded" { "raw integer" } else { "scaled" },
+            db(c.folded_sqnr_db),
+            db(c.scaled_sqnr_db)
+        ),
     }
 }
 

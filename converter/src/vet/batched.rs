@@ -12,6 +12,8 @@ use crate::score::feed::{input_at, Entry};
 pub(crate) struct Hosts {
     float: FloatHost,
     int8: Int8Host,
+    /// The int8 input is the raw row ([`ModelPair::raw_int8_input`]).
+    raw_input: bool,
 }
 
 impl Hosts {
@@ -21,6 +23,7 @@ impl Hosts {
         Some(Hosts {
             float: FloatHost::new(&pair.float)?,
             int8: Int8Host::new(&pair.int8)?,
+            raw_input: pair.raw_int8_input(),
         })
     }
 }
@@ -46,8 +49,9 @@ fn first_failure(
     })
 }
 
-/// Per-row outcomes of one batch of both sides.
-fn outcomes(f: &FloatBatch, q: &Int8Batch, entry: Entry) -> Vec<RowOutcome> {
+/// Per-row outcomes of one batch of both sides; `raw` holds the batch's raw rows when the int8
+/// input tensor is compared with them instead of the float model's scaled input.
+fn outcomes(f: &FloatBatch, q: &Int8Batch, entry: Entry, raw: Option<&[f32]>) -> Vec<RowOutcome> {
     let out_len = f.scores.len().checked_div(f.rows).unwrap_or(0);
     (0..f.rows)
         .map(|r| {
@@ -55,10 +59,16 @@ fn outcomes(f: &FloatBatch, q: &Int8Batch, entry: Entry) -> Vec<RowOutcome> {
                 .stages
                 .iter()
                 .zip(&q.stages)
-                .map(|(fs, qs)| {
+                .enumerate()
+                .map(|(k, (fs, qs))| {
                     let mut e = Energy::default();
                     let bounds = int8_bounds(qs.scale, qs.zero_point);
-                    for (i, &v) in fs.row(r).iter().enumerate() {
+                    let w = qs.width;
+                    let float_row = match raw {
+                        Some(x) if k == 0 => x.get(r * w..(r + 1) * w).unwrap_or(&[]),
+                        _ => fs.row(r),
+                    };
+                    for (i, &v) in float_row.iter().enumerate() {
                         e.add(v, qs.real(r, i), bounds);
                     }
                     e
@@ -101,7 +111,7 @@ fn run_batch(
         .int8
         .run(rows, |r| input_at(fed.data, fed.integers, start + r));
     match (f, q) {
-        (Ok(f), Ok(q)) => Ok(outcomes(&f, &q, fed.entry)),
+        (Ok(f), Ok(q)) => Ok(outcomes(&f, &q, fed.entry, hosts.raw_input.then_some(x))),
         (f, q) => match first_failure(f.err(), q.err(), start) {
             Some(e) => Err(e),
             None => Ok(Vec::new()),

@@ -56,6 +56,13 @@ impl<'a> ModelPair<'a> {
         Ok(ModelPair { float, int8 })
     }
 
+    /// Whether the int8 blob takes the raw input with the float model's scaler folded into its
+    /// first layer (`pack --fold-scaler`): the float model scales its input, the int8 blob has
+    /// no scaler. Its input tensor is then compared with the raw row, not the scaled one.
+    pub fn raw_int8_input(&self) -> bool {
+        self.float.desc().scaler.is_some() && self.int8.desc().scaler.is_none()
+    }
+
     /// Number of traced tensors: the input and each layer's output.
     pub fn stages(&self) -> usize {
         self.int8.layers().count() + 1
@@ -80,10 +87,12 @@ impl<'a> ModelPair<'a> {
     pub fn stage_names(&self) -> Vec<(String, usize)> {
         let layers: Vec<_> = self.int8.layers().collect();
         let last = layers.len();
-        let mut out = vec![(
-            "input (scaled, quantised)".to_string(),
-            self.int8.input_len(),
-        )];
+        let input = if self.raw_int8_input() {
+            "input (raw, quantised; scaler folded into layer 1)"
+        } else {
+            "input (scaled, quantised)"
+        };
+        let mut out = vec![(input.to_string(), self.int8.input_len())];
         for (k, l) in layers.iter().enumerate() {
             let act = match l.desc.activation {
                 Activation::Relu => "relu",

@@ -162,6 +162,13 @@ fn eval_row(
             },
         )
         .map_err(|e| ("float", e))?;
+    if pair.raw_int8_input() {
+        if let Some(buf) = stages.first_mut() {
+            for (d, &x) in buf.iter_mut().zip(row) {
+                *d = x;
+            }
+        }
+    }
     let mut energy = vec![Energy::default(); stages.len()];
     let mut add_error = |st: &Stage<'_>| {
         if let (Some(buf), Some(e)) = (stages.get(st.index), energy.get_mut(st.index)) {

@@ -1,0 +1,163 @@
+//! The calibration choices measured on the digits example: for each range method, with and
+//! without bias correction, the int8 model calibrated on `examples/digits/calibration.csv` and
+//! vetted on the held-out rows `examples/digits/heldout.csv` (as docs/vet.md does): per-tensor
+//! SQNR, the clipped values of the input, accuracy and agreement with the float model.
+//!
+//! The table is printed (`cargo test -p kinglet-tests --test calibration_digits -- --nocapture`)
+//! and must equal the one in docs/vet.md between the `calibration-digits` markers;
+//! `KINGLET_BLESS=1` rewrites it there. The goal of issue 15 it is read against: every tensor's
+//! SQNR ≥ 30 dB and agreement ≥ 99.5 %.
+use kinglet_converter::dataset::{load_csv, CsvOptions, Dataset, LabelColumn};
+use kinglet_converter::import::import_file;
+use kinglet_converter::pack::{pack_f32, pack_int8_with, FoldScaler, Int8Options};
+use kinglet_converter::quantise::calibrate::RangeMethod;
+use kinglet_converter::vet::{self, Criteria, ModelPair, Parallelism, Sources, VetReport};
+use kinglet_runtime::Model;
+use kinglet_tests::path;
+
+const BEGIN: &str = "<!-- calibration-digits: begin (tests/tests/calibration_digits.rs) -->";
+const END: &str = "<!-- calibration-digits: end -->";
+
+/// SQNR goal of every tensor, dB (issue 15).
+const GOAL_SQNR_DB: f64 = 30.0;
+/// Agreement goal, percent of rows (issue 15).
+const GOAL_AGREEMENT_PCT: f64 = 99.5;
+
+fn csv(rel: &str, label: bool) -> Dataset {
+    load_csv(
+        &path(rel),
+        &CsvOptions {
+            label: label.then(|| LabelColumn::Name("label".into())),
+            has_header: None,
+        },
+    )
+    .unwrap()
+}
+
+fn vet_with(opts: Int8Options) -> VetReport {
+    let model = import_file(&path("examples/digits/model.onnx")).unwrap();
+    let calib = csv("examples/digits/calibration.csv", false);
+    let f = pack_f32(&model).unwrap();
+    let q = pack_int8_with(&model, &calib, opts).unwrap().blob;
+    let pair = ModelPair::new(Model::parse(&f).unwrap(), Model::parse(&q).unwrap()).unwrap();
+    vet::vet(
+        &pair,
+        &csv("examples/digits/heldout.csv", true),
+        &Sources::default(),
+        &Criteria::default(),
+        Parallelism::Parallel,
+        &|_| {},
+    )
+    .unwrap()
+}
+
+fn db(v: Option<f64>) -> String {
+    v.map_or_else(|| "-".into(), |d| format!("{d:.1}"))
+}
+
+/// One measured row of the table.
+struct Row {
+    cells: Vec<String>,
+    meets: bool,
+}
+
+fn row(method: RangeMethod, bias_correction: bool, fold_scaler: FoldScaler) -> Row {
+    let r = vet_with(Int8Options {
+        method,
+        bias_correction,
+        fold_scaler,
+    });
+    let a = r.accuracy.as_ref().unwrap();
+    // Float: 434 / 450 (examples/digits/reference_metrics.json, scikit-learn's predict).
+    assert_eq!((a.float.correct, a.float.rows), (434, 450));
+    let g = &r.agreement;
+    let sqnr: Vec<String> = r.fidelity.iter().map(|f| db(f.sqnr_db)).collect();
+    let rounding: Vec<String> = r.fidelity.iter().map(|f| db(f.rounding_sqnr_db)).collect();
+    let clipped: Vec<String> = r.fidelity.iter().map(|f| f.clipped.to_string()).collect();
+    let meets = r
+        .fidelity
+        .iter()
+        .all(|f| f.sqnr_db.is_some_and(|d| d >= GOAL_SQNR_DB))
+        && 100.0 * g.rate >= GOAL_AGREEMENT_PCT;
+    Row {
+        cells: vec![
+            format!(
+                "`{}`{}",
+                method_option(method),
+                if fold_scaler == FoldScaler::Always {
+                    ", raw input, scaler folded"
+                } else {
+                    ""
+                }
+            ),
+            if bias_correction { "yes" } else { "no" }.into(),
+            sqnr.join(" / "),
+            rounding.join(" / "),
+            clipped.join(" / "),
+            format!("{} / {}", a.int8.correct, a.int8.rows),
+            format!("{:.2}", a.drop_pp),
+            format!("{} / {} ({:.2} %)", g.agree, g.rows, 100.0 * g.rate),
+            if meets { "yes" } else { "no" }.into(),
+        ],
+        meets,
+    }
+}
+
+fn method_option(m: RangeMethod) -> String {
+    match m {
+        RangeMethod::MinMax => "--range minmax".into(),
+        RangeMethod::Percentile(p) => format!("--range percentile --percentile {p}"),
+        RangeMethod::LeastError => "--range least-error".into(),
+    }
+}
+
+fn table() -> (String, Vec<bool>) {
+    let methods = [
+        RangeMethod::MinMax,
+        RangeMethod::Percentile(99.99),
+        RangeMethod::Percentile(99.9),
+        RangeMethod::LeastError,
+    ];
+    let mut out = String::from(
+        "| range | `--correct-bias` | SQNR (dB): input / layer 1 / 2 / 3 | rounding alone (dB) | clipped values (held-out) | int8 correct | drop (pp) | agreement | goal met |\n\
+         |---|---|---|---|---|---|---|---|---|\n",
+    );
+    let mut meets = Vec::new();
+    for m in methods {
+        for bc in [false, true] {
+            let r = row(m, bc, FoldScaler::No);
+            out.push_str(&format!("| {} |\n", r.cells.join(" | ")));
+            meets.push(r.meets);
+        }
+    }
+    // The raw pixels (whole numbers 0 to 16) quantised exactly, the scaler in layer 1.
+    for m in [RangeMethod::MinMax, RangeMethod::LeastError] {
+        let r = row(m, false, FoldScaler::Always);
+        out.push_str(&format!("| {} |\n", r.cells.join(" | ")));
+        meets.push(r.meets);
+    }
+    (out, meets)
+}
+
+#[test]
+fn calibration_choices_on_digits_match_the_docs() {
+    let (t, meets) = table();
+    eprintln!("{t}");
+    assert_eq!(meets.len(), 10);
+    let doc_path = path("docs/vet.md");
+    let doc = std::fs::read_to_string(&doc_path).unwrap();
+    let (Some(b), Some(e)) = (doc.find(BEGIN), doc.find(END)) else {
+        panic!("docs/vet.md has no {BEGIN} … {END} block");
+    };
+    let start = b + BEGIN.len() + 1;
+    let committed = &doc[start..e];
+    if std::env::var_os("KINGLET_BLESS").is_some() {
+        let new = format!("{}{t}{}", &doc[..start], &doc[e..]);
+        std::fs::write(&doc_path, new).unwrap();
+        return;
+    }
+    assert_eq!(
+        committed, t,
+        "docs/vet.md's calibration table is stale; rerun with KINGLET_BLESS=1"
+    );
+}
