@@ -2,7 +2,7 @@
 //! yields a blob the runtime reads back, and that blob survives the extreme inputs.
 use kinglet_converter::dataset::Dataset;
 use kinglet_converter::graph::FloatModel;
-use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::pack::{pack_f32, pack_int8, pack_int8_with, FoldScaler, Int8Options};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_runtime::Model;
 
@@ -39,12 +39,28 @@ pub fn pack_and_run(model: &FloatModel, seed: &[u8]) {
         labels: None,
         source: "fuzz".into(),
     };
-    for method in [RangeMethod::MinMax, RangeMethod::Percentile(99.0)] {
+    for method in [
+        RangeMethod::MinMax,
+        RangeMethod::Percentile(99.0),
+        RangeMethod::LeastError,
+    ] {
         if let Ok(p) = pack_int8(model, &data, method) {
             match Model::parse(&p.blob) {
                 Ok(m) => oracle::run_extremes(&m),
                 Err(e) => panic!("pack_int8 wrote a blob the runtime rejects: {e}"),
             }
+        }
+    }
+    // Bias correction and the folded scaler change the biases and the first layer's weights.
+    let opts = Int8Options {
+        method: RangeMethod::MinMax,
+        bias_correction: true,
+        fold_scaler: FoldScaler::Try,
+    };
+    if let Ok(p) = pack_int8_with(model, &data, opts) {
+        match Model::parse(&p.blob) {
+            Ok(m) => oracle::run_extremes(&m),
+            Err(e) => panic!("pack_int8_with wrote a blob the runtime rejects: {e}"),
         }
     }
 }

@@ -3,7 +3,10 @@
 //! Every layer is written in the runtime's `Blocked4x4` layout (4-row blocks, int8 excess-128,
 //! data 4-byte aligned within the blob; `FORMAT.md` §3.1), the order the Cortex-M kernels read,
 //! by `kinglet_builder` with the runtime's own geometry and validating encoder.
+pub mod raw_trial;
 pub mod request;
+
+pub use raw_trial::RawInputChoice;
 
 use anyhow::{bail, Result};
 use kinglet_builder::OwnedLayer;
@@ -15,11 +18,9 @@ use crate::graph::FloatModel;
 use crate::layer_table::{owned_table, wire_u32};
 use crate::quantise::advice::{self, num, percentile_option, rows_text, suggested_percentile};
 use crate::quantise::bias_correction::bias_corrected;
-use crate::quantise::calibrate::element_means;
 use crate::quantise::calibrate::{range_of, Calibration, RangeMethod, TensorRange};
 use crate::quantise::plausible::biases_lost;
 use crate::quantise::quantise;
-use crate::quantise::raw_input::{exact_integer_range, fold_scaler};
 use crate::quantise::spread::TensorStats;
 
 /// The f32 blob of `model` (for FPU boards, and the float reference of comparisons).
@@ -90,20 +91,6 @@ pub enum FoldScaler {
     Always,
 }
 
-/// Which input the pack kept, when it tried both ([`Int8Options::fold_scaler`]).
-#[derive(Debug, Clone, PartialEq, serde::Serialize)]
-pub struct RawInputChoice {
-    /// `folded` (raw integers, the scaler in the first layer) or `scaled` (the scaler in the
-    /// blob), or `scaled` with `reason` when folding did not apply.
-    pub kept: &'static str,
-    /// Why folding was not tried, if it was not.
-    pub reason: Option<String>,
-    /// SQNR of the last layer's output on the calibration rows, scaled input (dB).
-    pub scaled_sqnr_db: Option<f64>,
-    /// The same with the raw input and the folded scaler (dB).
-    pub folded_sqnr_db: Option<f64>,
-}
-
 impl From<RangeMethod> for Int8Options {
     fn from(method: RangeMethod) -> Self {
         Int8Options {
@@ -156,41 +143,17 @@ pub fn pack_int8_options(
         Ok(owned.encode_in(WeightLayout::Blocked4x4)?)
     };
     let mut blob = build(model, &cal.ranges, &cal.means)?;
-    let mut raw_input = None;
-    if opts.fold_scaler != FoldScaler::No {
-        let choice = match (fold_scaler(model), exact_integer_range(data)) {
-            (None, _) => not_folded("the model has no scaler to fold"),
-            (_, None) => not_folded(
-                "the calibration rows are not all whole numbers that an int8 step of 2^-k (k ≥ 0) holds exactly",
-            ),
-            (Some(folded), Some(r0)) => {
-                let mut ranges = cal.ranges.clone();
-                let mut means = cal.means.clone();
-                if let (Some(r), Some(m)) = (ranges.first_mut(), means.first_mut()) {
-                    *r = r0;
-                    *m = element_means(&data.features, data.width);
-                }
-                let folded_blob = build(&folded, &ranges, &means)?;
-                let (better, scaled_sqnr_db, folded_sqnr_db) = if opts.fold_scaler == FoldScaler::Try {
-                    let scaled = output_sqnr(&float_model, &blob, data)?;
-                    let folded = output_sqnr(&float_model, &folded_blob, data)?;
-                    (folded.unwrap_or(f64::INFINITY) > scaled.unwrap_or(f64::INFINITY), scaled, folded)
-                } else {
-                    (true, None, None)
-                };
-                if better {
-                    blob = folded_blob;
-                }
-                RawInputChoice {
-                    kept: if better { "folded" } else { "scaled" },
-                    reason: None,
-                    scaled_sqnr_db,
-                    folded_sqnr_db,
-                }
+    let raw_input = match opts.fold_scaler {
+        FoldScaler::No => None,
+        how => {
+            let (choice, folded) =
+                raw_trial::try_folded(model, &float_model, data, &cal, &blob, how, &build)?;
+            if let Some(f) = folded {
+                blob = f;
             }
-        };
-        raw_input = Some(choice);
-    }
+            Some(choice)
+        }
+    };
     Ok(Int8Pack {
         blob,
         method,
@@ -201,31 +164,6 @@ pub fn pack_int8_options(
         calibration_rows: data.rows,
         tensors: cal.tensors,
     })
-}
-
-fn not_folded(reason: &str) -> RawInputChoice {
-    RawInputChoice {
-        kept: "scaled",
-        reason: Some(reason.into()),
-        scaled_sqnr_db: None,
-        folded_sqnr_db: None,
-    }
-}
-
-/// The SQNR of the last layer's output of int8 `blob` against `float` on `data` (vet's sums).
-fn output_sqnr(float: &Model<'_>, blob: &[u8], data: &Dataset) -> Result<Option<f64>> {
-    let int8 =
-        Model::parse(blob).map_err(|e| anyhow::anyhow!("internal: int8 pack rejected: {e}"))?;
-    let pair = crate::vet::ModelPair::new(float.clone(), int8)?;
-    let r = crate::vet::vet(
-        &pair,
-        data,
-        &crate::vet::Sources::default(),
-        &crate::vet::Criteria::default(),
-        crate::vet::Parallelism::Parallel,
-        &|_| {},
-    )?;
-    Ok(r.fidelity.last().and_then(|f| f.sqnr_db))
 }
 
 /// Refuses an input range that admits a row on which the float model loses every first-layer
