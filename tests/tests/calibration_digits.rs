@@ -11,7 +11,10 @@ use kinglet_converter::dataset::{load_csv, CsvOptions, Dataset, LabelColumn};
 use kinglet_converter::import::import_file;
 use kinglet_converter::pack::{pack_f32, pack_int8_with, FoldScaler, Int8Options};
 use kinglet_converter::quantise::calibrate::RangeMethod;
-use kinglet_converter::vet::{self, Criteria, ModelPair, Parallelism, Sources, VetReport};
+use kinglet_converter::score::feed::{Entry, Rows};
+use kinglet_converter::vet::{
+    self, Criteria, Engine, How, ModelPair, Parallelism, Sources, VetReport,
+};
 use kinglet_runtime::Model;
 use kinglet_tests::path;
 
@@ -40,12 +43,25 @@ fn vet_with(opts: Int8Options) -> VetReport {
     let f = pack_f32(&model).unwrap();
     let q = pack_int8_with(&model, &calib, opts).unwrap().blob;
     let pair = ModelPair::new(Model::parse(&f).unwrap(), Model::parse(&q).unwrap()).unwrap();
-    vet::vet(
+    let rows = Rows {
+        data: csv("examples/digits/heldout.csv", true),
+        integers: None,
+        first_row: 0,
+    };
+    // Row by row through the runtime's own f32 and int8 paths: the float sums in a fixed
+    // order on every CPU (the batched engine's matrix products may sum in another), so the
+    // table printed to 0.1 dB is the same on every machine.
+    let how = How {
+        parallelism: Parallelism::Parallel,
+        engine: Engine::PerRow,
+    };
+    vet::vet_rows(
         &pair,
-        &csv("examples/digits/heldout.csv", true),
+        &rows,
+        Entry::Infer,
         &Sources::default(),
         &Criteria::default(),
-        Parallelism::Parallel,
+        how,
         &|_| {},
     )
     .unwrap()
