@@ -40,7 +40,8 @@ PERCENTILES = [100.0, 99.99, 99.9, 99.0, 98.03, 75.0, 50.0, 1.0, 0.01]
 
 
 def f32_list(a: np.ndarray) -> list[float]:
-    return [float(x) for x in np.asarray(a, dtype=np.float32)]
+    """float32 values as the shortest decimals that read back as the same float32."""
+    return [float(str(v)) for v in np.asarray(a, dtype=np.float32)]
 
 
 def value_sets(rng: np.random.Generator) -> dict[str, np.ndarray]:
@@ -97,8 +98,8 @@ def mse_search(v: np.ndarray) -> dict:
     alpha = (best + 1) / GRID
     return {
         "step": best + 1,
-        "min": float(np.float32(alpha * lo)),
-        "max": float(np.float32(alpha * hi)),
+        "min": f32_list([alpha * lo])[0],
+        "max": f32_list([alpha * hi])[0],
         "mse": errors[best],
         "mse_minmax": errors[-1],
     }
@@ -175,19 +176,31 @@ def main() -> None:
     mse = []
     for name, v in sets.items():
         v32 = v.astype(np.float32)
-        got = [float(np.float32(np.percentile(v32.astype(np.float64), p))) for p in PERCENTILES]
-        percentile.append({"name": name, "values": f32_list(v32), "p": PERCENTILES, "expected": got})
+        got = f32_list([np.percentile(v32.astype(np.float64), p) for p in PERCENTILES])
+        percentile.append({"set": name, "p": PERCENTILES, "expected": got})
         if name != "big_10001":
-            mse.append({"name": name, "values": f32_list(v32), **mse_search(v32)})
+            mse.append({"set": name, **mse_search(v32)})
     doc = {
         "numpy": np.__version__,
         "grid": GRID,
+        "sets": {name: f32_list(v) for name, v in sets.items()},
         "percentile": percentile,
         "mse": mse,
         "noise": noise_case(rng),
         "bias": bias_case(rng),
     }
-    (out / "calib_cases.json").write_text(json.dumps(doc, indent=1) + "\n")
+    # One line per entry: value lists stay on one line each.
+    lines = []
+    for key, val in doc.items():
+        if isinstance(val, dict) and key == "sets":
+            inner = ",\n".join(f"  {json.dumps(k)}: {json.dumps(v)}" for k, v in val.items())
+            lines.append(f" {json.dumps(key)}: {{\n{inner}\n }}")
+        elif isinstance(val, list):
+            inner = ",\n".join(f"  {json.dumps(v)}" for v in val)
+            lines.append(f" {json.dumps(key)}: [\n{inner}\n ]")
+        else:
+            lines.append(f" {json.dumps(key)}: {json.dumps(val)}")
+    (out / "calib_cases.json").write_text("{\n" + ",\n".join(lines) + "\n}\n")
 
 
 if __name__ == "__main__":

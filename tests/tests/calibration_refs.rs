@@ -39,14 +39,14 @@ fn percentile_equals_numpy_linear() {
     assert!(sets.len() >= 7);
     let mut checked = 0;
     for case in sets {
-        let mut v = f32s(&case["values"]);
+        let mut v = f32s(&doc["sets"][case["set"].as_str().unwrap()]);
         v.sort_by(f32::total_cmp);
         let ps = case["p"].as_array().unwrap();
         let expected = f32s(&case["expected"]);
         for (p, want) in ps.iter().zip(expected) {
             let p = p.as_f64().unwrap();
             let got = percentile(&v, p);
-            assert_eq!(got, want, "{} p={p}", case["name"]);
+            assert_eq!(got, want, "{} p={p}", case["set"]);
             checked += 1;
         }
     }
@@ -63,9 +63,9 @@ fn least_error_grid_equals_numpy() {
     assert!(sets.len() >= 6);
     let mut clipped = 0;
     for case in sets {
-        let v = f32s(&case["values"]);
+        let name = &case["set"];
+        let v = f32s(&doc["sets"][name.as_str().unwrap()]);
         let e = least_error(&v);
-        let name = &case["name"];
         assert_eq!(e.step as u64, case["step"].as_u64().unwrap(), "{name}");
         assert_eq!(e.range.min, case["min"].as_f64().unwrap() as f32, "{name}");
         assert_eq!(e.range.max, case["max"].as_f64().unwrap() as f32, "{name}");
