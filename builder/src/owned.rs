@@ -1,8 +1,8 @@
 //! The owned layer table: every field of `kinglet_runtime::unstable::wire::format::ModelDesc` (`FORMAT.md` §3),
 //! tensors as wire bytes that a test or a fuzz target may edit freely, lengths included.
 use kinglet_runtime::unstable::wire::format::{
-    Activation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind, Precision,
-    ScalerDesc, WeightLayout, MAX_LAYERS,
+    Activation as WireActivation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind,
+    PointwiseDesc, Precision, ScalerDesc, WeightLayout, MAX_LAYERS,
 };
 
 use crate::error::BuildError;
@@ -38,6 +38,57 @@ impl OwnedQuant {
             shift: le::i8s(shift),
             output_scale,
             output_zero_point,
+        }
+    }
+}
+
+/// A layer's activation, owned (`FORMAT.md` §3.3): the wire enum with the pointwise record's
+/// bytes in a `Vec`.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Activation {
+    /// No activation.
+    Linear,
+    /// The fused ReLU.
+    Relu,
+    /// A pointwise activation record (format version 4).
+    Pointwise {
+        /// The kind byte.
+        kind: u8,
+        /// int8: the zero point of the requantised values before the table; f32: 0.
+        input_zero_point: i8,
+        /// f32: the parameters as little-endian f32; int8: the 256-entry table.
+        data: Vec<u8>,
+    },
+}
+
+impl Activation {
+    /// Copies a decoded activation.
+    pub fn from_desc(a: &WireActivation<'_>) -> Self {
+        match a {
+            WireActivation::Linear => Activation::Linear,
+            WireActivation::Relu => Activation::Relu,
+            WireActivation::Pointwise(p) => Activation::Pointwise {
+                kind: p.kind,
+                input_zero_point: p.input_zero_point,
+                data: p.data.to_vec(),
+            },
+        }
+    }
+
+    /// The borrowed activation.
+    pub fn as_desc(&self) -> WireActivation<'_> {
+        match self {
+            Activation::Linear => WireActivation::Linear,
+            Activation::Relu => WireActivation::Relu,
+            Activation::Pointwise {
+                kind,
+                input_zero_point,
+                data,
+            } => WireActivation::Pointwise(PointwiseDesc {
+                kind: *kind,
+                input_zero_point: *input_zero_point,
+                data,
+            }),
         }
     }
 }
@@ -106,7 +157,7 @@ impl OwnedLayer {
         OwnedLayer {
             inputs: l.inputs,
             outputs: l.outputs,
-            activation: l.activation,
+            activation: Activation::from_desc(&l.activation),
             layout: l.layout,
             weights: l.weights.to_vec(),
             bias: l.bias.to_vec(),
@@ -125,7 +176,7 @@ impl OwnedLayer {
         LayerDesc {
             inputs: self.inputs,
             outputs: self.outputs,
-            activation: self.activation,
+            activation: self.activation.as_desc(),
             layout: self.layout,
             weights: &self.weights,
             bias: &self.bias,

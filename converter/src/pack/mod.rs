@@ -16,7 +16,7 @@ use crate::layer_table::{owned_table, wire_u32};
 use crate::quantise::advice::{self, num, percentile_option, rows_text, suggested_percentile};
 use crate::quantise::calibrate::{range_of, Calibration, RangeMethod, TensorRange};
 use crate::quantise::plausible::biases_lost;
-use crate::quantise::quantise;
+use crate::quantise::quantise_with;
 use crate::quantise::spread::TensorStats;
 
 /// The f32 blob of `model` (for FPU boards, and the float reference of comparisons).
@@ -28,7 +28,7 @@ pub fn pack_f32(model: &FloatModel) -> Result<Vec<u8>> {
             Ok(OwnedLayer::f32(
                 wire_u32(l.inputs, "layer width")?,
                 wire_u32(l.outputs, "layer width")?,
-                l.activation,
+                crate::layer_table::builder_activation(&l.activation),
                 &l.weights,
                 &l.bias,
             ))
@@ -72,7 +72,8 @@ pub fn pack_int8_observed(
         .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
     let cal = crate::quantise::calibrate::calibrate_observed(&float_model, data, method, progress)?;
     check_plausible(model, &cal, &data.source)?;
-    let blob = quantise(model, &cal.ranges)?.encode_in(WeightLayout::Blocked4x4)?;
+    let blob = quantise_with(model, &cal.ranges, &cal.pre_activation)?
+        .encode_in(WeightLayout::Blocked4x4)?;
     Ok(Int8Pack {
         blob,
         method,

@@ -49,6 +49,9 @@ pub struct Calibration {
     /// The scaled input of every row, row-major (tensor 0's values, as the first layer sees
     /// them in the float model).
     pub scaled_input: Vec<f32>,
+    /// For each layer with a pointwise activation, the range of its values before the
+    /// activation (what the int8 table's input covers); `None` for the other layers.
+    pub pre_activation: Vec<Option<TensorRange>>,
 }
 
 /// The name of tensor `index` in messages: `input` (the scaled input), then `layer N output`,
@@ -140,13 +143,48 @@ pub fn calibrate_observed(
         tensors.push(TensorStats::of(tensor_name(t), v, &sorted, width, range));
         ranges.push(range);
     }
+    let pre_activation = float_model
+        .layers()
+        .zip(&values)
+        .map(|(l, x)| pre_activation_range(l.desc, x, data.rows, method))
+        .collect();
     let scaled_input = values.into_iter().next().unwrap_or_default();
     Ok(Calibration {
         method,
         ranges,
         tensors,
         scaled_input,
+        pre_activation,
     })
+}
+
+/// The range of a pointwise layer's affine output `W x + b` over the traced inputs `x`
+/// (`rows` rows), by `method`; `None` for a layer without a pointwise activation.
+fn pre_activation_range(
+    l: &kinglet_runtime::unstable::wire::format::LayerDesc<'_>,
+    x: &[f32],
+    rows: usize,
+    method: RangeMethod,
+) -> Option<TensorRange> {
+    if !matches!(
+        l.activation,
+        kinglet_runtime::unstable::wire::format::Activation::Pointwise(_)
+    ) {
+        return None;
+    }
+    let layer = crate::host::layers::FloatLayer::new(l);
+    let mut pre = Vec::with_capacity(rows * layer.outputs);
+    for row in x.chunks_exact(layer.inputs.max(1)) {
+        for (w, b) in layer
+            .weights
+            .chunks_exact(layer.inputs.max(1))
+            .zip(&layer.bias)
+        {
+            pre.push(w.iter().zip(row).map(|(w, v)| w * v).sum::<f32>() + b);
+        }
+    }
+    pre.sort_by(f32::total_cmp);
+    Some(range_of(&pre, method))
 }
 
 /// The range of `sorted` (ascending) by `method`.

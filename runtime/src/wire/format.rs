@@ -13,14 +13,32 @@ pub const MAX_WIDTH: u32 = 16_384;
 /// Largest right shift (for the integer input path's per-feature fixed point).
 pub const MAX_INPUT_SHIFT: u8 = 62;
 
-/// Activation applied to a dense layer's output (fused into requantisation).
+/// Activation applied to a dense layer's output.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub enum Activation {
+pub enum Activation<'a> {
     /// No activation: the affine output is kept.
     Linear,
-    /// `max(0, x)`.
+    /// `max(0, x)`, fused into requantisation (the int8 clamp at the zero point).
     Relu,
+    /// Any other pointwise function (`FORMAT.md` §3.3; [`crate::unstable::pointwise`]).
+    /// Format version 4.
+    #[serde(borrow)]
+    Pointwise(PointwiseDesc<'a>),
+}
+
+/// The record of a pointwise activation (`FORMAT.md` §3.3).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct PointwiseDesc<'a> {
+    /// The kind byte ([`crate::unstable::pointwise::Kind`]).
+    pub kind: u8,
+    /// int8: the zero point of the requantised values before the table; f32: 0.
+    pub input_zero_point: i8,
+    /// f32: the kind's parameters, little-endian f32; int8: the 256-entry table, indexed by
+    /// the requantised value plus 128.
+    #[serde(borrow)]
+    pub data: &'a [u8],
 }
 
 /// How the last layer's outputs are turned into scores.
@@ -144,8 +162,9 @@ pub struct LayerDesc<'a> {
     pub inputs: u32,
     /// Output width.
     pub outputs: u32,
-    /// Activation fused after the layer.
-    pub activation: Activation,
+    /// Activation after the layer.
+    #[serde(borrow)]
+    pub activation: Activation<'a>,
     /// Order of `weights`.
     pub layout: WeightLayout,
     /// The weights in `layout`: `inputs * outputs` elements for `OutputMajor`, the padded

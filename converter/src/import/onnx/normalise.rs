@@ -221,7 +221,13 @@ impl<'g> Walk<'g, '_> {
             (Domain::Onnx, "BatchNormalization") => self.batchnorm(n, pos)?,
             (Domain::Onnx, "Relu") => self.relu(n)?,
             (Domain::Onnx, "Softmax") => self.softmax(n)?,
+            (Domain::Onnx, "Sigmoid") if self.sigmoid_is_hidden(&n) => self.pointwise(n)?,
             (Domain::Onnx, "Sigmoid") => self.sigmoid(n)?,
+            (
+                Domain::Onnx,
+                "Tanh" | "LeakyRelu" | "Clip" | "HardSigmoid" | "HardSwish" | "Elu" | "Selu"
+                | "Softplus" | "Gelu",
+            ) => self.pointwise(n)?,
             (Domain::Ml, "LinearClassifier") => return self.linear_classifier(n, pos),
             (Domain::Ml, "Normalizer") => self.normalizer(n)?,
             (Domain::Ml, "ArrayFeatureExtractor") => self.score_column(n, pos)?,
@@ -237,6 +243,13 @@ impl<'g> Walk<'g, '_> {
         }
         // Checked after dispatch, so that an unknown op is reported as such first.
         single_output(self.g, &n)
+    }
+
+    /// A `Sigmoid` whose output a dense layer reads: a hidden activation.
+    fn sigmoid_is_hidden(&self, n: &Node<'g>) -> bool {
+        n.outputs()
+            .first()
+            .is_some_and(|o| super::ops::pointwise::feeds_dense(self.g, o))
     }
 
     /// Right after a dense layer with one output and no output function yet.

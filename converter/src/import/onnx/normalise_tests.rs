@@ -78,12 +78,32 @@ fn scaler_nodes_compose_before_the_first_layer() {
 
 #[test]
 fn misplaced_ops_name_the_node() {
+    // A pointwise op the import does not know stays refused, naming the node and op.
+    for op in ["Mish", "ThresholdedRelu", "PRelu", "Celu"] {
+        let (mut nodes, inits) = two_layer();
+        nodes[2].op_type = Some(op.into());
+        let e = import(nodes, inits, &["p"]).unwrap_err();
+        assert!(matches!(e, OnnxImportError::UnsupportedOp { .. }), "{op}");
+        assert!(
+            e.to_string()
+                .contains(&format!("'act' (op {op}, domain ai.onnx)")),
+            "{e}"
+        );
+    }
+    // A known one becomes the layer's activation.
     let (mut nodes, inits) = two_layer();
     nodes[2].op_type = Some("Tanh".into());
+    let m = import(nodes, inits, &["p"]).unwrap();
+    assert_eq!(m.layers[0].activation.name(), "tanh");
+
+    // Two activations on one layer: refused, naming the second.
+    let (mut nodes, inits) = two_layer();
+    let act_out = nodes[2].output[0].clone();
+    nodes[2].output[0] = "r".into();
+    nodes.insert(3, node("second", "Tanh", &["r"], &[&act_out]));
     let e = import(nodes, inits, &["p"]).unwrap_err();
-    assert!(matches!(e, OnnxImportError::UnsupportedOp { .. }));
     assert!(
-        e.to_string().contains("'act' (op Tanh, domain ai.onnx)"),
+        e.to_string().contains("'second'") && e.to_string().contains("Tanh after an activation"),
         "{e}"
     );
 

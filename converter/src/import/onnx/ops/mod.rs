@@ -10,6 +10,7 @@ pub mod labels;
 pub mod linear_classifier;
 pub mod normalizer;
 pub mod passthrough;
+pub mod pointwise;
 pub mod score_column;
 pub mod shape;
 pub mod shape_value;
