@@ -110,7 +110,7 @@ const TRIM_GRID: usize = 4096;
 /// ours: common practice, no source, is to clip saturated ranges); values beyond the trimmed
 /// range saturate in requantisation and get the end's table entry, which is the constant.
 fn saturation_trim(p: &Pointwise, lo: f32, hi: f32, qo: AffineQuant) -> (f32, f32) {
-    if !(lo < hi) {
+    if lo.partial_cmp(&hi) != Some(std::cmp::Ordering::Less) {
         return (lo, hi);
     }
     let quant = |x: f32| {
