@@ -359,3 +359,47 @@ fn linear_classifier_misuse_is_refused() {
         "{e}"
     );
 }
+
+/// `two_layer` with its Relu replaced by the decomposed Gelu `x · ½ · (1 + erf(x / c))`, the
+/// products in `order`, `c` the divisor.
+fn decomposed_gelu(c: f32, half_first: bool) -> Result<crate::graph::FloatModel, OnnxImportError> {
+    let (mut nodes, mut inits) = two_layer();
+    let gelu = if half_first {
+        vec![
+            node("g_div", "Div", &["h1", "c"], &["d"]),
+            node("g_erf", "Erf", &["d"], &["e"]),
+            node("g_add", "Add", &["one", "e"], &["gp"]),
+            node("g_half", "Mul", &["half", "h1"], &["hx"]),
+            node("g_mul", "Mul", &["hx", "gp"], &["h2"]),
+        ]
+    } else {
+        vec![
+            node("g_div", "Div", &["h1", "c"], &["d"]),
+            node("g_erf", "Erf", &["d"], &["e"]),
+            node("g_add", "Add", &["e", "one"], &["gp"]),
+            node("g_mul", "Mul", &["h1", "gp"], &["m"]),
+            node("g_half", "Mul", &["m", "half"], &["h2"]),
+        ]
+    };
+    nodes.splice(2..3, gelu);
+    inits.push(floats("c", &[], &[c]));
+    inits.push(floats("one", &[], &[1.0]));
+    inits.push(floats("half", &[], &[0.5]));
+    import(nodes, inits, &["p"])
+}
+
+#[test]
+fn decomposed_gelu_is_matched_by_structure_and_constants() {
+    for half_first in [false, true] {
+        let m = decomposed_gelu(std::f32::consts::SQRT_2, half_first).unwrap();
+        assert_eq!(m.layers.len(), 2);
+        assert_eq!(m.layers[0].activation.name(), "gelu", "{half_first}");
+    }
+    // Another divisor is another function: refused, not approximated.
+    let e = decomposed_gelu(1.5, false).unwrap_err();
+    assert!(
+        e.to_string()
+            .contains("value 'h1' is read by this node and by"),
+        "{e}"
+    );
+}

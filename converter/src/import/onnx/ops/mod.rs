@@ -6,6 +6,7 @@ pub mod affine;
 pub mod batchnorm;
 pub mod binary_output;
 pub mod dense;
+pub mod gelu_pattern;
 pub mod labels;
 pub mod linear_classifier;
 pub mod normalizer;
