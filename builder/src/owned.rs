@@ -62,33 +62,36 @@ pub enum Activation {
 }
 
 impl Activation {
-    /// Copies a decoded activation.
-    pub fn from_desc(a: &WireActivation<'_>) -> Self {
-        match a {
-            WireActivation::Linear => Activation::Linear,
-            WireActivation::Relu => Activation::Relu,
-            WireActivation::Pointwise(p) => Activation::Pointwise {
+    /// Copies a decoded layer's activation.
+    pub fn from_desc(l: &LayerDesc<'_>) -> Self {
+        match (l.activation, l.pointwise()) {
+            (_, Some(p)) => Activation::Pointwise {
                 kind: p.kind,
                 input_zero_point: p.input_zero_point,
                 data: p.data.to_vec(),
             },
+            (WireActivation::Relu, None) => Activation::Relu,
+            _ => Activation::Linear,
         }
     }
 
-    /// The borrowed activation.
-    pub fn as_desc(&self) -> WireActivation<'_> {
+    /// The borrowed activation and its pointwise record.
+    pub fn as_desc(&self) -> (WireActivation, Option<PointwiseDesc<'_>>) {
         match self {
-            Activation::Linear => WireActivation::Linear,
-            Activation::Relu => WireActivation::Relu,
+            Activation::Linear => (WireActivation::Linear, None),
+            Activation::Relu => (WireActivation::Relu, None),
             Activation::Pointwise {
                 kind,
                 input_zero_point,
                 data,
-            } => WireActivation::Pointwise(PointwiseDesc {
-                kind: *kind,
-                input_zero_point: *input_zero_point,
-                data,
-            }),
+            } => (
+                WireActivation::Pointwise,
+                Some(PointwiseDesc {
+                    kind: *kind,
+                    input_zero_point: *input_zero_point,
+                    data,
+                }),
+            ),
         }
     }
 }
@@ -157,7 +160,7 @@ impl OwnedLayer {
         OwnedLayer {
             inputs: l.inputs,
             outputs: l.outputs,
-            activation: Activation::from_desc(&l.activation),
+            activation: Activation::from_desc(l),
             layout: l.layout,
             weights: l.weights.to_vec(),
             bias: l.bias.to_vec(),
@@ -173,10 +176,14 @@ impl OwnedLayer {
 
     /// The borrowed layer.
     pub fn as_desc(&self) -> LayerDesc<'_> {
+        let (activation, record) = self.activation.as_desc();
         LayerDesc {
             inputs: self.inputs,
             outputs: self.outputs,
-            activation: self.activation.as_desc(),
+            activation: WireActivation::Linear,
+            act_kind: 0,
+            act_zero_point: 0,
+            act_data: &[],
             layout: self.layout,
             weights: &self.weights,
             bias: &self.bias,
@@ -188,6 +195,7 @@ impl OwnedLayer {
                 output_zero_point: q.output_zero_point,
             }),
         }
+        .with_activation(activation, record)
     }
 }
 

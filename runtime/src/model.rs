@@ -474,12 +474,12 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
         Some(q) => {
             let (act_min, act_max) = activation_range(layer.activation, q.output_zero_point);
             // A pointwise layer requantises to the table's input zero point, then looks up.
-            let (zero_point, table) = match layer.activation {
-                Activation::Pointwise(p) => (
+            let (zero_point, table) = match layer.pointwise() {
+                Some(p) => (
                     p.input_zero_point,
                     <&[u8; TABLE_LEN]>::try_from(p.data).ok(),
                 ),
-                _ => (q.output_zero_point, None),
+                None => (q.output_zero_point, None),
             };
             let p = DenseI8 {
                 inputs: layer.inputs as usize,
@@ -514,7 +514,7 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
                 WeightLayout::Blocked4x4 => dense_f32_blocked_auto(&p, src, dst),
             }
             #[cfg(feature = "f32")]
-            if let Activation::Pointwise(pd) = layer.activation {
+            if let Some(pd) = layer.pointwise() {
                 use crate::unstable::pointwise::{apply_f32, Kind, Pointwise};
                 // Validated by `parse`: a known kind with its parameters.
                 if let Some(pw) =

@@ -4,8 +4,8 @@ use crate::error::{FormatError, TensorKind};
 use crate::le;
 use crate::scratch::ScratchPlan;
 use crate::wire::format::{
-    Activation, InputQuantDesc, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout,
-    MAX_INPUT_SHIFT, MAX_WIDTH,
+    InputQuantDesc, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout, MAX_INPUT_SHIFT,
+    MAX_WIDTH,
 };
 use crate::wire::layout;
 
@@ -129,7 +129,7 @@ fn check_layer(
         WeightLayout::Blocked4x4 => check_blocked(l.weights, inputs, outputs, precision, at)?,
     };
     expect_len(l.bias, 4 * outputs, at, TensorKind::Bias)?;
-    check_activation(&l.activation, k, precision)?;
+    check_activation(l, k, precision)?;
     match (precision, &l.quant) {
         // Without the `f32` feature, `check` has already refused f32 models.
         (Precision::F32, None) if cfg!(feature = "f32") => {
@@ -177,8 +177,8 @@ fn check_layer(
 /// A pointwise activation record (`FORMAT.md` §3.3, §5 rule 18). The int8-only build checks
 /// only what its path uses, the kind byte and the table's length; the parameter decoding is
 /// compiled with `f32` alone.
-fn check_activation(a: &Activation<'_>, k: u8, precision: Precision) -> Result<(), FormatError> {
-    let Activation::Pointwise(p) = a else {
+fn check_activation(l: &LayerDesc<'_>, k: u8, precision: Precision) -> Result<(), FormatError> {
+    let Some(p) = l.pointwise() else {
         return Ok(());
     };
     if p.kind >= crate::unstable::pointwise::KINDS {

@@ -122,10 +122,7 @@ fn version_4_tanh_blob_still_reads_and_predicts() {
         (m.precision(), m.input_len(), m.classes()),
         (Precision::Int8, 4, 3)
     );
-    let acts: Vec<_> = m
-        .layers()
-        .map(|l| activation_name(&l.desc.activation))
-        .collect();
+    let acts: Vec<_> = m.layers().map(|l| activation_name(l.desc)).collect();
     assert_eq!(acts, ["tanh", "linear"]);
     // The held-out rows of load_iris (Fisher 1936) recorded with the fixture's model.
     let case: serde_json::Value = serde_json::from_str(

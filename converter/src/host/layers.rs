@@ -59,13 +59,10 @@ impl FloatLayer {
                 .collect(),
             bias: words(l.bias).map(f32::from_le_bytes).collect(),
             relu: l.activation == Activation::Relu,
-            pointwise: match l.activation {
-                Activation::Pointwise(p) => {
-                    use kinglet_runtime::unstable::pointwise::{Kind, Pointwise};
-                    Kind::from_byte(p.kind).and_then(|k| Pointwise::from_params(k, p.data))
-                }
-                _ => None,
-            },
+            pointwise: l.pointwise().and_then(|p| {
+                use kinglet_runtime::unstable::pointwise::{Kind, Pointwise};
+                Kind::from_byte(p.kind).and_then(|k| Pointwise::from_params(k, p.data))
+            }),
         }
     }
 }
@@ -128,14 +125,10 @@ impl Int8Layer {
             zero_point: q.output_zero_point,
             act_min,
             act_max,
-            requant_zero_point: match l.activation {
-                Activation::Pointwise(p) => p.input_zero_point,
-                _ => q.output_zero_point,
-            },
-            table: match l.activation {
-                Activation::Pointwise(p) => Some(p.data.to_vec()),
-                _ => None,
-            },
+            requant_zero_point: l
+                .pointwise()
+                .map_or(q.output_zero_point, |p| p.input_zero_point),
+            table: l.pointwise().map(|p| p.data.to_vec()),
         })
     }
 

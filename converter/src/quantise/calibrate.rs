@@ -166,12 +166,7 @@ fn pre_activation_range(
     rows: usize,
     method: RangeMethod,
 ) -> Option<TensorRange> {
-    if !matches!(
-        l.activation,
-        kinglet_runtime::unstable::wire::format::Activation::Pointwise(_)
-    ) {
-        return None;
-    }
+    l.pointwise()?;
     let layer = crate::host::layers::FloatLayer::new(l);
     let mut pre = Vec::with_capacity(rows * layer.outputs);
     for row in x.chunks_exact(layer.inputs.max(1)) {

@@ -82,7 +82,7 @@ impl BlobReport {
                 layer: i + 1,
                 inputs: l.desc.inputs as usize,
                 outputs: l.desc.outputs as usize,
-                activation: activation_name(&l.desc.activation).into(),
+                activation: activation_name(l.desc).into(),
                 parameters: l.parameters(),
                 macs: l.macs(),
                 bytes: l.tensor_bytes(),

@@ -86,7 +86,7 @@ impl<'a> ModelPair<'a> {
             self.int8.input_len(),
         )];
         for (k, l) in layers.iter().enumerate() {
-            let act = activation_name(&l.desc.activation);
+            let act = activation_name(l.desc);
             let name = if k + 1 == last && self.int8.desc().output != OutputKind::Logits {
                 format!(
                     "layer {} ({act}, before {})",
@@ -115,7 +115,7 @@ impl<'a> ModelPair<'a> {
 /// Widths and activation name: an int8 layer's table and an f32 layer's parameters of the
 /// same activation differ in bytes, not in kind.
 fn shape(d: &kinglet_runtime::unstable::wire::format::LayerDesc<'_>) -> (u32, u32, &'static str) {
-    (d.inputs, d.outputs, activation_name(&d.activation))
+    (d.inputs, d.outputs, activation_name(d))
 }
 
 fn describe(layers: &[(u32, u32, &'static str)]) -> String {

@@ -91,6 +91,12 @@ pub fn goals(targets: &[Target]) -> Vec<Goal> {
             );
         }
         add(
+            format!("{t} int8 activation table instr/element"),
+            b.per_mac("act-table", "kernel"),
+            if dsp { 3.0 } else { 5.0 },
+            true,
+        );
+        add(
             format!("{t} runtime .text, int8-only build, bytes"),
             Some(r.size_int8_only as f64),
             8192.0,

@@ -32,7 +32,7 @@ pub fn version_for_table(
         .any(|l| l.layout == crate::wire::format::WeightLayout::Blocked4x4);
     let pointwise = layers
         .iter()
-        .any(|l| matches!(l.activation, crate::wire::format::Activation::Pointwise(_)));
+        .any(|l| l.activation == crate::wire::format::Activation::Pointwise);
     if pointwise {
         4
     } else if output == crate::wire::format::OutputKind::OneVsRest {
