@@ -9,7 +9,8 @@
 use kinglet_converter::dataset::{load_csv, load_npy, CsvOptions, LabelColumn};
 use kinglet_converter::graph::{DenseLayer, FloatModel};
 use kinglet_converter::scaler_file::{attach_scaler, parse_scaler_json};
-use kinglet_runtime::{Activation, OutputKind};
+use kinglet_converter::graph::Activation;
+use kinglet_runtime::OutputKind;
 use libfuzzer_sys::fuzz_target;
 use std::path::PathBuf;
 use std::sync::OnceLock;

@@ -194,8 +194,9 @@ pub struct LayerDesc<'a> {
     pub quant: Option<LayerQuantDesc<'a>>,
 }
 
-/// [`LayerDesc`] as the wire has it.
-#[derive(Serialize, Deserialize)]
+/// [`LayerDesc`] as the wire has it (the encoder's view; the reader decodes into
+/// [`LayerDesc`] directly, in the same order).
+#[derive(Serialize)]
 struct LayerWire<'a> {
     inputs: u32,
     outputs: u32,
@@ -238,26 +239,54 @@ impl<'a> LayerDesc<'a> {
 }
 
 impl<'de: 'a, 'a> Deserialize<'de> for LayerDesc<'a> {
+    /// Field by field, as the derive for [`LayerWire`] would, but into the layer itself (no
+    /// intermediate copy of the layer: flash on the Cortex-M).
     fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        let w = LayerWire::deserialize(d)?;
-        let (activation, p) = match w.activation {
-            ActivationWire::Linear => (Activation::Linear, None),
-            ActivationWire::Relu => (Activation::Relu, None),
-            ActivationWire::Pointwise(p) => (Activation::Pointwise, Some(p)),
-        };
-        let layer = LayerDesc {
-            inputs: w.inputs,
-            outputs: w.outputs,
-            activation,
-            act_kind: 0,
-            act_zero_point: 0,
-            act_data: &[],
-            layout: w.layout,
-            weights: w.weights,
-            bias: w.bias,
-            quant: w.quant,
-        };
-        Ok(layer.with_activation(activation, p))
+        struct Fields<'a>(core::marker::PhantomData<&'a ()>);
+        impl<'de: 'a, 'a> serde::de::Visitor<'de> for Fields<'a> {
+            type Value = LayerDesc<'a>;
+            fn expecting(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+                f.write_str("a layer")
+            }
+            fn visit_seq<A: serde::de::SeqAccess<'de>>(
+                self,
+                mut s: A,
+            ) -> Result<Self::Value, A::Error> {
+                let missing = || serde::de::Error::invalid_length(0, &"7 fields");
+                let inputs = s.next_element()?.ok_or_else(missing)?;
+                let outputs = s.next_element()?.ok_or_else(missing)?;
+                let (activation, act_kind, act_zero_point, act_data) =
+                    match s.next_element()?.ok_or_else(missing)? {
+                        ActivationWire::Linear => (Activation::Linear, 0, 0, &[][..]),
+                        ActivationWire::Relu => (Activation::Relu, 0, 0, &[][..]),
+                        ActivationWire::Pointwise(p) => {
+                            (Activation::Pointwise, p.kind, p.input_zero_point, p.data)
+                        }
+                    };
+                Ok(LayerDesc {
+                    inputs,
+                    outputs,
+                    activation,
+                    act_kind,
+                    act_zero_point,
+                    act_data,
+                    layout: s.next_element()?.ok_or_else(missing)?,
+                    weights: s.next_element()?.ok_or_else(missing)?,
+                    bias: s.next_element()?.ok_or_else(missing)?,
+                    quant: s.next_element()?.ok_or_else(missing)?,
+                })
+            }
+        }
+        const FIELDS: [&str; 7] = [
+            "inputs",
+            "outputs",
+            "activation",
+            "layout",
+            "weights",
+            "bias",
+            "quant",
+        ];
+        d.deserialize_struct("LayerDesc", &FIELDS, Fields(core::marker::PhantomData))
     }
 }
 
