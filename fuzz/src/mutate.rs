@@ -417,7 +417,11 @@ fn mutate_layer(l: &mut OwnedLayer, op: u8, u: &mut Unstructured<'_>, p: Precisi
                     u.fill_buffer(&mut data)?;
                     Activation::Pointwise {
                         kind,
-                        input_zero_point: if p == Precision::Int8 { u.arbitrary()? } else { 0 },
+                        input_zero_point: if p == Precision::Int8 {
+                            u.arbitrary()?
+                        } else {
+                            0
+                        },
                         data,
                     }
                 }

@@ -239,7 +239,7 @@ impl<'a> LayerDesc<'a> {
 }
 
 impl<'de: 'a, 'a> Deserialize<'de> for LayerDesc<'a> {
-    /// Field by field, as the derive for [`LayerWire`] would, but into the layer itself (no
+    /// Field by field, as the derive for `LayerWire` would, but into the layer itself (no
     /// intermediate copy of the layer: flash on the Cortex-M).
     fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
         struct Fields<'a>(core::marker::PhantomData<&'a ()>);
