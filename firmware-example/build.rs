@@ -18,12 +18,14 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 /// The packed models embedded by `kinglet-fw-vectors::assets` (and so by the binaries).
-const MODELS: [&str; 5] = [
+const MODELS: [&str; 7] = [
     "models/digits.kgl",
     "models/digits_float.kgl",
     "models/vibration.kgl",
     "models/lr_digits.kgl",
     "models/lr_digits_float.kgl",
+    "models/tanh_digits.kgl",
+    "models/tanh_digits_float.kgl",
 ];
 
 #[derive(Deserialize)]

@@ -120,7 +120,7 @@ pub fn encode_aligned(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use kinglet_runtime::Activation;
+    use crate::Activation;
 
     #[test]
     fn blocked_int8_hand_worked() {

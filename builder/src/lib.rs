@@ -28,8 +28,6 @@ pub use error::BuildError;
 pub use kinglet_runtime::unstable::encode::{reseal, seal};
 /// The table's enums, for filling in an [`OwnedModel`]. (The runtime's own unit tests name them
 /// from here: they see a second copy of the runtime crate, whose types are not these.)
-pub use kinglet_runtime::unstable::wire::format::{
-    Activation, OutputKind, Precision, WeightLayout,
-};
-pub use owned::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
+pub use kinglet_runtime::unstable::wire::format::{OutputKind, Precision, WeightLayout};
+pub use owned::{Activation, OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 pub use raw::{planned_scratch, raw_blob, raw_blob_with_layers};

@@ -1,8 +1,8 @@
 //! The owned layer table: every field of `kinglet_runtime::unstable::wire::format::ModelDesc` (`FORMAT.md` §3),
 //! tensors as wire bytes that a test or a fuzz target may edit freely, lengths included.
 use kinglet_runtime::unstable::wire::format::{
-    Activation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind, Precision,
-    ScalerDesc, WeightLayout, MAX_LAYERS,
+    Activation as WireActivation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind,
+    PointwiseDesc, Precision, ScalerDesc, WeightLayout, MAX_LAYERS,
 };
 
 use crate::error::BuildError;
@@ -38,6 +38,60 @@ impl OwnedQuant {
             shift: le::i8s(shift),
             output_scale,
             output_zero_point,
+        }
+    }
+}
+
+/// A layer's activation, owned (`FORMAT.md` §3.3): the wire enum with the pointwise record's
+/// bytes in a `Vec`.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Activation {
+    /// No activation.
+    Linear,
+    /// The fused ReLU.
+    Relu,
+    /// A pointwise activation record (format version 4).
+    Pointwise {
+        /// The kind byte.
+        kind: u8,
+        /// int8: the zero point of the requantised values before the table; f32: 0.
+        input_zero_point: i8,
+        /// f32: the parameters as little-endian f32; int8: the 256-entry table.
+        data: Vec<u8>,
+    },
+}
+
+impl Activation {
+    /// Copies a decoded layer's activation.
+    pub fn from_desc(l: &LayerDesc<'_>) -> Self {
+        match (l.activation, l.pointwise()) {
+            (_, Some(p)) => Activation::Pointwise {
+                kind: p.kind,
+                input_zero_point: p.input_zero_point,
+                data: p.data.to_vec(),
+            },
+            (WireActivation::Relu, None) => Activation::Relu,
+            _ => Activation::Linear,
+        }
+    }
+
+    /// The borrowed activation and its pointwise record.
+    pub fn as_desc(&self) -> (WireActivation, Option<PointwiseDesc<'_>>) {
+        match self {
+            Activation::Linear => (WireActivation::Linear, None),
+            Activation::Relu => (WireActivation::Relu, None),
+            Activation::Pointwise {
+                kind,
+                input_zero_point,
+                data,
+            } => (
+                WireActivation::Pointwise,
+                Some(PointwiseDesc {
+                    kind: *kind,
+                    input_zero_point: *input_zero_point,
+                    data,
+                }),
+            ),
         }
     }
 }
@@ -106,7 +160,7 @@ impl OwnedLayer {
         OwnedLayer {
             inputs: l.inputs,
             outputs: l.outputs,
-            activation: l.activation,
+            activation: Activation::from_desc(l),
             layout: l.layout,
             weights: l.weights.to_vec(),
             bias: l.bias.to_vec(),
@@ -122,10 +176,14 @@ impl OwnedLayer {
 
     /// The borrowed layer.
     pub fn as_desc(&self) -> LayerDesc<'_> {
+        let (activation, record) = self.activation.as_desc();
         LayerDesc {
             inputs: self.inputs,
             outputs: self.outputs,
-            activation: self.activation,
+            activation: WireActivation::Linear,
+            act_kind: 0,
+            act_zero_point: 0,
+            act_data: &[],
             layout: self.layout,
             weights: &self.weights,
             bias: &self.bias,
@@ -137,6 +195,7 @@ impl OwnedLayer {
                 output_zero_point: q.output_zero_point,
             }),
         }
+        .with_activation(activation, record)
     }
 }
 

@@ -1,6 +1,7 @@
 //! Two small hand-made models whose every number is worked out in the documents: the runtime's
 //! unit tests run them, and the fuzz targets start from them.
-use kinglet_runtime::unstable::wire::format::{Activation, OutputKind, Precision};
+use crate::Activation;
+use kinglet_runtime::unstable::wire::format::{OutputKind, Precision};
 
 use crate::le::f32s;
 use crate::owned::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};

@@ -2,7 +2,39 @@
 //! normalised, before quantisation. Every importer (ONNX, the plain JSON description) produces
 //! a [`FloatModel`]; calibration, quantisation and packing consume it.
 
-pub use kinglet_runtime::unstable::wire::format::{Activation, OutputKind};
+pub use kinglet_runtime::unstable::pointwise::{Kind as PointwiseKind, Pointwise};
+pub use kinglet_runtime::unstable::wire::format::OutputKind;
+
+/// A layer's activation in the float model.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Activation {
+    /// No activation.
+    Linear,
+    /// `max(0, x)` (the fused ReLU).
+    Relu,
+    /// Any other pointwise function (f32: its formula; int8: a table made at pack time).
+    Pointwise(Pointwise),
+}
+
+impl Activation {
+    /// The activation at `x`, in f32 as the runtime computes it.
+    pub fn eval(&self, x: f32) -> f32 {
+        match self {
+            Activation::Linear => x,
+            Activation::Relu => x.max(0.0),
+            Activation::Pointwise(p) => p.eval(x),
+        }
+    }
+
+    /// The name reports use (`linear`, `relu`, `tanh`, ...).
+    pub fn name(&self) -> &'static str {
+        match self {
+            Activation::Linear => "linear",
+            Activation::Relu => "relu",
+            Activation::Pointwise(p) => p.kind.name(),
+        }
+    }
+}
 
 /// What the saved input scaler was, for reports. The arithmetic is always the same affine map.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -114,6 +146,7 @@ impl FloatModel {
                 y.push(match layer.activation {
                     Activation::Relu => v.max(0.0),
                     Activation::Linear => v,
+                    Activation::Pointwise(p) => f64::from(p.eval(v as f32)),
                 });
             }
             x = y;

@@ -38,3 +38,18 @@ pub(crate) fn owned_table(
         labels: model.labels.join("\n"),
     })
 }
+
+/// A float layer's activation in the wire form of an f32 layer: the pointwise kind with its
+/// parameters (an int8 layer's table is made by [`crate::quantise`]).
+pub(crate) fn builder_activation(a: &crate::graph::Activation) -> kinglet_builder::Activation {
+    use crate::graph::Activation as A;
+    match a {
+        A::Linear => kinglet_builder::Activation::Linear,
+        A::Relu => kinglet_builder::Activation::Relu,
+        A::Pointwise(p) => kinglet_builder::Activation::Pointwise {
+            kind: p.kind as u8,
+            input_zero_point: 0,
+            data: f32s(p.params.get(..p.kind.params()).unwrap_or(&[])),
+        },
+    }
+}

@@ -406,11 +406,11 @@ fn c19_nan_in_npy_calibration() {
 #[test]
 fn c20_unsupported_onnx_op() {
     pack_onnx_fixture(
-        "bad_tanh.onnx",
+        "bad_thresholded_relu.onnx",
         &[
-            "bad_tanh.onnx",
-            "node 'tanh1'",
-            "op Tanh is not supported",
+            "bad_thresholded_relu.onnx",
+            "node 'thresholded1'",
+            "op ThresholdedRelu is not supported",
             "supported: MatMul",
         ],
     );

@@ -36,7 +36,7 @@ fn kinglet(args: &[&str]) -> Output {
 }
 
 /// The committed sets: name, blob, data arguments, feed.
-const SETS: [(&str, &str, &[&str], &str); 6] = [
+const SETS: [(&str, &str, &[&str], &str); 8] = [
     (
         "digits_u8",
         "firmware-example/models/digits.kgl",
@@ -113,6 +113,32 @@ const SETS: [(&str, &str, &[&str], &str); 6] = [
         ],
         "f32",
     ),
+    (
+        "tanh_digits_u8",
+        "firmware-example/models/tanh_digits.kgl",
+        &[
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--rows",
+            "0..40",
+        ],
+        "u8",
+    ),
+    (
+        "tanh_digits_float",
+        "firmware-example/models/tanh_digits_float.kgl",
+        &[
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--rows",
+            "40..50",
+        ],
+        "f32",
+    ),
 ];
 
 fn committed(set: &str) -> String {
@@ -148,7 +174,7 @@ fn the_committed_vectors_are_what_kinglet_score_writes() {
         );
         lines += want.lines().count();
     }
-    assert_eq!(lines, 314);
+    assert_eq!(lines, 364);
 }
 
 /// One committed line's fields.
@@ -208,7 +234,7 @@ fn json_classes_scores_and_outputs_equal_every_committed_line() {
             checked += 1;
         }
     }
-    assert_eq!(checked, 314);
+    assert_eq!(checked, 364);
 }
 
 #[test]

@@ -4,6 +4,9 @@
 #   lr_digits.kgl, lr_digits_float.kgl                 kinglet pack of the scikit-learn
 #                                                      LogisticRegression (MinMaxScaler, skl2onnx
 #                                                      LinearClassifier) in tests/fixtures/linear/
+#   tanh_digits.kgl, tanh_digits_float.kgl             kinglet pack of the scikit-learn
+#                                                      MLPClassifier(activation="tanh") in
+#                                                      tests/fixtures/activation/
 #   digits_heldout_*.bin, vibration_replay*.bin        make-assets (this workspace)
 #
 # Usage: bash firmware-example/models/regenerate.sh [OUT_DIR]   (default: firmware-example/models)
@@ -26,6 +29,9 @@ fi
 "$KINGLET" pack "$root/tests/fixtures/linear/lr_digits_minmax.onnx" \
   --calibration "$root/examples/digits/calibration.csv" -o "$out/lr_digits.kgl"
 "$KINGLET" pack "$root/tests/fixtures/linear/lr_digits_minmax.onnx" --float -o "$out/lr_digits_float.kgl"
+"$KINGLET" pack "$root/tests/fixtures/activation/mlp_tanh_digits.onnx" \
+  --calibration "$root/examples/digits/calibration.csv" -o "$out/tanh_digits.kgl"
+"$KINGLET" pack "$root/tests/fixtures/activation/mlp_tanh_digits.onnx" --float -o "$out/tanh_digits_float.kgl"
 "$KINGLET" pack "$root/examples/vibration/model.onnx" \
   --calibration "$root/examples/vibration/calibration.csv" -o "$out/vibration.kgl"
 

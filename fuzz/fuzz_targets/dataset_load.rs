@@ -7,9 +7,10 @@
 //! - 7: scaler JSON (parsed from the text, then attached to a 3-input model).
 #![no_main]
 use kinglet_converter::dataset::{load_csv, load_npy, CsvOptions, LabelColumn};
+use kinglet_converter::graph::Activation;
 use kinglet_converter::graph::{DenseLayer, FloatModel};
 use kinglet_converter::scaler_file::{attach_scaler, parse_scaler_json};
-use kinglet_runtime::{Activation, OutputKind};
+use kinglet_runtime::OutputKind;
 use libfuzzer_sys::fuzz_target;
 use std::path::PathBuf;
 use std::sync::OnceLock;

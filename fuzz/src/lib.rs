@@ -6,8 +6,9 @@ pub mod mutate;
 pub mod oracle;
 
 use kinglet_builder::sample::tiny_f32;
+use kinglet_builder::Activation;
 use kinglet_builder::{le, OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
-use kinglet_runtime::unstable::wire::format::{Activation, OutputKind, Precision};
+use kinglet_runtime::unstable::wire::format::{OutputKind, Precision};
 
 /// Real packed blobs (`kinglet pack` of `examples/vibration` and `examples/digits`): three in
 /// format version 1 (output-major weights), two in version 2 (Blocked4x4 weights).

@@ -3,9 +3,9 @@
 //! bound, a multiplier at the edge of its range) so that validation is exercised rule by rule
 //! and accepted tables reach inference.
 use arbitrary::{Result, Unstructured};
-use kinglet_runtime::unstable::wire::format::{Activation, OutputKind, Precision, WeightLayout};
+use kinglet_runtime::unstable::wire::format::{OutputKind, Precision, WeightLayout};
 
-use kinglet_builder::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
+use kinglet_builder::{Activation, OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 
 /// Widest layer a mutation re-lays tensors for (keeps the harness's allocations small; wider
 /// declared widths are still produced, with tensors that do not match them).
@@ -397,10 +397,35 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
 fn mutate_layer(l: &mut OwnedLayer, op: u8, u: &mut Unstructured<'_>, p: Precision) -> Result<()> {
     match op {
         0 => {
-            l.activation = if l.activation == Activation::Relu {
-                Activation::Linear
-            } else {
-                Activation::Relu
+            // Linear → Relu → a pointwise record (any kind byte; an int8 layer's table or an
+            // f32 layer's parameters of fuzzed length) → Linear.
+            l.activation = match l.activation {
+                Activation::Linear => Activation::Relu,
+                Activation::Relu => {
+                    let kind = u.int_in_range(0..=12)?;
+                    let len = match p {
+                        Precision::Int8 => {
+                            if u.ratio(7, 8)? {
+                                256
+                            } else {
+                                u.int_in_range(0..=300)?
+                            }
+                        }
+                        Precision::F32 => 4 * u.int_in_range(0..=2)?,
+                    };
+                    let mut data = vec![0u8; len];
+                    u.fill_buffer(&mut data)?;
+                    Activation::Pointwise {
+                        kind,
+                        input_zero_point: if p == Precision::Int8 {
+                            u.arbitrary()?
+                        } else {
+                            0
+                        },
+                        data,
+                    }
+                }
+                Activation::Pointwise { .. } => Activation::Linear,
             }
         }
         1 => {

@@ -166,6 +166,25 @@ pub enum FormatError {
     },
     /// An f32 model, and this runtime was built without the `f32` feature (int8 only).
     F32NotBuiltIn,
+    /// A pointwise activation's kind byte is not one this reader knows.
+    UnknownActivation {
+        /// Layer index.
+        layer: u8,
+        /// The kind byte.
+        kind: u8,
+    },
+    /// A pointwise activation record does not fit the precision: an int8 layer without its
+    /// 256-entry table, an f32 layer with a table or the wrong number of parameters, or a
+    /// non-zero zero point on an f32 layer.
+    ActivationRecord {
+        /// Layer index.
+        layer: u8,
+    },
+    /// A pointwise activation parameter is NaN or infinite, or a `Clip` has `lo > hi`.
+    ActivationParams {
+        /// Layer index.
+        layer: u8,
+    },
     /// The header's scratch size is not the size the layer table needs.
     ScratchMismatch {
         /// The header's value.
@@ -259,6 +278,17 @@ impl fmt::Display for FormatError {
             ),
             F32NotBuiltIn => f.write_str(
                 "f32 model, but this runtime was built without the `f32` feature (int8 models only)",
+            ),
+            UnknownActivation { layer, kind } => {
+                write!(f, "layer {layer}: unknown activation kind {kind}")
+            }
+            ActivationRecord { layer } => write!(
+                f,
+                "layer {layer}: activation record does not match the precision (int8: a 256-entry table; f32: the kind's parameters)"
+            ),
+            ActivationParams { layer } => write!(
+                f,
+                "layer {layer}: activation parameter is NaN, infinite or out of order"
             ),
             ScratchMismatch { header, computed } => write!(
                 f,

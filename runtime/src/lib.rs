@@ -82,6 +82,6 @@ pub use error::{Error, FormatError, RunError, TensorKind};
 pub use model::{Input, LayerView, Model, Prediction};
 pub use stage::{Activations, Stage};
 pub use widths::{input_len, output_len};
-pub use wire::format::{Activation, OutputKind, Precision};
+pub use wire::format::{Activation, OutputKind, PointwiseDesc, Precision};
 pub use wire::header::{blob_len, scratch_bytes, CHECKSUM, HEADER_LEN, MAGIC};
 pub use wire::version::FORMAT_VERSION;

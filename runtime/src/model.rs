@@ -8,6 +8,7 @@ use crate::requant::activation_range;
 use crate::scale::{integer_params, quantise_floats, quantise_integer, Scaler};
 use crate::scratch::ScratchPlan;
 use crate::stage::{Activations, Stage};
+use crate::unstable::pointwise::{apply_table, TABLE_LEN};
 use crate::wire::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout};
 use crate::wire::header::{Header, HEADER_LEN};
 use crate::{le, validate};
@@ -472,19 +473,30 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
     match &layer.quant {
         Some(q) => {
             let (act_min, act_max) = activation_range(layer.activation, q.output_zero_point);
+            // A pointwise layer requantises to the table's input zero point, then looks up.
+            let (zero_point, table) = match layer.pointwise() {
+                Some(p) => (
+                    p.input_zero_point,
+                    <&[u8; TABLE_LEN]>::try_from(p.data).ok(),
+                ),
+                None => (q.output_zero_point, None),
+            };
             let p = DenseI8 {
                 inputs: layer.inputs as usize,
                 weights: layer.weights,
                 bias: layer.bias,
                 multiplier: q.multiplier,
                 shift: q.shift,
-                zero_point: q.output_zero_point,
+                zero_point,
                 act_min,
                 act_max,
             };
             match layer.layout {
                 WeightLayout::OutputMajor => dense_i8(&p, src, dst),
                 WeightLayout::Blocked4x4 => dense_i8_blocked_auto(&p, src, dst),
+            }
+            if let Some(t) = table {
+                apply_table(dst, t);
             }
             Some((q.output_scale, q.output_zero_point))
         }
@@ -500,6 +512,16 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
             match layer.layout {
                 WeightLayout::OutputMajor => dense_f32(&p, src, dst),
                 WeightLayout::Blocked4x4 => dense_f32_blocked_auto(&p, src, dst),
+            }
+            #[cfg(feature = "f32")]
+            if let Some(pd) = layer.pointwise() {
+                use crate::unstable::pointwise::{apply_f32, Kind, Pointwise};
+                // Validated by `parse`: a known kind with its parameters.
+                if let Some(pw) =
+                    Kind::from_byte(pd.kind).and_then(|k| Pointwise::from_params(k, pd.data))
+                {
+                    apply_f32(dst, &pw);
+                }
             }
             None
         }

@@ -105,7 +105,8 @@ pub fn requantise_validated(
 pub fn activation_range(activation: crate::Activation, zero_point: i8) -> (i8, i8) {
     match activation {
         crate::Activation::Relu => (zero_point, i8::MAX),
-        crate::Activation::Linear => (i8::MIN, i8::MAX),
+        // A pointwise table takes every requantised value.
+        crate::Activation::Linear | crate::Activation::Pointwise => (i8::MIN, i8::MAX),
     }
 }
 

@@ -9,6 +9,7 @@
 //! - [`requant`]: integer requantisation (Jacob et al., 2018).
 //! - [`scale`]: the input scaler and input quantisation.
 //! - [`output`]: softmax, sigmoid, argmax.
+//! - [`pointwise`]: the pointwise activations (f32 formulas, int8 tables).
 //! - [`scratch`]: the scratch-buffer plan.
 //! - `encode` (feature `encode`): the blob encoder.
 //!
@@ -25,6 +26,8 @@ pub mod dense;
 pub mod encode;
 #[path = "output.rs"]
 pub mod output;
+#[path = "pointwise.rs"]
+pub mod pointwise;
 #[path = "requant.rs"]
 pub mod requant;
 #[path = "scale.rs"]

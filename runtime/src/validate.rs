@@ -129,6 +129,7 @@ fn check_layer(
         WeightLayout::Blocked4x4 => check_blocked(l.weights, inputs, outputs, precision, at)?,
     };
     expect_len(l.bias, 4 * outputs, at, TensorKind::Bias)?;
+    check_activation(l, k, precision)?;
     match (precision, &l.quant) {
         // Without the `f32` feature, `check` has already refused f32 models.
         (Precision::F32, None) if cfg!(feature = "f32") => {
@@ -171,6 +172,43 @@ fn check_layer(
         _ => return Err(FormatError::PrecisionMismatch { layer: at }),
     }
     Ok(outputs)
+}
+
+/// A pointwise activation record (`FORMAT.md` §3.3, §5 rule 18). The int8-only build checks
+/// only what its path uses, the kind byte and the table's length; the parameter decoding is
+/// compiled with `f32` alone.
+fn check_activation(l: &LayerDesc<'_>, k: u8, precision: Precision) -> Result<(), FormatError> {
+    let Some(p) = l.pointwise() else {
+        return Ok(());
+    };
+    if p.kind >= crate::unstable::pointwise::KINDS {
+        return Err(FormatError::UnknownActivation {
+            layer: k,
+            kind: p.kind,
+        });
+    }
+    let bad = FormatError::ActivationRecord { layer: k };
+    match precision {
+        Precision::Int8 if p.data.len() != crate::unstable::pointwise::TABLE_LEN => Err(bad),
+        Precision::Int8 => Ok(()),
+        #[cfg(feature = "f32")]
+        Precision::F32 => {
+            use crate::unstable::pointwise::{Kind, Pointwise};
+            let kind = Kind::from_byte(p.kind).ok_or(bad)?;
+            let pw = Pointwise::from_params(kind, p.data).ok_or(bad)?;
+            if p.input_zero_point != 0 {
+                return Err(bad);
+            }
+            if pw.params_ok() {
+                Ok(())
+            } else {
+                Err(FormatError::ActivationParams { layer: k })
+            }
+        }
+        // Without the `f32` feature, `check` has already refused f32 models.
+        #[cfg(not(feature = "f32"))]
+        Precision::F32 => Ok(()),
+    }
 }
 
 /// Σ|w| over row `o` of int8 weights in `layout` (the data, without alignment bytes).

@@ -113,15 +113,24 @@ const fn last_outputs(b: &[u8]) -> Option<u64> {
     let mut k = 0;
     let mut outputs = 0;
     while k < layers {
-        // inputs, outputs, activation, layout.
+        // inputs, outputs, activation (variant 2, Pointwise, is followed by its record: the
+        // kind and zero point bytes, then the data), layout.
         let Some((_, next)) = varint(b, i) else {
             return None;
         };
         let Some((o, next)) = varint(b, next) else {
             return None;
         };
-        let Some((_, next)) = varint(b, next) else {
+        let Some((activation, next)) = varint(b, next) else {
             return None;
+        };
+        let next = if activation == 2 {
+            match skip_bytes(b, next + 2) {
+                Some(after) => after,
+                None => return None,
+            }
+        } else {
+            next
         };
         let Some((_, next)) = varint(b, next) else {
             return None;
@@ -171,6 +180,8 @@ mod tests {
     const DIGITS: &[u8] = crate::embed_blob!("../../firmware-example/models/digits.kgl");
     const VIBRATION: &[u8] = crate::embed_blob!("../../tests/fixtures/blobs/v2-vibration-int8.kgl");
     const VIB_F32: &[u8] = crate::embed_blob!("../../tests/fixtures/blobs/v1-vibration-f32.kgl");
+    /// Three layers, two of them with a pointwise tanh record (format version 4).
+    const TANH: &[u8] = crate::embed_blob!("../../firmware-example/models/tanh_digits_float.kgl");
 
     #[test]
     fn widths_in_a_const_context_size_buffers() {
@@ -189,7 +200,7 @@ mod tests {
             .unwrap()
             .map(|e| std::fs::read(e.unwrap().path()).unwrap())
             .collect();
-        blobs.extend([DIGITS, VIBRATION, VIB_F32].map(<[u8]>::to_vec));
+        blobs.extend([DIGITS, VIBRATION, VIB_F32, TANH].map(<[u8]>::to_vec));
         assert!(blobs.len() >= 6);
         for b in &blobs {
             assert_ne!((input_len(b), output_len(b)), (0, 0));

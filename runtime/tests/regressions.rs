@@ -3,6 +3,7 @@
 mod common;
 
 use common::{int8_layer, int8_model, quant};
+use kinglet_builder::{Activation, OwnedLayer, Precision};
 use kinglet_runtime::{FormatError, Input, Model, OutputKind};
 
 /// A 2 → 2 int8 softmax model whose output scale is `scale` (zero point `zp`).
@@ -86,4 +87,197 @@ fn labels_split_like_str_split() {
             Err(FormatError::LabelCount { expected: 3, found })
         );
     }
+}
+
+/// `common::int8_model` with one 2 → 2 layer whose activation is the pointwise record
+/// (`kind`, zero point `zp`, `data`), as a blob of `version` (0: the version the table needs).
+fn pointwise_int8(kind: u8, zp: i8, data: Vec<u8>, version: u16) -> Vec<u8> {
+    let mut l = int8_layer(2, &[1, 0, 0, 1], &[0, 0], 0);
+    l.activation = Activation::Pointwise {
+        kind,
+        input_zero_point: zp,
+        data,
+    };
+    let mut blob = int8_model(2, vec![l]).raw_blob();
+    if version != 0 {
+        let at = kinglet_runtime::unstable::wire::header::offset::VERSION;
+        blob[at..at + 2].copy_from_slice(&version.to_le_bytes());
+        kinglet_builder::reseal(&mut blob).unwrap();
+    }
+    blob
+}
+
+/// A 256-entry table: `q ↦ f(q)` for `q` in −128..=127.
+fn table(f: impl Fn(i32) -> i32) -> Vec<u8> {
+    (-128..=127)
+        .map(|q| f(q).clamp(-128, 127) as i8 as u8)
+        .collect()
+}
+
+/// The int8 path of a pointwise layer: requantise to the record's zero point, then look up.
+/// Layer: identity weights, multiplier 2^30 with shift 0 (M = 0.5), zero point 3; table
+/// `q ↦ −q`. Input [10, −7] (scale 1): accumulators [10, −7] → 0.5 · [10, −7] = [5, −3.5],
+/// rounded [5, −3] (ties up), + 3 = [8, 0] → table [−8, 0].
+#[test]
+fn int8_pointwise_table_is_applied_after_requantisation() {
+    let blob = pointwise_int8(0, 3, table(|q| -q), 0);
+    assert_eq!(
+        u16::from_le_bytes([blob[4], blob[5]]),
+        4,
+        "a record is version 4"
+    );
+    let m = Model::parse(&blob).unwrap();
+    let mut scratch = vec![0u8; m.scratch_bytes()];
+    let mut scores = [0f32; 2];
+    let mut stages = Vec::new();
+    m.infer_traced(Input::I16(&[10, -7]), &mut scratch, &mut scores, &mut |s| {
+        stages.push(
+            (0..s.values.len())
+                .filter_map(|i| s.values.int8(i))
+                .collect::<Vec<_>>(),
+        )
+    })
+    .unwrap();
+    assert_eq!(stages[1], vec![-8, 0]);
+    // Dequantised with the layer's output scale 0.05 and zero point 0.
+    assert_eq!(scores, [-0.4, 0.0]);
+}
+
+/// R35: a pointwise kind byte the reader does not know.
+#[test]
+fn r35_unknown_activation_kind_is_rejected() {
+    for kind in [11u8, 12, 200, 255] {
+        assert_eq!(
+            Model::parse(&pointwise_int8(kind, 0, table(|q| q), 0)).map(|_| ()),
+            Err(FormatError::UnknownActivation { layer: 0, kind })
+        );
+    }
+    assert_eq!(
+        FormatError::UnknownActivation { layer: 0, kind: 11 }.to_string(),
+        "layer 0: unknown activation kind 11"
+    );
+}
+
+/// R36: an int8 pointwise layer without its 256-entry table (none, one entry short or over,
+/// f32 parameters in its place).
+#[test]
+fn r36_int8_activation_without_its_table_is_rejected() {
+    let bad = Err(FormatError::ActivationRecord { layer: 0 });
+    for len in [0usize, 4, 255, 257, 512] {
+        assert_eq!(
+            Model::parse(&pointwise_int8(0, 0, vec![0; len], 0)).map(|_| ()),
+            bad,
+            "{len} bytes"
+        );
+    }
+    assert!(FormatError::ActivationRecord { layer: 0 }
+        .to_string()
+        .starts_with("layer 0: activation record does not match the precision"));
+}
+
+/// An f32 2 → 2 model (identity weights) with the pointwise record (`kind`, `zp`, `data`).
+fn pointwise_f32(kind: u8, zp: i8, data: Vec<u8>) -> Vec<u8> {
+    let act = Activation::Pointwise {
+        kind,
+        input_zero_point: zp,
+        data,
+    };
+    let l = OwnedLayer::f32(2, 2, act, &[1.0, 0.0, 0.0, 1.0], &[0.0, 0.0]);
+    let mut m = int8_model(2, vec![l]);
+    m.precision = Precision::F32;
+    m.input_quant = None;
+    m.raw_blob()
+}
+
+/// R37: an f32 pointwise layer with a table, the wrong number of parameters for its kind, or
+/// a non-zero zero point.
+#[test]
+fn r37_f32_activation_with_a_table_or_wrong_parameters_is_rejected() {
+    if !cfg!(feature = "f32") {
+        return;
+    }
+    let bad = Err(FormatError::ActivationRecord { layer: 0 });
+    let p = |v: &[f32]| kinglet_builder::le::f32s(v);
+    // Tanh (0) takes no parameter; a table is an int8 record.
+    assert_eq!(
+        Model::parse(&pointwise_f32(0, 0, vec![0; 256])).map(|_| ()),
+        bad
+    );
+    assert_eq!(
+        Model::parse(&pointwise_f32(0, 0, p(&[1.0]))).map(|_| ()),
+        bad
+    );
+    // LeakyRelu (2) takes one, Clip (3) two.
+    assert_eq!(Model::parse(&pointwise_f32(2, 0, vec![])).map(|_| ()), bad);
+    assert_eq!(
+        Model::parse(&pointwise_f32(3, 0, p(&[0.0]))).map(|_| ()),
+        bad
+    );
+    assert_eq!(
+        Model::parse(&pointwise_f32(3, 0, vec![0; 7])).map(|_| ()),
+        bad
+    );
+    assert_eq!(
+        Model::parse(&pointwise_f32(0, 1, vec![])).map(|_| ()),
+        bad,
+        "zero point"
+    );
+    assert!(Model::parse(&pointwise_f32(3, 0, p(&[0.0, 6.0]))).is_ok());
+}
+
+/// R38: NaN or infinite pointwise parameters, and a `Clip` with `lo > hi`.
+#[test]
+fn r38_bad_activation_parameters_are_rejected() {
+    if !cfg!(feature = "f32") {
+        return;
+    }
+    let bad = Err(FormatError::ActivationParams { layer: 0 });
+    let p = |v: &[f32]| kinglet_builder::le::f32s(v);
+    for v in [f32::NAN, f32::INFINITY, f32::NEG_INFINITY] {
+        assert_eq!(Model::parse(&pointwise_f32(2, 0, p(&[v]))).map(|_| ()), bad);
+        assert_eq!(
+            Model::parse(&pointwise_f32(7, 0, p(&[1.0, v]))).map(|_| ()),
+            bad
+        );
+    }
+    assert_eq!(
+        Model::parse(&pointwise_f32(3, 0, p(&[1.0, 0.5]))).map(|_| ()),
+        bad
+    );
+    assert!(Model::parse(&pointwise_f32(3, 0, p(&[0.5, 0.5]))).is_ok());
+    assert_eq!(
+        FormatError::ActivationParams { layer: 0 }.to_string(),
+        "layer 0: activation parameter is NaN, infinite or out of order"
+    );
+    // A valid one runs: tanh of the identity layer's outputs.
+    let blob = pointwise_f32(0, 0, vec![]);
+    let m = Model::parse(&blob).unwrap();
+    let mut scratch = vec![0u8; m.scratch_bytes()];
+    let mut scores = [0f32; 2];
+    m.infer(Input::F32(&[0.5, -2.0]), &mut scratch, &mut scores)
+        .unwrap();
+    // tanh 0.5 = 0.462117157, tanh −2 = −0.964027580 (numpy.tanh in float64)
+    assert!((scores[0] - 0.462_117_16).abs() < 1e-6, "{scores:?}");
+    assert!((scores[1] + 0.964_027_6).abs() < 1e-6, "{scores:?}");
+}
+
+/// R39: a pointwise record needs version 4, and version 4 holds nothing else.
+#[test]
+fn r39_pointwise_record_needs_format_version_4() {
+    for old in [1u16, 2, 3] {
+        assert_eq!(
+            Model::parse(&pointwise_int8(0, 0, table(|q| q), old)).map(|_| ()),
+            Err(FormatError::VersionMismatch {
+                header: old,
+                body: 4
+            })
+        );
+    }
+    let mut plain = int8_model(2, vec![int8_layer(2, &[1, 0, 0, 1], &[0, 0], 0)]).raw_blob();
+    plain[4] = 4;
+    kinglet_builder::reseal(&mut plain).unwrap();
+    assert_eq!(
+        Model::parse(&plain).map(|_| ()),
+        Err(FormatError::VersionMismatch { header: 4, body: 1 })
+    );
 }

@@ -57,6 +57,7 @@ GENERATORS = [
     ("tests/python/make_loader_cases.py", "tests/fixtures/loaders", None),
     ("tests/python/make_onnx_cases.py", "tests/fixtures/onnx", None),
     ("tests/python/make_linear_cases.py", "tests/fixtures/linear", None),
+    ("tests/python/make_activation_cases.py", "tests/fixtures/activation", None),
     ("tests/python/vet_ref.py", "tests/fixtures/vet", ["digits_sklearn.json", "stats_cases.json"]),
     ("tests/python/calib_ref.py", "tests/fixtures/calib", ["calib_cases.json"]),
 ]

@@ -578,11 +578,11 @@ def malformed(out_dir):
 
     nodes = [
         helper.make_node("Gemm", ["x", "W", "C"], ["h"], name="fc1", transB=1),
-        helper.make_node("Tanh", ["h"], ["a"], name="tanh1"),
+        helper.make_node("ThresholdedRelu", ["h"], ["a"], name="thresholded1"),
         helper.make_node("Gemm", ["a", "W2", "C2"], ["p"], name="fc2", transB=1),
     ]
     m = model(nodes, [w, c, f32("W2", rng.normal(0, 1, (2, 4))), f32("C2", np.zeros(2))], [inp("x", ["N", 3])], [out("p", ["N", 2])])
-    write(out_dir, "bad_tanh", m)
+    write(out_dir, "bad_thresholded_relu", m)
 
     nodes = [
         helper.make_node("Gemm", ["x", "W", "C"], ["h"], name="fc1", transB=1),

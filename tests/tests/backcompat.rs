@@ -4,6 +4,8 @@
 //! `kinglet pack examples/vibration/model.onnx --calibration examples/vibration/calibration.csv`
 //! at the commit that added it; `v3-wine-ovr-int8.kgl` at version 3 (the one-vs-rest output) by
 //! `kinglet pack tests/fixtures/linear/lr_ovr_wine_standard.onnx --calibration <its calibration
+//! rows as CSV>`; `v4-tanh-iris-int8.kgl` at version 4 (a pointwise tanh record) by
+//! `kinglet pack tests/fixtures/activation/mlp_tanh_iris.onnx --calibration <its calibration
 //! rows as CSV>`; none is ever regenerated. A reader change that rejects them, or
 //! changes their predictions, fails here; `runtime/tests/fixture_bytes.rs` checks that every
 //! single-byte change of each is rejected.
@@ -108,4 +110,40 @@ fn version_3_one_vs_rest_blob_still_reads_and_predicts() {
         .count();
     // 45 of 45 when the fixture was made.
     assert!(right >= 44, "{right}/45");
+}
+
+#[test]
+fn version_4_tanh_blob_still_reads_and_predicts() {
+    use kinglet_runtime::unstable::pointwise::activation_name;
+    let blob = std::fs::read(path("tests/fixtures/blobs/v4-tanh-iris-int8.kgl")).unwrap();
+    assert_eq!(u16::from_le_bytes([blob[4], blob[5]]), 4);
+    let m = Model::parse(&blob).unwrap();
+    assert_eq!(
+        (m.precision(), m.input_len(), m.classes()),
+        (Precision::Int8, 4, 3)
+    );
+    let acts: Vec<_> = m.layers().map(|l| activation_name(l.desc)).collect();
+    assert_eq!(acts, ["tanh", "linear"]);
+    // The held-out rows of load_iris (Fisher 1936) recorded with the fixture's model.
+    let case: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(path("tests/fixtures/activation/mlp_tanh_iris.json")).unwrap(),
+    )
+    .unwrap();
+    let rows = case["heldout"].as_array().unwrap();
+    let labels = case["heldout_labels"].as_array().unwrap();
+    let right = rows
+        .iter()
+        .zip(labels)
+        .filter(|(r, l)| {
+            let x: Vec<f32> = r
+                .as_array()
+                .unwrap()
+                .iter()
+                .map(|v| v.as_f64().unwrap() as f32)
+                .collect();
+            run(&m, &x).0 as u64 == l.as_u64().unwrap()
+        })
+        .count();
+    // 38 of 38 when the fixture was made.
+    assert!(right >= 37, "{right}/38");
 }

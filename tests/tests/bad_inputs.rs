@@ -10,6 +10,7 @@ use kinglet_builder::{
     le, planned_scratch, raw_blob, raw_blob_with_layers, OwnedLayer, OwnedModel,
 };
 use kinglet_converter::dataset::{load_csv, CsvOptions};
+use kinglet_converter::graph::Activation;
 use kinglet_converter::graph::{DenseLayer, FloatModel};
 use kinglet_converter::import::onnx::import_onnx_file;
 use kinglet_converter::pack::{pack_f32, pack_int8};
@@ -19,7 +20,7 @@ use kinglet_runtime::unstable::wire::format::{
 };
 use kinglet_runtime::unstable::wire::header::offset::{self, VERSION};
 use kinglet_runtime::unstable::wire::header::CHECKED_FROM;
-use kinglet_runtime::{Activation, FormatError, Input, Model, RunError, TensorKind, HEADER_LEN};
+use kinglet_runtime::{FormatError, Input, Model, RunError, TensorKind, HEADER_LEN};
 use kinglet_tests::path;
 use std::sync::OnceLock;
 

@@ -2,7 +2,7 @@
 //! `tests/python/calib_ref.py` (numpy 2.4.6; regenerate and compare with
 //! `bash tests/python/run_all.sh`).
 use kinglet_converter::dataset::Dataset;
-use kinglet_converter::graph::{DenseLayer, FloatModel};
+use kinglet_converter::graph::{Activation, DenseLayer, FloatModel};
 use kinglet_converter::pack::{pack_f32, pack_int8_with, FoldScaler, Int8Options};
 use kinglet_converter::quantise::bias_correction::bias_corrected;
 use kinglet_converter::quantise::calibrate::{calibrate, RangeMethod};
@@ -11,7 +11,7 @@ use kinglet_converter::quantise::params::activation_quant;
 use kinglet_converter::quantise::percentile::percentile;
 use kinglet_converter::vet::fidelity::{int8_bounds, Energy};
 use kinglet_runtime::unstable::scale::quantize_linear;
-use kinglet_runtime::unstable::wire::format::{Activation, OutputKind};
+use kinglet_runtime::unstable::wire::format::OutputKind;
 use kinglet_runtime::Model;
 use serde_json::Value;
 

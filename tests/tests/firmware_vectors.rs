@@ -197,6 +197,20 @@ fn vector_classes_agree_with_scikit_learn() {
         .iter()
         .map(|p| argmax(p))
         .collect();
+    // The tanh MLP's: MLPClassifier.predict_proba of the same held-out rows
+    // (tests/fixtures/activation/mlp_tanh_digits.json, written by make_activation_cases.py).
+    let tanh: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(path("tests/fixtures/activation/mlp_tanh_digits.json")).unwrap(),
+    )
+    .unwrap();
+    assert!(tanh["sklearn"]["source"]
+        .as_str()
+        .unwrap()
+        .contains("predict_proba"));
+    let sk_tanh: Vec<usize> = rows(&tanh["sklearn"]["rows"])
+        .iter()
+        .map(|p| argmax(p))
+        .collect();
     // Its rows are the digits example's held-out rows (the same split), row for row.
     let heldout = kinglet_tests::read_float_csv("examples/digits/heldout.csv");
     let lr_rows = rows(&lr["heldout"]);
@@ -204,12 +218,15 @@ fn vector_classes_agree_with_scikit_learn() {
     for (a, b) in lr_rows.iter().zip(&heldout) {
         assert_eq!(&a[..], &b[..64]);
     }
+    let tanh_rows = rows(&tanh["heldout"]);
+    assert_eq!(tanh_rows, lr_rows, "the tanh MLP's split is the same");
     for set in &SETS {
         let (_, classes) = run_set(set);
         let range = set.first..set.first + set.count;
         let reference: Vec<usize> = match set.path {
             kinglet_fw_vectors::Path::Vibration => proba[range].iter().map(|p| argmax(p)).collect(),
             _ if set.name.starts_with("lr_") => sk_lr[range].to_vec(),
+            _ if set.name.starts_with("tanh_") => sk_tanh[range].to_vec(),
             _ => sk_digits[range].to_vec(),
         };
         let agree = classes
@@ -217,7 +234,10 @@ fn vector_classes_agree_with_scikit_learn() {
             .zip(&reference)
             .filter(|(a, b)| a == b)
             .count();
-        let need = if set.model == assets::DIGITS_FLOAT || set.model == assets::LR_DIGITS_FLOAT {
+        let need = if set.model == assets::DIGITS_FLOAT
+            || set.model == assets::LR_DIGITS_FLOAT
+            || set.model == assets::TANH_DIGITS_FLOAT
+        {
             set.count
         } else {
             (set.count * 97).div_ceil(100)

@@ -243,9 +243,12 @@ fn malformed_fixtures_give_clear_errors() {
             &["'conv1' (op Conv, domain ai.onnx)", "supported:", "Gemm"],
         ),
         (
-            "bad_tanh",
+            "bad_thresholded_relu",
             |e| matches!(e, E::UnsupportedOp { .. }),
-            &["'tanh1' (op Tanh, domain ai.onnx)", "supported:"],
+            &[
+                "'thresholded1' (op ThresholdedRelu, domain ai.onnx)",
+                "supported:",
+            ],
         ),
         (
             "bad_shape_mismatch",

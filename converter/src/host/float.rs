@@ -127,6 +127,9 @@ impl FloatHost {
                     if layer.relu && *v < 0.0 {
                         *v = 0.0;
                     }
+                    if let Some(p) = &layer.pointwise {
+                        *v = p.eval(*v);
+                    }
                 }
             }
             stages.push(FloatTensor {

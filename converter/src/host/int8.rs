@@ -316,14 +316,18 @@ fn dense(layer: &Int8Layer, x: &Int8Tensor, rows: usize) -> Int8Tensor {
         for ((o, &a), ((&b, &mult), &shift)) in out.iter_mut().zip(acc).zip(params) {
             // `Model::parse` proved `bias + dot` fits in i32; the kernels add in wrapping i32.
             let sum = (a as i32).wrapping_add(b);
-            *o = requantise_validated(
+            let q = requantise_validated(
                 sum,
                 mult,
                 shift,
-                layer.zero_point,
+                layer.requant_zero_point,
                 layer.act_min,
                 layer.act_max,
             );
+            *o = match &layer.table {
+                Some(t) => t.get(usize::from(q as u8 ^ 0x80)).map_or(q, |&b| b as i8),
+                None => q,
+            };
         }
     }
     Int8Tensor {
@@ -366,6 +370,8 @@ mod tests {
             zero_point: 0,
             act_min: -128,
             act_max: 127,
+            requant_zero_point: 0,
+            table: None,
         };
         assert!(layer.dot_bound() <= F32_EXACT);
         let x = Int8Tensor {

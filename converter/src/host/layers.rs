@@ -43,6 +43,8 @@ pub struct FloatLayer {
     pub bias: Vec<f32>,
     /// A fused ReLU.
     pub relu: bool,
+    /// A pointwise activation after the affine map.
+    pub pointwise: Option<kinglet_runtime::unstable::pointwise::Pointwise>,
 }
 
 impl FloatLayer {
@@ -57,6 +59,10 @@ impl FloatLayer {
                 .collect(),
             bias: words(l.bias).map(f32::from_le_bytes).collect(),
             relu: l.activation == Activation::Relu,
+            pointwise: l.pointwise().and_then(|p| {
+                use kinglet_runtime::unstable::pointwise::{Kind, Pointwise};
+                Kind::from_byte(p.kind).and_then(|k| Pointwise::from_params(k, p.data))
+            }),
         }
     }
 }
@@ -84,6 +90,10 @@ pub struct Int8Layer {
     pub act_min: i8,
     /// The activation's upper clamp.
     pub act_max: i8,
+    /// The zero point requantisation adds: `zero_point`, or a pointwise table's input one.
+    pub requant_zero_point: i8,
+    /// A pointwise activation's 256-entry table (indexed by the requantised value + 128).
+    pub table: Option<Vec<u8>>,
 }
 
 impl Int8Layer {
@@ -115,6 +125,10 @@ impl Int8Layer {
             zero_point: q.output_zero_point,
             act_min,
             act_max,
+            requant_zero_point: l
+                .pointwise()
+                .map_or(q.output_zero_point, |p| p.input_zero_point),
+            table: l.pointwise().map(|p| p.data.to_vec()),
         })
     }
 

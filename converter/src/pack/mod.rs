@@ -20,7 +20,7 @@ use crate::quantise::advice::{self, num, percentile_option, rows_text, suggested
 use crate::quantise::bias_correction::bias_corrected;
 use crate::quantise::calibrate::{range_of, Calibration, RangeMethod, TensorRange};
 use crate::quantise::plausible::biases_lost;
-use crate::quantise::quantise;
+use crate::quantise::quantise_with;
 use crate::quantise::spread::TensorStats;
 
 /// The f32 blob of `model` (for FPU boards, and the float reference of comparisons).
@@ -32,7 +32,7 @@ pub fn pack_f32(model: &FloatModel) -> Result<Vec<u8>> {
             Ok(OwnedLayer::f32(
                 wire_u32(l.inputs, "layer width")?,
                 wire_u32(l.outputs, "layer width")?,
-                l.activation,
+                crate::layer_table::builder_activation(&l.activation),
                 &l.weights,
                 &l.bias,
             ))
@@ -136,9 +136,9 @@ pub fn pack_int8_options(
     check_plausible(model, &cal, &data.source)?;
     let build = |m: &FloatModel, ranges: &[TensorRange], means: &[Vec<f64>]| -> Result<Vec<u8>> {
         let owned = if opts.bias_correction {
-            quantise(&bias_corrected(m, means)?, ranges)?
+            quantise_with(&bias_corrected(m, means)?, ranges, &cal.pre_activation)?
         } else {
-            quantise(m, ranges)?
+            quantise_with(m, ranges, &cal.pre_activation)?
         };
         Ok(owned.encode_in(WeightLayout::Blocked4x4)?)
     };

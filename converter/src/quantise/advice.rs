@@ -157,6 +157,7 @@ mod tests {
             tensors: vec![t],
             scaled_input: vec![],
             means: vec![],
+            pre_activation: vec![],
         };
         // 153 values, 3 far above: 100 · (152 - 3) / 152 = 98.026…
         assert_eq!(suggested_percentile(&cal.tensors), Some(98.02));

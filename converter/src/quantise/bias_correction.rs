@@ -54,7 +54,7 @@ pub fn bias_corrected(model: &FloatModel, means: &[Vec<f64>]) -> Result<FloatMod
 #[cfg(test)]
 mod tests {
     use super::*;
-    use kinglet_runtime::unstable::wire::format::Activation;
+    use crate::graph::Activation;
 
     #[test]
     fn hand_worked_correction() {

@@ -57,6 +57,9 @@ pub struct Calibration {
     /// The mean of every element of every tensor over the rows, in the order of `ranges`
     /// (the float inputs of each layer: what bias correction needs).
     pub means: Vec<Vec<f64>>,
+    /// For each layer with a pointwise activation, the range of its values before the
+    /// activation (what the int8 table's input covers); `None` for the other layers.
+    pub pre_activation: Vec<Option<TensorRange>>,
 }
 
 /// The name of tensor `index` in messages: `input` (the scaled input), then `layer N output`,
@@ -153,6 +156,11 @@ pub fn calibrate_observed(
         tensors.push(TensorStats::of(tensor_name(t), v, &sorted, width, range));
         ranges.push(range);
     }
+    let pre_activation = float_model
+        .layers()
+        .zip(&values)
+        .map(|(l, x)| pre_activation_range(l.desc, x, data.rows, method))
+        .collect();
     let scaled_input = values.into_iter().next().unwrap_or_default();
     Ok(Calibration {
         method,
@@ -160,6 +168,7 @@ pub fn calibrate_observed(
         tensors,
         scaled_input,
         means,
+        pre_activation,
     })
 }
 
@@ -174,6 +183,30 @@ pub fn element_means(values: &[f32], width: usize) -> Vec<f64> {
         rows += 1;
     }
     sum.iter().map(|s| s / rows.max(1) as f64).collect()
+}
+
+/// The range of a pointwise layer's affine output `W x + b` over the traced inputs `x`
+/// (`rows` rows), by `method`; `None` for a layer without a pointwise activation.
+fn pre_activation_range(
+    l: &kinglet_runtime::unstable::wire::format::LayerDesc<'_>,
+    x: &[f32],
+    rows: usize,
+    method: RangeMethod,
+) -> Option<TensorRange> {
+    l.pointwise()?;
+    let layer = crate::host::layers::FloatLayer::new(l);
+    let mut pre = Vec::with_capacity(rows * layer.outputs);
+    for row in x.chunks_exact(layer.inputs.max(1)) {
+        for (w, b) in layer
+            .weights
+            .chunks_exact(layer.inputs.max(1))
+            .zip(&layer.bias)
+        {
+            pre.push(w.iter().zip(row).map(|(w, v)| w * v).sum::<f32>() + b);
+        }
+    }
+    pre.sort_by(f32::total_cmp);
+    Some(range_of(&pre, method))
 }
 
 /// The range of `sorted` (ascending) by `method`.

@@ -15,15 +15,28 @@ pub mod spread;
 use anyhow::{anyhow, bail, Result};
 use kinglet_runtime::unstable::wire::format::Precision;
 
-use crate::graph::FloatModel;
+use crate::graph::{Activation, FloatModel, Pointwise};
+use crate::layer_table::builder_activation;
 use crate::layer_table::{owned_table, wire_u32};
 use advice::num;
 use calibrate::TensorRange;
+use kinglet_builder::Activation as BuilderActivation;
 use kinglet_builder::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 use params::{activation_quant, decompose_multiplier, quantise_weight, weight_scale, AffineQuant};
 
 /// Quantises `model` given the calibrated range of each tensor (input, then each layer output).
+/// A model with a pointwise activation needs [`quantise_with`] and the ranges before them.
 pub fn quantise(model: &FloatModel, ranges: &[TensorRange]) -> Result<OwnedModel> {
+    quantise_with(model, ranges, &[])
+}
+
+/// [`quantise`], with `pre[k]` the range of layer `k`'s values before its pointwise activation
+/// (the table's input; `None` or missing for layers without one).
+pub fn quantise_with(
+    model: &FloatModel,
+    ranges: &[TensorRange],
+    pre: &[Option<TensorRange>],
+) -> Result<OwnedModel> {
     if ranges.len() != model.layers.len() + 1 {
         bail!(
             "internal: {} ranges for {} tensors",
@@ -57,7 +70,30 @@ pub fn quantise(model: &FloatModel, ranges: &[TensorRange]) -> Result<OwnedModel
             (Some(a), Some(b)) => (*a, *b),
             _ => bail!("internal: missing range for layer {k}"),
         };
-        layers.push(quantise_layer(k, l, qi, qo)?);
+        let table = match l.activation {
+            Activation::Pointwise(p) => {
+                let Some(Some(r)) = pre.get(k) else {
+                    bail!("internal: layer {k} has a pointwise activation but no range before it");
+                };
+                let (lo, hi) = saturation_trim(&p, r.min, r.max, q[k + 1]);
+                let q_pre = activation_quant(lo, hi);
+                if !(q_pre.scale.is_finite()
+                    && q_pre.scale > 0.0
+                    && (q_pre.scale * 255.0).is_finite())
+                {
+                    bail!(
+                        "layer {} before its {} activation: the calibrated range [{}, {}] is too wide for int8",
+                        k + 1,
+                        p.kind.name(),
+                        num(f64::from(r.min)),
+                        num(f64::from(r.max))
+                    );
+                }
+                Some((p, q_pre))
+            }
+            _ => None,
+        };
+        layers.push(quantise_layer(k, l, qi, qo, table)?);
     }
     let q_in = q
         .first()
@@ -67,12 +103,74 @@ pub fn quantise(model: &FloatModel, ranges: &[TensorRange]) -> Result<OwnedModel
     owned_table(model, Precision::Int8, Some(input_quant), layers)
 }
 
+/// Steps of the grid [`saturation_trim`] scans.
+const TRIM_GRID: usize = 4096;
+
+/// The part of a pointwise layer's calibrated input range `[lo, hi]` outside which the
+/// quantised activation `quantise(f(x))` (onto `qo`) is constant: where `tanh`, a sigmoid or a
+/// clip has saturated, more input range buys nothing, and a narrower one gives the table's
+/// input finer steps. Scanned on a grid of [`TRIM_GRID`] steps from each end (a choice of
+/// ours: common practice, no source, is to clip saturated ranges); values beyond the trimmed
+/// range saturate in requantisation and get the end's table entry, which is the constant.
+fn saturation_trim(p: &Pointwise, lo: f32, hi: f32, qo: AffineQuant) -> (f32, f32) {
+    if lo.partial_cmp(&hi) != Some(std::cmp::Ordering::Less) {
+        return (lo, hi);
+    }
+    let quant = |x: f32| {
+        ((p.eval(x) / qo.scale).round_ties_even() + f32::from(qo.zero_point)).clamp(-128.0, 127.0)
+    };
+    let step = (f64::from(hi) - f64::from(lo)) / TRIM_GRID as f64;
+    let at = |i: usize| (f64::from(lo) + step * i as f64) as f32;
+    let first = quant(lo);
+    let a = (1..=TRIM_GRID)
+        .find(|&i| quant(at(i)) != first)
+        .map_or(TRIM_GRID, |i| i - 1);
+    let last = quant(hi);
+    let b = (0..TRIM_GRID)
+        .rev()
+        .find(|&i| quant(at(i)) != last)
+        .map_or(0, |i| i + 1);
+    if a < b {
+        (at(a), at(b))
+    } else {
+        (lo, hi)
+    }
+}
+
+/// `q_out = quantise(f(dequantise(q_in)))` for every int8 `q_in`, in the order −128 to 127:
+/// `dequantise` with the requantised tensor's `q_pre`, `f` in f32 as the runtime's f32 path
+/// computes it, `quantise` as ONNX `QuantizeLinear` (round half to even, saturate) with the
+/// next tensor's `qo`.
+pub fn pointwise_table(p: &Pointwise, q_pre: AffineQuant, qo: AffineQuant) -> Vec<u8> {
+    (-128i32..=127)
+        .map(|q| {
+            let x = (q - i32::from(q_pre.zero_point)) as f32 * q_pre.scale;
+            let y = p.eval(x);
+            let v = (y / qo.scale).round_ties_even() + f32::from(qo.zero_point);
+            v.clamp(-128.0, 127.0) as i8 as u8
+        })
+        .collect()
+}
+
 fn quantise_layer(
     k: usize,
     l: &crate::graph::DenseLayer,
     qi: AffineQuant,
     qo: AffineQuant,
+    table: Option<(Pointwise, AffineQuant)>,
 ) -> Result<OwnedLayer> {
+    // A pointwise layer requantises onto its table's input; the table maps it onto `qo`.
+    let (q_req, activation) = match table {
+        Some((p, q_pre)) => (
+            q_pre,
+            BuilderActivation::Pointwise {
+                kind: p.kind as u8,
+                input_zero_point: q_pre.zero_point,
+                data: pointwise_table(&p, q_pre, qo),
+            },
+        ),
+        None => (qo, builder_activation(&l.activation)),
+    };
     let mut w_q = Vec::with_capacity(l.weights.len());
     let mut bias = Vec::with_capacity(l.outputs);
     let mut weight_scales = Vec::with_capacity(l.outputs);
@@ -103,13 +201,13 @@ fn quantise_layer(
                  the bias is too large for the input scale — check the calibration range"
             );
         }
-        let real = acc_scale / f64::from(qo.scale);
+        let real = acc_scale / f64::from(q_req.scale);
         let (m, s) = decompose_multiplier(real).ok_or_else(|| {
             anyhow!(
                 "layer {k}, output {o}: requantisation multiplier {real:e} (input scale {:e} × weight scale {s_w:e} / output scale {:e}) \
                  is outside [2^-32, 2^31), the range a shift of -31 to 31 covers; the calibrated ranges of the layer's input and output are too far apart",
                 qi.scale,
-                qo.scale
+                q_req.scale
             )
         })?;
         w_q.extend(row_q);
@@ -128,7 +226,7 @@ fn quantise_layer(
     Ok(OwnedLayer::int8(
         wire_u32(l.inputs, "layer width")?,
         wire_u32(l.outputs, "layer width")?,
-        l.activation,
+        activation,
         &w_q,
         &bias,
         quant,
@@ -177,7 +275,7 @@ fn integer_input(model: &FloatModel, q: AffineQuant) -> Result<OwnedInput> {
 mod tests {
     use super::*;
     use crate::graph::DenseLayer;
-    use kinglet_runtime::unstable::wire::format::{Activation, OutputKind};
+    use crate::graph::{Activation, OutputKind};
 
     fn identity() -> FloatModel {
         FloatModel {

@@ -78,7 +78,7 @@ pub fn biases_lost(layer: &DenseLayer, scaled: &[f32], range: TensorRange) -> Op
 #[cfg(test)]
 mod tests {
     use super::*;
-    use kinglet_runtime::unstable::wire::format::Activation;
+    use crate::graph::Activation;
 
     fn layer(bias: [f32; 2]) -> DenseLayer {
         DenseLayer {

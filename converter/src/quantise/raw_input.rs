@@ -74,9 +74,10 @@ pub fn exact_integer_range(data: &Dataset) -> Option<TensorRange> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::graph::Activation;
     use crate::graph::{DenseLayer, Scaler, ScalerKind};
     use crate::quantise::params::activation_quant;
-    use kinglet_runtime::unstable::wire::format::{Activation, OutputKind};
+    use kinglet_runtime::unstable::wire::format::OutputKind;
 
     fn data(v: Vec<f32>) -> Dataset {
         Dataset {

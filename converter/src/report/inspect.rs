@@ -1,5 +1,6 @@
 //! What a packed blob holds, as data: shapes, parameters, bytes, memory, quantisation.
-use kinglet_runtime::unstable::wire::format::{Activation, OutputKind, Precision};
+use kinglet_runtime::unstable::pointwise::activation_name;
+use kinglet_runtime::unstable::wire::format::{OutputKind, Precision};
 use kinglet_runtime::Model;
 use serde::Serialize;
 
@@ -81,11 +82,7 @@ impl BlobReport {
                 layer: i + 1,
                 inputs: l.desc.inputs as usize,
                 outputs: l.desc.outputs as usize,
-                activation: match l.desc.activation {
-                    Activation::Relu => "relu",
-                    Activation::Linear => "linear",
-                }
-                .into(),
+                activation: activation_name(l.desc).into(),
                 parameters: l.parameters(),
                 macs: l.macs(),
                 bytes: l.tensor_bytes(),

@@ -1,6 +1,7 @@
 //! The two models being compared: a float (f32) blob and an int8 blob of the same network.
 use anyhow::{bail, Result};
-use kinglet_runtime::unstable::wire::format::{Activation, OutputKind, Precision};
+use kinglet_runtime::unstable::pointwise::activation_name;
+use kinglet_runtime::unstable::wire::format::{OutputKind, Precision};
 use kinglet_runtime::Model;
 
 /// A float model and its int8 counterpart, checked to have the same shape.
@@ -94,10 +95,7 @@ impl<'a> ModelPair<'a> {
         };
         let mut out = vec![(input.to_string(), self.int8.input_len())];
         for (k, l) in layers.iter().enumerate() {
-            let act = match l.desc.activation {
-                Activation::Relu => "relu",
-                Activation::Linear => "linear",
-            };
+            let act = activation_name(l.desc);
             let name = if k + 1 == last && self.int8.desc().output != OutputKind::Logits {
                 format!(
                     "layer {} ({act}, before {})",
@@ -123,23 +121,16 @@ impl<'a> ModelPair<'a> {
     }
 }
 
-fn shape(d: &kinglet_runtime::unstable::wire::format::LayerDesc<'_>) -> (u32, u32, Activation) {
-    (d.inputs, d.outputs, d.activation)
+/// Widths and activation name: an int8 layer's table and an f32 layer's parameters of the
+/// same activation differ in bytes, not in kind.
+fn shape(d: &kinglet_runtime::unstable::wire::format::LayerDesc<'_>) -> (u32, u32, &'static str) {
+    (d.inputs, d.outputs, activation_name(d))
 }
 
-fn describe(layers: &[(u32, u32, Activation)]) -> String {
+fn describe(layers: &[(u32, u32, &'static str)]) -> String {
     let parts: Vec<String> = layers
         .iter()
-        .map(|(i, o, a)| {
-            format!(
-                "{i}→{o} {}",
-                if *a == Activation::Relu {
-                    "relu"
-                } else {
-                    "linear"
-                }
-            )
-        })
+        .map(|(i, o, a)| format!("{i}→{o} {a}"))
         .collect();
     format!("[{}]", parts.join(", "))
 }

@@ -20,6 +20,14 @@ pub const VIBRATION: &[u8] = kinglet_runtime::embed_blob!("../../models/vibratio
 pub const LR_DIGITS: &[u8] = kinglet_runtime::embed_blob!("../../models/lr_digits.kgl");
 /// The same logistic regression, f32.
 pub const LR_DIGITS_FLOAT: &[u8] = kinglet_runtime::embed_blob!("../../models/lr_digits_float.kgl");
+/// A scikit-learn `MLPClassifier(activation="tanh")` on the digits (64 → 32 → 16 → 10,
+/// exported by skl2onnx: `tests/fixtures/activation/mlp_tanh_digits.onnx`, the same split as
+/// the digits example), int8 with its tanh tables (`kinglet pack ... --calibration
+/// examples/digits/calibration.csv`; format version 4).
+pub const TANH_DIGITS: &[u8] = kinglet_runtime::embed_blob!("../../models/tanh_digits.kgl");
+/// The same tanh network, f32 (tanh computed with libm).
+pub const TANH_DIGITS_FLOAT: &[u8] =
+    kinglet_runtime::embed_blob!("../../models/tanh_digits_float.kgl");
 
 /// Pixels per digits image.
 pub const DIGITS_PIXELS: usize = 64;
@@ -52,10 +60,18 @@ pub const LR_DIGITS_SCRATCH: usize = kinglet_runtime::scratch_bytes(LR_DIGITS);
 /// Scratch bytes of [`LR_DIGITS_FLOAT`].
 pub const LR_DIGITS_FLOAT_SCRATCH: usize = kinglet_runtime::scratch_bytes(LR_DIGITS_FLOAT);
 
+/// Scratch bytes of [`TANH_DIGITS`].
+pub const TANH_DIGITS_SCRATCH: usize = kinglet_runtime::scratch_bytes(TANH_DIGITS);
+/// Scratch bytes of [`TANH_DIGITS_FLOAT`].
+pub const TANH_DIGITS_FLOAT_SCRATCH: usize = kinglet_runtime::scratch_bytes(TANH_DIGITS_FLOAT);
+
 /// The largest scratch buffer any of the models needs.
 pub const MAX_SCRATCH: usize = max(
-    max(max(DIGITS_SCRATCH, DIGITS_FLOAT_SCRATCH), VIBRATION_SCRATCH),
-    max(LR_DIGITS_SCRATCH, LR_DIGITS_FLOAT_SCRATCH),
+    max(
+        max(max(DIGITS_SCRATCH, DIGITS_FLOAT_SCRATCH), VIBRATION_SCRATCH),
+        max(LR_DIGITS_SCRATCH, LR_DIGITS_FLOAT_SCRATCH),
+    ),
+    max(TANH_DIGITS_SCRATCH, TANH_DIGITS_FLOAT_SCRATCH),
 );
 
 const fn max(a: usize, b: usize) -> usize {

@@ -54,7 +54,7 @@ pub struct VectorSet {
 }
 
 /// Every set, in the order the firmware prints them.
-pub const SETS: [VectorSet; 6] = [
+pub const SETS: [VectorSet; 8] = [
     VectorSet {
         name: "digits_u8",
         model: assets::DIGITS,
@@ -102,6 +102,22 @@ pub const SETS: [VectorSet; 6] = [
         first: 60,
         count: 10,
         expected: include_str!("../../../tests/fixtures/vectors/lr_digits_float.txt"),
+    },
+    VectorSet {
+        name: "tanh_digits_u8",
+        model: assets::TANH_DIGITS,
+        path: Path::DigitsU8,
+        first: 0,
+        count: 40,
+        expected: include_str!("../../../tests/fixtures/vectors/tanh_digits_u8.txt"),
+    },
+    VectorSet {
+        name: "tanh_digits_float",
+        model: assets::TANH_DIGITS_FLOAT,
+        path: Path::DigitsF32,
+        first: 40,
+        count: 10,
+        expected: include_str!("../../../tests/fixtures/vectors/tanh_digits_float.txt"),
     },
 ];
 

@@ -20,9 +20,19 @@ pub struct Goal {
 
 /// Values BENCHMARKS.md records for goals not met yet: `--check` holds them as regression
 /// limits (with [`MARGIN`]) until a better kernel meets the goal.
-const RECORDED: [(&str, f64); 1] = [
-    // Soft-float for dequantisation and softmax (about 2.5 KiB) is most of the gap.
-    ("m0 runtime .text, int8-only build, bytes", 10844.0),
+const RECORDED: [(&str, f64); 4] = [
+    // Soft-float for dequantisation and softmax (about 2.5 KiB) is most of the gap; the
+    // pointwise activation record (format version 4: its decoding, its check, the table step)
+    // added 488 bytes (10844 before it).
+    ("m0 runtime .text, int8-only build, bytes", 11504.0),
+    // 8260 before the pointwise activation record, which added 468 bytes; the goal of at most
+    // 300 for it is missed.
+    ("m4 runtime .text, int8-only build, bytes", 8728.0),
+    // 8004 before the pointwise activation record (+492 bytes).
+    ("m0 runtime .text, int8-only build, classify, bytes", 8496.0),
+    // The table step is a pass of its own after the kernel (load, flip, look up, store);
+    // inside the kernels' store it would be one or two instructions.
+    ("m4 int8 activation table instr/element", 4.65),
 ];
 
 impl Goal {
@@ -90,6 +100,12 @@ pub fn goals(targets: &[Target]) -> Vec<Goal> {
                 true,
             );
         }
+        add(
+            format!("{t} int8 activation table instr/element"),
+            b.per_mac("act-table", "kernel"),
+            if dsp { 3.0 } else { 5.0 },
+            true,
+        );
         add(
             format!("{t} runtime .text, int8-only build, bytes"),
             Some(r.size_int8_only as f64),

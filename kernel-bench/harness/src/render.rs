@@ -70,6 +70,20 @@ pub fn results(targets: &[Target], estimates: &[Checked]) -> String {
     }
     w!(
         s,
+        "\nint8 pointwise activation table (`pointwise::apply_table`, 100 values), instructions per element:\n"
+    );
+    w!(s, "| target | instr/element |");
+    w!(s, "|---|---:|");
+    for t in targets {
+        w!(
+            s,
+            "| {} | {} |",
+            t.name,
+            per_mac(t.bench.per_mac("act-table", "kernel"))
+        );
+    }
+    w!(
+        s,
         "\nWhole int8 inference (scaling, every layer, softmax), instructions:\n"
     );
     w!(s, "| model | target | MACs | before (portable) | after (kernel) | instr/MAC after | Σ dense layers | whole / Σ layers |");

@@ -13,14 +13,44 @@ pub const MAX_WIDTH: u32 = 16_384;
 /// Largest right shift (for the integer input path's per-feature fixed point).
 pub const MAX_INPUT_SHIFT: u8 = 62;
 
-/// Activation applied to a dense layer's output (fused into requantisation).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+/// Activation applied to a dense layer's output. A pointwise one's record is in the layer
+/// ([`LayerDesc::pointwise`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Activation {
     /// No activation: the affine output is kept.
     Linear,
-    /// `max(0, x)`.
+    /// `max(0, x)`, fused into requantisation (the int8 clamp at the zero point).
     Relu,
+    /// Any other pointwise function (`FORMAT.md` §3.3; [`crate::unstable::pointwise`]).
+    /// Format version 4.
+    Pointwise,
+}
+
+/// The wire form of a layer's activation: the enum with the pointwise record inside
+/// (`FORMAT.md` §3). [`LayerDesc`] keeps the record's fields beside a one-byte
+/// [`Activation`] instead, so that a layer of the table grows by one slice, not by a tagged
+/// record (every `Model` holds [`MAX_LAYERS`] of them).
+#[derive(Serialize, Deserialize)]
+enum ActivationWire<'a> {
+    Linear,
+    Relu,
+    #[serde(borrow)]
+    Pointwise(PointwiseDesc<'a>),
+}
+
+/// The record of a pointwise activation (`FORMAT.md` §3.3).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct PointwiseDesc<'a> {
+    /// The kind byte ([`crate::unstable::pointwise::Kind`]).
+    pub kind: u8,
+    /// int8: the zero point of the requantised values before the table; f32: 0.
+    pub input_zero_point: i8,
+    /// f32: the kind's parameters, little-endian f32; int8: the 256-entry table, indexed by
+    /// the requantised value plus 128.
+    #[serde(borrow)]
+    pub data: &'a [u8],
 }
 
 /// How the last layer's outputs are turned into scores.
@@ -137,27 +167,147 @@ pub struct LayerQuantDesc<'a> {
     pub output_zero_point: i8,
 }
 
-/// One dense layer.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+/// One dense layer. Serialised as its wire form (`FORMAT.md` §3: the activation enum with the
+/// pointwise record inside), held with the record's fields beside the activation.
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub struct LayerDesc<'a> {
     /// Input width.
     pub inputs: u32,
     /// Output width.
     pub outputs: u32,
-    /// Activation fused after the layer.
+    /// Activation after the layer.
     pub activation: Activation,
+    /// The pointwise record's kind byte (0 unless `activation` is `Pointwise`).
+    pub act_kind: u8,
+    /// The pointwise record's zero point (0 unless `activation` is `Pointwise`).
+    pub act_zero_point: i8,
+    /// The pointwise record's data (empty unless `activation` is `Pointwise`).
+    pub act_data: &'a [u8],
     /// Order of `weights`.
     pub layout: WeightLayout,
     /// The weights in `layout`: `inputs * outputs` elements for `OutputMajor`, the padded
     /// blocks for `Blocked4x4`; `i8` for int8 models, little-endian `f32` for f32 models.
-    #[serde(borrow)]
     pub weights: &'a [u8],
     /// `outputs` biases: little-endian `i32` (input zero point folded in) or `f32`.
-    #[serde(borrow)]
     pub bias: &'a [u8],
     /// Present exactly when the model is int8.
-    #[serde(borrow)]
     pub quant: Option<LayerQuantDesc<'a>>,
+}
+
+/// [`LayerDesc`] as the wire has it (the encoder's view; the reader decodes into
+/// [`LayerDesc`] directly, in the same order).
+#[derive(Serialize)]
+struct LayerWire<'a> {
+    inputs: u32,
+    outputs: u32,
+    #[serde(borrow)]
+    activation: ActivationWire<'a>,
+    layout: WeightLayout,
+    #[serde(borrow)]
+    weights: &'a [u8],
+    #[serde(borrow)]
+    bias: &'a [u8],
+    #[serde(borrow)]
+    quant: Option<LayerQuantDesc<'a>>,
+}
+
+impl<'a> LayerDesc<'a> {
+    /// The pointwise record, if the activation is `Pointwise`.
+    pub fn pointwise(&self) -> Option<PointwiseDesc<'a>> {
+        (self.activation == Activation::Pointwise).then_some(PointwiseDesc {
+            kind: self.act_kind,
+            input_zero_point: self.act_zero_point,
+            data: self.act_data,
+        })
+    }
+
+    /// The layer with `activation` and no pointwise record, or with the record `p`.
+    pub fn with_activation(self, activation: Activation, p: Option<PointwiseDesc<'a>>) -> Self {
+        let p = p.unwrap_or(PointwiseDesc {
+            kind: 0,
+            input_zero_point: 0,
+            data: &[],
+        });
+        LayerDesc {
+            activation,
+            act_kind: p.kind,
+            act_zero_point: p.input_zero_point,
+            act_data: p.data,
+            ..self
+        }
+    }
+}
+
+impl<'de: 'a, 'a> Deserialize<'de> for LayerDesc<'a> {
+    /// Field by field, as the derive for `LayerWire` would, but into the layer itself (no
+    /// intermediate copy of the layer: flash on the Cortex-M).
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct Fields<'a>(core::marker::PhantomData<&'a ()>);
+        impl<'de: 'a, 'a> serde::de::Visitor<'de> for Fields<'a> {
+            type Value = LayerDesc<'a>;
+            fn expecting(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+                f.write_str("a layer")
+            }
+            fn visit_seq<A: serde::de::SeqAccess<'de>>(
+                self,
+                mut s: A,
+            ) -> Result<Self::Value, A::Error> {
+                let missing = || serde::de::Error::invalid_length(0, &"7 fields");
+                let inputs = s.next_element()?.ok_or_else(missing)?;
+                let outputs = s.next_element()?.ok_or_else(missing)?;
+                let (activation, act_kind, act_zero_point, act_data) =
+                    match s.next_element()?.ok_or_else(missing)? {
+                        ActivationWire::Linear => (Activation::Linear, 0, 0, &[][..]),
+                        ActivationWire::Relu => (Activation::Relu, 0, 0, &[][..]),
+                        ActivationWire::Pointwise(p) => {
+                            (Activation::Pointwise, p.kind, p.input_zero_point, p.data)
+                        }
+                    };
+                Ok(LayerDesc {
+                    inputs,
+                    outputs,
+                    activation,
+                    act_kind,
+                    act_zero_point,
+                    act_data,
+                    layout: s.next_element()?.ok_or_else(missing)?,
+                    weights: s.next_element()?.ok_or_else(missing)?,
+                    bias: s.next_element()?.ok_or_else(missing)?,
+                    quant: s.next_element()?.ok_or_else(missing)?,
+                })
+            }
+        }
+        const FIELDS: [&str; 7] = [
+            "inputs",
+            "outputs",
+            "activation",
+            "layout",
+            "weights",
+            "bias",
+            "quant",
+        ];
+        d.deserialize_struct("LayerDesc", &FIELDS, Fields(core::marker::PhantomData))
+    }
+}
+
+impl Serialize for LayerDesc<'_> {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        let activation = match self.pointwise() {
+            Some(p) => ActivationWire::Pointwise(p),
+            None if self.activation == Activation::Relu => ActivationWire::Relu,
+            None => ActivationWire::Linear,
+        };
+        LayerWire {
+            inputs: self.inputs,
+            outputs: self.outputs,
+            activation,
+            layout: self.layout,
+            weights: self.weights,
+            bias: self.bias,
+            quant: self.quant,
+        }
+        .serialize(s)
+    }
 }
 
 /// The whole body of a blob.

@@ -227,11 +227,11 @@ mod tests {
             Header::read(b"PK\x03\x04 zip file"),
             Err(FormatError::BadMagic)
         );
-        let mut v4 = good;
-        v4[offset::VERSION] = 4;
+        let mut v5 = good;
+        v5[offset::VERSION] = 5;
         assert_eq!(
-            Header::read(&v4),
-            Err(FormatError::UnsupportedVersion { found: 4 })
+            Header::read(&v5),
+            Err(FormatError::UnsupportedVersion { found: 5 })
         );
         let mut v0 = good;
         v0[offset::VERSION] = 0;

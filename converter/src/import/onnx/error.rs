@@ -41,8 +41,9 @@ impl fmt::Display for NodeRef {
 }
 
 /// The ops the importer understands, for "supported:" parts of messages.
-pub const SUPPORTED_OPS: &str = "MatMul, Add, Gemm, Relu, Softmax, Sigmoid, \
-    BatchNormalization, Flatten, Reshape, Identity, Dropout, Cast (to float), Sub, Mul, Div, \
+pub const SUPPORTED_OPS: &str = "MatMul, Add, Gemm, Relu, Softmax, Sigmoid, Tanh, \
+    LeakyRelu, Clip, HardSigmoid, HardSwish, Elu, Selu, Softplus, Gelu (also as Div, Erf, Add, \
+    Mul, Mul), BatchNormalization, Flatten, Reshape, Identity, Dropout, Cast (to float), Sub, Mul, Div, \
     Constant, ArgMax, Concat (binary outputs) in domain ai.onnx, and Scaler, LinearClassifier, \
     Normalizer (L1), ArrayFeatureExtractor in domain ai.onnx.ml; on constants also Transpose, \
     Squeeze, Unsqueeze (folded at import); on the data's shape Shape, Gather, Slice, Squeeze, \

@@ -107,6 +107,12 @@ pub fn normalise(g: &GraphIndex<'_>) -> Result<FloatModel, OnnxImportError> {
                 w.shape = vec![w.shape.first().copied().flatten(), Some(2)];
                 out
             }
+            [a, b] if w.stage == Stage::Open && w.gelu_at(current, *a, *b).is_some() => {
+                match w.gelu_at(current, *a, *b) {
+                    Some((nodes, out)) => w.take_gelu(&nodes, *a, out)?,
+                    None => current,
+                }
+            }
             [a, b] if w.single_raw_score() => {
                 let out = binary_output::negated_pair(g, *a, *b, current, &mut w.visited)?;
                 w.negate_into_two_rows();
@@ -221,7 +227,13 @@ impl<'g> Walk<'g, '_> {
             (Domain::Onnx, "BatchNormalization") => self.batchnorm(n, pos)?,
             (Domain::Onnx, "Relu") => self.relu(n)?,
             (Domain::Onnx, "Softmax") => self.softmax(n)?,
+            (Domain::Onnx, "Sigmoid") if self.sigmoid_is_hidden(&n) => self.pointwise(n)?,
             (Domain::Onnx, "Sigmoid") => self.sigmoid(n)?,
+            (
+                Domain::Onnx,
+                "Tanh" | "LeakyRelu" | "Clip" | "HardSigmoid" | "HardSwish" | "Elu" | "Selu"
+                | "Softplus" | "Gelu",
+            ) => self.pointwise(n)?,
             (Domain::Ml, "LinearClassifier") => return self.linear_classifier(n, pos),
             (Domain::Ml, "Normalizer") => self.normalizer(n)?,
             (Domain::Ml, "ArrayFeatureExtractor") => self.score_column(n, pos)?,
@@ -237,6 +249,38 @@ impl<'g> Walk<'g, '_> {
         }
         // Checked after dispatch, so that an unknown op is reported as such first.
         single_output(self.g, &n)
+    }
+
+    /// The decomposed Gelu at the fork of `x` into `a` and `b` (`ops/gelu_pattern.rs`).
+    fn gelu_at(&self, x: &str, a: Node<'g>, b: Node<'g>) -> Option<(Vec<usize>, &'g str)> {
+        super::ops::gelu_pattern::match_gelu(self.g, x, a, b)
+    }
+
+    /// Makes the matched decomposed Gelu the last layer's activation; returns its output.
+    fn take_gelu(
+        &mut self,
+        nodes: &[usize],
+        first: Node<'g>,
+        out: &'g str,
+    ) -> Result<&'g str, OnnxImportError> {
+        for &i in nodes {
+            if let Some(v) = self.visited.get_mut(i) {
+                *v = true;
+            }
+        }
+        let act = crate::graph::Pointwise {
+            kind: crate::graph::PointwiseKind::Gelu,
+            params: [0.0, 0.0],
+        };
+        self.set_pointwise(&first, act)?;
+        Ok(out)
+    }
+
+    /// A `Sigmoid` whose output a dense layer reads: a hidden activation.
+    fn sigmoid_is_hidden(&self, n: &Node<'g>) -> bool {
+        n.outputs()
+            .first()
+            .is_some_and(|o| super::ops::pointwise::feeds_dense(self.g, o))
     }
 
     /// Right after a dense layer with one output and no output function yet.

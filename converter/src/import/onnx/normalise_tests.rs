@@ -78,12 +78,32 @@ fn scaler_nodes_compose_before_the_first_layer() {
 
 #[test]
 fn misplaced_ops_name_the_node() {
+    // A pointwise op the import does not know stays refused, naming the node and op.
+    for op in ["Mish", "ThresholdedRelu", "PRelu", "Celu"] {
+        let (mut nodes, inits) = two_layer();
+        nodes[2].op_type = Some(op.into());
+        let e = import(nodes, inits, &["p"]).unwrap_err();
+        assert!(matches!(e, OnnxImportError::UnsupportedOp { .. }), "{op}");
+        assert!(
+            e.to_string()
+                .contains(&format!("'act' (op {op}, domain ai.onnx)")),
+            "{e}"
+        );
+    }
+    // A known one becomes the layer's activation.
     let (mut nodes, inits) = two_layer();
     nodes[2].op_type = Some("Tanh".into());
+    let m = import(nodes, inits, &["p"]).unwrap();
+    assert_eq!(m.layers[0].activation.name(), "tanh");
+
+    // Two activations on one layer: refused, naming the second.
+    let (mut nodes, inits) = two_layer();
+    let act_out = nodes[2].output[0].clone();
+    nodes[2].output[0] = "r".into();
+    nodes.insert(3, node("second", "Tanh", &["r"], &[&act_out]));
     let e = import(nodes, inits, &["p"]).unwrap_err();
-    assert!(matches!(e, OnnxImportError::UnsupportedOp { .. }));
     assert!(
-        e.to_string().contains("'act' (op Tanh, domain ai.onnx)"),
+        e.to_string().contains("'second'") && e.to_string().contains("Tanh after an activation"),
         "{e}"
     );
 
@@ -336,6 +356,50 @@ fn linear_classifier_misuse_is_refused() {
     assert!(
         e.to_string()
             .contains("9 coefficients for 2 input features"),
+        "{e}"
+    );
+}
+
+/// `two_layer` with its Relu replaced by the decomposed Gelu `x · ½ · (1 + erf(x / c))`, the
+/// products in `order`, `c` the divisor.
+fn decomposed_gelu(c: f32, half_first: bool) -> Result<crate::graph::FloatModel, OnnxImportError> {
+    let (mut nodes, mut inits) = two_layer();
+    let gelu = if half_first {
+        vec![
+            node("g_div", "Div", &["h1", "c"], &["d"]),
+            node("g_erf", "Erf", &["d"], &["e"]),
+            node("g_add", "Add", &["one", "e"], &["gp"]),
+            node("g_half", "Mul", &["half", "h1"], &["hx"]),
+            node("g_mul", "Mul", &["hx", "gp"], &["h2"]),
+        ]
+    } else {
+        vec![
+            node("g_div", "Div", &["h1", "c"], &["d"]),
+            node("g_erf", "Erf", &["d"], &["e"]),
+            node("g_add", "Add", &["e", "one"], &["gp"]),
+            node("g_mul", "Mul", &["h1", "gp"], &["m"]),
+            node("g_half", "Mul", &["m", "half"], &["h2"]),
+        ]
+    };
+    nodes.splice(2..3, gelu);
+    inits.push(floats("c", &[], &[c]));
+    inits.push(floats("one", &[], &[1.0]));
+    inits.push(floats("half", &[], &[0.5]));
+    import(nodes, inits, &["p"])
+}
+
+#[test]
+fn decomposed_gelu_is_matched_by_structure_and_constants() {
+    for half_first in [false, true] {
+        let m = decomposed_gelu(std::f32::consts::SQRT_2, half_first).unwrap();
+        assert_eq!(m.layers.len(), 2);
+        assert_eq!(m.layers[0].activation.name(), "gelu", "{half_first}");
+    }
+    // Another divisor is another function: refused, not approximated.
+    let e = decomposed_gelu(1.5, false).unwrap_err();
+    assert!(
+        e.to_string()
+            .contains("value 'h1' is read by this node and by"),
         "{e}"
     );
 }

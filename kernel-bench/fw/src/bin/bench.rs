@@ -203,6 +203,28 @@ fn f32_layer(
     }
 }
 
+/// Elements of the activation-table case.
+const TABLE_ELEMS: usize = 100;
+
+/// An int8 layer's pointwise table step alone (`pointwise::apply_table`, what an int8 layer
+/// with a tanh, sigmoid, ... adds after requantisation) on 100 values, against the plain loop.
+#[inline(never)]
+fn activation_table(rng: &mut Rng) {
+    use kinglet_runtime::unstable::pointwise::{apply_table, TABLE_LEN};
+    let mut table = [0u8; TABLE_LEN];
+    fill(&mut table, rng);
+    let mut values = [0u8; TABLE_ELEMS];
+    fill(&mut values, rng);
+    let mut reference = values;
+    for v in reference.iter_mut() {
+        *v = table[usize::from(*v ^ 0x80)];
+    }
+    case("act-table", "kernel", TABLE_ELEMS, || {
+        apply_table(black_box(&mut values), black_box(&table))
+    });
+    assert!(values == reference, "activation table differs");
+}
+
 /// Whole inference of a packed model (blocked and its output-major twin; on the Cortex-M4 also
 /// the blocked blob one byte past a 4-byte boundary) and each layer alone.
 // Not inlined: main would hold every case's buffers at once (the Cortex-M0 has 16 KiB).
@@ -363,6 +385,7 @@ fn main() -> ! {
         unaligned!(F32_64X32_UNALIGNED),
         &mut rng,
     );
+    activation_table(&mut rng);
     whole_model(
         "digits",
         blobs::DIGITS,
