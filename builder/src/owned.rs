@@ -240,6 +240,24 @@ impl OwnedModel {
         }
     }
 
+    /// Leaves out the integer input path's tables (format version 5, `FORMAT.md` §3.3): an int8
+    /// blob of this table takes `f32` features only. Nothing changes on an f32 table.
+    pub fn drop_integer_input(&mut self) {
+        if let Some(q) = &mut self.input_quant {
+            q.int_mult.clear();
+            q.int_add.clear();
+            q.int_shift.clear();
+        }
+    }
+
+    /// Leaves out every layer's report-only weight scales (format version 5, `FORMAT.md`
+    /// §3.3). Nothing changes on an f32 table.
+    pub fn drop_weight_scales(&mut self) {
+        for q in self.layers.iter_mut().filter_map(|l| l.quant.as_mut()) {
+            q.weight_scale.clear();
+        }
+    }
+
     /// The scratch bytes the runtime's planner gives the (possibly invalid) table of
     /// [`OwnedModel::as_desc`].
     pub fn planned_scratch(&self) -> u32 {
@@ -316,6 +334,34 @@ mod tests {
             );
             assert_eq!(m.planned_scratch() as usize, parsed.scratch_bytes());
         }
+    }
+
+    #[test]
+    fn sections_left_out_make_a_version_5_blob_that_reads_back() {
+        let full = tiny_int8();
+        let v3 = full.encode_to_vec().unwrap();
+        assert_eq!(v3[4], 1);
+        for (drop_int, drop_ws) in [(true, false), (false, true), (true, true)] {
+            let mut m = full.clone();
+            if drop_int {
+                m.drop_integer_input();
+            }
+            if drop_ws {
+                m.drop_weight_scales();
+            }
+            let blob = m.encode_to_vec().unwrap();
+            assert_eq!(u16::from_le_bytes([blob[4], blob[5]]), 5);
+            let parsed = kinglet_runtime::Model::parse(&blob).unwrap();
+            assert_eq!(parsed.takes_integer_input(), !drop_int);
+            assert_eq!(parsed.has_weight_scales(), !drop_ws);
+            assert_eq!(OwnedModel::from_desc(parsed.desc()), m);
+            let saved = 13 * usize::from(drop_int) + 4 * 6 * usize::from(drop_ws);
+            assert_eq!(v3.len() - blob.len(), saved);
+        }
+        let mut f = tiny_f32();
+        f.drop_integer_input();
+        f.drop_weight_scales();
+        assert_eq!(f, tiny_f32());
     }
 
     #[test]

@@ -256,7 +256,10 @@ fn c03_inspect_blob_from_a_newer_format_version() {
         &[
             "newer.kgl",
             &format!("model format version {newer} is not supported"),
-            &format!("accepts versions 1 to {}", kinglet_runtime::FORMAT_VERSION),
+            &format!(
+                "accepts versions 1 to 3 and {}",
+                kinglet_runtime::FORMAT_VERSION
+            ),
         ],
     );
 }

@@ -189,8 +189,9 @@ impl fmt::Display for FormatError {
             BadMagic => f.write_str("not a Kinglet model: wrong magic bytes"),
             UnsupportedVersion { found } => write!(
                 f,
-                "model format version {found} is not supported (this reader accepts versions {} to {})",
+                "model format version {found} is not supported (this reader accepts versions {} to {} and {})",
                 crate::wire::version::OLDEST_VERSION,
+                crate::wire::version::RESERVED_VERSION - 1,
                 crate::wire::version::FORMAT_VERSION
             ),
             VersionMismatch { header, body } => write!(
@@ -303,6 +304,9 @@ pub enum RunError {
     },
     /// An f32 model produced a NaN or infinite output (inputs far outside the trained range).
     NonFiniteOutput,
+    /// `Input::I16` or `Input::U8` on an int8 blob packed without the integer input path
+    /// (format version 5 may leave it out; [`crate::Model::takes_integer_input`] tells).
+    NoIntegerInput,
 }
 
 impl fmt::Display for RunError {
@@ -326,6 +330,9 @@ impl fmt::Display for RunError {
             RunError::NonFiniteOutput => {
                 f.write_str("the model produced a non-finite output (input far out of range)")
             }
+            RunError::NoIntegerInput => f.write_str(
+                "this int8 blob has no integer input path: feed f32 features, or pack it with `kinglet pack --integer-input`",
+            ),
         }
     }
 }

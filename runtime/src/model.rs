@@ -200,6 +200,28 @@ impl<'a> Model<'a> {
         }
     }
 
+    /// Whether [`Input::I16`] and [`Input::U8`] are accepted: always on an f32 model (the
+    /// integers go through the float scaler), and on an int8 model when the blob carries the
+    /// integer input path (`kinglet pack --integer-input`; `FORMAT.md` §3.3). Otherwise
+    /// [`Model::infer`] and [`Model::classify`] refuse them with [`RunError::NoIntegerInput`].
+    pub fn takes_integer_input(&self) -> bool {
+        self.desc
+            .input_quant
+            .as_ref()
+            .is_none_or(|q| !q.int_shift.is_empty())
+    }
+
+    /// Whether the blob carries the per-channel f32 weight scales, which inference does not use
+    /// (format version 5 may leave them out; `kinglet pack --weight-scales` keeps them). False
+    /// for an f32 model, which has none.
+    pub fn has_weight_scales(&self) -> bool {
+        self.desc
+            .layers
+            .first()
+            .and_then(|l| l.quant.as_ref())
+            .is_some_and(|q| !q.weight_scale.is_empty())
+    }
+
     /// Precision of the model.
     pub fn precision(&self) -> Precision {
         self.desc.precision
@@ -230,8 +252,10 @@ impl<'a> Model<'a> {
     /// A [`RunError`]: the input is not [`Model::input_len`] long
     /// ([`RunError::InputLength`]), `scratch` or `scores` is too small
     /// ([`RunError::ScratchTooSmall`], [`RunError::ScoresTooSmall`]), a float input is NaN or
-    /// infinite ([`RunError::NonFiniteInput`]), or an f32 model's output is not finite
-    /// ([`RunError::NonFiniteOutput`]).
+    /// infinite ([`RunError::NonFiniteInput`]), an f32 model's output is not finite
+    /// ([`RunError::NonFiniteOutput`]), or integer features are given to an int8 blob without
+    /// the integer input path ([`RunError::NoIntegerInput`], see
+    /// [`Model::takes_integer_input`]).
     ///
     /// ```
     /// # fn demo(blob: &[u8]) -> Result<(), kinglet_runtime::Error> {
@@ -395,6 +419,10 @@ impl<'a> Model<'a> {
                 };
                 match input {
                     Input::F32(v) => quantise_floats(self.desc.scaler, q, v, dst)?,
+                    // Version 5 may leave the integer tables out (`FORMAT.md` §3.3).
+                    Input::I16(_) | Input::U8(_) if q.int_shift.is_empty() => {
+                        return Err(RunError::NoIntegerInput)
+                    }
                     Input::I16(v) => {
                         for (i, (d, &x)) in dst.iter_mut().zip(v).enumerate() {
                             *d = integer(i, i32::from(x));

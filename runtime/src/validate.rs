@@ -88,8 +88,10 @@ fn scale_fits(b: u32, steps: u16) -> bool {
 
 fn check_input_quant(q: &InputQuantDesc<'_>, input_len: usize) -> Result<(), FormatError> {
     good_scale(q.scale, q.zero_point, None)?;
+    // `n = 0`: the integer input path is left out (version 5, `FORMAT.md` §3.3); then all three
+    // tables must be empty, as the length checks below require.
     let n = q.int_shift.len();
-    if n != 1 && n != input_len {
+    if n != 0 && n != 1 && n != input_len {
         return Err(FormatError::TensorLength {
             layer: None,
             tensor: TensorKind::IntegerInput,
@@ -136,7 +138,10 @@ fn check_layer(
             finite(l.bias, at, TensorKind::Bias)?;
         }
         (Precision::Int8, Some(q)) => {
-            expect_len(q.weight_scale, 4 * outputs, at, TensorKind::WeightScale)?;
+            // Empty: the report-only weight scales are left out (version 5, `FORMAT.md` §3.3).
+            if !q.weight_scale.is_empty() {
+                expect_len(q.weight_scale, 4 * outputs, at, TensorKind::WeightScale)?;
+            }
             expect_len(q.multiplier, 4 * outputs, at, TensorKind::Multiplier)?;
             expect_len(q.shift, outputs, at, TensorKind::Shift)?;
             finite(q.weight_scale, at, TensorKind::WeightScale)?;
@@ -225,6 +230,20 @@ fn check_blocked(
     Ok(data)
 }
 
+/// Weight scales are kept on every int8 layer or left out on every one (`FORMAT.md` §3.3): a
+/// table with some is a partial section, rejected at the first layer that differs from layer 0.
+fn same_weight_scales(d: &ModelDesc<'_>) -> Result<(), FormatError> {
+    let kept = |l: &LayerDesc<'_>| l.quant.as_ref().map(|q| !q.weight_scale.is_empty());
+    let first = d.layers.first().and_then(kept);
+    match d.layers.iter().position(|l| kept(l) != first) {
+        Some(k) => Err(FormatError::TensorLength {
+            layer: Some(k as u8),
+            tensor: TensorKind::WeightScale,
+        }),
+        None => Ok(()),
+    }
+}
+
 /// Checks a decoded layer table; returns the scratch plan it needs.
 pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ScratchPlan, FormatError> {
     if d.precision == Precision::F32 && !cfg!(feature = "f32") {
@@ -255,6 +274,7 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ScratchPlan, FormatError> {
     for (k, l) in d.layers.iter().enumerate() {
         prev = check_layer(l, k as u8, prev, d.precision)?;
     }
+    same_weight_scales(d)?;
     if d.output == OutputKind::Sigmoid && prev != 1 {
         return Err(FormatError::SigmoidWidth);
     }

@@ -55,16 +55,54 @@ pub struct Int8Pack {
     pub warnings: Vec<String>,
 }
 
-/// Calibrates on `data` (raw feature rows) with `method` and packs the int8 blob.
-pub fn pack_int8(model: &FloatModel, data: &Dataset, method: RangeMethod) -> Result<Int8Pack> {
-    pack_int8_observed(model, data, method, &|_| {})
+/// The optional sections of an int8 blob to write (`runtime/FORMAT.md` §3.3). Each left out
+/// makes the blob format version 5 and smaller; [`Sections::default`] leaves both out.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct Sections {
+    /// The integer input path's tables (13 bytes per feature, or 13 for a uniform scaler):
+    /// needed to feed raw `i16` / `u8` samples (`Input::I16`, `Input::U8`, `--feed i16|u8`).
+    pub integer_input: bool,
+    /// The per-channel f32 weight scales (4 bytes per layer output), which inference does not
+    /// use.
+    pub weight_scales: bool,
 }
 
-/// [`pack_int8`], calling `progress` with the calibration rows just run.
+impl Sections {
+    /// Both sections kept: the blob a pack wrote before version 5 (version 1 to 3).
+    pub const ALL: Sections = Sections {
+        integer_input: true,
+        weight_scales: true,
+    };
+
+    /// Only the integer input path kept: for firmware that feeds raw integer samples.
+    pub const INTEGER_INPUT: Sections = Sections {
+        integer_input: true,
+        weight_scales: false,
+    };
+}
+
+/// Calibrates on `data` (raw feature rows) with `method` and packs the int8 blob without the
+/// optional sections ([`Sections::default`]: it takes f32 features only).
+pub fn pack_int8(model: &FloatModel, data: &Dataset, method: RangeMethod) -> Result<Int8Pack> {
+    pack_int8_with(model, data, method, Sections::default())
+}
+
+/// [`pack_int8`] writing the optional `sections` asked for.
+pub fn pack_int8_with(
+    model: &FloatModel,
+    data: &Dataset,
+    method: RangeMethod,
+    sections: Sections,
+) -> Result<Int8Pack> {
+    pack_int8_observed(model, data, method, sections, &|_| {})
+}
+
+/// [`pack_int8_with`], calling `progress` with the calibration rows just run.
 pub fn pack_int8_observed(
     model: &FloatModel,
     data: &Dataset,
     method: RangeMethod,
+    sections: Sections,
     progress: &dyn Fn(u64),
 ) -> Result<Int8Pack> {
     let float_blob = pack_f32(model)?;
@@ -72,7 +110,14 @@ pub fn pack_int8_observed(
         .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
     let cal = crate::quantise::calibrate::calibrate_observed(&float_model, data, method, progress)?;
     check_plausible(model, &cal, &data.source)?;
-    let blob = quantise(model, &cal.ranges)?.encode_in(WeightLayout::Blocked4x4)?;
+    let mut table = quantise(model, &cal.ranges)?;
+    if !sections.integer_input {
+        table.drop_integer_input();
+    }
+    if !sections.weight_scales {
+        table.drop_weight_scales();
+    }
+    let blob = table.encode_in(WeightLayout::Blocked4x4)?;
     Ok(Int8Pack {
         blob,
         method,

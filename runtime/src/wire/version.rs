@@ -3,24 +3,55 @@
 //! it without depending on each other.
 
 /// The newest format version this reader accepts (and writes when a blob needs it).
-pub const FORMAT_VERSION: u16 = 3;
+pub const FORMAT_VERSION: u16 = 5;
 
 /// The oldest format version this reader accepts. Version 1 is version 2 without the
-/// `Blocked4x4` weight layout, and version 2 is version 3 without the `OneVsRest` output; a
-/// blob carries exactly the lowest version that holds it ([`version_for`]), which writers emit
-/// and the reader requires.
+/// `Blocked4x4` weight layout, version 2 is version 3 without the `OneVsRest` output, and
+/// version 5 is version 3 with optional sections that may be left out (empty); a blob carries
+/// exactly the lowest version that holds it ([`version_for`]), which writers emit and the
+/// reader requires.
 pub const OLDEST_VERSION: u16 = 1;
 
-/// The version a blob with this layer table carries: 3 if the output is `OneVsRest`, else 2 if
-/// any layer uses the `Blocked4x4` layout, else 1 (so older readers still read every blob they
-/// can). Writers put it in the header and `Model::parse` rejects any other
-/// (`FormatError::VersionMismatch`): the CRC does not cover the version field, this rule
-/// protects it.
-pub fn version_for(desc: &crate::wire::format::ModelDesc<'_>) -> u16 {
-    version_for_table(&desc.layers, desc.output)
+/// A version number this reader does not accept although it lies between [`OLDEST_VERSION`]
+/// and [`FORMAT_VERSION`]: version 4 is reserved for pointwise activation records, specified
+/// separately (`FORMAT.md` §2).
+pub const RESERVED_VERSION: u16 = 4;
+
+/// Whether this reader accepts format version `v`.
+pub const fn accepts(v: u16) -> bool {
+    v >= OLDEST_VERSION && v <= FORMAT_VERSION && v != RESERVED_VERSION
 }
 
-/// [`version_for`] of a table with these layers and this output.
+/// The version a blob with this layer table carries: 5 if it leaves out an optional section
+/// (the integer input tables or a layer's weight scales, [`omits_a_section`]), else 3 if the
+/// output is `OneVsRest`, else 2 if any layer uses the `Blocked4x4` layout, else 1 (so older
+/// readers still read every blob they can). Writers put it in the header and `Model::parse`
+/// rejects any other (`FormatError::VersionMismatch`): the CRC does not cover the version
+/// field, this rule protects it.
+pub fn version_for(desc: &crate::wire::format::ModelDesc<'_>) -> u16 {
+    if omits_a_section(desc) {
+        5
+    } else {
+        version_for_table(&desc.layers, desc.output)
+    }
+}
+
+/// Whether the table leaves out an optional section (`FORMAT.md` §3.3): an int8 table whose
+/// integer input tables are empty, or a layer whose weight scales are empty.
+pub fn omits_a_section(desc: &crate::wire::format::ModelDesc<'_>) -> bool {
+    let no_integer = desc
+        .input_quant
+        .as_ref()
+        .is_some_and(|q| q.int_shift.is_empty() || q.int_mult.is_empty() || q.int_add.is_empty());
+    no_integer
+        || desc
+            .layers
+            .iter()
+            .any(|l| l.quant.as_ref().is_some_and(|q| q.weight_scale.is_empty()))
+}
+
+/// The version of a table with these layers and this output that leaves out no section (the
+/// rule of versions 1 to 3).
 pub fn version_for_table(
     layers: &[crate::wire::format::LayerDesc<'_>],
     output: crate::wire::format::OutputKind,
