@@ -275,17 +275,33 @@ impl OwnedModel {
     /// layout each has); `Blocked4x4` data is aligned to a multiple of 4 within the blob
     /// ([`crate::blocked::encode_aligned`]).
     pub fn encode_in(&self, target: WeightLayout) -> Result<Vec<u8>, BuildError> {
+        self.encode_layouts(&vec![target; self.layers.len()])
+    }
+
+    /// [`OwnedModel::encode_in`] with one layout per layer: layer `k` in `layouts[k]` (a layer
+    /// past the end of `layouts` keeps the layout it has).
+    pub fn encode_layouts(&self, layouts: &[WeightLayout]) -> Result<Vec<u8>, BuildError> {
         self.fits()?;
+        let targets: Vec<WeightLayout> = self
+            .layers
+            .iter()
+            .enumerate()
+            .map(|(k, l)| layouts.get(k).copied().unwrap_or(l.layout))
+            .collect();
         let data = self
             .layers
             .iter()
-            .map(|l| crate::blocked::weights_in(self.precision, l, target))
+            .zip(&targets)
+            .map(|(l, &t)| crate::blocked::weights_in(self.precision, l, t))
             .collect::<Result<Vec<_>, _>>()?;
-        let blocked = vec![target == WeightLayout::Blocked4x4; data.len()];
+        let blocked: Vec<bool> = targets
+            .iter()
+            .map(|&t| t == WeightLayout::Blocked4x4)
+            .collect();
         crate::blocked::encode_aligned(&data, &blocked, |fields| {
             let mut d = self.as_desc();
-            for (l, f) in d.layers.iter_mut().zip(fields) {
-                l.layout = target;
+            for ((l, f), &t) in d.layers.iter_mut().zip(fields).zip(&targets) {
+                l.layout = t;
                 l.weights = f;
             }
             encode_desc(&d)

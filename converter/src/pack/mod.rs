@@ -2,12 +2,14 @@
 //! [`request::pack`] is the whole `kinglet pack` (import, scaler, labels, pack, report).
 //! Every layer is written in the runtime's `Blocked4x4` layout (4-row blocks, int8 excess-128,
 //! data 4-byte aligned within the blob; `FORMAT.md` §3.1), the order the Cortex-M kernels read,
-//! by `kinglet_builder` with the runtime's own geometry and validating encoder.
+//! by `kinglet_builder` with the runtime's own geometry and validating encoder, unless its
+//! padding would take the blob past its size goal ([`size`]): then it is written OutputMajor.
 pub mod request;
+pub mod size;
 
 use anyhow::{bail, Result};
 use kinglet_builder::OwnedLayer;
-use kinglet_runtime::unstable::wire::format::{Precision, WeightLayout};
+use kinglet_runtime::unstable::wire::format::Precision;
 use kinglet_runtime::Model;
 
 use crate::dataset::Dataset;
@@ -35,7 +37,7 @@ pub fn pack_f32(model: &FloatModel) -> Result<Vec<u8>> {
         })
         .collect::<Result<Vec<_>>>()?;
     let owned = owned_table(model, Precision::F32, None, layers)?;
-    Ok(owned.encode_in(WeightLayout::Blocked4x4)?)
+    size::encode_within_limit(&owned)
 }
 
 /// An int8 pack and how it was calibrated.
@@ -117,7 +119,7 @@ pub fn pack_int8_observed(
     if !sections.weight_scales {
         table.drop_weight_scales();
     }
-    let blob = table.encode_in(WeightLayout::Blocked4x4)?;
+    let blob = size::encode_within_limit(&table)?;
     Ok(Int8Pack {
         blob,
         method,
