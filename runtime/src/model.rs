@@ -215,11 +215,8 @@ impl<'a> Model<'a> {
     /// (format version 5 may leave them out; `kinglet pack --weight-scales` keeps them). False
     /// for an f32 model, which has none.
     pub fn has_weight_scales(&self) -> bool {
-        self.desc
-            .layers
-            .first()
-            .and_then(|l| l.quant.as_ref())
-            .is_some_and(|q| !q.weight_scale.is_empty())
+        self.desc.precision == Precision::Int8
+            && crate::wire::version::keeps_weight_scales(&self.desc.layers)
     }
 
     /// Precision of the model.
@@ -417,12 +414,12 @@ impl<'a> Model<'a> {
                     let (m, a, s) = integer_params(q, i);
                     quantise_integer(x, m, a, s) as u8
                 };
+                // Version 5 may leave the integer tables out (`FORMAT.md` §3.3).
+                if q.int_shift.is_empty() && !matches!(input, Input::F32(_)) {
+                    return Err(RunError::NoIntegerInput);
+                }
                 match input {
                     Input::F32(v) => quantise_floats(self.desc.scaler, q, v, dst)?,
-                    // Version 5 may leave the integer tables out (`FORMAT.md` §3.3).
-                    Input::I16(_) | Input::U8(_) if q.int_shift.is_empty() => {
-                        return Err(RunError::NoIntegerInput)
-                    }
                     Input::I16(v) => {
                         for (i, (d, &x)) in dst.iter_mut().zip(v).enumerate() {
                             *d = integer(i, i32::from(x));

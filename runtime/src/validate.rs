@@ -8,6 +8,7 @@ use crate::wire::format::{
     MAX_WIDTH,
 };
 use crate::wire::layout;
+use crate::wire::version::keeps_weight_scales;
 
 /// Largest addend of the integer input path (keeps its 64-bit sum from overflowing).
 const MAX_INPUT_ADD: i64 = 1 << 62;
@@ -115,6 +116,7 @@ fn check_layer(
     k: u8,
     prev: usize,
     precision: Precision,
+    scales: bool,
 ) -> Result<usize, FormatError> {
     let at = Some(k);
     let inputs = width(l.inputs, at)?;
@@ -138,10 +140,9 @@ fn check_layer(
             finite(l.bias, at, TensorKind::Bias)?;
         }
         (Precision::Int8, Some(q)) => {
-            // Empty: the report-only weight scales are left out (version 5, `FORMAT.md` §3.3).
-            if !q.weight_scale.is_empty() {
-                expect_len(q.weight_scale, 4 * outputs, at, TensorKind::WeightScale)?;
-            }
+            // Empty when the report-only weight scales are left out (version 5).
+            let n = if scales { 4 * outputs } else { 0 };
+            expect_len(q.weight_scale, n, at, TensorKind::WeightScale)?;
             expect_len(q.multiplier, 4 * outputs, at, TensorKind::Multiplier)?;
             expect_len(q.shift, outputs, at, TensorKind::Shift)?;
             finite(q.weight_scale, at, TensorKind::WeightScale)?;
@@ -230,20 +231,6 @@ fn check_blocked(
     Ok(data)
 }
 
-/// Weight scales are kept on every int8 layer or left out on every one (`FORMAT.md` §3.3): a
-/// table with some is a partial section, rejected at the first layer that differs from layer 0.
-fn same_weight_scales(d: &ModelDesc<'_>) -> Result<(), FormatError> {
-    let kept = |l: &LayerDesc<'_>| l.quant.as_ref().map(|q| !q.weight_scale.is_empty());
-    let first = d.layers.first().and_then(kept);
-    match d.layers.iter().position(|l| kept(l) != first) {
-        Some(k) => Err(FormatError::TensorLength {
-            layer: Some(k as u8),
-            tensor: TensorKind::WeightScale,
-        }),
-        None => Ok(()),
-    }
-}
-
 /// Checks a decoded layer table; returns the scratch plan it needs.
 pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ScratchPlan, FormatError> {
     if d.precision == Precision::F32 && !cfg!(feature = "f32") {
@@ -270,11 +257,13 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ScratchPlan, FormatError> {
     if d.layers.is_empty() {
         return Err(FormatError::NoLayers);
     }
+    // Weight scales are kept on every int8 layer or left out on every one (`FORMAT.md` §3.3),
+    // as layer 0 has them: a layer that differs is a partial section (`TensorLength`).
+    let scales = keeps_weight_scales(&d.layers);
     let mut prev = input_len;
     for (k, l) in d.layers.iter().enumerate() {
-        prev = check_layer(l, k as u8, prev, d.precision)?;
+        prev = check_layer(l, k as u8, prev, d.precision, scales)?;
     }
-    same_weight_scales(d)?;
     if d.output == OutputKind::Sigmoid && prev != 1 {
         return Err(FormatError::SigmoidWidth);
     }

@@ -19,18 +19,18 @@ use super::{Code, Measured};
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
     default_build: Code {
-        text: 13680,
+        text: 13976,
         rodata: 1327,
     },
     int8_only: Code {
-        text: 11016,
+        text: 11268,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 8004,
+        text: 8272,
         rodata: 1308,
     },
-    stack_parse: 2944,
+    stack_parse: 2952,
     stack_infer: 584,
     stack_classify: 584,
     model_struct: 564,
@@ -40,15 +40,15 @@ pub const CORTEX_M0: Measured = Measured {
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
     default_build: Code {
-        text: 10668,
+        text: 10904,
         rodata: 1327,
     },
     int8_only: Code {
-        text: 8260,
+        text: 8468,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 7412,
+        text: 7532,
         rodata: 1308,
     },
     stack_parse: 2868,

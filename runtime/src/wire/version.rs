@@ -37,17 +37,23 @@ pub fn version_for(desc: &crate::wire::format::ModelDesc<'_>) -> u16 {
 }
 
 /// Whether the table leaves out an optional section (`FORMAT.md` §3.3): an int8 table whose
-/// integer input tables are empty, or a layer whose weight scales are empty.
+/// integer input shifts are empty, or whose first layer's weight scales are empty. (A section
+/// is left out whole or kept whole; `validate` rejects a partial one, whichever version this
+/// gives it, so these two fields decide.)
 pub fn omits_a_section(desc: &crate::wire::format::ModelDesc<'_>) -> bool {
-    let no_integer = desc
-        .input_quant
+    desc.input_quant
         .as_ref()
-        .is_some_and(|q| q.int_shift.is_empty() || q.int_mult.is_empty() || q.int_add.is_empty());
-    no_integer
-        || desc
-            .layers
-            .iter()
-            .any(|l| l.quant.as_ref().is_some_and(|q| q.weight_scale.is_empty()))
+        .is_some_and(|q| q.int_shift.is_empty())
+        || !keeps_weight_scales(&desc.layers)
+}
+
+/// Whether an int8 table keeps its weight scales: its first layer's are not empty (true for
+/// an f32 table, which has none to leave out).
+pub fn keeps_weight_scales(layers: &[crate::wire::format::LayerDesc<'_>]) -> bool {
+    layers
+        .first()
+        .and_then(|l| l.quant.as_ref())
+        .is_none_or(|q| !q.weight_scale.is_empty())
 }
 
 /// The version of a table with these layers and this output that leaves out no section (the
