@@ -19,15 +19,15 @@ use super::{Code, Measured};
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
     default_build: Code {
-        text: 13976,
+        text: 13788,
         rodata: 1327,
     },
     int8_only: Code {
-        text: 11268,
+        text: 11124,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 8272,
+        text: 8128,
         rodata: 1308,
     },
     stack_parse: 2952,
@@ -40,15 +40,15 @@ pub const CORTEX_M0: Measured = Measured {
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
     default_build: Code {
-        text: 10904,
+        text: 10792,
         rodata: 1327,
     },
     int8_only: Code {
-        text: 8468,
+        text: 8372,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 7532,
+        text: 7432,
         rodata: 1308,
     },
     stack_parse: 2868,
