@@ -124,10 +124,10 @@ fn check_classify(
     let c = model.classify(input, &mut scratch);
     if n_in != model.input_len() {
         assert!(matches!(c, Err(RunError::InputLength { .. })), "{c:?}");
-    } else if scratch_len < model.scratch_bytes() {
-        assert!(matches!(c, Err(RunError::ScratchTooSmall { .. })), "{c:?}");
     } else if integer(input) && !model.takes_integer_input() {
         assert_eq!(c, Err(RunError::NoIntegerInput));
+    } else if scratch_len < model.scratch_bytes() {
+        assert!(matches!(c, Err(RunError::ScratchTooSmall { .. })), "{c:?}");
     } else if let Some(i) = nonfinite_at {
         assert_eq!(c, Err(RunError::NonFiniteInput { index: i as u32 }));
     } else if c == Err(RunError::NonFiniteOutput) {

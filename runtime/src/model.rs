@@ -342,10 +342,15 @@ impl<'a> Model<'a> {
         Ok(Prediction { class, score })
     }
 
-    /// `InputLength` unless `input` has the model's input width.
+    /// `InputLength` unless `input` has the model's input width; then `NoIntegerInput` for
+    /// integer features on a blob without the integer input path (version 5 may leave it out,
+    /// `FORMAT.md` §3.3).
     pub(crate) fn check_input_len(&self, input: &Input<'_>) -> Result<(), RunError> {
         let n = self.input_len();
         if input.len() == n {
+            if !matches!(input, Input::F32(_)) && !self.takes_integer_input() {
+                return Err(RunError::NoIntegerInput);
+            }
             Ok(())
         } else {
             Err(RunError::InputLength {
@@ -414,10 +419,6 @@ impl<'a> Model<'a> {
                     let (m, a, s) = integer_params(q, i);
                     quantise_integer(x, m, a, s) as u8
                 };
-                // Version 5 may leave the integer tables out (`FORMAT.md` §3.3).
-                if q.int_shift.is_empty() && !matches!(input, Input::F32(_)) {
-                    return Err(RunError::NoIntegerInput);
-                }
                 match input {
                     Input::F32(v) => quantise_floats(self.desc.scaler, q, v, dst)?,
                     Input::I16(v) => {

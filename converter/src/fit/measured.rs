@@ -19,15 +19,15 @@ use super::{Code, Measured};
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
     default_build: Code {
-        text: 13788,
+        text: 13796,
         rodata: 1327,
     },
     int8_only: Code {
-        text: 11124,
+        text: 11144,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 8128,
+        text: 8124,
         rodata: 1308,
     },
     stack_parse: 2952,
@@ -40,19 +40,19 @@ pub const CORTEX_M0: Measured = Measured {
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
     default_build: Code {
-        text: 10792,
+        text: 10768,
         rodata: 1327,
     },
     int8_only: Code {
-        text: 8372,
+        text: 8348,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 7432,
+        text: 7484,
         rodata: 1308,
     },
     stack_parse: 2868,
     stack_infer: 564,
-    stack_classify: 540,
+    stack_classify: 532,
     model_struct: 564,
 };
