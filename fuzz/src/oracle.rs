@@ -57,7 +57,10 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, scratch_len: usize, scor
             );
         }
         Err(RunError::NoIntegerInput) => {
-            assert!(integer(input), "only integer features may be refused as such");
+            assert!(
+                integer(input),
+                "only integer features may be refused as such"
+            );
             assert!(!model.takes_integer_input());
         }
         Err(e) => panic!("unexpected run error {e:?}"),

@@ -234,7 +234,11 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
         ),
         (
             "vibration",
-            &["--calibration", "vibration/calibration.csv", "--integer-input"],
+            &[
+                "--calibration",
+                "vibration/calibration.csv",
+                "--integer-input",
+            ],
         ),
         ("digits_float", &["--float"]),
         ("vibration_float", &["--float"]),
