@@ -242,7 +242,8 @@ impl<'a> Model<'a> {
     /// Runs one inference. `scratch` needs [`Model::scratch_bytes`] bytes, `scores` at least
     /// [`Model::output_len`] elements; on error the contents of both are unspecified.
     ///
-    /// Float inputs must be finite. Integer inputs are always accepted.
+    /// Float inputs must be finite. Integer inputs of any value are accepted when the blob takes
+    /// them ([`Model::takes_integer_input`]).
     ///
     /// # Errors
     ///
