@@ -299,6 +299,24 @@ impl OwnedModel {
         }
     }
 
+    /// Leaves out the integer input path's tables (format version 5, `FORMAT.md` §3.4): an int8
+    /// blob of this table takes `f32` features only. Nothing changes on an f32 table.
+    pub fn drop_integer_input(&mut self) {
+        if let Some(q) = &mut self.input_quant {
+            q.int_mult.clear();
+            q.int_add.clear();
+            q.int_shift.clear();
+        }
+    }
+
+    /// Leaves out every layer's report-only weight scales (format version 5, `FORMAT.md`
+    /// §3.4). Nothing changes on an f32 table.
+    pub fn drop_weight_scales(&mut self) {
+        for q in self.layers.iter_mut().filter_map(|l| l.quant.as_mut()) {
+            q.weight_scale.clear();
+        }
+    }
+
     /// The scratch bytes the runtime's planner gives the (possibly invalid) table of
     /// [`OwnedModel::as_desc`].
     pub fn planned_scratch(&self) -> u32 {
@@ -316,17 +334,33 @@ impl OwnedModel {
     /// layout each has); `Blocked4x4` data is aligned to a multiple of 4 within the blob
     /// ([`crate::blocked::encode_aligned`]).
     pub fn encode_in(&self, target: WeightLayout) -> Result<Vec<u8>, BuildError> {
+        self.encode_layouts(&vec![target; self.layers.len()])
+    }
+
+    /// [`OwnedModel::encode_in`] with one layout per layer: layer `k` in `layouts[k]` (a layer
+    /// past the end of `layouts` keeps the layout it has).
+    pub fn encode_layouts(&self, layouts: &[WeightLayout]) -> Result<Vec<u8>, BuildError> {
         self.fits()?;
+        let targets: Vec<WeightLayout> = self
+            .layers
+            .iter()
+            .enumerate()
+            .map(|(k, l)| layouts.get(k).copied().unwrap_or(l.layout))
+            .collect();
         let data = self
             .layers
             .iter()
-            .map(|l| crate::blocked::weights_in(self.precision, l, target))
+            .zip(&targets)
+            .map(|(l, &t)| crate::blocked::weights_in(self.precision, l, t))
             .collect::<Result<Vec<_>, _>>()?;
-        let blocked = vec![target == WeightLayout::Blocked4x4; data.len()];
+        let blocked: Vec<bool> = targets
+            .iter()
+            .map(|&t| t == WeightLayout::Blocked4x4)
+            .collect();
         crate::blocked::encode_aligned(&data, &blocked, |fields| {
             let mut d = self.as_desc();
-            for (l, f) in d.layers.iter_mut().zip(fields) {
-                l.layout = target;
+            for ((l, f), &t) in d.layers.iter_mut().zip(fields).zip(&targets) {
+                l.layout = t;
                 l.weights = f;
             }
             encode_desc(&d)
@@ -375,6 +409,34 @@ mod tests {
             );
             assert_eq!(m.planned_scratch() as usize, parsed.scratch_bytes());
         }
+    }
+
+    #[test]
+    fn sections_left_out_make_a_version_5_blob_that_reads_back() {
+        let full = tiny_int8();
+        let v3 = full.encode_to_vec().unwrap();
+        assert_eq!(v3[4], 1);
+        for (drop_int, drop_ws) in [(true, false), (false, true), (true, true)] {
+            let mut m = full.clone();
+            if drop_int {
+                m.drop_integer_input();
+            }
+            if drop_ws {
+                m.drop_weight_scales();
+            }
+            let blob = m.encode_to_vec().unwrap();
+            assert_eq!(u16::from_le_bytes([blob[4], blob[5]]), 5);
+            let parsed = kinglet_runtime::Model::parse(&blob).unwrap();
+            assert_eq!(parsed.takes_integer_input(), !drop_int);
+            assert_eq!(parsed.has_weight_scales(), !drop_ws);
+            assert_eq!(OwnedModel::from_desc(parsed.desc()), m);
+            let saved = 13 * usize::from(drop_int) + 4 * 6 * usize::from(drop_ws);
+            assert_eq!(v3.len() - blob.len(), saved);
+        }
+        let mut f = tiny_f32();
+        f.drop_integer_input();
+        f.drop_weight_scales();
+        assert_eq!(f, tiny_f32());
     }
 
     #[test]

@@ -6,7 +6,7 @@ use kinglet_runtime::unstable::wire::format::{
     InputQuantDesc, LayerDesc, ModelDesc, OutputKind, Precision, ScalerDesc,
 };
 use kinglet_runtime::unstable::wire::header::HEADER_LEN;
-use kinglet_runtime::unstable::wire::version::version_for_table;
+use kinglet_runtime::unstable::wire::version::{version_for, version_for_table};
 
 /// The scratch bytes the runtime's planner gives the (possibly invalid) table `desc`: the scratch buffer
 /// field of a valid blob of it.
@@ -22,7 +22,7 @@ pub fn planned_scratch(desc: &ModelDesc<'_>) -> u32 {
 /// `desc` as a blob with scratch field `scratch`, without validation. The header's version is the
 /// one a writer gives this table (`kinglet_runtime::unstable::wire::version::version_for`).
 pub fn raw_blob(desc: &ModelDesc<'_>, scratch: u32) -> Vec<u8> {
-    write(desc, version_for_table(&desc.layers, desc.output), scratch)
+    write(desc, version_for(desc), scratch)
 }
 
 /// `desc` with its layer list replaced by `layers`, as many as there are: the one way to write

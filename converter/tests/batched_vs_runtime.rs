@@ -14,7 +14,9 @@ use kinglet_converter::graph::{
 };
 use kinglet_converter::host::{FloatHost, Int8Host};
 use kinglet_converter::import::import_file;
-use kinglet_converter::pack::{pack_f32, pack_int8, pack_int8_with, FoldScaler, Int8Options};
+use kinglet_converter::pack::{
+    pack_f32, pack_int8_sections, pack_int8_with, FoldScaler, Int8Options, Sections,
+};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_converter::score::feed::{input_at, Entry};
 use kinglet_converter::vet::run::{evaluate, RowOutcome};
@@ -216,7 +218,7 @@ proptest! {
         };
         let f = pack_f32(&model).unwrap();
         // Some random models are refused (a layer whose outputs never vary, say): skip those.
-        let packed = pack_int8(&model, &data, RangeMethod::MinMax);
+        let packed = pack_int8_sections(&model, &data, RangeMethod::MinMax, Sections::INTEGER_INPUT);
         prop_assume!(packed.is_ok());
         let q = packed.unwrap().blob;
         let pair = ModelPair::new(Model::parse(&f).unwrap(), Model::parse(&q).unwrap()).unwrap();
@@ -250,7 +252,9 @@ fn example(name: &str, data: &str) -> (Vec<u8>, Vec<u8>, Dataset) {
     let calib = load_file(&root.join("calibration.csv"), &LoadOptions::default()).unwrap();
     let rows = load_file(&root.join(data), &opts).unwrap();
     let f = pack_f32(&model).unwrap();
-    let q = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob;
+    let q = pack_int8_sections(&model, &calib, RangeMethod::MinMax, Sections::INTEGER_INPUT)
+        .unwrap()
+        .blob;
     (f, q, rows)
 }
 
@@ -374,7 +378,9 @@ fn both_engines_name_the_same_failing_row() {
         source: "calibration".into(),
     };
     let f = pack_f32(&model).unwrap();
-    let q = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob;
+    let q = pack_int8_sections(&model, &calib, RangeMethod::MinMax, Sections::INTEGER_INPUT)
+        .unwrap()
+        .blob;
     let pair = ModelPair::new(Model::parse(&f).unwrap(), Model::parse(&q).unwrap()).unwrap();
     let mut features = vec![0.5f32; 2 * 3000];
     features[2 * 2500] = 3e38;
@@ -426,6 +432,7 @@ fn both_engines_compare_a_folded_input_with_the_raw_row() {
             method: RangeMethod::MinMax,
             bias_correction: false,
             fold_scaler: FoldScaler::Always,
+            sections: Sections::ALL,
         },
     )
     .unwrap();

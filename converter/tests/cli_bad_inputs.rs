@@ -135,15 +135,22 @@ impl Case {
 
     /// Packs the plain 2-input model to `name` (int8, calibrated on `rows.csv`).
     fn packed(self, name: &str) -> Self {
+        self.packed_with(name, &[])
+    }
+
+    /// [`Case::packed`] with more `pack` options.
+    fn packed_with(self, name: &str, extra: &[&str]) -> Self {
         let c = self.with("model_2in.json").with("rows.csv");
-        let out = c.run(&[
+        let mut args = vec![
             "pack",
             "model_2in.json",
             "--calibration",
             "rows.csv",
             "-o",
             name,
-        ]);
+        ];
+        args.extend_from_slice(extra);
+        let out = c.run(&args);
         assert_eq!(
             out.status.code(),
             Some(0),
@@ -1606,7 +1613,8 @@ fn c96_inspect_blob_that_would_run_past_the_address_space() {
 
 #[test]
 fn inspect_says_whether_the_weights_are_aligned_and_gives_a_latency_range() {
-    let c = Case::new().packed("v.kgl");
+    // With the integer input path, so that its estimates are there too.
+    let c = Case::new().packed_with("v.kgl", &["--integer-input"]);
     let json = |args: &[&str]| -> serde_json::Value {
         let out = c.run(&[&["inspect", "v.kgl", "--json"], args].concat());
         assert_eq!(
@@ -1893,4 +1901,119 @@ fn c119_shape_of_undeclared_dims() {
             "dim 1 of the data's shape [?, ?, ?] is not known",
         ],
     );
+}
+
+// ---- Optional sections of format version 5 (C110–C114) ----
+
+#[test]
+fn c110_vet_integer_feed_on_a_blob_without_the_integer_path() {
+    Case::new()
+        .packed("v.kgl")
+        .put("px.csv", b"a,b\n1,2\n3,4\n")
+        .fails(
+            &[
+                "vet",
+                "model_2in.json",
+                "v.kgl",
+                "--data",
+                "px.csv",
+                "--feed",
+                "u8",
+            ],
+            &[
+                "v.kgl has no integer input path (it was packed without --integer-input)",
+                "--feed u8 cannot give it raw integers",
+                "pack it again with --integer-input, or use --feed f32",
+            ],
+        );
+}
+
+#[test]
+fn c111_score_integer_feed_on_a_blob_without_the_integer_path() {
+    let c = Case::new()
+        .packed("v.kgl")
+        .put("px.csv", b"a,b\n1,2\n3,4\n");
+    c.fails(
+        &[
+            "score", "v.kgl", "--data", "px.csv", "--feed", "i16", "-o", "s.csv",
+        ],
+        &[
+            "v.kgl has no integer input path",
+            "--feed i16 cannot give it raw integers",
+        ],
+    );
+    // With the path kept, the same rows score.
+    let c = Case::new()
+        .packed_with("w.kgl", &["--integer-input"])
+        .put("px.csv", b"a,b\n1,2\n3,4\n");
+    let out = c.run(&["score", "w.kgl", "--data", "px.csv", "--feed", "i16"]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}
+
+#[test]
+fn c112_integer_input_on_a_float_pack() {
+    Case::new().with("model_2in.json").fails(
+        &["pack", "model_2in.json", "--float", "--integer-input", "-o", "f.kgl"],
+        &["--integer-input applies to int8 packs: an f32 blob takes i16/u8 inputs through its float scaler as it is"],
+    );
+}
+
+#[test]
+fn c113_weight_scales_on_a_float_pack() {
+    Case::new().with("model_2in.json").fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--float",
+            "--weight-scales",
+            "-o",
+            "f.kgl",
+        ],
+        &["--weight-scales applies to int8 packs: an f32 blob has no weight scales"],
+    );
+}
+
+#[test]
+fn c114_inspect_a_blob_with_a_partial_section() {
+    // The integer input path with its shifts left out but its multipliers and addends kept.
+    let c = Case::new().packed_with("m.kgl", &["--integer-input"]);
+    let blob = c.read("m.kgl");
+    let mut t = kinglet_builder::OwnedModel::from_desc(
+        kinglet_runtime::Model::parse(&blob).unwrap().desc(),
+    );
+    t.input_quant.as_mut().unwrap().int_shift.clear();
+    c.put("partial.kgl", &t.raw_blob()).fails(
+        &["inspect", "partial.kgl"],
+        &[
+            "partial.kgl",
+            "input stage: integer input tables length disagrees with the shape",
+        ],
+    );
+}
+
+#[test]
+fn inspect_says_whether_the_blob_takes_integer_samples() {
+    for (extra, says, estimates) in [
+        (&[][..], "integer input path: no (f32 features only)", false),
+        (
+            &["--integer-input"][..],
+            "integer input path: yes (f32 and i16/u8 samples)",
+            true,
+        ),
+    ] {
+        let c = Case::new().packed_with("v.kgl", extra);
+        let out = c.run(&["inspect", "v.kgl"]);
+        let text = String::from_utf8_lossy(&out.stdout);
+        assert!(text.contains(says), "{text}");
+        // No instruction estimate for a path the blob refuses.
+        assert_eq!(text.contains("i16/u8 counts"), estimates, "{text}");
+        let out = c.run(&["inspect", "v.kgl", "--json"]);
+        let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        assert_eq!(j["integer_input"], estimates);
+    }
 }

@@ -186,7 +186,7 @@ fn c74_the_default_percentile_clips_a_small_set_and_says_so() {
     assert!(out.contains("clipped (below/above)"), "{out}");
     let row = out
         .lines()
-        .find(|l| l.contains(" input "))
+        .find(|l| l.starts_with('│') && l.contains(" input "))
         .unwrap_or_else(|| panic!("no input row in {out}"));
     assert!(row.contains("1 / 1"), "{row}");
 }

@@ -4,7 +4,7 @@
 //! scikit-learn's `predict_proba` within 1e-5.
 use kinglet_converter::dataset::{load_csv, CsvOptions, Dataset, LabelColumn};
 use kinglet_converter::import::import_file;
-use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::pack::{pack_f32, pack_int8_sections, Sections};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_runtime::{Activations, Input, Model, Stage};
 use std::path::{Path, PathBuf};
@@ -34,7 +34,9 @@ fn packs(example: &str, dir: &Path) -> [(PathBuf, Vec<u8>); 2] {
     )
     .unwrap();
     let f = pack_f32(&model).unwrap();
-    let q = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob;
+    let q = pack_int8_sections(&model, &calib, RangeMethod::MinMax, Sections::INTEGER_INPUT)
+        .unwrap()
+        .blob;
     let (pf, pq) = (
         dir.join(format!("{example}.f32.kgl")),
         dir.join(format!("{example}.int8.kgl")),

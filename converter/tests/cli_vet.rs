@@ -3,7 +3,7 @@
 //! (`CARGO_BIN_EXE_kinglet`) only to the integration tests of the crate that builds it.
 use kinglet_converter::dataset::{load_csv, CsvOptions};
 use kinglet_converter::import::import_file;
-use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::pack::{pack_f32, pack_int8_sections, Sections};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
@@ -28,7 +28,9 @@ impl Setup {
         let dir = tempfile::tempdir().unwrap();
         std::fs::write(
             dir.path().join("digits.int8.kgl"),
-            pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob,
+            pack_int8_sections(&model, &calib, RangeMethod::MinMax, Sections::INTEGER_INPUT)
+                .unwrap()
+                .blob,
         )
         .unwrap();
         std::fs::write(dir.path().join("digits.f32.kgl"), pack_f32(&model).unwrap()).unwrap();
@@ -354,7 +356,8 @@ fn vibration_vet(dir: &Path, extra: &[&str]) -> Output {
             &CsvOptions::default(),
         )
         .unwrap();
-        let p = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap();
+        let p = pack_int8_sections(&model, &calib, RangeMethod::MinMax, Sections::INTEGER_INPUT)
+            .unwrap();
         std::fs::write(&blob, p.blob).unwrap();
     }
     Command::new(env!("CARGO_BIN_EXE_kinglet"))

@@ -1,6 +1,9 @@
 #!/usr/bin/env bash
 # Regenerates everything in firmware-example/models/ from examples/, without Python:
-#   digits.kgl, digits_float.kgl, vibration.kgl        kinglet pack (int8 with calibration; f32)
+#   digits.kgl, digits_float.kgl, vibration.kgl        kinglet pack (int8 with calibration; f32);
+#                                                      digits.kgl and lr_digits.kgl keep the
+#                                                      integer input path (--integer-input): the
+#                                                      firmware feeds them raw u8 pixels
 #   lr_digits.kgl, lr_digits_float.kgl                 kinglet pack of the scikit-learn
 #                                                      LogisticRegression (MinMaxScaler, skl2onnx
 #                                                      LinearClassifier) in tests/fixtures/linear/
@@ -24,13 +27,13 @@ if [[ -z "${KINGLET:-}" ]]; then
 fi
 
 "$KINGLET" pack "$root/examples/digits/model.onnx" \
-  --calibration "$root/examples/digits/calibration.csv" -o "$out/digits.kgl"
+  --calibration "$root/examples/digits/calibration.csv" --integer-input -o "$out/digits.kgl"
 "$KINGLET" pack "$root/examples/digits/model.onnx" --float -o "$out/digits_float.kgl"
 "$KINGLET" pack "$root/tests/fixtures/linear/lr_digits_minmax.onnx" \
-  --calibration "$root/examples/digits/calibration.csv" -o "$out/lr_digits.kgl"
+  --calibration "$root/examples/digits/calibration.csv" --integer-input -o "$out/lr_digits.kgl"
 "$KINGLET" pack "$root/tests/fixtures/linear/lr_digits_minmax.onnx" --float -o "$out/lr_digits_float.kgl"
 "$KINGLET" pack "$root/tests/fixtures/activation/mlp_tanh_digits.onnx" \
-  --calibration "$root/examples/digits/calibration.csv" -o "$out/tanh_digits.kgl"
+  --calibration "$root/examples/digits/calibration.csv" --integer-input -o "$out/tanh_digits.kgl"
 "$KINGLET" pack "$root/tests/fixtures/activation/mlp_tanh_digits.onnx" --float -o "$out/tanh_digits_float.kgl"
 "$KINGLET" pack "$root/examples/vibration/model.onnx" \
   --calibration "$root/examples/vibration/calibration.csv" -o "$out/vibration.kgl"

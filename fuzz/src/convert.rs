@@ -2,7 +2,9 @@
 //! yields a blob the runtime reads back, and that blob survives the extreme inputs.
 use kinglet_converter::dataset::Dataset;
 use kinglet_converter::graph::FloatModel;
-use kinglet_converter::pack::{pack_f32, pack_int8, pack_int8_with, FoldScaler, Int8Options};
+use kinglet_converter::pack::{
+    pack_f32, pack_int8, pack_int8_with, FoldScaler, Int8Options, Sections,
+};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_runtime::Model;
 
@@ -56,6 +58,7 @@ pub fn pack_and_run(model: &FloatModel, seed: &[u8]) {
         method: RangeMethod::MinMax,
         bias_correction: true,
         fold_scaler: FoldScaler::Try,
+        sections: Sections::ALL,
     };
     if let Ok(p) = pack_int8_with(model, &data, opts) {
         match Model::parse(&p.blob) {

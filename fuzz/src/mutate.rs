@@ -389,6 +389,19 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
                 };
             }
         }
+        // Version 5: leave an optional section out, whole or (one layer's scales) partly.
+        30 => m.drop_integer_input(),
+        31 => {
+            if u.arbitrary()? {
+                m.drop_weight_scales();
+            } else if let Some(q) = m
+                .layers
+                .get_mut(u.choose_index(nl)?)
+                .and_then(|l| l.quant.as_mut())
+            {
+                q.weight_scale.clear();
+            }
+        }
         _ => {}
     }
     Ok(())

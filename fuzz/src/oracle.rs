@@ -56,8 +56,16 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, scratch_len: usize, scor
                 "only an f32 model may report a non-finite output"
             );
         }
+        Err(RunError::NoIntegerInput) => {
+            assert!(
+                integer(input),
+                "only integer features may be refused as such"
+            );
+            assert!(!model.takes_integer_input());
+        }
         Err(e) => panic!("unexpected run error {e:?}"),
         Ok(p) => {
+            assert!(!integer(input) || model.takes_integer_input());
             assert_eq!(n_in, model.input_len());
             assert!(nonfinite_at.is_none(), "non-finite input accepted");
             assert!(
@@ -98,6 +106,12 @@ pub fn run_checked(model: &Model<'_>, input: Input<'_>, scratch_len: usize, scor
     }
 }
 
+/// Whether `input` is integer features (`Input::I16` or `Input::U8`), which an int8 blob
+/// without the integer input path refuses (format version 5).
+fn integer(input: Input<'_>) -> bool {
+    matches!(input, Input::I16(_) | Input::U8(_))
+}
+
 /// `classify` on the same call as `infer` (`r`, which wrote `scores`): the same refusals,
 /// except that it has no scores to be short of, and infer's class whenever infer's top score
 /// is unique (a tie there can be float rounding that the integer argmax does not have).
@@ -113,6 +127,8 @@ fn check_classify(
     let c = model.classify(input, &mut scratch);
     if n_in != model.input_len() {
         assert!(matches!(c, Err(RunError::InputLength { .. })), "{c:?}");
+    } else if integer(input) && !model.takes_integer_input() {
+        assert_eq!(c, Err(RunError::NoIntegerInput));
     } else if scratch_len < model.scratch_bytes() {
         assert!(matches!(c, Err(RunError::ScratchTooSmall { .. })), "{c:?}");
     } else if let Some(i) = nonfinite_at {

@@ -333,6 +333,9 @@ pub enum RunError {
     },
     /// An f32 model produced a NaN or infinite output (inputs far outside the trained range).
     NonFiniteOutput,
+    /// `Input::I16` or `Input::U8` on an int8 blob packed without the integer input path
+    /// (format version 5 may leave it out; [`crate::Model::takes_integer_input`] tells).
+    NoIntegerInput,
 }
 
 impl fmt::Display for RunError {
@@ -356,6 +359,9 @@ impl fmt::Display for RunError {
             RunError::NonFiniteOutput => {
                 f.write_str("the model produced a non-finite output (input far out of range)")
             }
+            RunError::NoIntegerInput => f.write_str(
+                "this int8 blob has no integer input path: feed f32 features, or pack it with `kinglet pack --integer-input`",
+            ),
         }
     }
 }

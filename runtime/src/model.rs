@@ -201,6 +201,25 @@ impl<'a> Model<'a> {
         }
     }
 
+    /// Whether [`Input::I16`] and [`Input::U8`] are accepted: always on an f32 model (the
+    /// integers go through the float scaler), and on an int8 model when the blob carries the
+    /// integer input path (`kinglet pack --integer-input`; `FORMAT.md` §3.4). Otherwise
+    /// [`Model::infer`] and [`Model::classify`] refuse them with [`RunError::NoIntegerInput`].
+    pub fn takes_integer_input(&self) -> bool {
+        self.desc
+            .input_quant
+            .as_ref()
+            .is_none_or(|q| !q.int_shift.is_empty())
+    }
+
+    /// Whether the blob carries the per-channel f32 weight scales, which inference does not use
+    /// (format version 5 may leave them out; `kinglet pack --weight-scales` keeps them). False
+    /// for an f32 model, which has none.
+    pub fn has_weight_scales(&self) -> bool {
+        self.desc.precision == Precision::Int8
+            && crate::wire::version::keeps_weight_scales(&self.desc.layers)
+    }
+
     /// Precision of the model.
     pub fn precision(&self) -> Precision {
         self.desc.precision
@@ -224,15 +243,18 @@ impl<'a> Model<'a> {
     /// Runs one inference. `scratch` needs [`Model::scratch_bytes`] bytes, `scores` at least
     /// [`Model::output_len`] elements; on error the contents of both are unspecified.
     ///
-    /// Float inputs must be finite. Integer inputs are always accepted.
+    /// Float inputs must be finite. Integer inputs of any value are accepted when the blob takes
+    /// them ([`Model::takes_integer_input`]).
     ///
     /// # Errors
     ///
     /// A [`RunError`]: the input is not [`Model::input_len`] long
     /// ([`RunError::InputLength`]), `scratch` or `scores` is too small
     /// ([`RunError::ScratchTooSmall`], [`RunError::ScoresTooSmall`]), a float input is NaN or
-    /// infinite ([`RunError::NonFiniteInput`]), or an f32 model's output is not finite
-    /// ([`RunError::NonFiniteOutput`]).
+    /// infinite ([`RunError::NonFiniteInput`]), an f32 model's output is not finite
+    /// ([`RunError::NonFiniteOutput`]), or integer features are given to an int8 blob without
+    /// the integer input path ([`RunError::NoIntegerInput`], see
+    /// [`Model::takes_integer_input`]).
     ///
     /// ```
     /// # fn demo(blob: &[u8]) -> Result<(), kinglet_runtime::Error> {
@@ -322,10 +344,15 @@ impl<'a> Model<'a> {
         Ok(Prediction { class, score })
     }
 
-    /// `InputLength` unless `input` has the model's input width.
+    /// `InputLength` unless `input` has the model's input width; then `NoIntegerInput` for
+    /// integer features on a blob without the integer input path (version 5 may leave it out,
+    /// `FORMAT.md` §3.4).
     pub(crate) fn check_input_len(&self, input: &Input<'_>) -> Result<(), RunError> {
         let n = self.input_len();
         if input.len() == n {
+            if !matches!(input, Input::F32(_)) && !self.takes_integer_input() {
+                return Err(RunError::NoIntegerInput);
+            }
             Ok(())
         } else {
             Err(RunError::InputLength {

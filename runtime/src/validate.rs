@@ -8,6 +8,7 @@ use crate::wire::format::{
     MAX_WIDTH,
 };
 use crate::wire::layout;
+use crate::wire::version::keeps_weight_scales;
 
 /// Largest addend of the integer input path (keeps its 64-bit sum from overflowing).
 const MAX_INPUT_ADD: i64 = 1 << 62;
@@ -88,8 +89,10 @@ fn scale_fits(b: u32, steps: u16) -> bool {
 
 fn check_input_quant(q: &InputQuantDesc<'_>, input_len: usize) -> Result<(), FormatError> {
     good_scale(q.scale, q.zero_point, None)?;
+    // `n = 0`: the integer input path is left out (version 5, `FORMAT.md` §3.4); then all three
+    // tables must be empty, as the length checks below require.
     let n = q.int_shift.len();
-    if n != 1 && n != input_len {
+    if n != 0 && n != 1 && n != input_len {
         return Err(FormatError::TensorLength {
             layer: None,
             tensor: TensorKind::IntegerInput,
@@ -113,6 +116,7 @@ fn check_layer(
     k: u8,
     prev: usize,
     precision: Precision,
+    scales: bool,
 ) -> Result<usize, FormatError> {
     let at = Some(k);
     let inputs = width(l.inputs, at)?;
@@ -137,7 +141,9 @@ fn check_layer(
             finite(l.bias, at, TensorKind::Bias)?;
         }
         (Precision::Int8, Some(q)) => {
-            expect_len(q.weight_scale, 4 * outputs, at, TensorKind::WeightScale)?;
+            // Empty when the report-only weight scales are left out (version 5).
+            let n = if scales { 4 * outputs } else { 0 };
+            expect_len(q.weight_scale, n, at, TensorKind::WeightScale)?;
             expect_len(q.multiplier, 4 * outputs, at, TensorKind::Multiplier)?;
             expect_len(q.shift, outputs, at, TensorKind::Shift)?;
             finite(q.weight_scale, at, TensorKind::WeightScale)?;
@@ -289,9 +295,12 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ScratchPlan, FormatError> {
     if d.layers.is_empty() {
         return Err(FormatError::NoLayers);
     }
+    // Weight scales are kept on every int8 layer or left out on every one (`FORMAT.md` §3.4),
+    // as layer 0 has them: a layer that differs is a partial section (`TensorLength`).
+    let scales = keeps_weight_scales(&d.layers);
     let mut prev = input_len;
     for (k, l) in d.layers.iter().enumerate() {
-        prev = check_layer(l, k as u8, prev, d.precision)?;
+        prev = check_layer(l, k as u8, prev, d.precision, scales)?;
     }
     if d.output == OutputKind::Sigmoid && prev != 1 {
         return Err(FormatError::SigmoidWidth);

@@ -62,3 +62,36 @@ pub fn scaler_kind(s: &str) -> kinglet_converter::graph::ScalerKind {
         other => panic!("unknown scaler kind {other}"),
     }
 }
+
+/// A reference library's output on a fixture's rows, as the Python fixture scripts write it:
+/// which library and version made it (`source`), and one row of outputs per input row.
+#[derive(Debug, Clone, serde::Deserialize)]
+pub struct Reference {
+    /// The library and version that computed the rows (e.g. scikit-learn's `predict_proba`).
+    pub source: String,
+    /// One row of outputs per input row.
+    pub rows: Vec<Vec<f64>>,
+}
+
+/// Fixture rows as an unlabelled [`kinglet_converter::dataset::Dataset`].
+pub fn rows_dataset(rows: &[Vec<f32>]) -> kinglet_converter::dataset::Dataset {
+    kinglet_converter::dataset::Dataset {
+        rows: rows.len(),
+        width: rows.first().map_or(0, Vec::len),
+        features: rows.concat(),
+        labels: None,
+        source: "fixture".into(),
+    }
+}
+
+/// A blob's scores laid out as a reference's `want` columns: a sigmoid model's `p` as
+/// `[1 - p, p]` (scikit-learn's two-class `predict_proba`), a binary raw-score model's
+/// `[-s, s]` as `s` (scikit-learn's one-column `decision_function`).
+pub fn as_columns(scores: &[f32], want: usize) -> Vec<f64> {
+    let s: Vec<f64> = scores.iter().map(|&v| f64::from(v)).collect();
+    match (s.as_slice(), want) {
+        ([p], 2) => vec![1.0 - p, *p],
+        ([_, pos], 1) => vec![*pos],
+        _ => s,
+    }
+}

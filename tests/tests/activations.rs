@@ -17,7 +17,6 @@
 //! - `tables.json`: int8 activation tables computed with numpy (float64), compared entry by
 //!   entry with the converter's `pointwise_table`.
 
-use kinglet_converter::dataset::Dataset;
 use kinglet_converter::graph::{Activation, FloatModel, Pointwise, PointwiseKind};
 use kinglet_converter::import::onnx::import_onnx_file;
 use kinglet_converter::pack::{pack_f32, pack_int8};
@@ -25,14 +24,8 @@ use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_converter::quantise::params::AffineQuant;
 use kinglet_converter::quantise::pointwise_table;
 use kinglet_runtime::Model;
-use kinglet_tests::{output_kind, path, run};
+use kinglet_tests::{as_columns, output_kind, path, rows_dataset, run, Reference};
 use serde::Deserialize;
-
-#[derive(Deserialize)]
-struct Reference {
-    source: String,
-    rows: Vec<Vec<f64>>,
-}
 
 #[derive(Deserialize)]
 struct Case {
@@ -57,25 +50,6 @@ fn case(name: &str) -> Case {
     let p = path(&format!("tests/fixtures/activation/{name}.json"));
     let text = std::fs::read_to_string(&p).unwrap_or_else(|e| panic!("{}: {e}", p.display()));
     serde_json::from_str(&text).unwrap_or_else(|e| panic!("{}: {e}", p.display()))
-}
-
-fn dataset(rows: &[Vec<f32>]) -> Dataset {
-    Dataset {
-        rows: rows.len(),
-        width: rows.first().map_or(0, Vec::len),
-        features: rows.concat(),
-        labels: None,
-        source: "fixture".into(),
-    }
-}
-
-/// A sigmoid model's `p` as `[1 - p, p]` (scikit-learn's two-class `predict_proba`).
-fn as_columns(scores: &[f32], want: usize) -> Vec<f64> {
-    let s: Vec<f64> = scores.iter().map(|&v| f64::from(v)).collect();
-    match (s.as_slice(), want) {
-        ([p], 2) => vec![1.0 - p, *p],
-        _ => s,
-    }
 }
 
 /// Largest absolute difference between the blob's probabilities and a reference.
@@ -136,13 +110,15 @@ fn check_mlp(name: &str, kind: PointwiseKind, bar: Agreement) {
     }
     let f = check_f32(name, &c, &model);
     let mf = Model::parse(&f).unwrap();
-    let q = pack_int8(&model, &dataset(&c.calibration), RangeMethod::MinMax)
+    let q = pack_int8(&model, &rows_dataset(&c.calibration), RangeMethod::MinMax)
         .unwrap_or_else(|e| panic!("{name}: {e}"))
         .blob;
     let mq = Model::parse(&q).unwrap();
+    // 5: the default pack leaves out the optional sections (`FORMAT.md` §3.4); a pointwise
+    // table that keeps them is version 4 (`runtime/tests/regressions.rs`, R39).
     assert_eq!(
         u16::from_le_bytes([q[4], q[5]]),
-        4,
+        5,
         "{name}: format version"
     );
     let (mut agree, mut right_f, mut right_q) = (0usize, 0usize, 0usize);
@@ -310,7 +286,7 @@ fn every_imported_op_matches_the_reference_evaluator() {
         );
         assert_eq!(model.layers[1].activation, Activation::Linear, "{name}");
         check_f32(name, &c, &model);
-        let q = pack_int8(&model, &dataset(&c.calibration), RangeMethod::MinMax)
+        let q = pack_int8(&model, &rows_dataset(&c.calibration), RangeMethod::MinMax)
             .unwrap_or_else(|e| panic!("{name}: {e}"))
             .blob;
         let mq = Model::parse(&q).unwrap();

@@ -6,7 +6,10 @@
 //! `kinglet pack tests/fixtures/linear/lr_ovr_wine_standard.onnx --calibration <its calibration
 //! rows as CSV>`; `v4-tanh-iris-int8.kgl` at version 4 (a pointwise tanh record) by
 //! `kinglet pack tests/fixtures/activation/mlp_tanh_iris.onnx --calibration <its calibration
-//! rows as CSV>`; none is ever regenerated. A reader change that rejects them, or
+//! rows as CSV> --integer-input --weight-scales`; `v5-vibration-int8.kgl` at version 5 (both
+//! optional sections left out, `runtime/FORMAT.md` §3.4) by `kinglet pack
+//! examples/vibration/model.onnx --calibration examples/vibration/calibration.csv`; none is
+//! ever regenerated. A reader change that rejects them, or
 //! changes their predictions, fails here; `runtime/tests/fixture_bytes.rs` checks that every
 //! single-byte change of each is rejected.
 use kinglet_converter::dataset::{load_csv, CsvOptions, LabelColumn};
@@ -146,4 +149,61 @@ fn version_4_tanh_blob_still_reads_and_predicts() {
         .count();
     // 38 of 38 when the fixture was made.
     assert!(right >= 37, "{right}/38");
+}
+
+#[test]
+fn version_5_blob_without_optional_sections_reads_and_predicts_as_the_full_one() {
+    let blob = std::fs::read(path("tests/fixtures/blobs/v5-vibration-int8.kgl")).unwrap();
+    assert_eq!(u16::from_le_bytes([blob[4], blob[5]]), 5);
+    let m = Model::parse(&blob).unwrap();
+    assert_eq!(
+        (m.precision(), m.input_len(), m.classes()),
+        (Precision::Int8, 15, 4)
+    );
+    assert!(!m.takes_integer_input() && !m.has_weight_scales());
+    let right = vibration_right(&m);
+    // 590 of 600 when the fixture was made (the version-2 fixture's count too).
+    assert!(right >= 585, "{right}/600");
+    // The same table with both sections put back is the version-2 blob a pack wrote before
+    // version 5, and it scores every held-out row bit for bit as the version-5 blob.
+    let mut full = kinglet_builder::OwnedModel::from_desc(m.desc());
+    let q = full.input_quant.as_mut().unwrap();
+    let packed = kinglet_converter::pack::pack_int8_sections(
+        &kinglet_converter::import::import_file(&path("examples/vibration/model.onnx")).unwrap(),
+        &load_csv(
+            &path("examples/vibration/calibration.csv"),
+            &CsvOptions::default(),
+        )
+        .unwrap(),
+        kinglet_converter::quantise::calibrate::RangeMethod::MinMax,
+        kinglet_converter::pack::Sections::ALL,
+    )
+    .unwrap()
+    .blob;
+    let v2 = Model::parse(&packed).unwrap();
+    assert_eq!(u16::from_le_bytes([packed[4], packed[5]]), 2);
+    let fq = v2.desc().input_quant.unwrap();
+    (q.int_mult, q.int_add, q.int_shift) = (
+        fq.int_mult.to_vec(),
+        fq.int_add.to_vec(),
+        fq.int_shift.to_vec(),
+    );
+    for (l, f) in full.layers.iter_mut().zip(v2.desc().layers.iter()) {
+        l.quant.as_mut().unwrap().weight_scale = f.quant.unwrap().weight_scale.to_vec();
+    }
+    // Re-encoded with its weights realigned (the alignment bytes move with the sections).
+    let rebuilt = full
+        .encode_in(kinglet_runtime::unstable::wire::format::WeightLayout::Blocked4x4)
+        .unwrap();
+    assert!(
+        rebuilt == packed,
+        "the fixture is the full pack less its two sections"
+    );
+    let data = heldout("vibration");
+    for r in 0..data.rows {
+        let (a, sa) = run(&m, data.row(r));
+        let (b, sb) = run(&v2, data.row(r));
+        let bits = |s: &[f32]| s.iter().map(|v| v.to_bits()).collect::<Vec<_>>();
+        assert_eq!((a, bits(&sa)), (b, bits(&sb)), "row {r}");
+    }
 }

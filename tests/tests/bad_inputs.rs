@@ -13,7 +13,7 @@ use kinglet_converter::dataset::{load_csv, CsvOptions};
 use kinglet_converter::graph::Activation;
 use kinglet_converter::graph::{DenseLayer, FloatModel};
 use kinglet_converter::import::onnx::import_onnx_file;
-use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::pack::{pack_f32, pack_int8, pack_int8_sections, Sections};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_runtime::unstable::wire::format::{
     ModelDesc, OutputKind, Precision, WeightLayout, MAX_LAYERS,
@@ -28,16 +28,36 @@ fn vibration() -> FloatModel {
     import_onnx_file(&path("examples/vibration/model.onnx")).expect("vibration model imports")
 }
 
-/// The int8 pack of the vibration example (calibrated on its calibration rows).
+fn vibration_calibration() -> kinglet_converter::dataset::Dataset {
+    load_csv(
+        &path("examples/vibration/calibration.csv"),
+        &CsvOptions::default(),
+    )
+    .expect("calibration rows load")
+}
+
+/// The int8 pack of the vibration example (calibrated on its calibration rows) with every
+/// optional section (`--integer-input --weight-scales`): a version-2 blob whose every field the
+/// rows below can edit.
 fn int8_blob() -> &'static [u8] {
     static B: OnceLock<Vec<u8>> = OnceLock::new();
     B.get_or_init(|| {
-        let cal = load_csv(
-            &path("examples/vibration/calibration.csv"),
-            &CsvOptions::default(),
+        pack_int8_sections(
+            &vibration(),
+            &vibration_calibration(),
+            RangeMethod::MinMax,
+            Sections::ALL,
         )
-        .expect("calibration rows load");
-        pack_int8(&vibration(), &cal, RangeMethod::MinMax)
+        .expect("vibration packs to int8")
+        .blob
+    })
+}
+
+/// The default int8 pack of the vibration example: both optional sections left out (version 5).
+fn lean_blob() -> &'static [u8] {
+    static B: OnceLock<Vec<u8>> = OnceLock::new();
+    B.get_or_init(|| {
+        pack_int8(&vibration(), &vibration_calibration(), RangeMethod::MinMax)
             .expect("vibration packs to int8")
             .blob
     })
@@ -829,5 +849,174 @@ fn r32_npy_header_longer_than_the_file() {
         let msg = kinglet_converter::error_line::one_line(&e);
         assert!(msg.contains("the header is declared as"), "{msg}");
         assert!(msg.contains(&format!("v{version}.npy")), "{msg}");
+    }
+}
+
+#[test]
+fn r40_integer_input_on_a_blob_without_the_integer_path() {
+    let m = Model::parse(lean_blob()).unwrap();
+    assert_eq!(u16::from_le_bytes([lean_blob()[4], lean_blob()[5]]), 5);
+    assert!(!m.takes_integer_input());
+    let counts = [0i16; 15];
+    let bytes = [0u8; 15];
+    for input in [Input::I16(&counts), Input::U8(&bytes)] {
+        let e = run(lean_blob(), input, None, None).unwrap_err();
+        assert_eq!(e, RunError::NoIntegerInput);
+        assert_eq!(
+            e.to_string(),
+            "this int8 blob has no integer input path: feed f32 features, or pack it with `kinglet pack --integer-input`"
+        );
+        let mut scratch = vec![0u8; m.scratch_bytes()];
+        assert_eq!(
+            m.classify(input, &mut scratch),
+            Err(RunError::NoIntegerInput)
+        );
+    }
+    // Float features still run, and the full pack takes integers.
+    assert!(run(lean_blob(), Input::F32(&[0.0; 15]), None, None).is_ok());
+    assert!(Model::parse(int8_blob()).unwrap().takes_integer_input());
+}
+
+#[test]
+fn r41_section_left_out_under_an_older_version() {
+    // An empty section is version 5: relabelled 2 (the Blocked4x4 version it had before), it
+    // is refused rather than read as a damaged version-2 blob; and a full blob relabelled 5.
+    let mut b = lean_blob().to_vec();
+    b[VERSION] = 2;
+    assert_eq!(
+        rejects(&b, FormatError::VersionMismatch { header: 2, body: 5 }),
+        "the header says format version 2, but the layer table is version 5 (a blob carries exactly the version its table needs)"
+    );
+    let mut b = int8_blob().to_vec();
+    b[VERSION] = 5;
+    rejects(&b, FormatError::VersionMismatch { header: 5, body: 2 });
+}
+
+#[test]
+fn r42_partial_integer_input_path() {
+    // Some of the three tables empty, the others kept: a partial section.
+    let d0 = table(int8_blob());
+    let q0 = *d0.input_quant.as_ref().unwrap();
+    let cuts: [fn(&mut kinglet_runtime::unstable::wire::format::InputQuantDesc<'_>); 3] = [
+        |q| q.int_mult = &[],
+        |q| q.int_add = &[],
+        |q| {
+            q.int_mult = &[];
+            q.int_add = &[];
+        },
+    ];
+    for cut in cuts {
+        let mut d = d0.clone();
+        let mut q = q0;
+        cut(&mut q);
+        d.input_quant = Some(q);
+        assert_eq!(
+            rejects(
+                &raw(&d),
+                FormatError::TensorLength {
+                    layer: None,
+                    tensor: TensorKind::IntegerInput
+                }
+            ),
+            "input stage: integer input tables length disagrees with the shape"
+        );
+    }
+    // Only the shifts left out (the multipliers and addends kept).
+    let mut d = d0.clone();
+    let mut q = q0;
+    q.int_shift = &[];
+    d.input_quant = Some(q);
+    rejects(
+        &raw(&d),
+        FormatError::TensorLength {
+            layer: None,
+            tensor: TensorKind::IntegerInput,
+        },
+    );
+}
+
+#[test]
+fn r43_weight_scales_on_some_layers_only() {
+    // Left out on layer 1 (0-based) but kept on layers 0 and 2; then kept on layer 1 only.
+    let d0 = table(int8_blob());
+    let mut d = d0.clone();
+    d.layers[1].quant.as_mut().unwrap().weight_scale = &[];
+    let want = FormatError::TensorLength {
+        layer: Some(1),
+        tensor: TensorKind::WeightScale,
+    };
+    assert_eq!(
+        rejects(&raw(&d), want),
+        "layer 1: weight scales length disagrees with the shape"
+    );
+    let lean = table(lean_blob());
+    let mut d = lean.clone();
+    d.layers[1].quant.as_mut().unwrap().weight_scale =
+        d0.layers[1].quant.as_ref().unwrap().weight_scale;
+    rejects(&raw(&d), want);
+    // A section cut short is partial too: 3 of layer 0's 24 weight scales.
+    let mut d = d0.clone();
+    d.layers[0].quant.as_mut().unwrap().weight_scale =
+        &d0.layers[0].quant.as_ref().unwrap().weight_scale[..12];
+    rejects(
+        &raw(&d),
+        FormatError::TensorLength {
+            layer: Some(0),
+            tensor: TensorKind::WeightScale,
+        },
+    );
+}
+
+#[test]
+fn r44_required_tensor_empty_in_a_version_5_blob() {
+    // Only the two optional sections may be empty: weights, biases, multipliers and shifts
+    // are required whatever the version, and so is a declared scaler's data.
+    let lean = table(lean_blob());
+    type Cut = fn(&mut ModelDesc<'_>);
+    let cases: [(Cut, FormatError); 5] = [
+        (
+            |d| d.layers[0].weights = &[],
+            FormatError::TensorLength {
+                layer: Some(0),
+                tensor: TensorKind::Weights,
+            },
+        ),
+        (
+            |d| d.layers[1].bias = &[],
+            FormatError::TensorLength {
+                layer: Some(1),
+                tensor: TensorKind::Bias,
+            },
+        ),
+        (
+            |d| d.layers[2].quant.as_mut().unwrap().multiplier = &[],
+            FormatError::TensorLength {
+                layer: Some(2),
+                tensor: TensorKind::Multiplier,
+            },
+        ),
+        (
+            |d| d.layers[0].quant.as_mut().unwrap().shift = &[],
+            FormatError::TensorLength {
+                layer: Some(0),
+                tensor: TensorKind::Shift,
+            },
+        ),
+        (
+            |d| {
+                let s = d.scaler.as_mut().unwrap();
+                s.offset = &[];
+                s.scale = &[];
+            },
+            FormatError::TensorLength {
+                layer: None,
+                tensor: TensorKind::ScalerOffset,
+            },
+        ),
+    ];
+    for (cut, want) in cases {
+        let mut d = lean.clone();
+        cut(&mut d);
+        rejects(&raw(&d), want);
     }
 }

@@ -9,7 +9,7 @@
 //! SQNR ≥ 30 dB and agreement ≥ 99.5 %.
 use kinglet_converter::dataset::{load_csv, CsvOptions, Dataset, LabelColumn};
 use kinglet_converter::import::import_file;
-use kinglet_converter::pack::{pack_f32, pack_int8_with, FoldScaler, Int8Options};
+use kinglet_converter::pack::{pack_f32, pack_int8_with, FoldScaler, Int8Options, Sections};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_converter::score::feed::{Entry, Rows};
 use kinglet_converter::vet::{
@@ -99,6 +99,7 @@ fn row_on(
             method,
             bias_correction,
             fold_scaler,
+            sections: Sections::ALL,
         },
         calibration,
     );

@@ -3,7 +3,7 @@
 //! `bash tests/python/run_all.sh`).
 use kinglet_converter::dataset::Dataset;
 use kinglet_converter::graph::{Activation, DenseLayer, FloatModel};
-use kinglet_converter::pack::{pack_f32, pack_int8_with, FoldScaler, Int8Options};
+use kinglet_converter::pack::{pack_f32, pack_int8_with, FoldScaler, Int8Options, Sections};
 use kinglet_converter::quantise::bias_correction::bias_corrected;
 use kinglet_converter::quantise::calibrate::{calibrate, RangeMethod};
 use kinglet_converter::quantise::least_error::{least_error, GRID_STEPS};
@@ -140,6 +140,7 @@ fn bias_correction_equals_numpy() {
         method: RangeMethod::MinMax,
         bias_correction: true,
         fold_scaler: FoldScaler::No,
+        sections: Sections::ALL,
     };
     let p = pack_int8_with(&model, &data, opts).unwrap();
     assert!(p.bias_correction && Model::parse(&p.blob).is_ok());

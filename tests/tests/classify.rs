@@ -7,7 +7,7 @@
 //! scikit-learn's predicted class. The vibration data is our own invented demo data.
 use kinglet_converter::dataset::{load_csv, CsvOptions, Dataset, LabelColumn};
 use kinglet_converter::import::import_file;
-use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::pack::{pack_f32, pack_int8_sections, Sections};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_runtime::{Input, Model, RunError};
 use kinglet_tests::{path, read_float_csv, run};
@@ -25,7 +25,9 @@ fn packs(example: &str) -> (Vec<u8>, Vec<u8>) {
     let model = import_file(&path(&format!("examples/{example}/model.onnx"))).unwrap();
     let calib = load(example, "calibration.csv", false);
     let f = pack_f32(&model).unwrap();
-    let q = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob;
+    let q = pack_int8_sections(&model, &calib, RangeMethod::MinMax, Sections::INTEGER_INPUT)
+        .unwrap()
+        .blob;
     (f, q)
 }
 

@@ -7,7 +7,7 @@
 //! `examples/digits/make_model.py` and regenerated in CI by `tests/python/check_fixtures.py`.
 use kinglet_converter::dataset::{load_csv, CsvOptions, LabelColumn};
 use kinglet_converter::import::import_file;
-use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::pack::{pack_f32, pack_int8_sections, Sections};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_runtime::{Input, Model};
 use kinglet_tests::{path, read_float_csv, run};
@@ -51,7 +51,9 @@ fn int8_pack_agrees_with_float_and_keeps_accuracy() {
     )
     .unwrap();
     let f = pack_f32(&model).unwrap();
-    let q = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob;
+    let q = pack_int8_sections(&model, &calib, RangeMethod::MinMax, Sections::INTEGER_INPUT)
+        .unwrap()
+        .blob;
     let (mf, mq) = (Model::parse(&f).unwrap(), Model::parse(&q).unwrap());
     let data = heldout();
     let labels: Vec<usize> = data
@@ -99,7 +101,9 @@ fn integer_pixel_path_matches_the_float_input_path() {
         &CsvOptions::default(),
     )
     .unwrap();
-    let q = pack_int8(&model, &calib, RangeMethod::MinMax).unwrap().blob;
+    let q = pack_int8_sections(&model, &calib, RangeMethod::MinMax, Sections::INTEGER_INPUT)
+        .unwrap()
+        .blob;
     let m = Model::parse(&q).unwrap();
     let data = heldout();
     let mut same = 0;

@@ -22,20 +22,13 @@
 //! size above 1, as in linear_models.rs); the int8 blob within 1 percentage point of the f32
 //! blob's accuracy, and the same top-1 class on at least 99 % of the held-out rows.
 
-use kinglet_converter::dataset::Dataset;
 use kinglet_converter::graph::FloatModel;
 use kinglet_converter::import::onnx::import_onnx_file;
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_runtime::Model;
-use kinglet_tests::{output_kind, path, run, scaler_kind};
+use kinglet_tests::{output_kind, path, rows_dataset, run, scaler_kind, Reference};
 use serde::Deserialize;
-
-#[derive(Deserialize)]
-struct Reference {
-    source: String,
-    rows: Vec<Vec<f64>>,
-}
 
 #[derive(Deserialize)]
 struct Case {
@@ -74,16 +67,6 @@ fn rows(c: &Case) -> (Vec<Vec<f32>>, Vec<Vec<f32>>) {
         (Some(h), Some(k), _) => (h.clone(), k.clone()),
         (_, _, Some(from)) => rows(&read::<Case>(from)),
         _ => panic!("{}: no rows", c.model),
-    }
-}
-
-fn dataset(rows: &[Vec<f32>]) -> Dataset {
-    Dataset {
-        rows: rows.len(),
-        width: rows.first().map_or(0, Vec::len),
-        features: rows.concat(),
-        labels: None,
-        source: "fixture".into(),
     }
 }
 
@@ -176,7 +159,7 @@ fn check_with(name: &str, min_agreement: f64) -> FloatModel {
         assert!(gap <= 1e-5, "{name}: f32 blob vs {}: {gap:e}", r.source);
     }
 
-    let q = pack_int8(&model, &dataset(&calibration), RangeMethod::MinMax)
+    let q = pack_int8(&model, &rows_dataset(&calibration), RangeMethod::MinMax)
         .unwrap_or_else(|e| panic!("{name}: {e}"))
         .blob;
     let mq = Model::parse(&q).unwrap();

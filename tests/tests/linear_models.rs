@@ -14,20 +14,13 @@
 //! percentage point of the f32 blob's accuracy, and the same top-1 class on at least 99 % of
 //! the held-out rows.
 
-use kinglet_converter::dataset::Dataset;
 use kinglet_converter::graph::{FloatModel, OutputKind};
 use kinglet_converter::import::onnx::{import_onnx_file, OnnxImportError};
 use kinglet_converter::pack::{pack_f32, pack_int8};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_runtime::Model;
-use kinglet_tests::{output_kind, path, run, scaler_kind};
+use kinglet_tests::{as_columns, output_kind, path, rows_dataset, run, scaler_kind, Reference};
 use serde::Deserialize;
-
-#[derive(Deserialize)]
-struct Reference {
-    source: String,
-    rows: Vec<Vec<f64>>,
-}
 
 #[derive(Deserialize)]
 struct Case {
@@ -87,28 +80,6 @@ fn rows(name: &str, c: &Case) -> (Vec<Vec<f32>>, Vec<Vec<f32>>) {
             }
         }
         _ => panic!("{name}: no rows"),
-    }
-}
-
-fn dataset(rows: &[Vec<f32>]) -> Dataset {
-    Dataset {
-        rows: rows.len(),
-        width: rows.first().map_or(0, Vec::len),
-        features: rows.concat(),
-        labels: None,
-        source: "fixture".into(),
-    }
-}
-
-/// The blob's scores laid out as the reference's columns: a sigmoid model's `p` as `[1 - p, p]`
-/// (two-class probabilities), a binary raw-score model's `[-s, s]` as `s` (scikit-learn's
-/// one-column `decision_function`).
-fn as_columns(scores: &[f32], want: usize) -> Vec<f64> {
-    let s: Vec<f64> = scores.iter().map(|&v| f64::from(v)).collect();
-    match (s.as_slice(), want) {
-        ([p], 2) => vec![1.0 - p, *p],
-        ([_, pos], 1) => vec![*pos],
-        _ => s,
     }
 }
 
@@ -180,7 +151,7 @@ fn check(name: &str) -> Figures {
         assert!(gap <= 1e-5, "{name}: f32 blob vs {}: {gap:e}", r.source);
     }
 
-    let q = pack_int8(&model, &dataset(&calibration), RangeMethod::MinMax)
+    let q = pack_int8(&model, &rows_dataset(&calibration), RangeMethod::MinMax)
         .unwrap_or_else(|e| panic!("{name}: {e}"))
         .blob;
     let mq = Model::parse(&q).unwrap();

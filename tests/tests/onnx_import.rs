@@ -8,18 +8,12 @@ use std::path::{Path, PathBuf};
 
 use kinglet_converter::graph::{FloatModel, OutputKind};
 use kinglet_converter::import::onnx::{import_onnx, import_onnx_file, OnnxImportError};
-use kinglet_tests::{output_kind, scaler_kind};
+use kinglet_tests::{output_kind, scaler_kind, Reference};
 use serde::Deserialize;
 
 /// Largest accepted difference between our f64 forward pass of the imported f32 weights and a
 /// reference output (probabilities or logits of order 1).
 const TOL: f64 = 1e-5;
-
-#[derive(Deserialize)]
-struct Reference {
-    source: String,
-    rows: Vec<Vec<f64>>,
-}
 
 #[derive(Deserialize)]
 struct Case {

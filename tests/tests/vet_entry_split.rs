@@ -12,7 +12,7 @@
 //! apart, far enough for f32, and both say 1.
 use kinglet_converter::dataset::{Dataset, IntegerValues};
 use kinglet_converter::graph::{Activation, DenseLayer, FloatModel, OutputKind};
-use kinglet_converter::pack::{pack_f32, pack_int8};
+use kinglet_converter::pack::{pack_f32, pack_int8_sections, Sections};
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_converter::score::{self, Entry, Rows};
 use kinglet_converter::vet::{self, Criteria, ModelPair, Parallelism, Sources};
@@ -61,7 +61,9 @@ fn infer_and_classify_split_on_a_softmax_tie() {
         source: "calibration".into(),
     };
     let f = pack_f32(&m).unwrap();
-    let q = pack_int8(&m, &calib, RangeMethod::MinMax).unwrap().blob;
+    let q = pack_int8_sections(&m, &calib, RangeMethod::MinMax, Sections::INTEGER_INPUT)
+        .unwrap()
+        .blob;
     let pair = ModelPair::new(Model::parse(&f).unwrap(), Model::parse(&q).unwrap()).unwrap();
     let data = rows(&[10, -10, 1000, 10, 10]);
 

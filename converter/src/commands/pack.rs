@@ -7,6 +7,7 @@ use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::pack::request::{
     named, pack_with, PackProgress, PackRequest, Precision, ScalerSource,
 };
+use kinglet_converter::pack::Sections;
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_converter::report::calibration;
 use kinglet_converter::report::table;
@@ -128,6 +129,15 @@ pub struct Args {
     /// They replace the labels the model carries (scikit-learn writes "0", "1", …), with a note.
     #[arg(long, value_delimiter = ',')]
     labels: Option<Vec<String>>,
+    /// Keep the integer input path (int8; 13 bytes per feature): needed to feed raw i16/u8
+    /// samples (`Input::I16`/`Input::U8`, `--feed i16|u8`). Without it the blob takes f32
+    /// features only.
+    #[arg(long)]
+    integer_input: bool,
+    /// Keep the per-channel f32 weight scales (int8; 4 bytes per layer output), which inference
+    /// does not use.
+    #[arg(long)]
+    weight_scales: bool,
     /// Print the report as JSON.
     #[arg(long)]
     json: bool,
@@ -180,6 +190,10 @@ pub fn run(a: Args) -> Result<Outcome> {
         scaler,
         labels: a.labels.clone(),
         precision,
+        sections: Sections {
+            integer_input: a.integer_input,
+            weight_scales: a.weight_scales,
+        },
     };
     let out = a.out.clone().unwrap_or_else(|| req.default_out());
     let inputs = req.inputs();

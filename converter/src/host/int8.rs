@@ -120,7 +120,9 @@ impl Int8Host {
             .iter()
             .map(|b| i64::from_le_bytes(*b))
             .collect();
+        // Empty when the blob leaves the integer input path out.
         let integer = (0..width)
+            .take_while(|_| !q.int_shift.is_empty())
             .map(|i| {
                 let j = if q.int_shift.len() == 1 { 0 } else { i };
                 (
@@ -162,6 +164,10 @@ impl Int8Host {
                 for ((d, &x), (off, sc)) in dst.iter_mut().zip(v).zip(params) {
                     *d = quantize_linear((x - off) * sc, q.quant_scale, q.zero_point);
                 }
+            }
+            // A blob without the integer input path (version 5, `FORMAT.md` §3.4), as the runtime.
+            Input::I16(_) | Input::U8(_) if q.integer.is_empty() => {
+                return Err(RunError::NoIntegerInput)
             }
             Input::I16(v) => {
                 for ((d, &x), &(m, a, s)) in dst.iter_mut().zip(v).zip(&q.integer) {

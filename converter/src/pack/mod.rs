@@ -2,15 +2,17 @@
 //! [`request::pack`] is the whole `kinglet pack` (import, scaler, labels, pack, report).
 //! Every layer is written in the runtime's `Blocked4x4` layout (4-row blocks, int8 excess-128,
 //! data 4-byte aligned within the blob; `FORMAT.md` §3.1), the order the Cortex-M kernels read,
-//! by `kinglet_builder` with the runtime's own geometry and validating encoder.
+//! by `kinglet_builder` with the runtime's own geometry and validating encoder, unless its
+//! padding would take the blob past its size goal ([`size`]): then it is written OutputMajor.
 pub mod raw_trial;
 pub mod request;
+pub mod size;
 
 pub use raw_trial::RawInputChoice;
 
 use anyhow::{bail, Result};
 use kinglet_builder::OwnedLayer;
-use kinglet_runtime::unstable::wire::format::{Precision, WeightLayout};
+use kinglet_runtime::unstable::wire::format::Precision;
 use kinglet_runtime::Model;
 
 use crate::dataset::Dataset;
@@ -39,7 +41,7 @@ pub fn pack_f32(model: &FloatModel) -> Result<Vec<u8>> {
         })
         .collect::<Result<Vec<_>>>()?;
     let owned = owned_table(model, Precision::F32, None, layers)?;
-    Ok(owned.encode_in(WeightLayout::Blocked4x4)?)
+    size::encode_within_limit(&owned)
 }
 
 /// An int8 pack and how it was calibrated.
@@ -63,6 +65,32 @@ pub struct Int8Pack {
     pub warnings: Vec<String>,
 }
 
+/// The optional sections of an int8 blob to write (`runtime/FORMAT.md` §3.4). Each left out
+/// makes the blob format version 5 and smaller; [`Sections::default`] leaves both out.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct Sections {
+    /// The integer input path's tables (13 bytes per feature, or 13 for a uniform scaler):
+    /// needed to feed raw `i16` / `u8` samples (`Input::I16`, `Input::U8`, `--feed i16|u8`).
+    pub integer_input: bool,
+    /// The per-channel f32 weight scales (4 bytes per layer output), which inference does not
+    /// use.
+    pub weight_scales: bool,
+}
+
+impl Sections {
+    /// Both sections kept: the blob a pack wrote before version 5 (version 1 to 3).
+    pub const ALL: Sections = Sections {
+        integer_input: true,
+        weight_scales: true,
+    };
+
+    /// Only the integer input path kept: for firmware that feeds raw integer samples.
+    pub const INTEGER_INPUT: Sections = Sections {
+        integer_input: true,
+        weight_scales: false,
+    };
+}
+
 /// How an int8 pack is calibrated.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Int8Options {
@@ -76,6 +104,8 @@ pub struct Int8Options {
     /// ([`crate::quantise::raw_input`]) and keep whichever is closer to the float model on the
     /// calibration rows.
     pub fold_scaler: FoldScaler,
+    /// The optional sections to write ([`Sections`]).
+    pub sections: Sections,
 }
 
 /// Whether to fold the scaler into the first layer and quantise the raw input
@@ -97,13 +127,15 @@ impl From<RangeMethod> for Int8Options {
             method,
             bias_correction: false,
             fold_scaler: FoldScaler::No,
+            sections: Sections::default(),
         }
     }
 }
 
-/// Calibrates on `data` (raw feature rows) with `method` and packs the int8 blob.
+/// Calibrates on `data` (raw feature rows) with `method` and packs the int8 blob without the
+/// optional sections ([`Sections::default`]: it takes f32 features only).
 pub fn pack_int8(model: &FloatModel, data: &Dataset, method: RangeMethod) -> Result<Int8Pack> {
-    pack_int8_observed(model, data, method, &|_| {})
+    pack_int8_sections(model, data, method, Sections::default())
 }
 
 /// [`pack_int8`] with every option.
@@ -111,14 +143,29 @@ pub fn pack_int8_with(model: &FloatModel, data: &Dataset, opts: Int8Options) -> 
     pack_int8_options(model, data, opts, &|_| {})
 }
 
-/// [`pack_int8`], calling `progress` with the calibration rows just run.
+/// [`pack_int8`] writing the optional `sections` asked for.
+pub fn pack_int8_sections(
+    model: &FloatModel,
+    data: &Dataset,
+    method: RangeMethod,
+    sections: Sections,
+) -> Result<Int8Pack> {
+    pack_int8_observed(model, data, method, sections, &|_| {})
+}
+
+/// [`pack_int8_sections`], calling `progress` with the calibration rows just run.
 pub fn pack_int8_observed(
     model: &FloatModel,
     data: &Dataset,
     method: RangeMethod,
+    sections: Sections,
     progress: &dyn Fn(u64),
 ) -> Result<Int8Pack> {
-    pack_int8_options(model, data, method.into(), progress)
+    let opts = Int8Options {
+        sections,
+        ..method.into()
+    };
+    pack_int8_options(model, data, opts, progress)
 }
 
 /// [`pack_int8_with`], calling `progress` with the calibration rows just run.
@@ -135,12 +182,18 @@ pub fn pack_int8_options(
     let cal = crate::quantise::calibrate::calibrate_observed(&float_model, data, method, progress)?;
     check_plausible(model, &cal, &data.source)?;
     let build = |m: &FloatModel, ranges: &[TensorRange], means: &[Vec<f64>]| -> Result<Vec<u8>> {
-        let owned = if opts.bias_correction {
+        let mut owned = if opts.bias_correction {
             quantise_with(&bias_corrected(m, means)?, ranges, &cal.pre_activation)?
         } else {
             quantise_with(m, ranges, &cal.pre_activation)?
         };
-        Ok(owned.encode_in(WeightLayout::Blocked4x4)?)
+        if !opts.sections.integer_input {
+            owned.drop_integer_input();
+        }
+        if !opts.sections.weight_scales {
+            owned.drop_weight_scales();
+        }
+        size::encode_within_limit(&owned)
     };
     let mut blob = build(model, &cal.ranges, &cal.means)?;
     let raw_input = match opts.fold_scaler {

@@ -14,7 +14,7 @@ use crate::report::calibration::CalibrationReport;
 use crate::report::BlobReport;
 use crate::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
 
-use super::{pack_f32, pack_int8_options, FoldScaler, Int8Options};
+use super::{pack_f32, pack_int8_options, FoldScaler, Int8Options, Sections};
 
 /// Where the input scaler comes from, when the model carries none.
 #[derive(Debug, Clone, PartialEq)]
@@ -57,6 +57,9 @@ pub struct PackRequest {
     pub labels: Option<Vec<String>>,
     /// f32 or int8.
     pub precision: Precision,
+    /// The optional sections of an int8 blob to keep (`--integer-input`, `--weight-scales`);
+    /// an f32 pack has none and refuses either.
+    pub sections: super::Sections,
 }
 
 /// A packed blob and what to tell about it.
@@ -194,6 +197,7 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
     let mut calibration = None;
     let blob = match &req.precision {
         Precision::F32 => {
+            refuse_sections_on_f32(req.sections)?;
             pack_f32(&model).with_context(|| format!("cannot pack {}", model_path.display()))?
         }
         Precision::Int8 {
@@ -215,6 +219,7 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
                 } else {
                     FoldScaler::No
                 },
+                sections: req.sections,
             };
             let p = pack_int8_options(&model, &data, opts, &|n| progress.rows_done(n))
                 .with_context(|| format!("cannot pack {}", model_path.display()))?;
@@ -249,6 +254,9 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
             Model::parse(&blob).map_err(|e| anyhow!("internal: packed blob rejected: {e}"))?;
         BlobReport::of(&parsed)
     };
+    if let Precision::Int8 { .. } = req.precision {
+        notes.push(sections_note(req.sections, &blob)?);
+    }
     if model.output == crate::graph::OutputKind::Logits {
         notes.push(
             "scores are raw scores (logits, or decision-function values of a linear SVM): no probabilities; the class is the largest".into(),
@@ -260,6 +268,39 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
         notes,
         calibration,
     })
+}
+
+/// `--integer-input` and `--weight-scales` are int8 sections: an f32 blob takes integer inputs
+/// through its float scaler and has no weight scales.
+fn refuse_sections_on_f32(s: Sections) -> Result<()> {
+    if s.integer_input {
+        bail!("--integer-input applies to int8 packs: an f32 blob takes i16/u8 inputs through its float scaler as it is");
+    }
+    if s.weight_scales {
+        bail!("--weight-scales applies to int8 packs: an f32 blob has no weight scales");
+    }
+    Ok(())
+}
+
+/// The note on the optional sections of an int8 pack: whether the blob takes raw integer
+/// samples, and what each section costs or saves.
+fn sections_note(s: Sections, blob: &[u8]) -> Result<String> {
+    let m = Model::parse(blob).map_err(|e| anyhow!("internal: packed blob rejected: {e}"))?;
+    let features = m.desc().scaler.map_or(1, |sc| (sc.offset.len() / 4).max(1));
+    let integer_bytes = 13 * features;
+    let outputs: usize = m.layers().map(|l| l.desc.outputs as usize).sum();
+    let scale_bytes = 4 * outputs;
+    let integer = if s.integer_input {
+        format!("integer input path kept ({integer_bytes} bytes): the blob takes f32 features and raw i16/u8 samples")
+    } else {
+        format!("no integer input path: the blob takes f32 features only (Input::F32, --feed f32); to feed raw i16/u8 samples, pack with --integer-input (+{integer_bytes} bytes)")
+    };
+    let scales = if s.weight_scales {
+        format!("weight scales kept ({scale_bytes} bytes, not used by inference)")
+    } else {
+        format!("weight scales left out (-{scale_bytes} bytes; --weight-scales keeps them)")
+    };
+    Ok(format!("{integer}; {scales}"))
 }
 
 fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<crate::dataset::Dataset> {
@@ -330,6 +371,7 @@ mod tests {
             scaler: None,
             labels: None,
             precision: Precision::F32,
+            sections: Sections::default(),
         })
         .unwrap();
         assert!(f32.calibration.is_none() && f32.notes.is_empty());
@@ -344,6 +386,7 @@ mod tests {
                 bias_correction: false,
                 fold_scaler: false,
             },
+            sections: Sections::default(),
         };
         let int8 = pack(&req).unwrap();
         assert!(int8.blob.len() < f32.blob.len());
@@ -353,6 +396,38 @@ mod tests {
             int8.notes
         );
         assert!(int8.calibration.is_some());
+        // The lean default says that raw integer samples need --integer-input (15 features).
+        assert!(
+            int8.notes[1].starts_with("no integer input path: the blob takes f32 features only")
+                && int8.notes[1].contains("pack with --integer-input (+195 bytes)"),
+            "{:?}",
+            int8.notes
+        );
+        let m = Model::parse(&int8.blob).unwrap();
+        assert!(!m.takes_integer_input() && !m.has_weight_scales());
+        let full = pack(&PackRequest {
+            sections: Sections::ALL,
+            ..req.clone()
+        })
+        .unwrap();
+        let m = Model::parse(&full.blob).unwrap();
+        assert!(m.takes_integer_input() && m.has_weight_scales());
+        // 15 features × 13 bytes, and (24 + 12 + 4) outputs × 4 bytes of weight scales; the
+        // alignment bytes before each layer's weights (0 to 3, three layers) move with them.
+        let saved = full.blob.len() - int8.blob.len();
+        assert!(saved.abs_diff(15 * 13 + 40 * 4) <= 3 * 3, "{saved}");
+        assert!(full.notes[1].starts_with("integer input path kept (195 bytes)"));
+        let e = pack(&PackRequest {
+            precision: Precision::F32,
+            sections: Sections::INTEGER_INPUT,
+            ..req.clone()
+        })
+        .unwrap_err();
+        assert!(
+            e.to_string()
+                .starts_with("--integer-input applies to int8 packs"),
+            "{e}"
+        );
         assert_eq!(req.default_out(), PathBuf::from("model.int8.kgl"));
         let inputs = req.inputs();
         assert_eq!(inputs.len(), 2);
@@ -370,6 +445,7 @@ mod tests {
             scaler: None,
             labels: Some(names.clone()),
             precision: Precision::F32,
+            sections: Sections::default(),
         })
         .unwrap();
         let m = kinglet_runtime::Model::parse(&p.blob).unwrap();
@@ -383,6 +459,7 @@ mod tests {
             scaler: None,
             labels: Some(names[..3].to_vec()),
             precision: Precision::F32,
+            sections: Sections::default(),
         })
         .unwrap_err();
         assert!(

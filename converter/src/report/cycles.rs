@@ -129,8 +129,8 @@ pub const RATES: [Rates; 5] = [
         per_input: 9.28,
         per_layer: 291.92,
         per_feature: 26.03,
-        per_class: 86.88,
-        fixed: 395.43,
+        per_class: 86.94,
+        fixed: 394.99,
     },
     Rates {
         target: "Cortex-M4 (DSP)",
@@ -143,8 +143,8 @@ pub const RATES: [Rates; 5] = [
         per_input: 9.28,
         per_layer: 291.92,
         per_feature: 67.15,
-        per_class: 90.98,
-        fixed: 417.94,
+        per_class: 91.04,
+        fixed: 421.53,
     },
     Rates {
         target: "Cortex-M4F (FPU)",
@@ -157,8 +157,8 @@ pub const RATES: [Rates; 5] = [
         per_input: -3.45,
         per_layer: 165.67,
         per_feature: 39.17,
-        per_class: 101.65,
-        fixed: 296.09,
+        per_class: 101.71,
+        fixed: 292.72,
     },
     Rates {
         target: "Cortex-M0",
@@ -170,9 +170,9 @@ pub const RATES: [Rates; 5] = [
         per_partial_row: 33.3,
         per_input: 13.91,
         per_layer: 409.45,
-        per_feature: 757.27,
-        per_class: 2609.05,
-        fixed: 1763.05,
+        per_feature: 757.26,
+        per_class: 2608.12,
+        fixed: 1760.85,
     },
     Rates {
         target: "Cortex-M0",
@@ -184,9 +184,9 @@ pub const RATES: [Rates; 5] = [
         per_partial_row: 33.3,
         per_input: 13.91,
         per_layer: 409.45,
-        per_feature: 128.65,
-        per_class: 2598.59,
-        fixed: 1995.71,
+        per_feature: 128.64,
+        per_class: 2597.67,
+        fixed: 1999.77,
     },
 ];
 // kb-harness:end rates

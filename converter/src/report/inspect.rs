@@ -40,6 +40,9 @@ pub struct BlobReport {
     pub scaler: String,
     /// Input scale and zero point (int8 only).
     pub input_quant: Option<(f32, i8)>,
+    /// Whether the blob takes raw `i16` / `u8` samples (`Model::takes_integer_input`): an int8
+    /// blob only with the integer input path (`kinglet pack --integer-input`).
+    pub integer_input: bool,
     /// Class labels (empty if none).
     pub labels: Vec<String>,
     /// Layers.
@@ -111,6 +114,7 @@ impl BlobReport {
             }
             .into(),
             input_quant: d.input_quant.map(|q| (q.scale, q.zero_point)),
+            integer_input: model.takes_integer_input(),
             labels: model.labels().map(String::from).collect(),
             parameters: layers.iter().map(|l| l.parameters).sum(),
             macs: layers.iter().map(|l| l.macs).sum(),
@@ -127,7 +131,11 @@ impl BlobReport {
                     .map(|l| (l.desc.inputs as usize, l.desc.outputs as usize))
                     .collect::<Vec<_>>(),
                 None,
-            ),
+            )
+            .into_iter()
+            // No integer-path estimate for a blob that refuses integer samples.
+            .filter(|e| e.feed != super::cycles::Feed::Integer || model.takes_integer_input())
+            .collect(),
             alignment: None,
             flash_bytes: model.blob_bytes(),
             scratch_bytes: model.scratch_bytes(),

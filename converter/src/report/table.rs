@@ -87,10 +87,15 @@ pub fn render(r: &BlobReport) -> String {
         (
             "input",
             format!(
-                "{} features, scaler: {}, quant: {}",
+                "{} features, scaler: {}, quant: {}{}",
                 r.inputs,
                 r.scaler,
-                quant(r.input_quant)
+                quant(r.input_quant),
+                match (r.input_quant, r.integer_input) {
+                    (None, _) => "",
+                    (Some(_), true) => ", integer input path: yes (f32 and i16/u8 samples)",
+                    (Some(_), false) => ", integer input path: no (f32 features only)",
+                }
             ),
         ),
         ("output", format!("{} over {} classes", r.output, r.classes)),

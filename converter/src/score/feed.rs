@@ -158,6 +158,23 @@ impl Rows {
     }
 }
 
+/// Refuses an integer `feed` for an int8 blob packed without the integer input path (format
+/// version 5 may leave it out; `runtime/FORMAT.md` §3.4), before any row is run: the runtime
+/// would refuse every row with `RunError::NoIntegerInput`. `blob` names the file.
+pub fn check_feed(
+    model: &kinglet_runtime::Model<'_>,
+    feed: Feed,
+    blob: &str,
+) -> anyhow::Result<()> {
+    if feed != Feed::F32 && !model.takes_integer_input() {
+        anyhow::bail!(
+            "{blob} has no integer input path (it was packed without --integer-input), so --feed {} cannot give it raw integers; pack it again with --integer-input, or use --feed f32",
+            feed.name()
+        );
+    }
+    Ok(())
+}
+
 /// Row `r` (0-based) of `data`, or of `integers` when given, as the runtime input (empty past
 /// the last row).
 pub fn input_at<'a>(data: &'a Dataset, integers: Option<&'a IntegerValues>, r: usize) -> Input<'a> {

@@ -67,6 +67,7 @@ pub fn precision_name(p: Precision) -> &'static str {
 /// Those of [`score_rows`], and labels that are neither class names of the blob nor class
 /// indices.
 pub fn score(model: &Model<'_>, blob: &str, rows: &Rows, entry: Entry) -> Result<Scored> {
+    feed::check_feed(model, rows.feed(), blob)?;
     let results = score_rows(model, rows, entry)?;
     let class_names: Vec<String> = model.labels().map(str::to_string).collect();
     let truth = match &rows.data.labels {

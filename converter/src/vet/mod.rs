@@ -125,6 +125,7 @@ fn vet_fed(
     }
     // Widths first: rows of another model's data fail here, before their labels are judged.
     data.check_width(pair.int8.input_len())?;
+    crate::score::feed::check_feed(&pair.int8, fed.feed(), &sources.int8_model)?;
     let labels = dataset_labels(data, pair)?;
     if criteria.max_drop_pp.is_some() && labels.is_none() {
         bail!(

@@ -225,9 +225,21 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
     blobs::synth(dir)?;
     let kinglet = p.root_target.join("release/kinglet");
     let ex = p.root.join("examples");
+    // The int8 blobs keep the integer input path: the benchmark and stack probes feed them
+    // raw i16/u8 samples as well as f32 features.
     let packs: [(&str, &[&str]); 4] = [
-        ("digits", &["--calibration", "digits/calibration.csv"]),
-        ("vibration", &["--calibration", "vibration/calibration.csv"]),
+        (
+            "digits",
+            &["--calibration", "digits/calibration.csv", "--integer-input"],
+        ),
+        (
+            "vibration",
+            &[
+                "--calibration",
+                "vibration/calibration.csv",
+                "--integer-input",
+            ],
+        ),
         ("digits_float", &["--float"]),
         ("vibration_float", &["--float"]),
     ];

@@ -1,6 +1,8 @@
 //! The fixed 20-byte header (`FORMAT.md` §2) and the `const fn`s that read it at build time.
 use crate::error::FormatError;
-use crate::wire::version::{FORMAT_VERSION, OLDEST_VERSION};
+use crate::wire::version::accepts;
+#[cfg(test)]
+use crate::wire::version::FORMAT_VERSION;
 
 /// Magic bytes at offset 0.
 pub const MAGIC: [u8; 4] = *b"KGLT";
@@ -124,7 +126,7 @@ impl Header {
             crc: u32_at(blob, offset::CRC),
             scratch_bytes: u32_at(blob, offset::SCRATCH),
         };
-        if !(OLDEST_VERSION..=FORMAT_VERSION).contains(&h.version) {
+        if !accepts(h.version) {
             return Err(FormatError::UnsupportedVersion { found: h.version });
         }
         if h.flags != 0 {
@@ -227,11 +229,11 @@ mod tests {
             Header::read(b"PK\x03\x04 zip file"),
             Err(FormatError::BadMagic)
         );
-        let mut v5 = good;
-        v5[offset::VERSION] = 5;
+        let mut v6 = good;
+        v6[offset::VERSION] = 6;
         assert_eq!(
-            Header::read(&v5),
-            Err(FormatError::UnsupportedVersion { found: 5 })
+            Header::read(&v6),
+            Err(FormatError::UnsupportedVersion { found: 6 })
         );
         let mut v0 = good;
         v0[offset::VERSION] = 0;

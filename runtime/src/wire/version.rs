@@ -3,26 +3,58 @@
 //! it without depending on each other.
 
 /// The newest format version this reader accepts (and writes when a blob needs it).
-pub const FORMAT_VERSION: u16 = 4;
+pub const FORMAT_VERSION: u16 = 5;
 
 /// The oldest format version this reader accepts. Version 1 is version 2 without the
-/// `Blocked4x4` weight layout, version 2 is version 3 without the `OneVsRest` output, and
-/// version 3 is version 4 without pointwise activation records; a
-/// blob carries exactly the lowest version that holds it ([`version_for`]), which writers emit
-/// and the reader requires.
+/// `Blocked4x4` weight layout, version 2 is version 3 without the `OneVsRest` output, version 3
+/// is version 4 without pointwise activation records, and version 5 is version 4 with optional
+/// sections that may be left out (empty); a blob carries exactly the lowest version that holds
+/// it ([`version_for`]), which writers emit and the reader requires.
 pub const OLDEST_VERSION: u16 = 1;
 
-/// The version a blob with this layer table carries: 4 if any layer has a pointwise activation
-/// record, else 3 if the output is `OneVsRest`, else 2 if
-/// any layer uses the `Blocked4x4` layout, else 1 (so older readers still read every blob they
-/// can). Writers put it in the header and `Model::parse` rejects any other
-/// (`FormatError::VersionMismatch`): the CRC does not cover the version field, this rule
-/// protects it.
-pub fn version_for(desc: &crate::wire::format::ModelDesc<'_>) -> u16 {
-    version_for_table(&desc.layers, desc.output)
+/// Whether this reader accepts format version `v` (every version from [`OLDEST_VERSION`] to
+/// [`FORMAT_VERSION`]).
+pub const fn accepts(v: u16) -> bool {
+    v >= OLDEST_VERSION && v <= FORMAT_VERSION
 }
 
-/// [`version_for`] of a table with these layers and this output.
+/// The version a blob with this layer table carries: 5 if it leaves out an optional section
+/// (the integer input tables or a layer's weight scales, [`omits_a_section`]), else 4 if any
+/// layer has a pointwise activation record, else 3 if the output is `OneVsRest`, else 2 if any
+/// layer uses the `Blocked4x4` layout, else 1 (so older
+/// readers still read every blob they can). Writers put it in the header and `Model::parse`
+/// rejects any other (`FormatError::VersionMismatch`): the CRC does not cover the version
+/// field, this rule protects it.
+pub fn version_for(desc: &crate::wire::format::ModelDesc<'_>) -> u16 {
+    if omits_a_section(desc) {
+        5
+    } else {
+        version_for_table(&desc.layers, desc.output)
+    }
+}
+
+/// Whether the table leaves out an optional section (`FORMAT.md` §3.4): an int8 table whose
+/// integer input shifts are empty, or whose first layer's weight scales are empty. (A section
+/// is left out whole or kept whole; `validate` rejects a partial one, whichever version this
+/// gives it, so these two fields decide.)
+pub fn omits_a_section(desc: &crate::wire::format::ModelDesc<'_>) -> bool {
+    desc.input_quant
+        .as_ref()
+        .is_some_and(|q| q.int_shift.is_empty())
+        || !keeps_weight_scales(&desc.layers)
+}
+
+/// Whether an int8 table keeps its weight scales: its first layer's are not empty (true for
+/// an f32 table, which has none to leave out).
+pub fn keeps_weight_scales(layers: &[crate::wire::format::LayerDesc<'_>]) -> bool {
+    layers
+        .first()
+        .and_then(|l| l.quant.as_ref())
+        .is_none_or(|q| !q.weight_scale.is_empty())
+}
+
+/// The version of a table with these layers and this output that leaves out no section (the
+/// rule of versions 1 to 4).
 pub fn version_for_table(
     layers: &[crate::wire::format::LayerDesc<'_>],
     output: crate::wire::format::OutputKind,
