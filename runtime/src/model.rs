@@ -8,7 +8,7 @@ use crate::requant::activation_range;
 use crate::scale::{integer_params, quantise_floats, quantise_integer, Scaler};
 use crate::scratch::ScratchPlan;
 use crate::stage::{Activations, Stage};
-use crate::unstable::pointwise::{apply_table, TABLE_LEN};
+use crate::unstable::pointwise::TABLE_LEN;
 use crate::wire::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout};
 use crate::wire::header::{Header, HEADER_LEN};
 use crate::{le, validate};
@@ -500,7 +500,8 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
     match &layer.quant {
         Some(q) => {
             let (act_min, act_max) = activation_range(layer.activation, q.output_zero_point);
-            // A pointwise layer requantises to the table's input zero point, then looks up.
+            // A pointwise layer requantises to the table's input zero point, and the kernel's store
+            // looks each value up.
             let (zero_point, table) = match layer.pointwise() {
                 Some(p) => (
                     p.input_zero_point,
@@ -517,13 +518,11 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
                 zero_point,
                 act_min,
                 act_max,
+                table,
             };
             match layer.layout {
                 WeightLayout::OutputMajor => dense_i8(&p, src, dst),
                 WeightLayout::Blocked4x4 => dense_i8_blocked_auto(&p, src, dst),
-            }
-            if let Some(t) = table {
-                apply_table(dst, t);
             }
             Some((q.output_scale, q.output_zero_point))
         }

@@ -1,5 +1,6 @@
 //! Pointwise activations between dense layers other than the fused ReLU (`FORMAT.md` §3.3):
-//! the kinds, their parameters, their f32 formulas (libm) and the int8 lookup table step.
+//! the kinds, their parameters and their f32 formulas (libm); an int8 layer's table is looked up
+//! by the kernels' store (`dense::store_i8`).
 //!
 //! An f32 layer stores the kind and its f32 parameters and computes the formula after the
 //! affine map. An int8 layer stores the kind and a 256-entry table: its requantised output is
@@ -186,30 +187,6 @@ fn min(a: f32, b: f32) -> f32 {
     }
 }
 
-/// Applies an int8 layer's table in place: each byte `q` (an `i8`) becomes `table[q + 128]`.
-#[inline]
-pub fn apply_table(values: &mut [u8], table: &[u8; TABLE_LEN]) {
-    // `q + 128` as an index is the byte with its top bit flipped; a `u8` index into 256
-    // entries, so the compiler drops the bounds check and the fallback.
-    let look = |v: &mut u8| {
-        if let Some(&t) = table.get(usize::from(*v ^ 0x80)) {
-            *v = t;
-        }
-    };
-    // Four at a time: one loop test per four values (the Cortex-M0 build is small-code and
-    // does not unroll by itself).
-    let mut quads = values.chunks_exact_mut(4);
-    for q in &mut quads {
-        if let [a, b, c, d] = q {
-            look(a);
-            look(b);
-            look(c);
-            look(d);
-        }
-    }
-    quads.into_remainder().iter_mut().for_each(look);
-}
-
 /// Applies an f32 layer's activation in place to little-endian f32 values.
 #[cfg(feature = "f32")]
 pub fn apply_f32(values: &mut [u8], p: &Pointwise) {
@@ -271,8 +248,8 @@ mod tests {
         for (i, e) in t.iter_mut().enumerate() {
             *e = (255 - i) as u8;
         }
-        let mut v = [(-128i8) as u8, 0, 127];
-        apply_table(&mut v, &t);
+        let v = [-128i8, 0, 127].map(|q| crate::unstable::dense::store_i8(Some(&t), q));
         assert_eq!(v, [255, 127, 0]);
+        assert_eq!(crate::unstable::dense::store_i8(None, -1), 255);
     }
 }

@@ -89,6 +89,7 @@ proptest! {
             zero_point: c.zp,
             act_min: if c.relu { c.zp } else { -128 },
             act_max: 127,
+            table: None,
         };
         let blocked = DenseI8 { weights: &field, ..base };
         let mut want = vec![0u8; m];
@@ -101,6 +102,26 @@ proptest! {
             let mut got = vec![0x55u8; m];
             kernel(&blocked, &x, &mut got);
             prop_assert_eq!(&got, &want, "{} kernel, {}x{}", name, m, n);
+        }
+        // With a pointwise table (a permutation seeded by the case): every kernel stores
+        // `table[q + 128]` of the value it stored without one.
+        let table: [u8; 256] = core::array::from_fn(|i| (i as u8).wrapping_mul(37).wrapping_add(c.zp as u8));
+        let looked: Vec<u8> = want.iter().map(|&q| table[usize::from(q ^ 0x80)]).collect();
+        let full = DenseI8 { act_min: -128, table: Some(&table), ..base };
+        let mut got = vec![0x55u8; m];
+        portable::dense_i8(&full, &x, &mut got);
+        if !c.relu {
+            prop_assert_eq!(&got, &looked, "output-major with a table, {}x{}", m, n);
+        }
+        let blocked_t = DenseI8 { weights: &field, ..full };
+        for (name, kernel) in [
+            ("portable blocked", portable::dense_i8_blocked_portable as fn(&DenseI8<'_>, &[u8], &mut [u8])),
+            ("m0", m0::dense_i8_blocked_m0_rust),
+            ("dispatched", dense::dense_i8_blocked_auto),
+        ] {
+            let mut with = vec![0x55u8; m];
+            kernel(&blocked_t, &x, &mut with);
+            prop_assert_eq!(&with, &got, "{} kernel with a table, {}x{}", name, m, n);
         }
     }
 
@@ -156,6 +177,7 @@ fn one_by_one_and_exact_ties() {
         zero_point: 0,
         act_min: -128,
         act_max: 127,
+        table: None,
     };
     let mut field = vec![0u8; 16];
     assert!(layout::block_i8(1, 1, &[3], &mut field));

@@ -132,6 +132,7 @@ fn int8_dense_matches_numpy_int64() {
             zero_point: c.out_zero_point,
             act_min: if c.relu { c.out_zero_point } else { -128 },
             act_max: 127,
+            table: None,
         };
         let mut out = vec![0u8; c.expected.len()];
         dense_i8(&p, &x, &mut out);

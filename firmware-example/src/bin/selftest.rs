@@ -147,6 +147,7 @@ fn dense_int8_reference(t: &mut Tally) {
             zero_point: c.zero_point,
             act_min: if c.relu { c.zero_point } else { i8::MIN },
             act_max: i8::MAX,
+            table: None,
         };
         let Some(dst) = out.get_mut(..c.outputs) else {
             t.check(

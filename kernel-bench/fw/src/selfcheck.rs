@@ -95,6 +95,7 @@ fn int8_case(rng: &mut Rng) -> bool {
         zero_point: zp,
         act_min: if relu { zp } else { -128 },
         act_max: 127,
+        table: None,
     };
     let blocked = DenseI8 {
         weights: field,

@@ -106,6 +106,13 @@ impl Run {
             .map(|c| c.count as f64 / c.macs.max(1) as f64)
     }
 
+    /// What variant `with` adds per element over variant `base` of section `name` (both counted
+    /// over the same elements).
+    pub fn added_per_element(&self, name: &str, base: &str, with: &str) -> Option<f64> {
+        let (b, w) = (self.case(name, base)?, self.case(name, with)?);
+        Some((w.count as f64 - b.count as f64) / w.macs.max(1) as f64)
+    }
+
     /// Whole inference of `model` (kernel) and the sum of its layers alone (`MODEL-L1`, ...).
     pub fn whole_and_layers(&self, model: &str) -> Option<(u64, u64)> {
         let whole = self.case(model, "model-kernel")?.count;

@@ -103,7 +103,7 @@ pub fn goals(targets: &[Target]) -> Vec<Goal> {
         }
         add(
             format!("{t} int8 activation table instr/element"),
-            b.per_mac("act-table", "kernel"),
+            b.added_per_element("act-table", "base", "kernel"),
             if dsp { 3.0 } else { 5.0 },
             true,
         );

@@ -36,8 +36,10 @@ fn finish(
             .wrapping_add(a)
             .wrapping_sub(correction);
         let m = i32::from_le_bytes(*m);
-        *o = crate::requant::requantise_validated(v, m, s as i8, p.zero_point, p.act_min, p.act_max)
-            as u8;
+        *o = super::store_i8(
+            p.table,
+            crate::requant::requantise_validated(v, m, s as i8, p.zero_point, p.act_min, p.act_max),
+        );
     }
     y
 }

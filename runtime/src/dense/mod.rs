@@ -66,6 +66,20 @@ pub struct DenseI8<'a> {
     pub act_min: i8,
     /// Upper clamp.
     pub act_max: i8,
+    /// A pointwise activation's 256-entry table (`FORMAT.md` §3.3), applied as each requantised
+    /// value is stored: `table[q + 128]` instead of `q` (the clamp is then the full int8 range).
+    pub table: Option<&'a [u8; crate::unstable::pointwise::TABLE_LEN]>,
+}
+
+/// The byte an int8 kernel stores for the requantised value `q`: `q` itself, or its entry of the
+/// layer's pointwise table (`q + 128` as an index is `q`'s byte with the top bit flipped).
+#[inline(always)]
+pub(crate) fn store_i8(table: Option<&[u8; crate::unstable::pointwise::TABLE_LEN]>, q: i8) -> u8 {
+    let b = q as u8;
+    match table {
+        Some(t) => t.get(usize::from(b ^ 0x80)).copied().unwrap_or(b),
+        None => b,
+    }
 }
 
 /// Name of the int8 kernel [`dense_i8_blocked_auto`] uses on this build.

@@ -22,8 +22,10 @@ pub fn dense_i8(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
         for (&w, &x) in row.iter().zip(input) {
             acc += i32::from(w as i8) * i32::from(x as i8);
         }
-        *out =
-            requantise_reference(acc, mult, shift as i8, p.zero_point, p.act_min, p.act_max) as u8;
+        *out = super::store_i8(
+            p.table,
+            requantise_reference(acc, mult, shift as i8, p.zero_point, p.act_min, p.act_max),
+        );
     }
 }
 
@@ -74,7 +76,10 @@ pub(crate) fn finish_block(
 ) {
     for (o, (a, (bias, mult, shift))) in out.iter_mut().zip(acc.into_iter().zip(params)) {
         let acc = bias.wrapping_add(a).wrapping_sub(correction);
-        *o = requantise_validated(acc, mult, shift, p.zero_point, p.act_min, p.act_max) as u8;
+        *o = super::store_i8(
+            p.table,
+            requantise_validated(acc, mult, shift, p.zero_point, p.act_min, p.act_max),
+        );
     }
 }
 
@@ -223,6 +228,7 @@ mod tests {
             zero_point: 0,
             act_min: -128,
             act_max: 127,
+            table: None,
         };
         let mut out = [0u8; 2];
         dense_i8(&p, &x, &mut out);
@@ -274,6 +280,7 @@ mod tests {
             zero_point: 0,
             act_min: -128,
             act_max: 127,
+            table: None,
         };
         let mut out = [9u8; 2];
         dense_i8(&p, &[1], &mut out);

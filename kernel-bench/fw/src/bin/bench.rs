@@ -49,6 +49,7 @@ fn params<'a>(l: &LayerDesc<'a>) -> DenseI8<'a> {
         zero_point: q.output_zero_point,
         act_min,
         act_max,
+        table: None,
     }
 }
 
@@ -203,26 +204,44 @@ fn f32_layer(
     }
 }
 
-/// Elements of the activation-table case.
-const TABLE_ELEMS: usize = 100;
+/// The int8 layer of the activation-table cases (64 → 32, blocked).
+const TABLE_LAYER: &[u8] = blobs::I8_64X32;
 
-/// An int8 layer's pointwise table step alone (`pointwise::apply_table`, what an int8 layer
-/// with a tanh, sigmoid, ... adds after requantisation) on 100 values, against the plain loop.
+/// What a pointwise table adds to an int8 layer (tanh, sigmoid, ...: looked up as the kernel
+/// stores each requantised value): the 64 → 32 layer on this build's kernel without a table
+/// (`act-table`/`base`) and with one (`act-table`/`kernel`), each counted over its 32 outputs,
+/// so the difference of the two rates is the table's cost per element. Both against the
+/// reference: the plain layer's bytes looked up one by one.
 #[inline(never)]
 fn activation_table(rng: &mut Rng) {
-    use kinglet_runtime::unstable::pointwise::{apply_table, TABLE_LEN};
+    use kinglet_runtime::unstable::pointwise::TABLE_LEN;
+    let m = model(TABLE_LAYER);
+    let l = m.desc().layers[0];
+    let (n, outs) = (l.inputs as usize, l.outputs as usize);
     let mut table = [0u8; TABLE_LEN];
     fill(&mut table, rng);
-    let mut values = [0u8; TABLE_ELEMS];
-    fill(&mut values, rng);
-    let mut reference = values;
-    for v in reference.iter_mut() {
-        *v = table[usize::from(*v ^ 0x80)];
-    }
-    case("act-table", "kernel", TABLE_ELEMS, || {
-        apply_table(black_box(&mut values), black_box(&table))
+    let mut x = [0u8; 64];
+    fill(&mut x[..n], rng);
+    let mut plain = [0u8; 32];
+    let mut looked = [0u8; 32];
+    let base = DenseI8 {
+        act_min: i8::MIN,
+        act_max: i8::MAX,
+        ..params(&l)
+    };
+    case("act-table", "base", outs, || {
+        dense::dense_i8_blocked_auto(black_box(&base), black_box(&x[..n]), &mut plain[..outs])
     });
-    assert!(values == reference, "activation table differs");
+    let with = DenseI8 {
+        table: Some(&table),
+        ..base
+    };
+    case("act-table", "kernel", outs, || {
+        dense::dense_i8_blocked_auto(black_box(&with), black_box(&x[..n]), &mut looked[..outs])
+    });
+    for (p, q) in plain.iter().zip(&looked).take(outs) {
+        assert!(table[usize::from(*p ^ 0x80)] == *q, "activation table differs");
+    }
 }
 
 /// Whole inference of a packed model (blocked and its output-major twin; on the Cortex-M4 also
