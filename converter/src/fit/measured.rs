@@ -19,20 +19,20 @@ use super::{Code, Measured};
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
     default_build: Code {
-        text: 18016,
+        text: 17924,
         rodata: 1375,
     },
     int8_only: Code {
-        text: 11616,
+        text: 11556,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 8608,
+        text: 8548,
         rodata: 1308,
     },
     stack_parse: 3288,
-    stack_infer: 600,
-    stack_classify: 600,
+    stack_infer: 592,
+    stack_classify: 592,
     model_struct: 628,
 };
 
@@ -40,15 +40,15 @@ pub const CORTEX_M0: Measured = Measured {
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
     default_build: Code {
-        text: 14124,
+        text: 14032,
         rodata: 1375,
     },
     int8_only: Code {
-        text: 8860,
+        text: 8748,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 7940,
+        text: 7828,
         rodata: 1308,
     },
     stack_parse: 3212,

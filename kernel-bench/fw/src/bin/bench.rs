@@ -240,7 +240,10 @@ fn activation_table(rng: &mut Rng) {
         dense::dense_i8_blocked_auto(black_box(&with), black_box(&x[..n]), &mut looked[..outs])
     });
     for (p, q) in plain.iter().zip(&looked).take(outs) {
-        assert!(table[usize::from(*p ^ 0x80)] == *q, "activation table differs");
+        assert!(
+            table[usize::from(*p ^ 0x80)] == *q,
+            "activation table differs"
+        );
     }
 }
 
