@@ -89,28 +89,10 @@ fn version_3_one_vs_rest_blob_still_reads_and_predicts() {
         (Precision::Int8, 13, 3)
     );
     // The held-out rows of load_wine (UCI Wine) recorded with the fixture's model.
-    let case: serde_json::Value = serde_json::from_str(
-        &std::fs::read_to_string(path("tests/fixtures/linear/lr_ovr_wine_standard.json")).unwrap(),
-    )
-    .unwrap();
-    let rows = case["heldout"].as_array().unwrap();
-    let labels = case["heldout_labels"].as_array().unwrap();
-    let right = rows
-        .iter()
-        .zip(labels)
-        .filter(|(r, l)| {
-            let x: Vec<f32> = r
-                .as_array()
-                .unwrap()
-                .iter()
-                .map(|v| v.as_f64().unwrap() as f32)
-                .collect();
-            let (class, scores) = run(&m, &x);
-            let sum: f32 = scores.iter().sum();
-            assert!((sum - 1.0).abs() < 1e-5, "one-vs-rest scores sum to {sum}");
-            class as u64 == l.as_u64().unwrap()
-        })
-        .count();
+    let right = heldout_right(&m, "tests/fixtures/linear/lr_ovr_wine_standard.json", |s| {
+        let sum: f32 = s.iter().sum();
+        assert!((sum - 1.0).abs() < 1e-5, "one-vs-rest scores sum to {sum}");
+    });
     // 45 of 45 when the fixture was made.
     assert!(right >= 44, "{right}/45");
 }
@@ -128,25 +110,7 @@ fn version_4_tanh_blob_still_reads_and_predicts() {
     let acts: Vec<_> = m.layers().map(|l| activation_name(l.desc)).collect();
     assert_eq!(acts, ["tanh", "linear"]);
     // The held-out rows of load_iris (Fisher 1936) recorded with the fixture's model.
-    let case: serde_json::Value = serde_json::from_str(
-        &std::fs::read_to_string(path("tests/fixtures/activation/mlp_tanh_iris.json")).unwrap(),
-    )
-    .unwrap();
-    let rows = case["heldout"].as_array().unwrap();
-    let labels = case["heldout_labels"].as_array().unwrap();
-    let right = rows
-        .iter()
-        .zip(labels)
-        .filter(|(r, l)| {
-            let x: Vec<f32> = r
-                .as_array()
-                .unwrap()
-                .iter()
-                .map(|v| v.as_f64().unwrap() as f32)
-                .collect();
-            run(&m, &x).0 as u64 == l.as_u64().unwrap()
-        })
-        .count();
+    let right = heldout_right(&m, "tests/fixtures/activation/mlp_tanh_iris.json", |_| {});
     // 38 of 38 when the fixture was made.
     assert!(right >= 37, "{right}/38");
 }
@@ -206,4 +170,27 @@ fn version_5_blob_without_optional_sections_reads_and_predicts_as_the_full_one()
         let bits = |s: &[f32]| s.iter().map(|v| v.to_bits()).collect::<Vec<_>>();
         assert_eq!((a, bits(&sa)), (b, bits(&sb)), "row {r}");
     }
+}
+
+/// How many of a fixture case's held-out rows (`heldout`, `heldout_labels` in the JSON at
+/// `rel`) `m` classifies right; `check` sees every row's scores.
+fn heldout_right(m: &Model<'_>, rel: &str, check: impl Fn(&[f32])) -> usize {
+    let case: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(path(rel)).unwrap()).unwrap();
+    let rows = case["heldout"].as_array().unwrap();
+    let labels = case["heldout_labels"].as_array().unwrap();
+    rows.iter()
+        .zip(labels)
+        .filter(|(r, l)| {
+            let x: Vec<f32> = r
+                .as_array()
+                .unwrap()
+                .iter()
+                .map(|v| v.as_f64().unwrap() as f32)
+                .collect();
+            let (class, scores) = run(m, &x);
+            check(&scores);
+            class as u64 == l.as_u64().unwrap()
+        })
+        .count()
 }
