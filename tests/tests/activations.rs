@@ -110,7 +110,60 @@ fn check_mlp(name: &str, kind: PointwiseKind, bar: Agreement) {
     }
     let f = check_f32(name, &c, &model);
     let mf = Model::parse(&f).unwrap();
-    let q = pack_int8(&model, &rows_dataset(&c.calibration), RangeMethod::MinMax)
+    // The issue's bars on held-out rows: int8 accuracy within 1 pp of f32's, top-1 agreement
+    // at least 99 %. With min/max ranges (the default) as `bar` says; with the least-error
+    // ranges (`--range least-error`, Nagel et al. 2021 §3.4) on every case.
+    let mm = int8_figures(name, &c, &model, &mf, RangeMethod::MinMax);
+    let le = int8_figures(name, &c, &model, &mf, RangeMethod::LeastError);
+    for (what, f) in [("min/max", &mm), ("least-error", &le)] {
+        assert!(
+            f.f32_acc - f.int8_acc <= 1.0,
+            "{name}, {what}: int8 accuracy {:.2} % vs f32 {:.2} %",
+            f.int8_acc,
+            f.f32_acc
+        );
+    }
+    assert!(
+        le.agreement >= 99.0,
+        "{name}, least-error: top-1 agreement {:.2} %",
+        le.agreement
+    );
+    match bar {
+        Agreement::Issue => assert!(
+            mm.agreement >= 99.0,
+            "{name}, min/max: top-1 agreement {:.2} %",
+            mm.agreement
+        ),
+        Agreement::MissedOnBoundary => {
+            assert!(
+                mm.agreement < 99.0,
+                "{name}: meets the 99 % bar now: use Agreement::Issue"
+            );
+            assert!(
+                mm.near_boundary,
+                "{name}: a row whose f32 scores are not within 0.03 of a tie changed class"
+            );
+        }
+    }
+}
+
+/// What an int8 pack of a case gives on its held-out rows.
+struct Figures {
+    f32_acc: f64,
+    int8_acc: f64,
+    agreement: f64,
+    /// Every row that changed class had f32 scores within 0.03 of a tie.
+    near_boundary: bool,
+}
+
+fn int8_figures(
+    name: &str,
+    c: &Case,
+    model: &kinglet_converter::graph::FloatModel,
+    mf: &Model<'_>,
+    method: RangeMethod,
+) -> Figures {
+    let q = pack_int8(model, &rows_dataset(&c.calibration), method)
         .unwrap_or_else(|e| panic!("{name}: {e}"))
         .blob;
     let mq = Model::parse(&q).unwrap();
@@ -124,10 +177,9 @@ fn check_mlp(name: &str, kind: PointwiseKind, bar: Agreement) {
     let (mut agree, mut right_f, mut right_q) = (0usize, 0usize, 0usize);
     let mut near_boundary = true;
     for (row, &label) in c.heldout.iter().zip(&c.heldout_labels) {
-        let (cf, _) = run(&mf, row);
+        let (cf, sf) = run(mf, row);
         let (cq, sq) = run(&mq, row);
         if cf != cq {
-            let sf = run(&mf, row).1;
             eprintln!("{name}: classes differ: f32 scores {sf:?}, int8 {sq:?}");
             near_boundary &= margin(&sf) < 0.03;
         }
@@ -136,44 +188,33 @@ fn check_mlp(name: &str, kind: PointwiseKind, bar: Agreement) {
         right_q += usize::from(cq == label);
     }
     let n = c.heldout.len() as f64;
-    let (fa, qa, ag) = (
-        100.0 * right_f as f64 / n,
-        100.0 * right_q as f64 / n,
-        100.0 * agree as f64 / n,
-    );
+    let f = Figures {
+        f32_acc: 100.0 * right_f as f64 / n,
+        int8_acc: 100.0 * right_q as f64 / n,
+        agreement: 100.0 * agree as f64 / n,
+        near_boundary,
+    };
     eprintln!(
-        "{name} ({}, {} held-out rows): f32 accuracy {fa:.2} %, int8 {qa:.2} %, top-1 agreement {ag:.2} %, int8 blob {} bytes",
+        "{name} ({}, {} held-out rows, {method:?}): f32 accuracy {:.2} %, int8 {:.2} %, top-1 agreement {:.2} %, int8 blob {} bytes",
         c.dataset.as_deref().unwrap_or("?"),
         c.heldout.len(),
+        f.f32_acc,
+        f.int8_acc,
+        f.agreement,
         q.len()
     );
-    assert!(
-        fa - qa <= 1.0,
-        "{name}: int8 accuracy {qa:.2} % vs f32 {fa:.2} %"
-    );
-    match bar {
-        Agreement::Issue => assert!(ag >= 99.0, "{name}: top-1 agreement {ag:.2} %"),
-        Agreement::MissedOnBoundary => {
-            assert!(
-                ag < 99.0,
-                "{name}: meets the 99 % bar now: use Agreement::Issue"
-            );
-            assert!(
-                near_boundary,
-                "{name}: a row whose f32 scores are not within 0.03 of a tie changed class"
-            );
-        }
-    }
+    f
 }
 
 /// The top-1 agreement bar of a case.
 enum Agreement {
     /// The issue's: at least 99 % of the held-out rows.
     Issue,
-    /// Missed (reported): fewer than 99 %, and every row that changed class had f32 scores
-    /// within 0.03 of a tie between its two best classes (a bound of ours: common practice,
-    /// no source). `mlp_logistic_breast_cancer_standard`: 2 of 143 rows (98.60 %), f32
-    /// probabilities 0.511 and 0.505, with the same accuracy in int8 as in f32.
+    /// Missed with min/max ranges (reported): fewer than 99 %, and every row that changed class
+    /// had f32 scores within 0.03 of a tie between its two best classes (a bound of ours:
+    /// common practice, no source). `mlp_logistic_breast_cancer_standard`: 2 of 143 rows
+    /// (98.60 %), f32 probabilities 0.511 and 0.505, with the same accuracy in int8 as in f32;
+    /// with least-error ranges 142 of 143 (99.30 %), accuracy 97.20 → 96.50 %.
     MissedOnBoundary,
 }
 
