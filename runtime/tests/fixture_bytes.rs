@@ -1,7 +1,7 @@
 //! Every byte of every committed fixture blob (`tests/fixtures/blobs/`, all format versions) is
 //! protected (`FORMAT.md` §2): changed to another value, the blob is rejected, never accepted
 //! and never a panic. Header bytes get every other value (255), which includes every flip
-//! between versions 1, 2, 3 and 5; body bytes get `+1`, `-1`, `^ 0x80`, `0x00` and `0xFF` (a CRC of
+//! between versions 1 to 5; body bytes get `+1`, `-1`, `^ 0x80`, `0x00` and `0xFF` (a CRC of
 //! degree 32 detects every error burst of up to 32 bits, Peterson and Brown 1961, so any other
 //! value of one byte is caught as surely). About 85,000 parses, 2 s in a debug build.
 use kinglet_runtime::unstable::wire::header::offset;
