@@ -1,8 +1,8 @@
-//! Weights between the layouts of `FORMAT.md` §3.1, and encoding with the `Blocked4x4` data
-//! aligned. The geometry is the runtime's own (`kinglet_runtime::unstable::wire::layout`), so writer and
+//! Weights between the layouts of `FORMAT.md` §3.1 and §3.5, and encoding with the
+//! `Blocked4x4` and `Nibble4x4` data aligned. The geometry is the runtime's own (`kinglet_runtime::unstable::wire::layout`), so writer and
 //! reader cannot disagree.
 use kinglet_runtime::unstable::wire::format::{Precision, WeightLayout};
-use kinglet_runtime::unstable::wire::layout;
+use kinglet_runtime::unstable::wire::{layout, nibble};
 use kinglet_runtime::Model;
 
 use crate::error::BuildError;
@@ -17,6 +17,7 @@ pub fn weights_in(
     let om = match l.layout {
         WeightLayout::OutputMajor => l.weights.clone(),
         WeightLayout::Blocked4x4 => output_major(precision, l)?,
+        WeightLayout::Nibble4x4 => output_major_i4(l)?,
     };
     reorder(precision, l.inputs, l.outputs, &om, target)
 }
@@ -56,7 +57,38 @@ pub fn reorder(
             }
             Ok(out)
         }
+        // int4: the int8 values must already be in [-8, 7] (the converter quantises them so).
+        WeightLayout::Nibble4x4 => {
+            let mut out = vec![0u8; nibble::bytes(n, m)];
+            let w: Vec<i8> = om.iter().map(|&b| b as i8).collect();
+            if precision != Precision::Int8 || !nibble::pack(n, m, &w, &mut out) {
+                return Err(BuildError::WeightBytes {
+                    bytes: om.len(),
+                    inputs,
+                    outputs,
+                });
+            }
+            Ok(out)
+        }
     }
+}
+
+/// The output-major int8 bytes of a `Nibble4x4` layer's int4 weights.
+fn output_major_i4(l: &OwnedLayer) -> Result<Vec<u8>, BuildError> {
+    let (n, m) = (l.inputs as usize, l.outputs as usize);
+    let bad = BuildError::WeightBytes {
+        bytes: l.weights.len(),
+        inputs: l.inputs,
+        outputs: l.outputs,
+    };
+    let (_, data) = nibble::split(&l.weights, n, m).ok_or(bad)?;
+    let mut om = Vec::with_capacity(n * m);
+    for o in 0..m {
+        for i in 0..n {
+            om.push(nibble::get(data, o, i, n).unwrap_or(0) as u8);
+        }
+    }
+    Ok(om)
 }
 
 /// The output-major weights of a `Blocked4x4` layer (its alignment bytes and padding dropped).

@@ -355,7 +355,7 @@ impl OwnedModel {
             .collect::<Result<Vec<_>, _>>()?;
         let blocked: Vec<bool> = targets
             .iter()
-            .map(|&t| t == WeightLayout::Blocked4x4)
+            .map(|&t| t != WeightLayout::OutputMajor)
             .collect();
         crate::blocked::encode_aligned(&data, &blocked, |fields| {
             let mut d = self.as_desc();

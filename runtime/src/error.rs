@@ -111,12 +111,13 @@ pub enum FormatError {
         /// Which tensor.
         tensor: TensorKind,
     },
-    /// A `Blocked4x4` weight field has a non-zero alignment byte or padding weight.
+    /// A `Blocked4x4` or `Nibble4x4` weight field has a non-zero alignment byte or padding weight.
     NonZeroPadding {
         /// Layer index.
         layer: Option<u8>,
     },
-    /// Quantisation parameters missing on an int8 model or present on an f32 model.
+    /// Quantisation parameters missing on an int8 model or present on an f32 model, or int4
+    /// (`Nibble4x4`) weights on an f32 model.
     PrecisionMismatch {
         /// Layer index; `None` for the input stage.
         layer: Option<u8>,

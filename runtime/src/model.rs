@@ -152,7 +152,7 @@ impl<'a> Model<'a> {
         self.blob.len()
     }
 
-    /// Whether every `Blocked4x4` weight field's data is 4-byte aligned in memory, where the
+    /// Whether every `Blocked4x4` and `Nibble4x4` weight field's data is 4-byte aligned in memory, where the
     /// blob is now: what the Cortex-M4 kernels need for `LDM`/`VLDM` (other layouts and other
     /// cores do not care). The packer aligns the data within the blob, so this holds when the
     /// blob starts at a multiple of 4, which [`crate::embed_blob!`] makes sure of. When it does
@@ -169,15 +169,8 @@ impl<'a> Model<'a> {
         self.desc
             .layers
             .iter()
-            .filter(|l| l.layout == crate::wire::format::WeightLayout::Blocked4x4)
-            .all(|l| {
-                let data = crate::wire::layout::split(
-                    l.weights,
-                    l.inputs as usize,
-                    l.outputs as usize,
-                    elem,
-                )
-                .map_or(l.weights, |(_, data)| data);
+            .filter_map(|l| crate::wire::layout::aligned_data(l, elem))
+            .all(|data| {
                 let offset = (data.as_ptr() as usize).wrapping_sub(start);
                 load_address.wrapping_add(offset).is_multiple_of(4)
             })
@@ -523,6 +516,7 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
             match layer.layout {
                 WeightLayout::OutputMajor => dense_i8(&p, src, dst),
                 WeightLayout::Blocked4x4 => dense_i8_blocked_auto(&p, src, dst),
+                WeightLayout::Nibble4x4 => crate::dense::dense_i4_auto(&p, src, dst),
             }
             Some((q.output_scale, q.output_zero_point))
         }
@@ -538,6 +532,8 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
             match layer.layout {
                 WeightLayout::OutputMajor => dense_f32(&p, src, dst),
                 WeightLayout::Blocked4x4 => dense_f32_blocked_auto(&p, src, dst),
+                // Rejected by `parse` on an f32 model.
+                WeightLayout::Nibble4x4 => {}
             }
             #[cfg(feature = "f32")]
             if let Some(pd) = layer.pointwise() {

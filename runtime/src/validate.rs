@@ -8,6 +8,7 @@ use crate::wire::format::{
     MAX_WIDTH,
 };
 use crate::wire::layout;
+use crate::wire::nibble;
 use crate::wire::version::keeps_weight_scales;
 
 /// Largest addend of the integer input path (keeps its 64-bit sum from overflowing).
@@ -131,6 +132,11 @@ fn check_layer(
             l.weights
         }
         WeightLayout::Blocked4x4 => check_blocked(l.weights, inputs, outputs, precision, at)?,
+        // int4 weights belong to int8 models only.
+        WeightLayout::Nibble4x4 if precision != Precision::Int8 => {
+            return Err(FormatError::PrecisionMismatch { layer: at });
+        }
+        WeightLayout::Nibble4x4 => check_nibbles(l.weights, inputs, outputs, at)?,
     };
     expect_len(l.bias, 4 * outputs, at, TensorKind::Bias)?;
     check_activation(l, k, precision)?;
@@ -164,7 +170,8 @@ fn check_layer(
                     });
                 }
             }
-            // |bias| + 128 · Σ|w| bounds the accumulator for every int8 input.
+            // |bias| + 128 · Σ|w| bounds the accumulator for every int8 input (int4 weights
+            // included: they are exact int8 values in [-8, 7]).
             for (c, b) in le::i32s(l.bias).enumerate() {
                 let sum = abs_row_sum(weights, l.layout, inputs, c);
                 if i64::from(b).abs() + 128 * sum > i64::from(i32::MAX) {
@@ -230,7 +237,38 @@ fn abs_row_sum(w: &[u8], l: WeightLayout, inputs: usize, o: usize) -> i64 {
             .filter_map(|i| w.get(layout::index(o, i, inputs)))
             .map(|&b| i64::from(layout::decode_i8(b).unsigned_abs()))
             .sum(),
+        WeightLayout::Nibble4x4 => (0..inputs)
+            .filter_map(|i| nibble::get(w, o, i, inputs))
+            .map(|v| i64::from(v.unsigned_abs()))
+            .sum(),
     }
+}
+
+/// Checks a `Nibble4x4` weight field (`FORMAT.md` §3.5): its length, zero alignment bytes,
+/// and zero padding weights (the nibble 8). Returns the data without the alignment bytes.
+fn check_nibbles(
+    field: &[u8],
+    inputs: usize,
+    outputs: usize,
+    at: Option<u8>,
+) -> Result<&[u8], FormatError> {
+    let bad = FormatError::TensorLength {
+        layer: at,
+        tensor: TensorKind::Weights,
+    };
+    let (pad, data) = nibble::split(field, inputs, outputs).ok_or(bad)?;
+    for o in 0..nibble::padded(outputs) {
+        for i in 0..nibble::padded(inputs) {
+            let padding = o >= outputs || i >= inputs;
+            if padding && nibble::get(data, o, i, inputs) != Some(0) {
+                return Err(FormatError::NonZeroPadding { layer: at });
+            }
+        }
+    }
+    if pad.iter().any(|&b| b != 0) {
+        return Err(FormatError::NonZeroPadding { layer: at });
+    }
+    Ok(data)
 }
 
 /// Checks a `Blocked4x4` weight field: its length, zero alignment bytes, and zero padding

@@ -4,10 +4,11 @@
 //! kernel [`dense_i8_blocked_auto`] dispatches to, and the kernels' requantisation; the `asm!`
 //! kernels themselves run in the on-target self-check of `kernel-bench/`.
 use kinglet_builder::le;
+use kinglet_runtime::unstable::dense::int4;
 use kinglet_runtime::unstable::dense::{self, m0, portable, DenseF32, DenseI8};
 use kinglet_runtime::unstable::requant;
 use kinglet_runtime::unstable::requant::requantise_reference;
-use kinglet_runtime::unstable::wire::layout;
+use kinglet_runtime::unstable::wire::{layout, nibble};
 use proptest::prelude::*;
 
 /// Weights or inputs: random, or all -128, or all 127.
@@ -62,8 +63,103 @@ fn int8_case() -> impl Strategy<Value = Int8Case> {
         )
 }
 
+/// int4 weights: random in [-8, 7], or all -8, or all 7.
+fn int4s(len: usize) -> impl Strategy<Value = Vec<i8>> {
+    prop_oneof![
+        6 => proptest::collection::vec(-8i8..=7, len),
+        1 => Just(vec![-8; len]),
+        1 => Just(vec![7; len]),
+    ]
+}
+
+fn int4_case() -> impl Strategy<Value = Int8Case> {
+    int8_case().prop_flat_map(|c| {
+        let len = c.n * c.m;
+        (Just(c), int4s(len)).prop_map(|(c, w)| Int8Case { w, ..c })
+    })
+}
+
+/// The naive int4 layer: `bias + Σ w x` in i64 from the output-major weights, then the
+/// reference requantisation, row by row (no layout, no nibbles, no sums of `FORMAT.md` §3.5).
+fn naive_i4(c: &Int8Case, bias: &[i32]) -> Vec<u8> {
+    (0..c.m)
+        .map(|o| {
+            let row = &c.w[o * c.n..(o + 1) * c.n];
+            let dot: i64 = row
+                .iter()
+                .zip(&c.x)
+                .map(|(&w, &x)| i64::from(w) * i64::from(x))
+                .sum();
+            let acc = i32::try_from(i64::from(bias[o]) + dot).expect("the format's bound");
+            let lo = if c.relu { c.zp } else { -128 };
+            requantise_reference(acc, c.mult[o], c.shift[o], c.zp, lo, 127) as u8
+        })
+        .collect()
+}
+
+/// Biases the format accepts for the case's weights: `|bias| + 128·Σ|w| ≤ 2^31 - 1`.
+fn biases(c: &Int8Case) -> Vec<i32> {
+    (0..c.m)
+        .map(|o| {
+            let s: i64 = c.w[o * c.n..(o + 1) * c.n]
+                .iter()
+                .map(|&v| i64::from(v).abs())
+                .sum();
+            let room = i64::from(i32::MAX) - 128 * s;
+            (c.bias_seed[o].rem_euclid(2 * room + 1) - room) as i32
+        })
+        .collect()
+}
+
+type Kernel = fn(&DenseI8<'_>, &[u8], &mut [u8]);
+
+/// The int4 kernels this host runs: the portable one, the Rust shapes of the target kernels,
+/// and the one `dense_i4_auto` dispatches to.
+fn int4_kernels() -> [(&'static str, Kernel); 2] {
+    [
+        ("portable", int4::dense_i4_portable as Kernel),
+        ("dispatched", dense::dense_i4_auto),
+    ]
+}
+
+fn check_int4(c: &Int8Case) -> Result<(), TestCaseError> {
+    let (n, m) = (c.n, c.m);
+    let bias = biases(c);
+    let want = naive_i4(c, &bias);
+    let (bias, mult, shift, x) = (
+        le::i32s(&bias),
+        le::i32s(&c.mult),
+        le::i8s(&c.shift),
+        le::i8s(&c.x),
+    );
+    let mut field = vec![0u8; c.pad + nibble::bytes(n, m)];
+    prop_assert!(nibble::pack(n, m, &c.w, &mut field[c.pad..]));
+    let p = DenseI8 {
+        inputs: n,
+        weights: &field,
+        bias: &bias,
+        multiplier: &mult,
+        shift: &shift,
+        zero_point: c.zp,
+        act_min: if c.relu { c.zp } else { -128 },
+        act_max: 127,
+        table: None,
+    };
+    for (name, kernel) in int4_kernels() {
+        let mut got = vec![0x55u8; m];
+        kernel(&p, &x, &mut got);
+        prop_assert_eq!(&got, &want, "int4 {} kernel, {}x{}", name, m, n);
+    }
+    Ok(())
+}
+
 proptest! {
     #![proptest_config(ProptestConfig::with_cases(400))]
+
+    #[test]
+    fn int4_kernels_agree_with_the_naive_reference(c in int4_case()) {
+        check_int4(&c)?;
+    }
 
     #[test]
     fn int8_kernels_agree_with_the_portable_output_major_one(c in int8_case()) {
@@ -206,5 +302,27 @@ fn one_by_one_and_exact_ties() {
                 "acc {acc}, shift {shift}"
             );
         }
+    }
+}
+
+/// The widest layer the format allows, at the extremes of the sums of `FORMAT.md` §3.5 (every
+/// byte `0x00` or `0xFF`, every input −128 or 127): no sum wraps, the kernels still agree.
+#[test]
+fn int4_widest_layer_at_the_extremes() {
+    let n = 16_384;
+    for (w, x) in [(-8i8, -128i8), (7, -128), (-8, 127), (7, 127)] {
+        let c = Int8Case {
+            n,
+            m: 3,
+            w: vec![w; 3 * n],
+            x: vec![x; n],
+            bias_seed: vec![0; 3],
+            mult: vec![1 << 30; 3],
+            shift: vec![12; 3],
+            zp: 0,
+            relu: false,
+            pad: 1,
+        };
+        check_int4(&c).expect("agree");
     }
 }

@@ -281,3 +281,155 @@ fn r39_pointwise_record_needs_format_version_4() {
         Err(FormatError::VersionMismatch { header: 4, body: 1 })
     );
 }
+
+/// A 4 → 3 int8 model whose one layer has int4 weights `w` (row-major, each in [-8, 7]) in
+/// `Nibble4x4` with `pad` alignment bytes, its weight field edited by `poke`, labelled version
+/// `version`, written without validation.
+fn int4_blob(
+    w: &[i8],
+    bias: &[i32],
+    pad: usize,
+    version: u16,
+    poke: impl Fn(&mut Vec<u8>),
+) -> Vec<u8> {
+    use kinglet_runtime::unstable::wire::nibble;
+    let mut l = int8_layer(4, w, bias, 0);
+    let mut field = vec![0u8; pad + nibble::bytes(4, 3)];
+    assert!(nibble::pack(4, 3, w, &mut field[pad..]));
+    poke(&mut field);
+    l.layout = kinglet_builder::WeightLayout::Nibble4x4;
+    l.weights = field;
+    let mut blob = int8_model(4, vec![l]).raw_blob();
+    blob[4..6].copy_from_slice(&version.to_le_bytes());
+    kinglet_builder::reseal(&mut blob).unwrap();
+    blob
+}
+
+const W4: [i8; 12] = [1, -8, 7, 0, -1, 2, -3, 4, 5, -6, 7, -8];
+
+/// An int4 blob computes what the same weights as int8 compute (`FORMAT.md` §3.5).
+#[test]
+fn int4_layer_computes_the_int8_layer_of_its_weights() {
+    let bias = [3, -100, 7];
+    let int8 = int8_model(4, vec![int8_layer(4, &W4, &bias, 0)]).raw_blob();
+    for pad in 0..=3 {
+        let blob = int4_blob(&W4, &bias, pad, 6, |_| {});
+        let m4 = Model::parse(&blob).expect("valid int4 blob");
+        let m8 = Model::parse(&int8).expect("valid int8 blob");
+        for x in [
+            [1.0, 2.0, 3.0, 4.0],
+            [-100.0, 50.0, 127.0, -128.0],
+            [0.0; 4],
+        ] {
+            let (mut s4, mut s8) = ([0u8; 8], [0u8; 8]);
+            let (mut y4, mut y8) = ([0f32; 3], [0f32; 3]);
+            m4.infer(Input::F32(&x), &mut s4, &mut y4).unwrap();
+            m8.infer(Input::F32(&x), &mut s8, &mut y8).unwrap();
+            assert_eq!(y4, y8, "pad {pad}, x {x:?}");
+        }
+    }
+}
+
+/// R45: an int4 layer needs version 6, and version 6 holds nothing else.
+#[test]
+fn r45_int4_weights_need_format_version_6() {
+    for old in 1u16..=5 {
+        assert_eq!(
+            Model::parse(&int4_blob(&W4, &[0; 3], 0, old, |_| {})).map(|_| ()),
+            Err(FormatError::VersionMismatch {
+                header: old,
+                body: 6
+            })
+        );
+    }
+    let mut plain = int8_model(4, vec![int8_layer(4, &W4, &[0; 3], 0)]).raw_blob();
+    plain[4] = 6;
+    kinglet_builder::reseal(&mut plain).unwrap();
+    assert_eq!(
+        Model::parse(&plain).map(|_| ()),
+        Err(FormatError::VersionMismatch { header: 6, body: 1 })
+    );
+}
+
+/// R46: an int4 weight field of the wrong length (a byte short, a byte long past the 3
+/// alignment bytes, output-major length).
+#[test]
+fn r46_int4_field_of_the_wrong_length_is_rejected() {
+    let len = Err(FormatError::TensorLength {
+        layer: Some(0),
+        tensor: kinglet_runtime::TensorKind::Weights,
+    });
+    let short = int4_blob(&W4, &[0; 3], 0, 6, |f| {
+        f.pop();
+    });
+    assert_eq!(Model::parse(&short).map(|_| ()), len);
+    let long = int4_blob(&W4, &[0; 3], 3, 6, |f| f.insert(0, 0));
+    assert_eq!(Model::parse(&long).map(|_| ()), len);
+    let om = int4_blob(&W4, &[0; 3], 0, 6, |f| f.truncate(6));
+    assert_eq!(Model::parse(&om).map(|_| ()), len);
+}
+
+/// R47: a padding weight that is not zero (the nibble 8) or an alignment byte that is not 0.
+#[test]
+fn r47_int4_padding_must_be_zero() {
+    let nz = Err(FormatError::NonZeroPadding { layer: Some(0) });
+    // Row 3 (padding) is the high nibble of bytes 4-7; input 3 of every row is real here.
+    let row = int4_blob(&W4, &[0; 3], 0, 6, |f| f[5] = (f[5] & 0x0F) | 0x90);
+    assert_eq!(Model::parse(&row).map(|_| ()), nz, "padding row");
+    let zero_nibble = int4_blob(&W4, &[0; 3], 0, 6, |f| f[5] &= 0x0F);
+    assert_eq!(
+        Model::parse(&zero_nibble).map(|_| ()),
+        nz,
+        "nibble 0 is -8, not zero"
+    );
+    let align = int4_blob(&W4, &[0; 3], 2, 6, |f| f[0] = 0x88);
+    assert_eq!(Model::parse(&align).map(|_| ()), nz, "alignment byte");
+    // A 3-input layer pads input 3: its nibbles must be 8 too.
+    use kinglet_runtime::unstable::wire::nibble;
+    let mut l = int8_layer(3, &[1, 2, 3], &[0], 0);
+    let mut field = vec![0u8; nibble::bytes(3, 1)];
+    assert!(nibble::pack(3, 1, &[1, 2, 3], &mut field));
+    field[3] = 0x89;
+    l.layout = kinglet_builder::WeightLayout::Nibble4x4;
+    l.weights = field;
+    let mut blob = int8_model(3, vec![l]).raw_blob();
+    blob[4] = 6;
+    kinglet_builder::reseal(&mut blob).unwrap();
+    assert_eq!(Model::parse(&blob).map(|_| ()), nz, "padding input");
+}
+
+/// R48: int4 weights on an f32 model.
+#[test]
+fn r48_int4_layout_on_an_f32_model_is_rejected() {
+    let mut m = kinglet_builder::sample::tiny_f32();
+    m.layers[0].layout = kinglet_builder::WeightLayout::Nibble4x4;
+    let (n, k) = (m.layers[0].inputs as usize, m.layers[0].outputs as usize);
+    m.layers[0].weights = vec![0x88; kinglet_runtime::unstable::wire::nibble::bytes(n, k)];
+    let mut blob = m.raw_blob();
+    blob[4] = 6;
+    kinglet_builder::reseal(&mut blob).unwrap();
+    let want = if cfg!(feature = "f32") {
+        FormatError::PrecisionMismatch { layer: Some(0) }
+    } else {
+        FormatError::F32NotBuiltIn
+    };
+    assert_eq!(Model::parse(&blob).map(|_| ()), Err(want));
+}
+
+/// R49: the accumulator bound of `FORMAT.md` §5 rule 14 holds for int4 rows (`Σ|w|` of the
+/// decoded weights): one step past it is rejected, the bound itself accepted.
+#[test]
+fn r49_int4_accumulator_bound() {
+    // Row 0: Σ|w| = 1 + 8 + 7 + 0 = 16, so the largest bias is 2^31 - 1 - 128 · 16.
+    let edge = i32::MAX - 128 * 16;
+    let ok = int4_blob(&W4, &[edge, 0, 0], 0, 6, |_| {});
+    assert!(Model::parse(&ok).is_ok());
+    let over = int4_blob(&W4, &[edge + 1, 0, 0], 0, 6, |_| {});
+    assert_eq!(
+        Model::parse(&over).map(|_| ()),
+        Err(FormatError::AccumulatorOverflow {
+            layer: 0,
+            channel: 0
+        })
+    );
+}

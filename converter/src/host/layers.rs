@@ -1,9 +1,9 @@
 //! A validated blob's layers as plain matrices: weights `[outputs][inputs]` in row-major order
-//! whatever the blob's layout (output-major or `Blocked4x4`), biases and, for int8, the
+//! whatever the blob's layout (output-major, `Blocked4x4` or int4 `Nibble4x4`), biases and, for int8, the
 //! requantisation parameters.
 use kinglet_runtime::unstable::requant::activation_range;
 use kinglet_runtime::unstable::wire::format::{Activation, LayerDesc, WeightLayout};
-use kinglet_runtime::unstable::wire::layout;
+use kinglet_runtime::unstable::wire::{layout, nibble};
 
 /// Little-endian 4-byte values of `bytes`.
 pub(crate) fn words(bytes: &[u8]) -> impl Iterator<Item = [u8; 4]> + '_ {
@@ -27,7 +27,20 @@ fn elements<'a>(l: &LayerDesc<'a>, elem: usize) -> Vec<&'a [u8]> {
                 })
                 .collect()
         }
+        // int4 weights are read by `int4_weights`; as elements of bytes they have no meaning.
+        WeightLayout::Nibble4x4 => Vec::new(),
     }
+}
+
+/// The int4 weights of a `Nibble4x4` layer as int8 values, row-major (padding dropped).
+fn int4_weights(l: &LayerDesc<'_>) -> Vec<i8> {
+    let (n, m) = (l.inputs as usize, l.outputs as usize);
+    let Some((_, data)) = nibble::split(l.weights, n, m) else {
+        return Vec::new();
+    };
+    (0..m * n)
+        .filter_map(|k| nibble::get(data, k / n, k % n, n))
+        .collect()
 }
 
 /// An f32 layer.
@@ -100,14 +113,17 @@ impl Int8Layer {
     /// Reads an int8 layer of a validated blob; `None` for an f32 layer.
     pub fn new(l: &LayerDesc<'_>) -> Option<Self> {
         let q = l.quant.as_ref()?;
-        let weights = elements(l, 1)
-            .into_iter()
-            .filter_map(|e| e.first().copied())
-            .map(|b| match l.layout {
-                WeightLayout::OutputMajor => b as i8,
-                WeightLayout::Blocked4x4 => layout::decode_i8(b),
-            })
-            .collect();
+        let weights = match l.layout {
+            WeightLayout::Nibble4x4 => int4_weights(l),
+            _ => elements(l, 1)
+                .into_iter()
+                .filter_map(|e| e.first().copied())
+                .map(|b| match l.layout {
+                    WeightLayout::Blocked4x4 => layout::decode_i8(b),
+                    _ => b as i8,
+                })
+                .collect(),
+        };
         let (act_min, act_max) = activation_range(l.activation, q.output_zero_point);
         let outputs = l.outputs as usize;
         // One shift per output, or one for the whole layer.

@@ -1,7 +1,9 @@
-//! `blocks_i8`: the block loop around the accumulation that the target kernels share.
+//! `blocks_i8` and `blocks_i4`: the block loops around the accumulation that the target
+//! kernels share.
 //! Requantisation is [`crate::requant::requantise_validated`].
 use super::DenseI8;
 use crate::wire::layout::{self, BLOCK_ROWS, GROUP, GROUP_ELEMS};
+use crate::wire::nibble::{self, GROUP_BYTES};
 
 /// The first `N` bytes of a short slice, zero-padded (the parameters of the last block of a
 /// layer whose width is not a multiple of 4).
@@ -81,6 +83,56 @@ pub(crate) fn blocks_i8(
             .next()
             .map_or((&last.0, &last.1, &last.2), |((b, m), s)| (b, m, s));
         let y = finish(p, acc, correction, q);
+        match out.first_chunk_mut::<BLOCK_ROWS>() {
+            Some(o) => *o = y,
+            None => {
+                for (d, v) in out.iter_mut().zip(y) {
+                    *d = v;
+                }
+            }
+        }
+    }
+}
+
+/// The block loop every `Nibble4x4` (int4) kernel shares (`FORMAT.md` §3.5): `groups(block,
+/// full)` returns, for the block's full 4-input groups, `[S0, L0, S1, L1]`, where for the row
+/// pair `p` (rows `2p`, `2p + 1`) `S_p = Σ u x` and `L_p = Σ (u mod 16) x` over its bytes `u`.
+/// This adds the partial last group ([`super::int4::group_i4`]), turns the sums into the 4
+/// rows' `Σ w x` ([`super::int4::rows`]), adds the bias, requantises and stores.
+/// `correction` is [`super::portable::excess_correction`] of the inputs (`128 · Σ x`).
+#[inline(always)]
+pub(crate) fn blocks_i4(
+    p: &DenseI8<'_>,
+    input: &[u8],
+    output: &mut [u8],
+    correction: i32,
+    groups: impl Fn(&[[u8; GROUP_BYTES]], &[[u8; GROUP]]) -> [i32; BLOCK_ROWS],
+) {
+    let n = p.inputs;
+    let Some((_, data)) = nibble::split(p.weights, n, output.len()) else {
+        return;
+    };
+    // 8 · Σ x: `correction` is 128 · Σ x, a multiple of 16, so the shift is exact.
+    let excess = correction >> 4;
+    let x = input.get(..n).unwrap_or(&[]);
+    let (full, tail) = x.as_chunks::<GROUP>();
+    let (bias, bias_rest) = p.bias.as_chunks::<16>();
+    let (mult, mult_rest) = p.multiplier.as_chunks::<16>();
+    let (shift, shift_rest) = p.shift.as_chunks::<4>();
+    let mut params = bias.iter().zip(mult).zip(shift);
+    let last = (padded(bias_rest), padded(mult_rest), padded(shift_rest));
+    for (block, out) in
+        super::pieces(data, nibble::padded(n) / 2 * BLOCK_ROWS).zip(output.chunks_mut(BLOCK_ROWS))
+    {
+        let g = block.as_chunks::<GROUP_BYTES>().0;
+        let mut sums = groups(g, full);
+        if let Some(last) = g.get(full.len()) {
+            super::int4::group_i4(last, tail, &mut sums);
+        }
+        let q = params
+            .next()
+            .map_or((&last.0, &last.1, &last.2), |((b, m), s)| (b, m, s));
+        let y = finish(p, super::int4::rows(sums), excess, q);
         match out.first_chunk_mut::<BLOCK_ROWS>() {
             Some(o) => *o = y,
             None => {

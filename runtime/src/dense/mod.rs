@@ -23,6 +23,7 @@
 //! with the same results.
 mod blocked_f32;
 pub mod fixed;
+pub mod int4;
 pub mod portable;
 
 /// The `asm!` kernels; the crate's only module where `unsafe` is allowed.
@@ -101,6 +102,16 @@ pub fn dense_i8_blocked_auto(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     return asm::m0::dense_i8_blocked_m0_asm(p, input, output);
     #[allow(unreachable_code)]
     portable::dense_i8_blocked_portable(p, input, output)
+}
+
+/// Name of the int4 kernel [`dense_i4_auto`] uses on this build.
+pub const KERNEL_I4: &str = "portable";
+
+/// Runs an int8 dense layer with int4 `Nibble4x4` weights on the fastest kernel of this build;
+/// `output.len()` is the layer's output width.
+#[inline]
+pub fn dense_i4_auto(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+    int4::dense_i4_portable(p, input, output)
 }
 
 /// Parameters of one f32 dense layer, borrowed from the blob.

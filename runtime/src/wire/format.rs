@@ -109,6 +109,9 @@ pub enum WeightLayout {
     /// excess-128, optionally preceded by up to 3 alignment bytes (`FORMAT.md` §3.1;
     /// [`crate::wire::layout`] has the geometry). Format version 2.
     Blocked4x4,
+    /// int4 weights of an int8 model, two per byte, excess-8, in blocks of 4 rows by groups of
+    /// 4 inputs (`FORMAT.md` §3.5; [`crate::wire::nibble`] has the geometry). Format version 6.
+    Nibble4x4,
 }
 
 /// The saved input scaler: `y[i] = (x[i] - offset[i]) * scale[i]` in f32.

@@ -229,11 +229,11 @@ mod tests {
             Header::read(b"PK\x03\x04 zip file"),
             Err(FormatError::BadMagic)
         );
-        let mut v6 = good;
-        v6[offset::VERSION] = 6;
+        let mut v7 = good;
+        v7[offset::VERSION] = 7;
         assert_eq!(
-            Header::read(&v6),
-            Err(FormatError::UnsupportedVersion { found: 6 })
+            Header::read(&v7),
+            Err(FormatError::UnsupportedVersion { found: 7 })
         );
         let mut v0 = good;
         v0[offset::VERSION] = 0;

@@ -102,7 +102,20 @@ pub const fn pad_for(offset: usize) -> usize {
     (4 - offset % 4) % 4
 }
 
-/// For each layer of a parsed `blob`: the number of alignment bytes its `Blocked4x4` weight
+/// The data (without alignment bytes) of a layer whose weight layout is aligned by a writer
+/// (`Blocked4x4`, `Nibble4x4`); `None` for other layouts. `elem` is the element size of the
+/// model's precision. A field of the wrong length gives the whole field.
+pub fn aligned_data<'a>(l: &crate::wire::format::LayerDesc<'a>, elem: usize) -> Option<&'a [u8]> {
+    let (n, m) = (l.inputs as usize, l.outputs as usize);
+    let data = match l.layout {
+        crate::wire::format::WeightLayout::OutputMajor => return None,
+        crate::wire::format::WeightLayout::Blocked4x4 => split(l.weights, n, m, elem),
+        crate::wire::format::WeightLayout::Nibble4x4 => crate::wire::nibble::split(l.weights, n, m),
+    };
+    Some(data.map_or(l.weights, |(_, d)| d))
+}
+
+/// For each layer of a parsed `blob`: the number of alignment bytes its `Blocked4x4` or `Nibble4x4` weight
 /// field should have so that the data starts at a blob offset that is a multiple of 4 (`None`
 /// for other layouts). A writer encodes, asks, re-encodes with these pads, and repeats until
 /// nothing changes (earlier pads shift later layers).
@@ -113,13 +126,11 @@ pub fn wanted_pads(
     let mut pads = [None; crate::wire::format::MAX_LAYERS];
     let elem = model.precision().activation_bytes();
     for (slot, l) in pads.iter_mut().zip(model.layers()) {
-        let d = l.desc;
-        if d.layout != crate::wire::format::WeightLayout::Blocked4x4 {
+        let Some(data) = aligned_data(l.desc, elem) else {
             continue;
-        }
-        let data = elements(d.inputs as usize, d.outputs as usize) * elem;
-        let pad = d.weights.len().saturating_sub(data);
-        let field = (d.weights.as_ptr() as usize).wrapping_sub(blob.as_ptr() as usize);
+        };
+        let pad = l.desc.weights.len().saturating_sub(data.len());
+        let field = (l.desc.weights.as_ptr() as usize).wrapping_sub(blob.as_ptr() as usize);
         *slot = Some((pad + pad_for(field + pad)) % 4);
     }
     pads
