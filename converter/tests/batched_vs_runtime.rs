@@ -433,6 +433,7 @@ fn both_engines_compare_a_folded_input_with_the_raw_row() {
             bias_correction: false,
             fold_scaler: FoldScaler::Always,
             sections: Sections::ALL,
+            weights: Default::default(),
         },
     )
     .unwrap();

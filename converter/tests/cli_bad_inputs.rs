@@ -2017,3 +2017,126 @@ fn inspect_says_whether_the_blob_takes_integer_samples() {
         assert_eq!(j["integer_input"], estimates);
     }
 }
+
+// ---- int4 weights (`pack --weights`, FORMAT.md §3.5) ----
+
+#[test]
+fn c123_weights_of_an_unknown_precision() {
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    for (spec, want) in [
+        (
+            "int2",
+            "--weights: `int2` is neither int8, int4 nor LAYER:BITS (e.g. 0:int4,1:int8)",
+        ),
+        (
+            "0:int3",
+            "--weights: `int3` is not a weight precision: int8 or int4",
+        ),
+        (
+            "one:int4",
+            "--weights: `one` is not a layer index (0, 1, ...)",
+        ),
+    ] {
+        c.fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--calibration",
+                "rows.csv",
+                "--weights",
+                spec,
+                "-o",
+                "m.kgl",
+            ],
+            &[want],
+        );
+    }
+}
+
+#[test]
+fn c124_weights_naming_a_layer_the_model_lacks() {
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    c.fails(
+        &["pack", "model_2in.json", "--calibration", "rows.csv", "--weights", "0:int4,5:int4", "-o", "m.kgl"],
+        &["cannot pack model_2in.json: --weights names layer 5, but the model has 2 layers (0 to 1)"],
+    );
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "--weights",
+            "9:int4",
+            "-o",
+            "m.kgl",
+        ],
+        &["--weights: layer 9 is past the 8 layers a blob holds"],
+    );
+}
+
+#[test]
+fn c125_weights_on_a_float_pack() {
+    let c = Case::new().with("model_2in.json");
+    c.fails(
+        &["pack", "model_2in.json", "--float", "--weights", "int4", "-o", "m.kgl"],
+        &["--weights chooses int8 or int4 weights and --float keeps f32 weights; drop one of them"],
+    );
+}
+
+#[test]
+fn c126_weights_naming_a_layer_twice() {
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "--weights",
+            "0:int4,0:int8",
+            "-o",
+            "m.kgl",
+        ],
+        &["--weights: layer 0 is named twice"],
+    );
+}
+
+#[test]
+fn int4_pack_then_inspect_and_budget_show_the_int4_layer() {
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    let out = c.run(&[
+        "pack",
+        "model_2in.json",
+        "--calibration",
+        "rows.csv",
+        "--weights",
+        "0:int4",
+        "-o",
+        "m.kgl",
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout).into_owned();
+    assert!(
+        text.contains("int4 weights on layer 1 (--weights index 0)"),
+        "{text}"
+    );
+    let b = c.read("m.kgl");
+    assert_eq!(u16::from_le_bytes([b[4], b[5]]), 6, "format version");
+    let out = c.run(&["inspect", "m.kgl", "--json"]);
+    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let layers = j["layers"].as_array().unwrap();
+    assert_eq!(layers[0]["weights"], "int4");
+    assert_eq!(layers[1]["weights"], "int8");
+    let out = c.run(&["inspect", "m.kgl"]);
+    let text = String::from_utf8_lossy(&out.stdout).into_owned();
+    assert!(text.contains("weights") && text.contains("int4"), "{text}");
+    let out = c.run(&["budget", "m.kgl", "--board", "m0-16k"]);
+    let text = String::from_utf8_lossy(&out.stdout).into_owned();
+    assert!(text.contains("int4 weights on layer 1:"), "{text}");
+}

@@ -59,6 +59,7 @@ pub fn pack_and_run(model: &FloatModel, seed: &[u8]) {
         bias_correction: true,
         fold_scaler: FoldScaler::Try,
         sections: Sections::ALL,
+        weights: Default::default(),
     };
     if let Ok(p) = pack_int8_with(model, &data, opts) {
         match Model::parse(&p.blob) {

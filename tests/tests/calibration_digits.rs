@@ -100,6 +100,7 @@ fn row_on(
             bias_correction,
             fold_scaler,
             sections: Sections::ALL,
+            weights: Default::default(),
         },
         calibration,
     );

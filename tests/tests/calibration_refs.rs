@@ -141,6 +141,7 @@ fn bias_correction_equals_numpy() {
         bias_correction: true,
         fold_scaler: FoldScaler::No,
         sections: Sections::ALL,
+        weights: Default::default(),
     };
     let p = pack_int8_with(&model, &data, opts).unwrap();
     assert!(p.bias_correction && Model::parse(&p.blob).is_ok());

@@ -1,6 +1,6 @@
 //! `kinglet pack`: arguments into a [`PackRequest`], the library's `pack`, the blob written and
 //! the report printed.
-use anyhow::{anyhow, bail, Result};
+use anyhow::{anyhow, bail, Context, Result};
 use kinglet_converter::atomic::write_atomic;
 use kinglet_converter::dataset::LabelColumn;
 use kinglet_converter::output_guard::{check_distinct, Named};
@@ -9,6 +9,7 @@ use kinglet_converter::pack::request::{
 };
 use kinglet_converter::pack::Sections;
 use kinglet_converter::quantise::calibrate::RangeMethod;
+use kinglet_converter::quantise::weight_bits::LayerBits;
 use kinglet_converter::report::calibration;
 use kinglet_converter::report::table;
 use std::path::PathBuf;
@@ -138,6 +139,11 @@ pub struct Args {
     /// does not use.
     #[arg(long)]
     weight_scales: bool,
+    /// Weight precision (int8 models): `int8` (the default), `int4` for every layer (two
+    /// weights per byte; a format-version-6 blob), or per layer, e.g. `0:int4,1:int8` (layers
+    /// not named stay int8). Activations stay int8.
+    #[arg(long, value_name = "PRECISION")]
+    weights: Option<String>,
     /// Print the report as JSON.
     #[arg(long)]
     json: bool,
@@ -166,6 +172,9 @@ pub fn run(a: Args) -> Result<Outcome> {
         if a.fold_scaler {
             bail!("--fold-scaler chooses the int8 input and --float keeps f32 inputs; drop one of them");
         }
+        if a.weights.is_some() {
+            bail!("--weights chooses int8 or int4 weights and --float keeps f32 weights; drop one of them");
+        }
         Precision::F32
     } else {
         let calibration = a.calibration.clone().ok_or_else(|| {
@@ -182,6 +191,10 @@ pub fn run(a: Args) -> Result<Outcome> {
                 }
             },
             bias_correction: a.correct_bias,
+            weights: match &a.weights {
+                Some(s) => LayerBits::parse(s).context("--weights")?,
+                None => LayerBits::default(),
+            },
             fold_scaler: a.fold_scaler,
         }
     };

@@ -183,6 +183,28 @@ pub struct Target {
     pub build: RuntimeBuild,
 }
 
+/// Where the blob's bytes come from: its length, and the int4 layers' weight bytes if any
+/// (`FORMAT.md` §3.5: two weights per byte).
+fn blob_source(model: &kinglet_runtime::Model<'_>) -> String {
+    use kinglet_runtime::unstable::wire::format::WeightLayout;
+    let int4: Vec<(usize, usize)> = model
+        .layers()
+        .enumerate()
+        .filter(|(_, l)| l.desc.layout == WeightLayout::Nibble4x4)
+        .map(|(k, l)| (k + 1, l.desc.weights.len()))
+        .collect();
+    if int4.is_empty() {
+        return "blob length".into();
+    }
+    let layers: Vec<String> = int4.iter().map(|(k, _)| k.to_string()).collect();
+    let bytes: usize = int4.iter().map(|(_, b)| b).sum();
+    format!(
+        "blob length; int4 weights on layer{} {}: {bytes} bytes",
+        if int4.len() == 1 { "" } else { "s" },
+        layers.join(", ")
+    )
+}
+
 /// Counts `model` (from the file `name`) against `target`.
 ///
 /// # Errors
@@ -215,7 +237,7 @@ pub fn budget(name: &str, model: &kinglet_runtime::Model<'_>, target: &Target) -
         Item {
             what: "model blob".into(),
             bytes: model.blob_bytes() as u64,
-            source: "blob length".into(),
+            source: blob_source(model),
         },
         Item {
             what: "runtime code".into(),

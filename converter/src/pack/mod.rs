@@ -19,11 +19,12 @@ use crate::dataset::Dataset;
 use crate::graph::FloatModel;
 use crate::layer_table::{owned_table, wire_u32};
 use crate::quantise::advice::{self, num, percentile_option, rows_text, suggested_percentile};
-use crate::quantise::bias_correction::bias_corrected;
+use crate::quantise::bias_correction::bias_corrected_bits;
 use crate::quantise::calibrate::{range_of, Calibration, RangeMethod, TensorRange};
 use crate::quantise::plausible::biases_lost;
-use crate::quantise::quantise_with;
+use crate::quantise::quantise_bits;
 use crate::quantise::spread::TensorStats;
+use crate::quantise::weight_bits::LayerBits;
 
 /// The f32 blob of `model` (for FPU boards, and the float reference of comparisons).
 pub fn pack_f32(model: &FloatModel) -> Result<Vec<u8>> {
@@ -106,6 +107,9 @@ pub struct Int8Options {
     pub fold_scaler: FoldScaler,
     /// The optional sections to write ([`Sections`]).
     pub sections: Sections,
+    /// The weight precision of each layer: int8 (the default) or int4 (`FORMAT.md` §3.5, a
+    /// format-version-6 blob; [`crate::quantise::weight_bits`]).
+    pub weights: LayerBits,
 }
 
 /// Whether to fold the scaler into the first layer and quantise the raw input
@@ -128,6 +132,7 @@ impl From<RangeMethod> for Int8Options {
             bias_correction: false,
             fold_scaler: FoldScaler::No,
             sections: Sections::default(),
+            weights: LayerBits::default(),
         }
     }
 }
@@ -183,9 +188,10 @@ pub fn pack_int8_options(
     check_plausible(model, &cal, &data.source)?;
     let build = |m: &FloatModel, ranges: &[TensorRange], means: &[Vec<f64>]| -> Result<Vec<u8>> {
         let mut owned = if opts.bias_correction {
-            quantise_with(&bias_corrected(m, means)?, ranges, &cal.pre_activation)?
+            let corrected = bias_corrected_bits(m, means, opts.weights)?;
+            quantise_bits(&corrected, ranges, &cal.pre_activation, opts.weights)?
         } else {
-            quantise_with(m, ranges, &cal.pre_activation)?
+            quantise_bits(m, ranges, &cal.pre_activation, opts.weights)?
         };
         if !opts.sections.integer_input {
             owned.drop_integer_input();

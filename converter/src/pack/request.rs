@@ -40,6 +40,8 @@ pub enum Precision {
         method: RangeMethod,
         /// Correct the biases for the int8 weight rounding (`--correct-bias`).
         bias_correction: bool,
+        /// The weight precision of each layer (`--weights`).
+        weights: crate::quantise::weight_bits::LayerBits,
         /// Also try the raw integer input with the scaler folded in; keep the better
         /// (`--fold-scaler`).
         fold_scaler: bool,
@@ -206,6 +208,7 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
             method,
             bias_correction,
             fold_scaler,
+            weights,
         } => {
             progress.loading(rows);
             let data = load_rows(rows, label.clone())?;
@@ -220,6 +223,7 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
                     FoldScaler::No
                 },
                 sections: req.sections,
+                weights: *weights,
             };
             let p = pack_int8_options(&model, &data, opts, &|n| progress.rows_done(n))
                 .with_context(|| format!("cannot pack {}", model_path.display()))?;
@@ -234,6 +238,9 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
                     ""
                 }
             ));
+            if let Some(line) = int4_note(weights, model.layers.len()) {
+                notes.push(line);
+            }
             if let Some(c) = &p.raw_input {
                 notes.push(crate::report::calibration::raw_input_line(c));
             }
@@ -354,6 +361,29 @@ fn check_calibration_width(
     Ok(())
 }
 
+/// The report's note naming the layers packed with int4 weights, if any: numbered from 1 as
+/// the report's layer table, with the 0-based indices `--weights` takes.
+fn int4_note(bits: &crate::quantise::weight_bits::LayerBits, layers: usize) -> Option<String> {
+    let int4: Vec<usize> = (0..layers)
+        .filter(|&k| bits.get(k) == crate::quantise::weight_bits::WeightBits::Int4)
+        .collect();
+    let list = |v: &mut dyn Iterator<Item = usize>| {
+        v.map(|k| k.to_string()).collect::<Vec<_>>().join(", ")
+    };
+    let (s, one) = if int4.len() == 1 {
+        ("", "index")
+    } else {
+        ("s", "indices")
+    };
+    (!int4.is_empty()).then(|| {
+        format!(
+            "int4 weights on layer{s} {} (--weights {one} {}): two per byte, symmetric per channel in [-7, 7]; format version 6",
+            list(&mut int4.iter().map(|k| k + 1)),
+            list(&mut int4.iter().copied()),
+        )
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -384,6 +414,7 @@ mod tests {
                 label: None,
                 method: RangeMethod::MinMax,
                 bias_correction: false,
+                weights: Default::default(),
                 fold_scaler: false,
             },
             sections: Sections::default(),

@@ -12,7 +12,8 @@ use kinglet_runtime::Model;
 /// The essential bytes of the blob `desc` was decoded from, `blob_len` long: the header, the
 /// table's framing (the body bytes that are no tensor or label payload), the labels, the
 /// scaler once, and per layer the weights, biases and (int8) multipliers and shifts, from the
-/// shapes. Optional sections and Blocked4x4 padding are not essential.
+/// shapes (int4 weights `⌈inputs / 2⌉ · outputs` bytes). Optional sections and Blocked4x4 or
+/// Nibble4x4 padding are not essential.
 pub fn essential_bytes(desc: &ModelDesc<'_>, blob_len: usize) -> usize {
     let int8 = desc.precision == Precision::Int8;
     let elem = desc.precision.activation_bytes();
@@ -28,7 +29,11 @@ pub fn essential_bytes(desc: &ModelDesc<'_>, blob_len: usize) -> usize {
     for l in &desc.layers {
         let (i, o) = (l.inputs as usize, l.outputs as usize);
         payload += l.weights.len() + l.bias.len();
-        needed += i * o * elem + 4 * o;
+        // int4 weights: two per byte, a row's odd last one in a byte of its own.
+        needed += match l.layout {
+            WeightLayout::Nibble4x4 => i.div_ceil(2) * o,
+            _ => i * o * elem,
+        } + 4 * o;
         if let Some(q) = &l.quant {
             payload += q.weight_scale.len() + q.multiplier.len() + q.shift.len();
         }
@@ -72,15 +77,34 @@ fn blocked_padding(inputs: u32, outputs: u32, elem: usize) -> usize {
 /// `table` encoded with every layer in Blocked4x4 (the layout the Cortex-M kernels read
 /// fastest), unless its padding takes the blob past [`size_limit`]: then the layers with the
 /// most padding are written OutputMajor, most first, until it fits (a 1-output layer is 4 rows
-/// of which 3 are padding; a 784 → 10 layer wastes two rows of 784).
+/// of which 3 are padding; a 784 → 10 layer wastes two rows of 784). int4 layers stay
+/// Nibble4x4, their only layout.
 pub fn encode_within_limit(table: &OwnedModel) -> Result<Vec<u8>> {
     let elem = table.precision.activation_bytes();
-    let mut layouts = vec![WeightLayout::Blocked4x4; table.layers.len()];
+    let int4 = |l: &kinglet_builder::OwnedLayer| l.layout == WeightLayout::Nibble4x4;
+    // int4 layers have one layout, Nibble4x4 (FORMAT.md §3.5), and keep it.
+    let mut layouts: Vec<WeightLayout> = table
+        .layers
+        .iter()
+        .map(|l| {
+            if int4(l) {
+                l.layout
+            } else {
+                WeightLayout::Blocked4x4
+            }
+        })
+        .collect();
     let mut blob = table.encode_layouts(&layouts)?;
     let mut order: Vec<(usize, usize)> = table
         .layers
         .iter()
-        .map(|l| blocked_padding(l.inputs, l.outputs, elem))
+        .map(|l| {
+            if int4(l) {
+                0
+            } else {
+                blocked_padding(l.inputs, l.outputs, elem)
+            }
+        })
         .enumerate()
         .filter(|&(_, pad)| pad > 0)
         .collect();

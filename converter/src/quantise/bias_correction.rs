@@ -10,23 +10,29 @@
 //! Each layer is corrected against the float model's own inputs, independently of the others.
 use anyhow::{bail, Result};
 
-use super::params::{quantise_weight, weight_scale};
+use super::params::{quantise_weight_bits, weight_scale_bits};
+use super::weight_bits::{LayerBits, WeightBits};
 use crate::graph::{DenseLayer, FloatModel};
 
 /// The biases of `layer` after correction for its int8 weight rounding, given the mean of each
 /// of its inputs (in f64).
 pub fn corrected_bias(layer: &DenseLayer, input_mean: &[f64]) -> Vec<f64> {
+    corrected_bias_bits(layer, input_mean, WeightBits::Int8)
+}
+
+/// [`corrected_bias`] for weights quantised to `bits` (int4: `FORMAT.md` §3.5).
+pub fn corrected_bias_bits(layer: &DenseLayer, input_mean: &[f64], bits: WeightBits) -> Vec<f64> {
     layer
         .weights
         .chunks_exact(layer.inputs.max(1))
         .zip(&layer.bias)
         .map(|(row, &b)| {
-            let s = weight_scale(row);
+            let s = weight_scale_bits(row, bits);
             let shift: f64 = row
                 .iter()
                 .zip(input_mean)
                 .map(|(&w, &m)| {
-                    let wq = f64::from(quantise_weight(w, s)) * f64::from(s);
+                    let wq = f64::from(quantise_weight_bits(w, s, bits)) * f64::from(s);
                     (f64::from(w) - wq) * m
                 })
                 .sum();
@@ -38,12 +44,21 @@ pub fn corrected_bias(layer: &DenseLayer, input_mean: &[f64]) -> Vec<f64> {
 /// `model` with every layer's bias corrected; `means[k]` is the mean of layer `k`'s input (the
 /// calibration's tensor `k`).
 pub fn bias_corrected(model: &FloatModel, means: &[Vec<f64>]) -> Result<FloatModel> {
+    bias_corrected_bits(model, means, LayerBits::default())
+}
+
+/// [`bias_corrected`] with layer `k`'s weights quantised to `bits.get(k)`.
+pub fn bias_corrected_bits(
+    model: &FloatModel,
+    means: &[Vec<f64>],
+    bits: LayerBits,
+) -> Result<FloatModel> {
     let mut out = model.clone();
     for (k, layer) in out.layers.iter_mut().enumerate() {
         let Some(mean) = means.get(k).filter(|m| m.len() == layer.inputs) else {
             bail!("internal: no input means of layer {k} for bias correction");
         };
-        layer.bias = corrected_bias(layer, mean)
+        layer.bias = corrected_bias_bits(layer, mean, bits.get(k))
             .into_iter()
             .map(|b| b as f32)
             .collect();

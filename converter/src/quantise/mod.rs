@@ -11,9 +11,10 @@ pub mod percentile;
 pub mod plausible;
 pub mod raw_input;
 pub mod spread;
+pub mod weight_bits;
 
 use anyhow::{anyhow, bail, Result};
-use kinglet_runtime::unstable::wire::format::Precision;
+use kinglet_runtime::unstable::wire::format::{Precision, WeightLayout};
 
 use crate::graph::{Activation, FloatModel, Pointwise};
 use crate::layer_table::builder_activation;
@@ -22,7 +23,10 @@ use advice::num;
 use calibrate::TensorRange;
 use kinglet_builder::Activation as BuilderActivation;
 use kinglet_builder::{OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
-use params::{activation_quant, decompose_multiplier, quantise_weight, weight_scale, AffineQuant};
+use params::{
+    activation_quant, decompose_multiplier, quantise_weight_bits, weight_scale_bits, AffineQuant,
+};
+use weight_bits::{LayerBits, WeightBits};
 
 /// Quantises `model` given the calibrated range of each tensor (input, then each layer output).
 /// A model with a pointwise activation needs [`quantise_with`] and the ranges before them.
@@ -37,6 +41,18 @@ pub fn quantise_with(
     ranges: &[TensorRange],
     pre: &[Option<TensorRange>],
 ) -> Result<OwnedModel> {
+    quantise_bits(model, ranges, pre, LayerBits::default())
+}
+
+/// [`quantise_with`], layer `k`'s weights quantised to `bits.get(k)`: an int4 layer is written
+/// in the `Nibble4x4` layout (`FORMAT.md` §3.5).
+pub fn quantise_bits(
+    model: &FloatModel,
+    ranges: &[TensorRange],
+    pre: &[Option<TensorRange>],
+    bits: LayerBits,
+) -> Result<OwnedModel> {
+    bits.check_layers(model.layers.len())?;
     if ranges.len() != model.layers.len() + 1 {
         bail!(
             "internal: {} ranges for {} tensors",
@@ -93,7 +109,7 @@ pub fn quantise_with(
             }
             _ => None,
         };
-        layers.push(quantise_layer(k, l, qi, qo, table)?);
+        layers.push(quantise_layer(k, l, qi, qo, table, bits.get(k))?);
     }
     let q_in = q
         .first()
@@ -158,6 +174,7 @@ fn quantise_layer(
     qi: AffineQuant,
     qo: AffineQuant,
     table: Option<(Pointwise, AffineQuant)>,
+    bits: WeightBits,
 ) -> Result<OwnedLayer> {
     // A pointwise layer requantises onto its table's input; the table maps it onto `qo`.
     let (q_req, activation) = match table {
@@ -177,8 +194,11 @@ fn quantise_layer(
     let mut multipliers = Vec::with_capacity(l.outputs);
     let mut shifts = Vec::with_capacity(l.outputs);
     for (o, row) in l.weights.chunks_exact(l.inputs.max(1)).enumerate() {
-        let s_w = weight_scale(row);
-        let row_q: Vec<i8> = row.iter().map(|&w| quantise_weight(w, s_w)).collect();
+        let s_w = weight_scale_bits(row, bits);
+        let row_q: Vec<i8> = row
+            .iter()
+            .map(|&w| quantise_weight_bits(w, s_w, bits))
+            .collect();
         let acc_scale = f64::from(qi.scale) * f64::from(s_w);
         let b = f64::from(l.bias.get(o).copied().unwrap_or(0.0));
         let sum_w: i64 = row_q.iter().map(|&w| i64::from(w)).sum();
@@ -223,14 +243,26 @@ fn quantise_layer(
         qo.scale,
         qo.zero_point,
     );
-    Ok(OwnedLayer::int8(
+    let mut layer = OwnedLayer::int8(
         wire_u32(l.inputs, "layer width")?,
         wire_u32(l.outputs, "layer width")?,
         activation,
         &w_q,
         &bias,
         quant,
-    ))
+    );
+    if bits == WeightBits::Int4 {
+        // Output-major int8 values in [-7, 7]; the builder packs them two per byte.
+        layer.weights = kinglet_builder::blocked::reorder(
+            Precision::Int8,
+            layer.inputs,
+            layer.outputs,
+            &layer.weights,
+            WeightLayout::Nibble4x4,
+        )?;
+        layer.layout = WeightLayout::Nibble4x4;
+    }
+    Ok(layer)
 }
 
 /// Fixed-point tables for raw integer inputs: `q = round(a·x + b)` with `a = scale / s_in`,

@@ -1,5 +1,6 @@
 //! Quantisation parameters: asymmetric int8 activations, symmetric per-channel weights, and the
 //! fixed-point decomposition of real multipliers (Jacob et al., 2018, §2.1–2.2).
+use super::weight_bits::WeightBits;
 
 /// Scale and zero point of an int8 tensor: `real = (q - zero_point) * scale`.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -29,9 +30,14 @@ pub fn activation_quant(min: f32, max: f32) -> AffineQuant {
 /// Symmetric per-output-channel weight scale: `max |w| / 127` over the row (1.0 for an all-zero
 /// row, whose weights then quantise to 0 whatever the scale).
 pub fn weight_scale(row: &[f32]) -> f32 {
+    weight_scale_bits(row, WeightBits::Int8)
+}
+
+/// [`weight_scale`] for `bits`: `max |w| / q_max` (127 for int8, 7 for int4).
+pub fn weight_scale_bits(row: &[f32], bits: WeightBits) -> f32 {
     let m = row.iter().fold(0.0f32, |a, &w| a.max(w.abs()));
     if m > 0.0 {
-        m / 127.0
+        m / bits.q_max()
     } else {
         1.0
     }
@@ -39,9 +45,15 @@ pub fn weight_scale(row: &[f32]) -> f32 {
 
 /// Rounds `w / scale` to the nearest int8 (ties to even), clamped to `[-127, 127]`.
 pub fn quantise_weight(w: f32, scale: f32) -> i8 {
+    quantise_weight_bits(w, scale, WeightBits::Int8)
+}
+
+/// [`quantise_weight`] for `bits`: clamped to `[-q_max, q_max]` (`[-7, 7]` for int4).
+pub fn quantise_weight_bits(w: f32, scale: f32, bits: WeightBits) -> i8 {
+    let q = f64::from(bits.q_max());
     (f64::from(w) / f64::from(scale))
         .round_ties_even()
-        .clamp(-127.0, 127.0) as i8
+        .clamp(-q, q) as i8
 }
 
 /// Splits a positive real multiplier into the runtime's `(multiplier, shift)`:

@@ -1,6 +1,6 @@
 //! What a packed blob holds, as data: shapes, parameters, bytes, memory, quantisation.
 use kinglet_runtime::unstable::pointwise::activation_name;
-use kinglet_runtime::unstable::wire::format::{OutputKind, Precision};
+use kinglet_runtime::unstable::wire::format::{OutputKind, Precision, WeightLayout};
 use kinglet_runtime::Model;
 use serde::Serialize;
 
@@ -15,6 +15,8 @@ pub struct LayerRow {
     pub outputs: usize,
     /// "relu" or "linear".
     pub activation: String,
+    /// The weights' precision: "int8", "int4" (`FORMAT.md` §3.5) or "f32".
+    pub weights: String,
     /// `inputs · outputs + outputs`.
     pub parameters: usize,
     /// Multiply-accumulates per inference.
@@ -70,8 +72,17 @@ pub struct BlobReport {
 pub struct Alignment {
     /// The address the blob's first byte is loaded at.
     pub load_address: u64,
-    /// Whether every `Blocked4x4` weight field's data is 4-byte aligned there.
+    /// Whether every `Blocked4x4` and `Nibble4x4` weight field's data is 4-byte aligned there.
     pub weights_aligned: bool,
+}
+
+/// The precision of a layer's weights in a model of `precision`.
+pub fn weight_name(precision: Precision, layout: WeightLayout) -> &'static str {
+    match (precision, layout) {
+        (_, WeightLayout::Nibble4x4) => "int4",
+        (Precision::Int8, _) => "int8",
+        (Precision::F32, _) => "f32",
+    }
 }
 
 impl BlobReport {
@@ -86,6 +97,7 @@ impl BlobReport {
                 inputs: l.desc.inputs as usize,
                 outputs: l.desc.outputs as usize,
                 activation: activation_name(l.desc).into(),
+                weights: weight_name(d.precision, l.desc.layout).into(),
                 parameters: l.parameters(),
                 macs: l.macs(),
                 bytes: l.tensor_bytes(),

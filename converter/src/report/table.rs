@@ -57,25 +57,30 @@ fn micros(us: f64) -> String {
 pub fn render(r: &BlobReport) -> String {
     let mut t = Table::new();
     t.load_preset(UTF8_BORDERS_ONLY);
-    t.set_header([
-        "layer",
-        "shape",
-        "activation",
-        "parameters",
-        "MACs",
-        "bytes",
-        "output quant",
-    ]);
+    // A column for the weights' precision when a layer's differs from the model's (int4).
+    let mixed = r.layers.iter().any(|l| l.weights != r.precision);
+    let mut header = vec!["layer", "shape", "activation"];
+    if mixed {
+        header.push("weights");
+    }
+    header.extend(["parameters", "MACs", "bytes", "output quant"]);
+    t.set_header(header);
     for l in &r.layers {
-        t.add_row(vec![
+        let mut row = vec![
             Cell::new(l.layer).set_alignment(CellAlignment::Right),
             Cell::new(format!("{} → {}", l.inputs, l.outputs)),
             Cell::new(&l.activation),
+        ];
+        if mixed {
+            row.push(Cell::new(&l.weights));
+        }
+        row.extend([
             Cell::new(l.parameters).set_alignment(CellAlignment::Right),
             Cell::new(l.macs).set_alignment(CellAlignment::Right),
             Cell::new(l.bytes).set_alignment(CellAlignment::Right),
             Cell::new(quant(l.output_quant)),
         ]);
+        t.add_row(row);
     }
     let labels = if r.labels.is_empty() {
         "(none)".to_string()
