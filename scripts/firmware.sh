@@ -71,7 +71,7 @@ for f in "$fw"/models/*.kgl "$fw"/models/*.bin; do
 done
 
 expected="$work/expected.txt"
-for s in digits_u8 digits_f32 digits_float vibration lr_digits_u8 lr_digits_float tanh_digits_u8 tanh_digits_float; do
+for s in digits_u8 digits_f32 digits_float vibration lr_digits_u8 lr_digits_float tanh_digits_u8 tanh_digits_float int4_digits_u8; do
   cat "$root/tests/fixtures/vectors/$s.txt"
 done >"$expected"
 

@@ -36,7 +36,7 @@ fn kinglet(args: &[&str]) -> Output {
 }
 
 /// The committed sets: name, blob, data arguments, feed.
-const SETS: [(&str, &str, &[&str], &str); 8] = [
+const SETS: [(&str, &str, &[&str], &str); 9] = [
     (
         "digits_u8",
         "firmware-example/models/digits.kgl",
@@ -127,6 +127,19 @@ const SETS: [(&str, &str, &[&str], &str); 8] = [
         "u8",
     ),
     (
+        "int4_digits_u8",
+        "firmware-example/models/int4_digits.kgl",
+        &[
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--rows",
+            "50..90",
+        ],
+        "u8",
+    ),
+    (
         "tanh_digits_float",
         "firmware-example/models/tanh_digits_float.kgl",
         &[
@@ -174,7 +187,7 @@ fn the_committed_vectors_are_what_kinglet_score_writes() {
         );
         lines += want.lines().count();
     }
-    assert_eq!(lines, 364);
+    assert_eq!(lines, 404);
 }
 
 /// One committed line's fields.
@@ -234,7 +247,7 @@ fn json_classes_scores_and_outputs_equal_every_committed_line() {
             checked += 1;
         }
     }
-    assert_eq!(checked, 364);
+    assert_eq!(checked, 404);
 }
 
 #[test]

@@ -10,6 +10,9 @@
 #   tanh_digits.kgl, tanh_digits_float.kgl             kinglet pack of the scikit-learn
 #                                                      MLPClassifier(activation="tanh") in
 #                                                      tests/fixtures/activation/
+#   int4_digits.kgl                                    the digits example with int4 weights on
+#                                                      every layer (--weights int4, format
+#                                                      version 6), integer input path kept
 #   digits_heldout_*.bin, vibration_replay*.bin        make-assets (this workspace)
 #
 # Usage: bash firmware-example/models/regenerate.sh [OUT_DIR]   (default: firmware-example/models)
@@ -35,6 +38,8 @@ fi
 "$KINGLET" pack "$root/tests/fixtures/activation/mlp_tanh_digits.onnx" \
   --calibration "$root/examples/digits/calibration.csv" --integer-input -o "$out/tanh_digits.kgl"
 "$KINGLET" pack "$root/tests/fixtures/activation/mlp_tanh_digits.onnx" --float -o "$out/tanh_digits_float.kgl"
+"$KINGLET" pack "$root/examples/digits/model.onnx" --weights int4 \
+  --calibration "$root/examples/digits/calibration.csv" --integer-input -o "$out/int4_digits.kgl"
 "$KINGLET" pack "$root/examples/vibration/model.onnx" \
   --calibration "$root/examples/vibration/calibration.csv" -o "$out/vibration.kgl"
 

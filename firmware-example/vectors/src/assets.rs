@@ -29,6 +29,10 @@ pub const TANH_DIGITS: &[u8] = kinglet_runtime::embed_blob!("../../models/tanh_d
 pub const TANH_DIGITS_FLOAT: &[u8] =
     kinglet_runtime::embed_blob!("../../models/tanh_digits_float.kgl");
 
+/// The digits example with int4 weights on every layer (`kinglet pack ... --weights int4
+/// --integer-input`; `FORMAT.md` §3.5, format version 6).
+pub const INT4_DIGITS: &[u8] = kinglet_runtime::embed_blob!("../../models/int4_digits.kgl");
+
 /// Pixels per digits image.
 pub const DIGITS_PIXELS: usize = 64;
 /// Digits held-out rows: `DIGITS_ROWS · 64` bytes, pixel values 0..=16, in

@@ -54,7 +54,7 @@ pub struct VectorSet {
 }
 
 /// Every set, in the order the firmware prints them.
-pub const SETS: [VectorSet; 8] = [
+pub const SETS: [VectorSet; 9] = [
     VectorSet {
         name: "digits_u8",
         model: assets::DIGITS,
@@ -118,6 +118,14 @@ pub const SETS: [VectorSet; 8] = [
         first: 40,
         count: 10,
         expected: include_str!("../../../tests/fixtures/vectors/tanh_digits_float.txt"),
+    },
+    VectorSet {
+        name: "int4_digits_u8",
+        model: assets::INT4_DIGITS,
+        path: Path::DigitsU8,
+        first: 50,
+        count: 40,
+        expected: include_str!("../../../tests/fixtures/vectors/int4_digits_u8.txt"),
     },
 ];
 

@@ -57,6 +57,7 @@ blob!(I8_784X100_WHOLE, "i8_784x100.whole.kgl");
 #[cfg(kb_big_models)]
 blob!(I8_784X100_WHOLE_OM, "i8_784x100.whole.om.kgl");
 blob!(I8_18X40, "i8_18x40.kgl");
+blob!(I4_784X100, "i4_784x100.kgl");
 blob!(I8_18X40_OM, "i8_18x40.om.kgl");
 blob!(F32_18X40, "f32_18x40.kgl");
 blob!(DIGITS, "digits.kgl");

@@ -25,6 +25,25 @@ pub fn dense_i8(p: &DenseI8<'_>, x: &[u8], out: &mut [u8]) {
     }
 }
 
+/// Naive int4 dense layer (`FORMAT.md` §3.5): each weight read on its own from its nibble,
+/// then as [`dense_i8`].
+#[inline(never)]
+pub fn dense_i4(p: &DenseI8<'_>, x: &[u8], out: &mut [u8]) {
+    use kinglet_runtime::unstable::wire::nibble;
+    let n = p.inputs;
+    let data = nibble::split(p.weights, n, out.len()).map_or(p.weights, |(_, d)| d);
+    for o in 0..out.len() {
+        let mut acc = i32::from_le_bytes(word(p.bias, o));
+        for i in 0..n {
+            let w = nibble::get(data, o, i, n).unwrap_or(0);
+            acc += i32::from(w) * i32::from(x[i] as i8);
+        }
+        let m = i32::from_le_bytes(word(p.multiplier, o));
+        let s = p.shift[o] as i8;
+        out[o] = requantise_reference(acc, m, s, p.zero_point, p.act_min, p.act_max) as u8;
+    }
+}
+
 /// Naive f32 dense layer.
 #[inline(never)]
 pub fn dense_f32(n: usize, w: &[u8], bias: &[u8], relu: bool, x: &[u8], out: &mut [u8]) {

@@ -6,7 +6,7 @@ use crate::rng::Rng;
 #[cfg(kb_big_f32)]
 use kinglet_runtime::unstable::dense::DenseF32;
 use kinglet_runtime::unstable::dense::{self, portable, DenseI8};
-use kinglet_runtime::unstable::wire::layout;
+use kinglet_runtime::unstable::wire::{layout, nibble};
 
 const MAX_IN: usize = 70;
 #[cfg(kb_big_f32)]
@@ -115,6 +115,34 @@ fn int8_case(rng: &mut Rng) -> bool {
     ok &= out[..m] == reference[..m];
     let mut out = [0u8; MAX_OUT];
     naive::dense_i8(&base, &x[..n], &mut out[..m]);
+    ok &= out[..m] == reference[..m];
+    ok & int4_case(n, m, w, &x[..n], &base, pad)
+}
+
+/// The int4 kernels (`FORMAT.md` §3.5) on the int8 case's shape and parameters, its weights
+/// shifted into [-8, 7] (their bound stays within the int8 one the biases were drawn for), at
+/// the same alignment: this build's kernel and the portable one against the naive one.
+fn int4_case(n: usize, m: usize, w: &mut [i8], x: &[u8], base: &DenseI8<'_>, pad: usize) -> bool {
+    for v in w.iter_mut() {
+        *v >>= 4;
+    }
+    let mut field = Aligned([0u8; nibble::MAX_PAD + 36 * MAX_OUT]);
+    let field = &mut field.0[..pad + nibble::bytes(n, m)];
+    if !nibble::pack(n, m, w, &mut field[pad..]) {
+        return false;
+    }
+    let p = DenseI8 {
+        weights: field,
+        ..*base
+    };
+    let mut reference = [0u8; MAX_OUT];
+    naive::dense_i4(&p, x, &mut reference[..m]);
+    let mut ok = true;
+    let mut out = [0u8; MAX_OUT];
+    dense::dense_i4_auto(&p, x, &mut out[..m]);
+    ok &= out[..m] == reference[..m];
+    let mut out = [0u8; MAX_OUT];
+    dense::int4::dense_i4_portable(&p, x, &mut out[..m]);
     ok &= out[..m] == reference[..m];
     ok
 }

@@ -141,7 +141,42 @@ pub fn synth(dir: &str) -> Result<(), String> {
         write(dir, &format!("f32_{n}x{m}.kgl"), &b)?;
         write(dir, &format!("f32_{n}x{m}.om.kgl"), &o)?;
     }
+    // Its own generator, so the blobs above keep their bytes.
+    write(dir, "i4_784x100.kgl", &int4_layer(784, 100, &mut Rng(0x4934_3834))?)?;
     Ok(())
+}
+
+/// One int4 layer `n → m` (`FORMAT.md` §3.5, uniform scaler as the compact int8 layer blob):
+/// weights uniform in [-8, 7], the rest drawn as [`int8_layer`] draws it.
+fn int4_layer(n: usize, m: usize, rng: &mut Rng) -> Result<Vec<u8>, String> {
+    let w: Vec<i8> = (0..n * m).map(|_| ((rng.next() % 16) as i32 - 8) as i8).collect();
+    let bias: Vec<i32> = (0..m).map(|_| (rng.next() % 8193) as i32 - 4096).collect();
+    let mult: Vec<i32> = (0..m)
+        .map(|_| (1 << 30) + (rng.next() & 0x3FFF_FFFF) as i32)
+        .collect();
+    // About ±64 at the output: accumulators have a spread of √n · 4.6 · 73.
+    let spread = (n as f64).sqrt() * 4.6 * 73.0 / 64.0;
+    let shift = vec![(spread.log2().ceil() as i32 - 1).clamp(0, 31) as i8; m];
+    let quant = OwnedQuant::new(&vec![0.01; m], &mult, &shift, 0.1, 0);
+    let model = OwnedModel {
+        input_len: n as u32,
+        precision: Precision::Int8,
+        scaler: Some(scaler(1)),
+        input_quant: Some(int_path(1)),
+        layers: vec![OwnedLayer::int8(
+            n as u32,
+            m as u32,
+            Activation::Linear,
+            &w,
+            &bias,
+            quant,
+        )],
+        output: OutputKind::Softmax,
+        labels: String::new(),
+    };
+    model
+        .encode_in(WeightLayout::Nibble4x4)
+        .map_err(|e| e.to_string())
 }
 
 /// The output-major twin of a blob: same model, every layer `OutputMajor`.

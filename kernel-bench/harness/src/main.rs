@@ -368,6 +368,14 @@ fn measure(p: &Paths, m: &Machine, blobs: &Path, plugin: &Path) -> Result<Target
         println!("{} {l}", m.name);
     }
     let mut bench = bench::parse(&format!("{} bench", m.name), &log_text, &counts)?;
+    {
+        // The int4 layer, a firmware of its own (see `fw/src/bin/bench_i4.rs`).
+        let (log_text, counts) = counted(m, &bin, "bench_i4", plugin, &p.out)?;
+        let i4_run = bench::parse(&format!("{} bench_i4", m.name), &log_text, &counts)?;
+        bench
+            .cases
+            .extend(i4_run.cases.into_iter().filter(|c| c.name != "empty"));
+    }
     if m.triple.starts_with("thumbv7em") {
         // The f32 whole-model cases, a firmware of their own (see `fw/src/bin/bench_f32.rs`).
         let (log_text, counts) = counted(m, &bin, "bench_f32", plugin, &p.out)?;

@@ -132,7 +132,7 @@ pub(crate) fn blocks_i4(
         let q = params
             .next()
             .map_or((&last.0, &last.1, &last.2), |((b, m), s)| (b, m, s));
-        let y = finish(p, super::int4::rows(sums), excess, q);
+        let y = finish_i4(p, sums, excess, q);
         match out.first_chunk_mut::<BLOCK_ROWS>() {
             Some(o) => *o = y,
             None => {
@@ -142,4 +142,36 @@ pub(crate) fn blocks_i4(
             }
         }
     }
+}
+
+/// [`finish`] for an int4 block's sums, kept small: once per block of 4 rows it costs a few
+/// calls, and the requantisation inlined 4 times would cost flash in every firmware.
+#[inline(never)]
+fn finish_i4(
+    p: &DenseI8<'_>,
+    sums: [i32; BLOCK_ROWS],
+    excess: i32,
+    (bias, mult, shift): (&[u8; 16], &[u8; 16], &[u8; 4]),
+) -> [u8; BLOCK_ROWS] {
+    let mut y = [0u8; BLOCK_ROWS];
+    let params = bias
+        .as_chunks::<4>()
+        .0
+        .iter()
+        .zip(mult.as_chunks::<4>().0)
+        .zip(shift);
+    for ((o, a), ((b, m), &s)) in y.iter_mut().zip(super::int4::rows(sums)).zip(params) {
+        let acc = i32::from_le_bytes(*b).wrapping_add(a).wrapping_sub(excess);
+        *o = requant_row(p, acc, i32::from_le_bytes(*m), s as i8);
+    }
+    y
+}
+
+/// One row's requantisation and store, out of line (see [`finish_i4`]).
+#[inline(never)]
+fn requant_row(p: &DenseI8<'_>, acc: i32, mult: i32, shift: i8) -> u8 {
+    super::store_i8(
+        p.table,
+        crate::requant::requantise_validated(acc, mult, shift, p.zero_point, p.act_min, p.act_max),
+    )
 }

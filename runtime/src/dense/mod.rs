@@ -12,6 +12,10 @@
 //! | `thumbv6m-*`, `thumbv7m-*`, `thumbv8m.base-*` (Cortex-M0/M0+/M3/M23) | `asm::m0`: unrolled byte loads and `MULS`, accumulators in high registers, 4 rows per pass | [`m0`] (one block at a time, small) |
 //! | anything else | portable | portable |
 //!
+//! int4 weights ([`WeightLayout::Nibble4x4`](crate::wire::format::WeightLayout::Nibble4x4),
+//! [`int4`]) take [`dense_i4_auto`]: `asm::m4` or `asm::m0` on the same targets as int8,
+//! [`int4::dense_i4_portable`] elsewhere.
+//!
 //! All `asm!` lives in `asm` (only compiled for those targets). [`m0`] is the same Armv6-M
 //! kernel shape in plain safe Rust, compiled everywhere, so the host tests run it and the
 //! shared block loop (`fixed::blocks_i8`) too.
@@ -104,13 +108,16 @@ pub fn dense_i8_blocked_auto(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     portable::dense_i8_blocked_portable(p, input, output)
 }
 
-/// Name of the int4 kernel [`dense_i4_auto`] uses on this build.
-pub const KERNEL_I4: &str = "portable";
-
-/// Runs an int8 dense layer with int4 `Nibble4x4` weights on the fastest kernel of this build;
-/// `output.len()` is the layer's output width.
+/// Runs an int8 dense layer with int4 `Nibble4x4` weights (`FORMAT.md` §3.5) on the fastest
+/// kernel of this build (the int8 kernel's name, [`KERNEL`], names it too); `output.len()` is
+/// the layer's output width.
 #[inline]
 pub fn dense_i4_auto(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+    #[cfg(kinglet_kernel = "dsp")]
+    return asm::m4::dense_i4_m4_asm(p, input, output);
+    #[cfg(kinglet_kernel = "m0")]
+    return asm::m0::dense_i4_m0_asm(p, input, output);
+    #[allow(unreachable_code)]
     int4::dense_i4_portable(p, input, output)
 }
 

@@ -58,6 +58,7 @@ fn run_i8(l: &LayerDesc<'_>, x: &[u8], out: &mut [u8]) {
     let p = params(l);
     match l.layout {
         WeightLayout::Blocked4x4 => dense::dense_i8_blocked_auto(&p, x, out),
+        WeightLayout::Nibble4x4 => dense::dense_i4_auto(&p, x, out),
         _ => dense::dense_i8(&p, x, out),
     }
 }

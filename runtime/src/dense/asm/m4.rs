@@ -2,11 +2,12 @@
 //! hard-float targets. See [`super`] for why they are `asm!` and the invariants they keep.
 use core::arch::asm;
 
-use crate::dense::fixed::blocks_i8;
+use crate::dense::fixed::{blocks_i4, blocks_i8};
 #[cfg(kinglet_fpu)]
 use crate::dense::DenseF32;
 use crate::dense::DenseI8;
 use crate::wire::layout::{BLOCK_ROWS, GROUP, GROUP_ELEMS};
+use crate::wire::nibble::GROUP_BYTES;
 
 /// One 4-input group for 4 rows. `$load` loads the next two rows' weight words into r4, r5.
 macro_rules! group_i8 {
@@ -131,6 +132,122 @@ fn excess_correction(input: &[u8], n: usize) -> i32 {
 pub fn dense_i8_blocked_m4_asm(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
     let correction = excess_correction(input, p.inputs);
     blocks_i8(p, input, output, correction, groups_i8);
+}
+
+/// One int4 row pair of a group: its weight word in `$w` (bytes `u`, 4 inputs), the inputs'
+/// pairs in r8 `(x0, x2)` and r9 `(x1, x3)`: `$s += Σ u x`, `$l += Σ (u & 15) x`.
+macro_rules! pair_i4 {
+    ($w:literal, $s:literal, $l:literal) => {
+        concat!(
+            "uxtb16 r10, ",
+            $w,
+            "\n",
+            "smlad ",
+            $s,
+            ", r10, r8, ",
+            $s,
+            "\n",
+            "uxtb16 r10, ",
+            $w,
+            ", ror #8\n",
+            "smlad ",
+            $s,
+            ", r10, r9, ",
+            $s,
+            "\n",
+            "and ",
+            $w,
+            ", ",
+            $w,
+            ", #0x0F0F0F0F\n",
+            "uxtb16 r10, ",
+            $w,
+            "\n",
+            "smlad ",
+            $l,
+            ", r10, r8, ",
+            $l,
+            "\n",
+            "uxtb16 ",
+            $w,
+            ", ",
+            $w,
+            ", ror #8\n",
+            "smlad ",
+            $l,
+            ", ",
+            $w,
+            ", r9, ",
+            $l,
+            "\n",
+        )
+    };
+}
+
+/// One int4 group: 4 inputs, both row pairs (`$load` puts their words in r4, r5).
+macro_rules! group_i4 {
+    ($load:literal) => {
+        concat!(
+            "ldr r9, [lr], #4\n",
+            "sxtb16 r8, r9\n",
+            "sxtb16 r9, r9, ror #8\n",
+            $load,
+            pair_i4!("r4", "r0", "r1"),
+            pair_i4!("r5", "r2", "r3"),
+        )
+    };
+}
+
+/// The int4 loop over `n >= 1` groups, two per pass; an odd count enters at the second.
+macro_rules! loop_i4 {
+    ($load:literal) => {
+        concat!(
+            "tst r11, #1\n",
+            "add r11, lr, r11, lsl #2\n",
+            "bne 2f\n",
+            "1:\n",
+            group_i4!($load),
+            "2:\n",
+            group_i4!($load),
+            "cmp lr, r11\n",
+            "bne 1b\n",
+        )
+    };
+}
+
+/// The full groups of one int4 block (`FORMAT.md` §3.5) times `x`: the sums `[S0, L0, S1, L1]`
+/// of [`crate::dense::int4`].
+#[inline(always)]
+fn groups_i4(w: &[[u8; GROUP_BYTES]], x: &[[u8; GROUP]]) -> [i32; BLOCK_ROWS] {
+    let n = w.len().min(x.len());
+    let [mut a0, mut a1, mut a2, mut a3] = [0i32; BLOCK_ROWS];
+    if n == 0 {
+        return [a0, a1, a2, a3];
+    }
+    let (wp, xp) = (w.as_ptr(), x.as_ptr());
+    // One loop for any alignment (unaligned-capable LDR): an aligned twin with LDRD would save
+    // one instruction per 16 MACs and cost about 200 bytes of flash.
+    // SAFETY: see the module documentation: `n` groups of both slices (8 weight bytes and 4
+    // inputs each), read with LDR.
+    unsafe {
+        asm!(
+            loop_i4!("ldr r4, [r12], #4\nldr r5, [r12], #4\n"),
+            inout("r0") a0, inout("r1") a1, inout("r2") a2, inout("r3") a3,
+            inout("r12") wp => _, inout("lr") xp => _, inout("r11") n => _,
+            out("r4") _, out("r5") _, out("r8") _, out("r9") _, out("r10") _,
+            options(readonly, nostack),
+        );
+    }
+    [a0, a1, a2, a3]
+}
+
+/// Runs an int8 dense layer with int4 `Nibble4x4` weights; the same results as
+/// [`crate::dense::int4::dense_i4_portable`].
+// Out of line: `infer` and `classify` both reach it, and inlined it would be in flash twice.
+#[inline(never)]
+pub fn dense_i4_m4_asm(p: &DenseI8<'_>, input: &[u8], output: &mut [u8]) {
+    let correction = excess_correction(input, p.inputs);
+    blocks_i4(p, input, output, correction, groups_i4);
 }
 
 /// One f32 group: 4 inputs (loaded into s4-s7 by `$x`), 16 weights into s8-s23, 16 `VMLA`.

@@ -1,10 +1,12 @@
 //! The target kernels written in `asm!`: the runtime's only module with `unsafe` code.
 //!
 //! - [`m4`] (Cortex-M4/M7, Armv7E-M with the DSP extension): int8 with `SMLAD` on
-//!   `SXTB16`/`UXTB16`-unpacked pairs, `USADA8` for `Σ x`, and the FPU f32 kernel
-//!   (`VLDM`/`VMLA`) for the hard-float targets.
+//!   `SXTB16`/`UXTB16`-unpacked pairs, `USADA8` for `Σ x`, int4 (`FORMAT.md` §3.5) with
+//!   `UXTB16`-unpacked bytes and `AND #0x0F0F0F0F` low nibbles into `SMLAD`, and the FPU f32
+//!   kernel (`VLDM`/`VMLA`) for the hard-float targets.
 //! - [`m0`] (Cortex-M0/M0+, Armv6-M, also used on Armv7-M without DSP and Armv8-M Baseline):
-//!   int8 with byte loads and `MULS`, the 4 accumulators in high registers.
+//!   int8 and int4 with byte loads and `MULS`, the 4 accumulators (int4: the 4 sums of
+//!   `super::int4`) in high registers.
 //!
 //! Only the innermost loops are `asm!`; the block loop, the partial last group, bias,
 //! requantisation and stores are safe Rust shared with the host-tested kernels
@@ -22,7 +24,8 @@
 //! # Invariants the `asm!` blocks rely on
 //!
 //! Every block reads memory only, never writes it, and stays inside the slices it is given:
-//! - the weight pointer walks `n` groups of 16 elements (16 bytes int8, 64 bytes f32) and the
+//! - the weight pointer walks `n` groups of 16 elements (16 bytes int8, 8 bytes int4, 64 bytes
+//!   f32) and the
 //!   input pointer `n` groups of 4 elements, where `n` is the smaller of the two slices' group
 //!   counts, computed in safe code right before the block; the block is skipped when `n` is 0
 //!   (the sum loop of [`m4`] likewise walks the `n ≥ 1` whole words of its slice). A pointer

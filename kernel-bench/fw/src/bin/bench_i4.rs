@@ -1,0 +1,93 @@
+//! The int4 784 → 100 layer (`FORMAT.md` §3.5), counted like the benchmark's cases: naive
+//! (each nibble read on its own), the portable int4 kernel and this build's kernel. The harness
+//! runs it on both targets. A firmware of its own, not more cases in `bench`: the Cortex-M0's
+//! 256 KiB of flash hold the int8 784 → 100 layer twice already, and more cases there change
+//! how fat LTO compiles `bench`'s other counts (see `bench_f32.rs`).
+#![no_std]
+#![no_main]
+
+use core::hint::black_box;
+use cortex_m_rt::entry;
+use cortex_m_semihosting::{debug, hprintln};
+use kinglet_firmware_bench::{blobs, marker, naive, rng::Rng};
+use kinglet_runtime::unstable::dense::{self, DenseI8};
+use kinglet_runtime::unstable::requant::activation_range;
+use kinglet_runtime::unstable::wire::format::LayerDesc;
+use kinglet_runtime::Model;
+
+#[panic_handler]
+fn panic(info: &core::panic::PanicInfo<'_>) -> ! {
+    hprintln!("kb panic {}", info);
+    debug::exit(debug::EXIT_FAILURE);
+    park()
+}
+
+/// Runs `f` as one counted section named `name` (`macs` multiply-accumulates), as in `bench`.
+#[inline(never)]
+fn case(name: &str, variant: &str, macs: usize, f: impl FnOnce()) {
+    hprintln!("kb case {} {} {}", name, variant, macs);
+    marker::start();
+    f();
+    marker::stop();
+}
+
+fn params<'a>(l: &LayerDesc<'a>) -> DenseI8<'a> {
+    let q = l.quant.expect("int8 layer");
+    let (act_min, act_max) = activation_range(l.activation, q.output_zero_point);
+    DenseI8 {
+        inputs: l.inputs as usize,
+        weights: l.weights,
+        bias: l.bias,
+        multiplier: q.multiplier,
+        shift: q.shift,
+        zero_point: q.output_zero_point,
+        act_min,
+        act_max,
+        table: None,
+    }
+}
+
+#[entry]
+fn main() -> ! {
+    hprintln!("kb target {}", dense::KERNEL);
+    case("empty", "empty", 0, || {});
+    let mb = match Model::parse(blobs::I4_784X100) {
+        Ok(m) => m,
+        Err(e) => panic!("blob rejected: {}", e),
+    };
+    let l = mb.desc().layers[0];
+    let (n, m) = (l.inputs as usize, l.outputs as usize);
+    let name = "i4-784x100";
+    let mut rng = Rng::new(4);
+    let mut x = [0u8; 784];
+    for b in x.iter_mut() {
+        *b = rng.next_u32() as u8;
+    }
+    let x = &x[..n];
+    let mut out = [0u8; 100];
+    let mut reference = [0u8; 100];
+    let p = params(&l);
+    case(name, "naive", n * m, || {
+        naive::dense_i4(black_box(&p), black_box(x), &mut reference[..m])
+    });
+    case(name, "portable-blocked", n * m, || {
+        dense::int4::dense_i4_portable(black_box(&p), black_box(x), &mut out[..m])
+    });
+    assert!(out[..m] == reference[..m], "{} portable int4 differs", name);
+    out[..m].fill(0);
+    case(name, "kernel", n * m, || {
+        dense::dense_i4_auto(black_box(&p), black_box(x), &mut out[..m])
+    });
+    assert!(out[..m] == reference[..m], "{} int4 kernel differs", name);
+    black_box(&out);
+    hprintln!("kb end");
+    debug::exit(debug::EXIT_SUCCESS);
+    park()
+}
+
+/// Without a debugger attached the exit call returns; park the core.
+fn park() -> ! {
+    loop {
+        cortex_m::asm::wfi();
+    }
+}
