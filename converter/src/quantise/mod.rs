@@ -194,13 +194,14 @@ fn quantise_layer(
     let mut multipliers = Vec::with_capacity(l.outputs);
     let mut shifts = Vec::with_capacity(l.outputs);
     for (o, row) in l.weights.chunks_exact(l.inputs.max(1)).enumerate() {
-        let s_w = weight_scale_bits(row, bits);
+        let b = f64::from(l.bias.get(o).copied().unwrap_or(0.0));
+        // Widened for a row of negligible weights ([`params::scale_floor`]).
+        let s_w = weight_scale_bits(row, bits).max(params::scale_floor(b, qi.scale, q_req.scale));
         let row_q: Vec<i8> = row
             .iter()
             .map(|&w| quantise_weight_bits(w, s_w, bits))
             .collect();
         let acc_scale = f64::from(qi.scale) * f64::from(s_w);
-        let b = f64::from(l.bias.get(o).copied().unwrap_or(0.0));
         let sum_w: i64 = row_q.iter().map(|&w| i64::from(w)).sum();
         // The bias in accumulator steps. Checked before the integer fold: a bias that is huge
         // next to the row's weights (or a tiny accumulator scale) would otherwise saturate the

@@ -43,6 +43,28 @@ pub fn weight_scale_bits(row: &[f32], bits: WeightBits) -> f32 {
     }
 }
 
+/// Accumulator steps a bias may take: half the int32 range, the other half left for the
+/// products (at most `128 · 127 · 16,384` ≈ 2^28 for the widest layer).
+pub const BIAS_STEPS: f64 = (1u64 << 30) as f64;
+
+/// The smallest weight scale a row may have, given its bias and the layer's input and output
+/// scales: `max(|bias| / (input_scale · 2^30), 2^-31 · output_scale / input_scale)`.
+///
+/// A row whose weights are tiny next to its bias or its output's step (a unit that training
+/// left all but dead: weights near 0, the bias its whole output; a scikit-learn MLP on 784
+/// pixels has one) would otherwise need more accumulator steps than an int32 holds for its
+/// bias ([`BIAS_STEPS`]), or a requantisation multiplier below the `2^-32` the runtime's shift
+/// reaches. At the floor its weights round to (nearly) 0, and what they could add is below one
+/// output step (the second term: `inputs · 128 · 127 · 2^-31` steps, 0.006 for 784 inputs) or
+/// at most `inputs · 128 · q_max / 2^30` of the bias (the first: 1.2 % for 784 int8 inputs,
+/// when every input sits at the end of its range with the same sign).
+pub fn scale_floor(bias: f64, input_scale: f32, output_scale: f32) -> f32 {
+    let s_in = f64::from(input_scale);
+    let by_bias = bias.abs() / (s_in * BIAS_STEPS);
+    let by_multiplier = f64::from(output_scale) / (s_in * (1u64 << 31) as f64);
+    by_bias.max(by_multiplier) as f32
+}
+
 /// Rounds `w / scale` to the nearest int8 (ties to even), clamped to `[-127, 127]`.
 pub fn quantise_weight(w: f32, scale: f32) -> i8 {
     quantise_weight_bits(w, scale, WeightBits::Int8)
@@ -79,6 +101,25 @@ pub fn decompose_multiplier(real: f64) -> Option<(i32, i8)> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn scale_floor_keeps_the_bias_and_the_multiplier_in_range() {
+        // Worked by hand: bias 1, input scale 2^-10, output scale 2^-4.
+        // By the bias: 1 / (2^-10 · 2^30) = 2^-20; by the multiplier: 2^-4 / (2^-10 · 2^31) = 2^-25.
+        let (s_in, s_out) = (2f32.powi(-10), 2f32.powi(-4));
+        assert_eq!(scale_floor(1.0, s_in, s_out), 2f32.powi(-20));
+        assert_eq!(scale_floor(-1.0, s_in, s_out), 2f32.powi(-20));
+        assert_eq!(scale_floor(0.0, s_in, s_out), 2f32.powi(-25));
+        for b in [0.0, 1e-6, 3e-3, 1.0, 1e3] {
+            let f = f64::from(scale_floor(b, s_in, s_out));
+            let steps = b / (f64::from(s_in) * f);
+            let real = f64::from(s_in) * f / f64::from(s_out);
+            assert!(steps <= BIAS_STEPS * (1.0 + 1e-6), "{b}: {steps}");
+            assert!(decompose_multiplier(real).is_some(), "{b}: {real}");
+        }
+        // An ordinary row is far above the floor: max |w| = 0.5 gives 0.5 / 127.
+        assert!(weight_scale(&[0.5, -0.25]) > 1e3 * scale_floor(0.1, s_in, s_out));
+    }
 
     #[test]
     fn activation_ranges_hand_worked() {
