@@ -31,7 +31,7 @@ pub enum Activation {
 /// (`FORMAT.md` §3). [`LayerDesc`] keeps the record's fields beside a one-byte
 /// [`Activation`] instead, so that a layer of the table grows by one slice, not by a tagged
 /// record (every `Model` holds [`MAX_LAYERS`] of them).
-#[derive(Serialize, Deserialize)]
+#[derive(Serialize)]
 enum ActivationWire<'a> {
     Linear,
     Relu,
@@ -255,12 +255,23 @@ impl<'de: 'a, 'a> Deserialize<'de> for LayerDesc<'a> {
                 let missing = || serde::de::Error::invalid_length(0, &"7 fields");
                 let inputs = s.next_element()?.ok_or_else(missing)?;
                 let outputs = s.next_element()?.ok_or_else(missing)?;
+                // The activation enum, read as its parts: the variant index (a postcard varint,
+                // one byte below 128: a `u8`), then for `Pointwise` the record's three fields.
                 let (activation, act_kind, act_zero_point, act_data) =
-                    match s.next_element()?.ok_or_else(missing)? {
-                        ActivationWire::Linear => (Activation::Linear, 0, 0, &[][..]),
-                        ActivationWire::Relu => (Activation::Relu, 0, 0, &[][..]),
-                        ActivationWire::Pointwise(p) => {
-                            (Activation::Pointwise, p.kind, p.input_zero_point, p.data)
+                    match s.next_element::<u8>()?.ok_or_else(missing)? {
+                        0 => (Activation::Linear, 0, 0, &[][..]),
+                        1 => (Activation::Relu, 0, 0, &[][..]),
+                        2 => (
+                            Activation::Pointwise,
+                            s.next_element()?.ok_or_else(missing)?,
+                            s.next_element()?.ok_or_else(missing)?,
+                            s.next_element()?.ok_or_else(missing)?,
+                        ),
+                        _ => {
+                            return Err(serde::de::Error::invalid_value(
+                                serde::de::Unexpected::Other("activation"),
+                                &"0, 1 or 2",
+                            ))
                         }
                     };
                 Ok(LayerDesc {
@@ -277,10 +288,15 @@ impl<'de: 'a, 'a> Deserialize<'de> for LayerDesc<'a> {
                 })
             }
         }
-        const FIELDS: [&str; 7] = [
+        // Postcard reads a struct as a tuple of this many elements; the activation's parts
+        // count as up to four.
+        const FIELDS: [&str; 10] = [
             "inputs",
             "outputs",
             "activation",
+            "kind",
+            "input_zero_point",
+            "data",
             "layout",
             "weights",
             "bias",
@@ -331,4 +347,79 @@ pub struct ModelDesc<'a> {
     /// Class labels separated by `'\n'`; empty when the model has none.
     #[serde(borrow)]
     pub labels: &'a str,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A 1 → 1 int8 layer with `activation`, as the encoder writes it.
+    fn layer_bytes(activation: Activation, p: Option<PointwiseDesc<'_>>, out: &mut [u8]) -> usize {
+        let quant = LayerQuantDesc {
+            multiplier: &[0, 0, 0, 64],
+            shift: &[0],
+            weight_scale: &[],
+            output_scale: 0.5,
+            output_zero_point: -3,
+        };
+        let l = LayerDesc {
+            inputs: 1,
+            outputs: 1,
+            activation: Activation::Linear,
+            act_kind: 0,
+            act_zero_point: 0,
+            act_data: &[],
+            layout: WeightLayout::OutputMajor,
+            weights: &[7],
+            bias: &[1, 0, 0, 0],
+            quant: Some(quant),
+        }
+        .with_activation(activation, p);
+        postcard::to_slice(&l, out).map(|b| b.len()).unwrap_or(0)
+    }
+
+    /// The reader takes the activation enum apart by hand; every variant must decode to what
+    /// the derived `Serialize` wrote (postcard's encoding, `FORMAT.md` §3), and the byte after
+    /// the record must still be the layout.
+    #[test]
+    fn activation_parts_round_trip() {
+        let table = [9u8; 256];
+        let cases = [
+            (Activation::Linear, None),
+            (Activation::Relu, None),
+            (
+                Activation::Pointwise,
+                Some(PointwiseDesc {
+                    kind: 10,
+                    input_zero_point: -128,
+                    data: &table,
+                }),
+            ),
+        ];
+        for (activation, p) in cases {
+            let mut buf = [0u8; 512];
+            let n = layer_bytes(activation, p, &mut buf);
+            assert!(n > 0);
+            let back: LayerDesc<'_> = postcard::from_bytes(&buf[..n]).unwrap();
+            assert_eq!(back.activation, activation);
+            assert_eq!(back.pointwise(), p);
+            assert_eq!(back.weights, &[7]);
+            assert_eq!(back.quant.map(|q| q.output_zero_point), Some(-3));
+        }
+    }
+
+    /// A variant index past `Pointwise`, one byte (3) or a two-byte varint (128), is refused.
+    #[test]
+    fn unknown_activation_variant_is_refused() {
+        let mut buf = [0u8; 64];
+        let n = layer_bytes(Activation::Linear, None, &mut buf);
+        // inputs (1), outputs (1), then the activation's variant index.
+        assert_eq!(buf[2], 0);
+        for bad in [&[3u8][..], &[0x80, 0x01]] {
+            let mut b = buf[..2].to_vec();
+            b.extend_from_slice(bad);
+            b.extend_from_slice(&buf[3..n]);
+            assert!(postcard::from_bytes::<LayerDesc<'_>>(&b).is_err());
+        }
+    }
 }
