@@ -238,74 +238,6 @@ impl<'a> LayerDesc<'a> {
     }
 }
 
-impl<'de: 'a, 'a> Deserialize<'de> for LayerDesc<'a> {
-    /// Field by field, as the derive for `LayerWire` would, but into the layer itself (no
-    /// intermediate copy of the layer: flash on the Cortex-M).
-    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        struct Fields<'a>(core::marker::PhantomData<&'a ()>);
-        impl<'de: 'a, 'a> serde::de::Visitor<'de> for Fields<'a> {
-            type Value = LayerDesc<'a>;
-            fn expecting(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
-                f.write_str("a layer")
-            }
-            fn visit_seq<A: serde::de::SeqAccess<'de>>(
-                self,
-                mut s: A,
-            ) -> Result<Self::Value, A::Error> {
-                let missing = || serde::de::Error::invalid_length(0, &"7 fields");
-                let inputs = s.next_element()?.ok_or_else(missing)?;
-                let outputs = s.next_element()?.ok_or_else(missing)?;
-                // The activation enum, read as its parts: the variant index (a postcard varint,
-                // one byte below 128: a `u8`), then for `Pointwise` the record's three fields.
-                let (activation, act_kind, act_zero_point, act_data) =
-                    match s.next_element::<u8>()?.ok_or_else(missing)? {
-                        0 => (Activation::Linear, 0, 0, &[][..]),
-                        1 => (Activation::Relu, 0, 0, &[][..]),
-                        2 => (
-                            Activation::Pointwise,
-                            s.next_element()?.ok_or_else(missing)?,
-                            s.next_element()?.ok_or_else(missing)?,
-                            s.next_element()?.ok_or_else(missing)?,
-                        ),
-                        _ => {
-                            return Err(serde::de::Error::invalid_value(
-                                serde::de::Unexpected::Other("activation"),
-                                &"0, 1 or 2",
-                            ))
-                        }
-                    };
-                Ok(LayerDesc {
-                    inputs,
-                    outputs,
-                    activation,
-                    act_kind,
-                    act_zero_point,
-                    act_data,
-                    layout: s.next_element()?.ok_or_else(missing)?,
-                    weights: s.next_element()?.ok_or_else(missing)?,
-                    bias: s.next_element()?.ok_or_else(missing)?,
-                    quant: s.next_element()?.ok_or_else(missing)?,
-                })
-            }
-        }
-        // Postcard reads a struct as a tuple of this many elements; the activation's parts
-        // count as up to four.
-        const FIELDS: [&str; 10] = [
-            "inputs",
-            "outputs",
-            "activation",
-            "kind",
-            "input_zero_point",
-            "data",
-            "layout",
-            "weights",
-            "bias",
-            "quant",
-        ];
-        d.deserialize_struct("LayerDesc", &FIELDS, Fields(core::marker::PhantomData))
-    }
-}
-
 impl Serialize for LayerDesc<'_> {
     fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
         let activation = match self.pointwise() {
@@ -326,8 +258,8 @@ impl Serialize for LayerDesc<'_> {
     }
 }
 
-/// The whole body of a blob.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+/// The whole body of a blob. Its `Deserialize` (in `wire::read`) fills a table in place.
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ModelDesc<'a> {
     /// Width of the raw input vector.
     pub input_len: u32,

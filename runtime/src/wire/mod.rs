@@ -4,4 +4,5 @@
 pub mod format;
 pub mod header;
 pub mod layout;
+pub mod read;
 pub mod version;
