@@ -19,18 +19,18 @@ use super::{Code, Measured};
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
     default_build: Code {
-        text: 17924,
+        text: 17600,
         rodata: 1375,
     },
     int8_only: Code {
-        text: 11556,
+        text: 11200,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 8548,
+        text: 8200,
         rodata: 1308,
     },
-    stack_parse: 3288,
+    stack_parse: 1012,
     stack_infer: 592,
     stack_classify: 592,
     model_struct: 628,
@@ -40,18 +40,18 @@ pub const CORTEX_M0: Measured = Measured {
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
     default_build: Code {
-        text: 14032,
+        text: 13740,
         rodata: 1375,
     },
     int8_only: Code {
-        text: 8748,
+        text: 8348,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 7828,
+        text: 7532,
         rodata: 1308,
     },
-    stack_parse: 3212,
+    stack_parse: 952,
     stack_infer: 636,
     stack_classify: 604,
     model_struct: 628,
