@@ -12,8 +12,19 @@
 //! `kinglet vet` uses these by default; its `--per-row` flag runs every row through
 //! [`kinglet_runtime::Model::infer_traced`] instead.
 pub mod float;
+mod input;
 pub mod int8;
 pub mod layers;
+mod product;
 
 pub use float::{FloatBatch, FloatHost};
 pub use int8::{Int8Batch, Int8Host};
+
+/// Runs `op` compiled for the best vector instruction set the host has (AVX-512, AVX2 or the
+/// baseline), chosen at run time by `pulp`, so that the per-element loops of the passes
+/// vectorise as wide as the machine allows (the crate is built for the baseline x86-64 target,
+/// SSE2). `op`'s `with_simd` and what it calls must be `#[inline(always)]` for that.
+#[inline(always)]
+fn vectorised<Op: pulp::WithSimd>(op: Op) -> Op::Output {
+    pulp::Arch::new().dispatch(op)
+}
