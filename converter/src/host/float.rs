@@ -1,5 +1,5 @@
 //! An f32 blob over many rows at once, each layer one matrix product (`faer`, through
-//! [`super::product`]).
+//! `host::product`).
 //!
 //! The input scaler, bias, ReLU, softmax, sigmoid and argmax are the runtime's steps in the
 //! runtime's order. The dot products are not: the runtime's kernels add each row's products in

@@ -11,7 +11,7 @@
 //! below 2^53. The exact integer is then added to the bias and requantised by the runtime's own
 //! [`requantise_validated`], so every output byte is the runtime's.
 //!
-//! We use a matrix-multiplication crate (`faer`, [`super::product`]) rather than a hand-written
+//! We use a matrix-multiplication crate (`faer`, `host::product`) rather than a hand-written
 //! i8 × i8 → i32 loop: it is cache-blocked and vectorised for the host at run time (AVX-512,
 //! AVX2 and FMA where present), which plain safe Rust compiled for the baseline x86-64 target
 //! is not.

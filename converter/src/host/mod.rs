@@ -7,7 +7,15 @@
 //!   score and class), because the integer dot products are computed exactly (see there);
 //! - [`float`] runs an f32 blob through a matrix-multiplication crate: it sums each dot
 //!   product in another order than the runtime's kernels, so its values may differ from the
-//!   runtime's in the last bits (see there for the bound).
+//!   runtime's in the last bits (see there for the bound);
+//! - `product` is the one matrix product both use (`faer`), `input` the int8 input stage in
+//!   loops that vectorise.
+//!
+//! Speed (`converter/benches/vet.rs`, `BENCHMARKS.md`): each pass runs inside `vectorised`,
+//! so that its per-element loops are compiled for AVX-512 or AVX2 where the host has them; the
+//! int8 pass multiplies the f32 copy of its input it wrote while quantising (no second
+//! conversion), keeps each layer's weights in the product's number type from [`Int8Host::new`]
+//! on, and reuses one thread's buffers from batch to batch.
 //!
 //! `kinglet vet` uses these by default; its `--per-row` flag runs every row through
 //! [`kinglet_runtime::Model::infer_traced`] instead.
