@@ -215,13 +215,18 @@ impl Int8Host {
         rows: usize,
         input: impl Fn(usize) -> Input<'a>,
     ) -> Result<Int8Batch, (usize, RunError)> {
-        SCRATCH.with_borrow_mut(|scratch| {
+        let go = |scratch: &mut Scratch| {
             super::vectorised(Run {
                 host: self,
                 rows,
                 input,
                 scratch,
             })
+        };
+        // A call from inside `input` on the same thread finds the buffers taken: it gets its own.
+        SCRATCH.with(|cell| match cell.try_borrow_mut() {
+            Ok(mut scratch) => go(&mut scratch),
+            Err(_) => go(&mut Scratch::default()),
         })
     }
 
@@ -462,5 +467,35 @@ mod tests {
         };
         assert_eq!(got32, want);
         assert_eq!(got64, want);
+    }
+
+    /// A pass started from inside another's input callback, on the same thread, gets its own
+    /// buffers and the same results as a pass alone.
+    #[test]
+    fn nested_passes_give_the_same_results() {
+        let blob = kinglet_builder::sample::tiny_int8()
+            .encode_to_vec()
+            .unwrap();
+        let model = Model::parse(&blob).unwrap();
+        let host = Int8Host::new(&model).unwrap();
+        let rows: Vec<Vec<f32>> = (0..5)
+            .map(|r| {
+                (0..model.input_len())
+                    .map(|i| (r * 7 + i * 3) as f32 * 0.1 - 1.0)
+                    .collect()
+            })
+            .collect();
+        let alone = host.run(rows.len(), |r| Input::F32(&rows[r])).unwrap();
+        let inner = std::cell::RefCell::new(Vec::new());
+        let outer = host
+            .run(rows.len(), |r| {
+                inner
+                    .borrow_mut()
+                    .push(host.run(rows.len(), |r| Input::F32(&rows[r])).unwrap());
+                Input::F32(&rows[r])
+            })
+            .unwrap();
+        assert_eq!(outer, alone);
+        assert!(inner.borrow().iter().all(|b| *b == alone));
     }
 }
