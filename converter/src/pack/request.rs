@@ -5,11 +5,12 @@ use anyhow::{anyhow, bail, Context, Result};
 use kinglet_runtime::Model;
 use std::path::{Path, PathBuf};
 
-use crate::dataset::{load_file, DatasetError, LabelColumn, LoadOptions};
+use crate::dataset::{is_npy, load_file, DatasetError, LabelColumn, LoadOptions};
 use crate::import::import_file;
 use crate::import::plain::referenced_files;
 use crate::output_guard::Named;
 use crate::quantise::calibrate::RangeMethod;
+use crate::quantise::calibrate_stream::{NpyPasses, Passes, CHUNK_ROWS, PASSES};
 use crate::report::calibration::CalibrationReport;
 use crate::report::BlobReport;
 use crate::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
@@ -207,10 +208,6 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
             bias_correction,
             fold_scaler,
         } => {
-            progress.loading(rows);
-            let data = load_rows(rows, label.clone())?;
-            check_calibration_width(&data, model.input_len, label.is_some())?;
-            progress.calibrating(data.rows);
             let opts = Int8Options {
                 method: *method,
                 bias_correction: *bias_correction,
@@ -221,8 +218,22 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
                 },
                 sections: req.sections,
             };
-            let p = pack_int8_options(&model, &data, opts, &|n| progress.rows_done(n))
-                .with_context(|| format!("cannot pack {}", model_path.display()))?;
+            let p = match streamed(&model, model_path, rows, label.is_some(), opts, progress)? {
+                Some(p) => p,
+                None => {
+                    progress.loading(rows);
+                    let data = load_rows(rows, label.clone())?;
+                    check_calibration_width(
+                        &data.source,
+                        data.width,
+                        model.input_len,
+                        label.is_some(),
+                    )?;
+                    progress.calibrating(data.rows);
+                    pack_int8_options(&model, &data, opts, &|n| progress.rows_done(n))
+                        .with_context(|| format!("cannot pack {}", model_path.display()))?
+                }
+            };
             notes.push(format!(
                 "calibrated on {} rows of {} ({}{})",
                 p.calibration_rows,
@@ -338,20 +349,37 @@ fn label_hint(column: &str) -> String {
 }
 
 /// One column more than the model takes, with no label column named: most likely the label.
-fn check_calibration_width(
-    data: &crate::dataset::Dataset,
-    inputs: usize,
-    label: bool,
-) -> Result<()> {
-    if !label && data.width == inputs + 1 {
+fn check_calibration_width(source: &str, width: usize, inputs: usize, label: bool) -> Result<()> {
+    if !label && width == inputs + 1 {
         bail!(
-            "{}: {} features per row, but the model takes {inputs} inputs; if one column holds \
-             class labels, leave it out with --calibration-label <name or index>",
-            data.source,
-            data.width
+            "{source}: {width} features per row, but the model takes {inputs} inputs; if one column holds \
+             class labels, leave it out with --calibration-label <name or index>"
         );
     }
     Ok(())
+}
+
+/// The int8 pack calibrated on a C-order `.npy` file read a chunk at a time on each pass
+/// ([`super::pack_int8_streamed`]); `None` when the rows are to be loaded whole instead (CSV,
+/// a Fortran-order array, options that need every row, or rows the bias check refuses).
+fn streamed(
+    model: &crate::graph::FloatModel,
+    model_path: &Path,
+    rows: &Path,
+    label: bool,
+    opts: Int8Options,
+    progress: &dyn PackProgress,
+) -> Result<Option<super::Int8Pack>> {
+    if label || !is_npy(rows) || !super::streams(&opts) {
+        return Ok(None);
+    }
+    let Some(passes) = NpyPasses::open(rows, CHUNK_ROWS)? else {
+        return Ok(None);
+    };
+    check_calibration_width(passes.source(), passes.width(), model.input_len, label)?;
+    progress.calibrating(PASSES * passes.rows());
+    super::pack_int8_streamed(model, &passes, opts, &|n| progress.rows_done(n))
+        .with_context(|| format!("cannot pack {}", model_path.display()))
 }
 
 #[cfg(test)]
