@@ -378,8 +378,14 @@ fn streamed(
     };
     check_calibration_width(passes.source(), passes.width(), model.input_len, label)?;
     progress.calibrating(PASSES * passes.rows());
-    super::pack_int8_streamed(model, &passes, opts, &|n| progress.rows_done(n))
-        .with_context(|| format!("cannot pack {}", model_path.display()))
+    // A bad value read on a pass is the file's error, as when the file is loaded first.
+    super::pack_int8_streamed(model, &passes, opts, &|n| progress.rows_done(n)).map_err(|e| {
+        if e.downcast_ref::<DatasetError>().is_some() {
+            e
+        } else {
+            e.context(format!("cannot pack {}", model_path.display()))
+        }
+    })
 }
 
 #[cfg(test)]
