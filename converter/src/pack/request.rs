@@ -154,6 +154,11 @@ pub trait PackProgress {
     fn loading(&self, _path: &Path) {}
     /// Calibration over `rows` rows starts.
     fn calibrating(&self, _rows: usize) {}
+    /// Calibration over `rows` rows read `passes` times starts (the streamed calibration);
+    /// by default [`PackProgress::calibrating`] over every row of every pass.
+    fn calibrating_passes(&self, rows: usize, passes: usize) {
+        self.calibrating(rows.saturating_mul(passes));
+    }
     /// `n` more calibration rows have been run.
     fn rows_done(&self, _n: u64) {}
 }
@@ -377,7 +382,7 @@ fn streamed(
         return Ok(None);
     };
     check_calibration_width(passes.source(), passes.width(), model.input_len, label)?;
-    progress.calibrating(PASSES * passes.rows());
+    progress.calibrating_passes(passes.rows(), PASSES);
     // A bad value read on a pass is the file's error, as when the file is loaded first.
     super::pack_int8_streamed(model, &passes, opts, &|n| progress.rows_done(n)).map_err(|e| {
         if e.downcast_ref::<DatasetError>().is_some() {
@@ -396,6 +401,73 @@ mod tests {
         Path::new(env!("CARGO_MANIFEST_DIR"))
             .join("../examples")
             .join(rel)
+    }
+
+    #[derive(Default)]
+    struct Recorded {
+        loaded: std::cell::Cell<bool>,
+        passes: std::cell::Cell<(usize, usize)>,
+        done: std::cell::Cell<u64>,
+    }
+
+    impl PackProgress for Recorded {
+        fn loading(&self, _path: &Path) {
+            self.loaded.set(true);
+        }
+        fn calibrating_passes(&self, rows: usize, passes: usize) {
+            self.passes.set((rows, passes));
+        }
+        fn rows_done(&self, n: u64) {
+            self.done.set(self.done.get() + n);
+        }
+    }
+
+    #[test]
+    fn npy_rows_stream_through_the_passes_and_pack_as_the_csv_does() {
+        let csv = example("vibration/calibration.csv");
+        let data = crate::dataset::load_csv(&csv, &crate::dataset::CsvOptions::default()).unwrap();
+        let dir = tempfile::tempdir().unwrap();
+        let npy = dir.path().join("rows.npy");
+        let mut bytes = Vec::new();
+        {
+            use npyz::WriterBuilder;
+            let mut w = npyz::WriteOptions::<f32>::new()
+                .default_dtype()
+                .shape(&[data.rows as u64, data.width as u64])
+                .writer(&mut bytes)
+                .begin_nd()
+                .unwrap();
+            w.extend(data.features.iter().copied()).unwrap();
+            w.finish().unwrap();
+        }
+        std::fs::write(&npy, bytes).unwrap();
+        let req = |calibration: PathBuf, method| PackRequest {
+            model: example("vibration/model.onnx"),
+            scaler: None,
+            labels: None,
+            precision: Precision::Int8 {
+                calibration,
+                label: None,
+                method,
+                bias_correction: true,
+                fold_scaler: false,
+            },
+            sections: Sections::default(),
+        };
+        for method in [RangeMethod::MinMax, RangeMethod::Percentile(99.0)] {
+            let whole = pack(&req(csv.clone(), method)).unwrap();
+            let progress = Recorded::default();
+            let streamed = pack_with(&req(npy.clone(), method), &progress).unwrap();
+            assert_eq!(streamed.blob, whole.blob);
+            assert!(!progress.loaded.get());
+            assert_eq!(progress.passes.get(), (data.rows, PASSES));
+            assert_eq!(progress.done.get(), (PASSES * data.rows) as u64);
+        }
+        // The least-error range loads the rows whole.
+        let progress = Recorded::default();
+        pack_with(&req(npy, RangeMethod::LeastError), &progress).unwrap();
+        assert!(progress.loaded.get());
+        assert_eq!(progress.done.get(), data.rows as u64);
     }
 
     #[test]
