@@ -13,7 +13,7 @@ use kinglet_converter::pack::{
     pack_f32, pack_int8_options, pack_int8_streamed, FoldScaler, Int8Options, Int8Pack, Sections,
 };
 use kinglet_converter::quantise::calibrate::{calibrate, RangeMethod};
-use kinglet_converter::quantise::calibrate_stream::{calibrate_streamed, NpyPasses};
+use kinglet_converter::quantise::calibrate_stream::{calibrate_streamed, FilePasses};
 use kinglet_runtime::unstable::wire::format::OutputKind;
 use kinglet_runtime::Model;
 use kinglet_tests::path;
@@ -122,7 +122,9 @@ fn streamed_packs_equal_whole_file_packs() {
                     let loaded = load_file(&file, &LoadOptions::default()).unwrap();
                     let whole = pack_int8_options(model, &loaded, opts, &|_| {}).unwrap();
                     // 37 rows a chunk: many chunks, the last one short.
-                    let passes = NpyPasses::open(&file, 37).unwrap().unwrap();
+                    let passes = FilePasses::open(&file, &LoadOptions::default(), 37)
+                        .unwrap()
+                        .unwrap();
                     let streamed = pack_int8_streamed(model, &passes, opts, &|_| {})
                         .unwrap()
                         .unwrap();
@@ -137,6 +139,35 @@ fn streamed_packs_equal_whole_file_packs() {
         }
     }
     assert!(warned > 0);
+    // The CSV files themselves, streamed (the held-out file's label column left out).
+    for (rel, label) in [
+        ("examples/digits/calibration.csv", None),
+        (
+            "examples/digits/heldout.csv",
+            Some(LabelColumn::Name("label".into())),
+        ),
+    ] {
+        let opts = LoadOptions {
+            label,
+            ..LoadOptions::default()
+        };
+        let file = path(rel);
+        let loaded = load_file(&file, &opts).unwrap();
+        for method in [RangeMethod::MinMax, RangeMethod::Percentile(99.9)] {
+            let o = Int8Options {
+                method,
+                bias_correction: true,
+                fold_scaler: FoldScaler::No,
+                sections: Sections::default(),
+            };
+            let whole = pack_int8_options(&digits, &loaded, o, &|_| {}).unwrap();
+            let passes = FilePasses::open(&file, &opts, 100).unwrap().unwrap();
+            let streamed = pack_int8_streamed(&digits, &passes, o, &|_| {})
+                .unwrap()
+                .unwrap();
+            same(&whole, &streamed, &format!("{rel}, {method}"));
+        }
+    }
 }
 
 #[test]
@@ -170,7 +201,9 @@ fn rows_the_bias_check_refuses_and_least_error_go_to_the_whole_file() {
         sections: Sections::default(),
     };
     save(&data, &file);
-    let passes = NpyPasses::open(&file, 50).unwrap().unwrap();
+    let passes = FilePasses::open(&file, &LoadOptions::default(), 50)
+        .unwrap()
+        .unwrap();
     assert!(
         pack_int8_streamed(&digits, &passes, opts(RangeMethod::LeastError), &|_| {})
             .unwrap()
@@ -181,7 +214,9 @@ fn rows_the_bias_check_refuses_and_least_error_go_to_the_whole_file() {
         *v = 1e12;
     }
     save(&data, &file);
-    let passes = NpyPasses::open(&file, 50).unwrap().unwrap();
+    let passes = FilePasses::open(&file, &LoadOptions::default(), 50)
+        .unwrap()
+        .unwrap();
     assert!(
         pack_int8_streamed(&digits, &passes, opts(RangeMethod::MinMax), &|_| {})
             .unwrap()
@@ -195,7 +230,9 @@ fn rows_the_bias_check_refuses_and_least_error_go_to_the_whole_file() {
         *v = 3e38;
     }
     save(&data, &file);
-    let passes = NpyPasses::open(&file, 50).unwrap().unwrap();
+    let passes = FilePasses::open(&file, &LoadOptions::default(), 50)
+        .unwrap()
+        .unwrap();
     let e1 = pack_int8_streamed(&digits, &passes, opts(RangeMethod::MinMax), &|_| {}).unwrap_err();
     let loaded = load_file(&file, &LoadOptions::default()).unwrap();
     let e2 = pack_int8_options(&digits, &loaded, opts(RangeMethod::MinMax), &|_| {}).unwrap_err();

@@ -1,23 +1,48 @@
 //! Rows from a file a chunk at a time, for commands that need not hold every row: a C-order
-//! `.npy` file is decoded as its rows are asked for ([`super::npy_stream`]); a CSV file or a
-//! Fortran-order `.npy` array is read whole by [`super::load_file`] and handed out in chunks
-//! (the same rows, without the memory saving). Labels are held whole either way (a few bytes per
-//! row).
-use std::path::Path;
+//! `.npy` file is decoded as its rows are asked for ([`super::npy_stream`]); a CSV file is read
+//! once through to check every field (the whole-file loader's checks, in file order, so the
+//! first bad field is the one reported) and count the rows and collect the labels, then again a
+//! chunk of records at a time. A Fortran-order `.npy` array is read whole by
+//! [`super::load_npy`] and handed out in chunks (the same rows, without the memory saving).
+//! Labels are held whole (a few bytes per row).
+use std::fs::File;
+use std::io::BufReader;
+use std::path::{Path, PathBuf};
 
+use super::csv_load::{finite_f32, CsvReader};
 use super::load_file::misplaced_options;
 use super::npy_load::load_labels;
 use super::npy_stream::NpyRows;
-use super::{load_file, load_npy, Dataset, DatasetError, LoadOptions};
+use super::{load_npy, CsvOptions, Dataset, DatasetError, LoadOptions};
+
+/// Records a CSV check pass reads at a time.
+const CSV_CHECK_ROWS: usize = 4096;
+
+type CsvFile = CsvReader<BufReader<File>, BufReader<File>>;
 
 enum Inner {
     Npy(NpyRows),
+    Csv(Box<CsvFile>),
     Held { data: Dataset, next: usize },
+}
+
+fn open_csv(path: &Path, opts: &CsvOptions) -> Result<CsvFile, DatasetError> {
+    let open = || {
+        File::open(path)
+            .map(BufReader::new)
+            .map_err(|source| DatasetError::Io {
+                path: path.to_path_buf(),
+                source,
+            })
+    };
+    CsvReader::open(open()?, open()?, path, opts)
 }
 
 /// A file's rows, read a chunk at a time.
 pub struct RowStream {
     inner: Inner,
+    path: PathBuf,
+    csv: CsvOptions,
     rows: usize,
     width: usize,
     source: String,
@@ -42,6 +67,10 @@ impl RowStream {
     /// # Errors
     /// Those of [`load_file`].
     pub fn open(path: &Path, opts: &LoadOptions) -> Result<Self, DatasetError> {
+        let csv = CsvOptions {
+            label: opts.label.clone(),
+            has_header: opts.has_header,
+        };
         if misplaced_options(path, opts)? {
             let Some(npy) = NpyRows::open(path)? else {
                 return Ok(Self::held(load_npy(path, opts.label_file.as_deref())?));
@@ -56,9 +85,62 @@ impl RowStream {
                 source: path.display().to_string(),
                 labels,
                 inner: Inner::Npy(npy),
+                path: path.to_path_buf(),
+                csv,
             });
         }
-        Ok(Self::held(load_file(path, opts)?))
+        let mut check = open_csv(path, &csv)?;
+        let mut labels: Option<Vec<String>> = None;
+        while let Some(c) =
+            check.next_chunk(CSV_CHECK_ROWS, &mut |t, at| finite_f32(t, at).map(|_| ()))?
+        {
+            if let Some(l) = c.labels {
+                labels.get_or_insert_with(Vec::new).extend(l);
+            }
+        }
+        if check.rows == 0 {
+            return Err(DatasetError::NoDataRows {
+                path: path.to_path_buf(),
+            });
+        }
+        let reader = open_csv(path, &csv)?;
+        Ok(RowStream {
+            rows: check.rows,
+            width: check.width,
+            source: path.display().to_string(),
+            labels,
+            inner: Inner::Csv(Box::new(reader)),
+            path: path.to_path_buf(),
+            csv,
+        })
+    }
+
+    /// The same rows from the start again (without the labels), for another pass.
+    ///
+    /// # Errors
+    /// The file cannot be opened again, or has changed.
+    pub fn reopen(&self) -> Result<Self, DatasetError> {
+        let changed = || DatasetError::NpyContent {
+            path: self.path.clone(),
+            message: "the file changed while it was read".into(),
+        };
+        let inner = match &self.inner {
+            Inner::Npy(_) => Inner::Npy(NpyRows::open(&self.path)?.ok_or_else(changed)?),
+            Inner::Csv(_) => Inner::Csv(Box::new(open_csv(&self.path, &self.csv)?)),
+            Inner::Held { data, .. } => Inner::Held {
+                data: data.clone(),
+                next: 0,
+            },
+        };
+        Ok(RowStream {
+            inner,
+            path: self.path.clone(),
+            csv: self.csv.clone(),
+            rows: self.rows,
+            width: self.width,
+            source: self.source.clone(),
+            labels: None,
+        })
     }
 
     /// The rows of a dataset already in memory, in chunks.
@@ -68,13 +150,15 @@ impl RowStream {
             width: data.width,
             source: data.source.clone(),
             labels: data.labels.take(),
+            path: PathBuf::from(&data.source),
+            csv: CsvOptions::default(),
             inner: Inner::Held { data, next: 0 },
         }
     }
 
     /// Whether the rows are read from the file as they are asked for (not held whole).
     pub fn streamed(&self) -> bool {
-        matches!(self.inner, Inner::Npy(_))
+        !matches!(self.inner, Inner::Held { .. })
     }
 
     /// Rows in the file.
@@ -104,6 +188,13 @@ impl RowStream {
     pub fn next_chunk(&mut self, max_rows: usize) -> Result<Option<Dataset>, DatasetError> {
         match &mut self.inner {
             Inner::Npy(r) => r.next_chunk(max_rows),
+            Inner::Csv(r) => Ok(r.next_chunk(max_rows, &mut finite_f32)?.map(|c| Dataset {
+                rows: c.rows,
+                width: c.width,
+                features: c.values,
+                labels: None,
+                source: self.source.clone(),
+            })),
             Inner::Held { data, next } => {
                 let n = max_rows.max(1).min(data.rows - *next);
                 if n == 0 {
@@ -131,6 +222,7 @@ impl RowStream {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::dataset::load_file;
     use crate::dataset::npy_array::tests::write_npy;
     use npyz::Order;
 
@@ -168,12 +260,39 @@ mod tests {
         assert_eq!(all(s, 2), (whole.features.clone(), 3));
 
         let csv = dir.path().join("x.csv");
-        std::fs::write(&csv, "a,b\n1,2\n3,4\n5,6\n").unwrap();
-        let whole = load_file(&csv, &LoadOptions::default()).unwrap();
-        let s = RowStream::open(&csv, &LoadOptions::default()).unwrap();
-        assert!(!s.streamed());
+        std::fs::write(&csv, "a,b,y\n1,2,p\n\n3,4,q\r\n5,6,p\n").unwrap();
+        let opts = LoadOptions {
+            label: Some(crate::dataset::LabelColumn::Name("y".into())),
+            ..LoadOptions::default()
+        };
+        let whole = load_file(&csv, &opts).unwrap();
+        let mut s = RowStream::open(&csv, &opts).unwrap();
+        assert!(s.streamed());
+        assert_eq!((s.rows(), s.width()), (3, 2));
         assert_eq!(s.source(), whole.source);
-        assert_eq!(all(s, 2), (whole.features, 2));
+        assert_eq!(s.take_labels(), whole.labels);
+        let again = s.reopen().unwrap();
+        assert_eq!(all(s, 2), (whole.features.clone(), 2));
+        assert_eq!(all(again, 1), (whole.features, 3));
+    }
+
+    #[test]
+    fn csv_errors_are_the_whole_file_loaders_first_error() {
+        let dir = tempfile::tempdir().unwrap();
+        let csv = dir.path().join("x.csv");
+        let line = |e: &DatasetError| crate::error_line::one_line(e);
+        for text in [
+            "a,b\n1,2\n\n3,x\n4\n", // a bad number (line 4) before a ragged row (line 5)
+            "a,b\n1,2\n3\n4,nan\n", // a ragged row before a NaN
+            "1,2\n3,\"4\n5\"\n6,inf\n", // a quoted line break, then inf on line 4
+            "a,b\n",                // a header only
+            "",                     // nothing
+        ] {
+            std::fs::write(&csv, text).unwrap();
+            let e = RowStream::open(&csv, &LoadOptions::default()).unwrap_err();
+            let want = load_file(&csv, &LoadOptions::default()).unwrap_err();
+            assert_eq!(line(&e), line(&want), "{text:?}");
+        }
     }
 
     #[test]

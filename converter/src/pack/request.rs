@@ -5,12 +5,12 @@ use anyhow::{anyhow, bail, Context, Result};
 use kinglet_runtime::Model;
 use std::path::{Path, PathBuf};
 
-use crate::dataset::{is_npy, load_file, DatasetError, LabelColumn, LoadOptions};
+use crate::dataset::{load_file, DatasetError, LabelColumn, LoadOptions};
 use crate::import::import_file;
 use crate::import::plain::referenced_files;
 use crate::output_guard::Named;
 use crate::quantise::calibrate::RangeMethod;
-use crate::quantise::calibrate_stream::{NpyPasses, Passes, CHUNK_ROWS, PASSES};
+use crate::quantise::calibrate_stream::{FilePasses, Passes, CHUNK_ROWS, PASSES};
 use crate::report::calibration::CalibrationReport;
 use crate::report::BlobReport;
 use crate::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
@@ -223,7 +223,7 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
                 },
                 sections: req.sections,
             };
-            let p = match streamed(&model, model_path, rows, label.is_some(), opts, progress)? {
+            let p = match streamed(&model, model_path, rows, label, opts, progress)? {
                 Some(p) => p,
                 None => {
                     progress.loading(rows);
@@ -328,7 +328,12 @@ fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<crate::dataset::
             ..LoadOptions::default()
         },
     )
-    .map_err(|e| match e {
+    .map_err(|e| rows_error(e, labelled))
+}
+
+/// A calibration file's error, with the option that fixes it when there is one.
+fn rows_error(e: DatasetError, labelled: bool) -> anyhow::Error {
+    match e {
         DatasetError::LabelColumnForNpy { .. } => {
             anyhow::Error::new(e).context("--calibration-label")
         }
@@ -337,7 +342,7 @@ fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<crate::dataset::
             anyhow::anyhow!("{e}; {hint}")
         }
         e => e.into(),
-    })
+    }
 }
 
 /// How to leave a label column out, for the column `column` as a message names it
@@ -364,24 +369,36 @@ fn check_calibration_width(source: &str, width: usize, inputs: usize, label: boo
     Ok(())
 }
 
-/// The int8 pack calibrated on a C-order `.npy` file read a chunk at a time on each pass
-/// ([`super::pack_int8_streamed`]); `None` when the rows are to be loaded whole instead (CSV,
-/// a Fortran-order array, options that need every row, or rows the bias check refuses).
+/// The int8 pack calibrated on a C-order `.npy` or a CSV file read a chunk at a time on each
+/// pass ([`super::pack_int8_streamed`]); `None` when the rows are to be loaded whole instead (a
+/// Fortran-order array, options that need every row, or rows the bias check refuses).
 fn streamed(
     model: &crate::graph::FloatModel,
     model_path: &Path,
     rows: &Path,
-    label: bool,
+    label: &Option<LabelColumn>,
     opts: Int8Options,
     progress: &dyn PackProgress,
 ) -> Result<Option<super::Int8Pack>> {
-    if label || !is_npy(rows) || !super::streams(&opts) {
+    if !super::streams(&opts) {
         return Ok(None);
     }
-    let Some(passes) = NpyPasses::open(rows, CHUNK_ROWS)? else {
+    progress.loading(rows);
+    let load = LoadOptions {
+        label: label.clone(),
+        ..LoadOptions::default()
+    };
+    let Some(passes) =
+        FilePasses::open(rows, &load, CHUNK_ROWS).map_err(|e| rows_error(e, label.is_some()))?
+    else {
         return Ok(None);
     };
-    check_calibration_width(passes.source(), passes.width(), model.input_len, label)?;
+    check_calibration_width(
+        passes.source(),
+        passes.width(),
+        model.input_len,
+        label.is_some(),
+    )?;
     progress.calibrating_passes(passes.rows(), PASSES);
     // A bad value read on a pass is the file's error, as when the file is loaded first.
     super::pack_int8_streamed(model, &passes, opts, &|n| progress.rows_done(n)).map_err(|e| {
@@ -459,11 +476,18 @@ mod tests {
             let progress = Recorded::default();
             let streamed = pack_with(&req(npy.clone(), method), &progress).unwrap();
             assert_eq!(streamed.blob, whole.blob);
-            assert!(!progress.loaded.get());
+            assert!(progress.loaded.get());
             assert_eq!(progress.passes.get(), (data.rows, PASSES));
             assert_eq!(progress.done.get(), (PASSES * data.rows) as u64);
         }
-        // The least-error range loads the rows whole.
+        // The CSV streams too (the same passes); the least-error range loads the rows whole.
+        let progress = Recorded::default();
+        let streamed = pack_with(&req(csv.clone(), RangeMethod::MinMax), &progress).unwrap();
+        assert_eq!(progress.done.get(), (PASSES * data.rows) as u64);
+        assert_eq!(
+            streamed.blob,
+            pack(&req(npy.clone(), RangeMethod::MinMax)).unwrap().blob
+        );
         let progress = Recorded::default();
         pack_with(&req(npy, RangeMethod::LeastError), &progress).unwrap();
         assert!(progress.loaded.get());

@@ -1,6 +1,8 @@
 //! [`super::calibrate::calibrate_observed`] without holding the traced values: three passes over
-//! rows that can be read again (a `.npy` file read a chunk at a time), each running every row
+//! rows that can be read again (a `.npy` or CSV file read a chunk at a time), each running every row
 //! through the float model's traced f32 path as calibration does.
+//!
+//! Rows come from a [`FilePasses`] (or, for tests, a [`Dataset`] in memory).
 //!
 //! 1. counts the upper halves of every value's key ([`super::order_stats::Coarse`]), the ends,
 //!    and each element's sum (the means bias correction uses, summed in row order as
@@ -15,7 +17,6 @@
 //! calibration bit for bit. The least-error search sums the error of every value in sorted
 //! order and needs the values themselves; it is not offered here.
 use std::collections::BTreeMap;
-use std::path::PathBuf;
 
 use anyhow::{anyhow, bail, Result};
 use kinglet_runtime::{Input, Model};
@@ -25,7 +26,7 @@ use super::order_stats::{Coarse, Fine};
 use super::percentile::{percentile_at, percentile_ranks};
 use super::plausible::{BiasScan, BiasesLost};
 use super::spread::{core_trim, Sorted, SpreadScan};
-use crate::dataset::{Dataset, DatasetError, NpyRows};
+use crate::dataset::{Dataset, DatasetError, LoadOptions, RowStream};
 use crate::graph::DenseLayer;
 use crate::host::layers::FloatLayer;
 
@@ -59,47 +60,46 @@ impl Passes for Dataset {
     }
 }
 
-/// The rows of a C-order `.npy` file, read `chunk_rows` at a time on every pass.
-#[derive(Debug, Clone)]
-pub struct NpyPasses {
-    path: PathBuf,
-    source: String,
-    rows: usize,
-    width: usize,
+/// The rows of a file read `chunk_rows` at a time on every pass ([`RowStream`]: a C-order
+/// `.npy` file or a CSV file).
+#[derive(Debug)]
+pub struct FilePasses {
+    stream: RowStream,
     chunk_rows: usize,
 }
 
-impl NpyPasses {
-    /// `path`'s rows; `Ok(None)` when the file is Fortran-ordered (read it whole).
+impl FilePasses {
+    /// `path`'s rows as `opts` reads them (a CSV label column is left out); `Ok(None)` when the
+    /// file would be read whole (a Fortran-order `.npy` array).
     ///
     /// # Errors
-    /// Those of [`NpyRows::open`].
-    pub fn open(path: &std::path::Path, chunk_rows: usize) -> Result<Option<Self>, DatasetError> {
-        Ok(NpyRows::open(path)?.map(|r| NpyPasses {
-            path: path.to_path_buf(),
-            source: path.display().to_string(),
-            rows: r.rows(),
-            width: r.width(),
-            chunk_rows,
-        }))
+    /// Those of [`RowStream::open`]: the file's first bad field, as the whole-file loader finds it.
+    pub fn open(
+        path: &std::path::Path,
+        opts: &LoadOptions,
+        chunk_rows: usize,
+    ) -> Result<Option<Self>, DatasetError> {
+        let mut stream = RowStream::open(path, opts)?;
+        drop(stream.take_labels());
+        Ok(stream
+            .streamed()
+            .then_some(FilePasses { stream, chunk_rows }))
     }
 }
 
-impl Passes for NpyPasses {
+impl Passes for FilePasses {
     fn rows(&self) -> usize {
-        self.rows
+        self.stream.rows()
     }
     fn width(&self) -> usize {
-        self.width
+        self.stream.width()
     }
     fn source(&self) -> &str {
-        &self.source
+        self.stream.source()
     }
     fn pass(&self, each: &mut dyn FnMut(&Dataset) -> Result<()>) -> Result<()> {
-        let Some(mut r) = NpyRows::open(&self.path)? else {
-            bail!("{}: the file changed while it was read", self.source);
-        };
-        while let Some(chunk) = r.next_chunk(self.chunk_rows)? {
+        let mut s = self.stream.reopen()?;
+        while let Some(chunk) = s.next_chunk(self.chunk_rows)? {
             each(&chunk)?;
         }
         Ok(())
