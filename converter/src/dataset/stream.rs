@@ -11,9 +11,9 @@ use std::path::{Path, PathBuf};
 
 use super::csv_load::{finite_f32, CsvReader};
 use super::load_file::misplaced_options;
-use super::npy_load::load_labels;
+use super::npy_load::load_labels_as;
 use super::npy_stream::NpyRows;
-use super::{load_npy, CsvOptions, Dataset, DatasetError, LoadOptions};
+use super::{load_npy, CsvOptions, Dataset, DatasetError, LoadOptions, RowLabels};
 
 /// Records a CSV check pass reads at a time.
 const CSV_CHECK_ROWS: usize = 4096;
@@ -46,7 +46,7 @@ pub struct RowStream {
     rows: usize,
     width: usize,
     source: String,
-    labels: Option<Vec<String>>,
+    labels: Option<RowLabels>,
 }
 
 impl std::fmt::Debug for RowStream {
@@ -77,7 +77,7 @@ impl RowStream {
             };
             let labels = match &opts.label_file {
                 None => None,
-                Some(lp) => Some(load_labels(lp, npy.rows())?),
+                Some(lp) => Some(load_labels_as(lp, npy.rows())?),
             };
             return Ok(RowStream {
                 rows: npy.rows(),
@@ -90,12 +90,13 @@ impl RowStream {
             });
         }
         let mut check = open_csv(path, &csv)?;
-        let mut labels: Option<Vec<String>> = None;
+        let mut labels: Option<RowLabels> = None;
         while let Some(c) =
             check.next_chunk(CSV_CHECK_ROWS, &mut |t, at| finite_f32(t, at).map(|_| ()))?
         {
             if let Some(l) = c.labels {
-                labels.get_or_insert_with(Vec::new).extend(l);
+                let table = labels.get_or_insert_with(RowLabels::default);
+                l.iter().for_each(|x| table.push(x));
             }
         }
         if check.rows == 0 {
@@ -149,7 +150,7 @@ impl RowStream {
             rows: data.rows,
             width: data.width,
             source: data.source.clone(),
-            labels: data.labels.take(),
+            labels: data.labels.take().map(|l| l.into_iter().collect()),
             path: PathBuf::from(&data.source),
             csv: CsvOptions::default(),
             inner: Inner::Held { data, next: 0 },
@@ -177,7 +178,7 @@ impl RowStream {
     }
 
     /// The rows' labels, as written (taken: a second call gives `None`).
-    pub fn take_labels(&mut self) -> Option<Vec<String>> {
+    pub fn take_labels(&mut self) -> Option<RowLabels> {
         self.labels.take()
     }
 
@@ -256,7 +257,10 @@ mod tests {
         let mut s = RowStream::open(&x, &opts).unwrap();
         assert!(s.streamed());
         assert_eq!((s.rows(), s.width()), (5, 2));
-        assert_eq!(s.take_labels(), whole.labels);
+        assert_eq!(
+            s.take_labels(),
+            whole.labels.map(|l| l.into_iter().collect())
+        );
         assert_eq!(all(s, 2), (whole.features.clone(), 3));
 
         let csv = dir.path().join("x.csv");
@@ -270,7 +274,10 @@ mod tests {
         assert!(s.streamed());
         assert_eq!((s.rows(), s.width()), (3, 2));
         assert_eq!(s.source(), whole.source);
-        assert_eq!(s.take_labels(), whole.labels);
+        assert_eq!(
+            s.take_labels(),
+            whole.labels.map(|l| l.into_iter().collect())
+        );
         let again = s.reopen().unwrap();
         assert_eq!(all(s, 2), (whole.features.clone(), 2));
         assert_eq!(all(again, 1), (whole.features, 3));

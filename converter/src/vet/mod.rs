@@ -31,7 +31,7 @@ pub mod tally;
 
 use anyhow::{bail, Context, Result};
 
-use crate::dataset::{resolve_labels, Dataset, DatasetError, RowStream};
+use crate::dataset::{resolve_labels, Dataset, DatasetError, RowLabels, RowStream};
 use crate::score::feed::{Entry, Feed, Rows};
 pub use pair::ModelPair;
 pub use run::{Engine, Fed, Parallelism};
@@ -131,7 +131,7 @@ fn vet_fed(
             width: data.width,
             feed: fed.feed(),
         },
-        data.labels.as_deref(),
+        data.labels.as_deref().map(RawLabels::Strings),
         sources,
         criteria,
     )?;
@@ -182,7 +182,7 @@ pub fn vet_stream(
             width: stream.width(),
             feed: Feed::F32,
         },
-        raw_labels.as_deref(),
+        raw_labels.as_ref().map(RawLabels::Table),
         sources,
         criteria,
     )?;
@@ -226,6 +226,14 @@ struct Shape<'a> {
     feed: Feed,
 }
 
+/// The rows' labels as written.
+enum RawLabels<'a> {
+    /// One string per row.
+    Strings(&'a [String]),
+    /// Each distinct label once.
+    Table(&'a RowLabels),
+}
+
 /// The labels and benign classes as class indices.
 struct Judged {
     labels: Option<Vec<usize>>,
@@ -245,7 +253,7 @@ impl Judged {
 fn prepare(
     pair: &ModelPair<'_>,
     shape: Shape<'_>,
-    raw_labels: Option<&[String]>,
+    raw_labels: Option<RawLabels<'_>>,
     sources: &Sources,
     criteria: &Criteria,
 ) -> Result<Judged> {
@@ -265,8 +273,11 @@ fn prepare(
     let labels = match raw_labels {
         None => None,
         Some(raw) => Some(
-            resolve_labels(raw, &pair.class_names(), pair.classes())
-                .with_context(|| format!("{}: bad label", shape.source))?,
+            match raw {
+                RawLabels::Strings(s) => resolve_labels(s, &pair.class_names(), pair.classes()),
+                RawLabels::Table(t) => t.resolve(&pair.class_names(), pair.classes()),
+            }
+            .with_context(|| format!("{}: bad label", shape.source))?,
         ),
     };
     if criteria.max_drop_pp.is_some() && labels.is_none() {
