@@ -61,11 +61,11 @@ impl std::fmt::Debug for RowStream {
 }
 
 impl RowStream {
-    /// Opens the rows of `path` as [`load_file`] reads them (the same options, checks and
+    /// Opens the rows of `path` as [`super::load_file`] reads them (the same options, checks and
     /// errors; a `.npy` file's values are checked as their chunk is read).
     ///
     /// # Errors
-    /// Those of [`load_file`].
+    /// Those of [`super::load_file`].
     pub fn open(path: &Path, opts: &LoadOptions) -> Result<Self, DatasetError> {
         let csv = CsvOptions {
             label: opts.label.clone(),
