@@ -71,6 +71,28 @@ fn median(mut t: Vec<f64>) -> f64 {
     t[t.len() / 2]
 }
 
+/// The two batched forward passes over every row of `data` (what numpy's pass is compared
+/// with): f32 and int8, batches of `vet::run::BATCH` rows over rayon's threads, as `vet` runs
+/// them. Seconds.
+fn passes(fh: &FloatHost, qh: &Int8Host, data: &Dataset) -> f64 {
+    let t = Instant::now();
+    let batches = data.rows.div_ceil(BATCH);
+    let sum: usize = (0..batches)
+        .into_par_iter()
+        .map(|b| {
+            let (start, n) = (b * BATCH, BATCH.min(data.rows - b * BATCH));
+            let x = &data.features[start * data.width..(start + n) * data.width];
+            let f = fh.run(x, n).expect("f32 pass");
+            let q = qh
+                .run(n, |r| kinglet_runtime::Input::F32(data.row(start + r)))
+                .expect("int8 pass");
+            f.class.iter().sum::<usize>() + q.infer_class.iter().sum::<usize>()
+        })
+        .sum();
+    std::hint::black_box(sum);
+    t.elapsed().as_secs_f64()
+}
+
 fn python() -> PathBuf {
     std::env::var_os("KINGLET_PYTHON")
         .map(PathBuf::from)
@@ -124,6 +146,31 @@ fn main() {
     let int8_blob = pack_int8(&model, &calib, RangeMethod::MinMax)
         .expect("int8 pack")
         .blob;
+
+    // `cargo bench --bench vet -- passes [N]`: only the two batched forward passes, N times
+    // (default 20), one line of times; no numpy. For a profiler.
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    if let Some(at) = args.iter().position(|a| a == "passes") {
+        let n = args
+            .get(at + 1)
+            .and_then(|v| v.parse().ok())
+            .unwrap_or(20usize);
+        let (fm, qm) = (
+            Model::parse(&f32_blob).expect("parse"),
+            Model::parse(&int8_blob).expect("parse"),
+        );
+        let (fh, qh) = (
+            FloatHost::new(&fm).expect("f32 host"),
+            Int8Host::new(&qm).expect("int8 host"),
+        );
+        let t: Vec<f64> = (0..n).map(|_| passes(&fh, &qh, &data)).collect();
+        let best = t.iter().copied().fold(f64::INFINITY, f64::min);
+        println!(
+            "passes only: {n} runs, median {:.4} s, best {best:.4} s",
+            median(t)
+        );
+        return;
+    }
 
     let dir = tempfile::tempdir().expect("temp dir");
     let d = dir.path();
@@ -211,25 +258,7 @@ fn main() {
     // batches of `vet::run::BATCH` rows over rayon's threads, as `vet` runs them.
     let fh = FloatHost::new(&pair.float).expect("f32 host");
     let qh = Int8Host::new(&pair.int8).expect("int8 host");
-    let passes = || {
-        let t = Instant::now();
-        let batches = ROWS.div_ceil(BATCH);
-        let sum: usize = (0..batches)
-            .into_par_iter()
-            .map(|b| {
-                let (start, n) = (b * BATCH, BATCH.min(ROWS - b * BATCH));
-                let x = &data.features[start * INPUTS..(start + n) * INPUTS];
-                let f = fh.run(x, n).expect("f32 pass");
-                let q = qh
-                    .run(n, |r| kinglet_runtime::Input::F32(data.row(start + r)))
-                    .expect("int8 pass");
-                f.class.iter().sum::<usize>() + q.infer_class.iter().sum::<usize>()
-            })
-            .sum();
-        std::hint::black_box(sum);
-        t.elapsed().as_secs_f64()
-    };
-    let pass_t: Vec<f64> = (0..7).map(|_| passes()).collect();
+    let pass_t: Vec<f64> = (0..7).map(|_| passes(&fh, &qh, &data)).collect();
 
     // Where the time goes: each runtime path alone, one thread, all rows.
     let path_time = |m: &Model<'_>| {

@@ -17,6 +17,6 @@ pub mod pack;
 pub mod quantise;
 pub mod report;
 pub mod scaler_file;
-pub mod search;
 pub mod score;
+pub mod search;
 pub mod vet;

@@ -2016,6 +2016,98 @@ fn inspect_says_whether_the_blob_takes_integer_samples() {
     }
 }
 
+// ---- rows read a chunk at a time (`.npy` features streamed by vet and pack) ----
+
+/// 20,000 rows of 2 features, more than one streamed chunk (16,384 rows), with `bad` at row
+/// index 19,000, column index 1: found after a whole chunk has been run.
+fn long_npy(bad: f32) -> Vec<u8> {
+    let mut v: Vec<f32> = (0..40_000).map(|i| (i % 7) as f32 * 0.5 - 1.0).collect();
+    v[19_000 * 2 + 1] = bad;
+    npy_bytes(&[20_000, 2], &v)
+}
+
+#[test]
+fn c127_truncated_npy_to_vet() {
+    let full = npy_bytes(&[3, 2], &[0f32; 6]);
+    let c = Case::new()
+        .packed("m.kgl")
+        .put("rows.npy", &full[..full.len() - 5]);
+    c.fails(
+        &[
+            "vet",
+            "model_2in.json",
+            "m.kgl",
+            "--data",
+            "rows.npy",
+            "--html",
+            "r.html",
+        ],
+        &[
+            "rows.npy",
+            "the file is truncated: the header promises 24 bytes of data but 19 follow",
+        ],
+    );
+}
+
+#[test]
+fn c128_nan_in_a_later_chunk_of_npy_calibration() {
+    // The first pass has run a chunk when the NaN is read; the existing output stays as it was.
+    let c = Case::new()
+        .packed("m.kgl")
+        .put("rows.npy", &long_npy(f32::NAN));
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.npy",
+            "-o",
+            "m.kgl",
+        ],
+        &["rows.npy", "row index 19000, column index 1: NaN"],
+    );
+}
+
+#[test]
+fn c129_infinity_in_a_later_chunk_of_vet_rows() {
+    // Nothing on stdout (the report is written at the end) and no HTML file.
+    let c = Case::new()
+        .packed("m.kgl")
+        .put("rows.npy", &long_npy(f32::INFINITY));
+    c.fails(
+        &[
+            "vet",
+            "model_2in.json",
+            "m.kgl",
+            "--data",
+            "rows.npy",
+            "--json",
+            "--html",
+            "r.html",
+        ],
+        &["rows.npy", "row index 19000, column index 1: inf"],
+    );
+}
+
+#[test]
+fn c130_late_row_that_drowns_the_biases_in_streamed_calibration() {
+    // The streamed passes find the row; the pack names it as the whole-file pack does.
+    let c = Case::new()
+        .with("model_2in.json")
+        .put("rows.npy", &long_npy(1e9));
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.npy",
+            "-o",
+            "m.kgl",
+        ],
+        &["rows.npy", "row index 19000", "drown every bias"],
+    );
+}
+
 // ---- int4 weights (`pack --weights`, FORMAT.md §3.5) ----
 
 #[test]

@@ -12,7 +12,6 @@ use crate::unstable::pointwise::TABLE_LEN;
 use crate::wire::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout};
 use crate::wire::header::{Header, HEADER_LEN};
 use crate::{le, validate};
-use serde::Deserialize;
 
 /// Raw input values, in the units the model's scaler expects.
 #[derive(Debug, Clone, Copy)]
@@ -104,24 +103,29 @@ impl<'a> Model<'a> {
     pub fn parse(blob: &'a [u8]) -> Result<Self, FormatError> {
         let header = Header::read(blob)?;
         let body = blob.get(HEADER_LEN..).unwrap_or(&[]);
-        // `Deserializer` directly rather than `take_from_bytes`: one tuple fewer to move the
-        // layer table through (stack and `memcpy`).
-        let mut de = postcard::Deserializer::from_bytes(body);
-        let desc = ModelDesc::deserialize(&mut de).map_err(|_| FormatError::Malformed)?;
-        let rest = de.finalize().map_err(|_| FormatError::Malformed)?;
+        // Decoded into the model's own table (`wire::read`): no copy of the layer table to
+        // move through the stack.
+        let mut model = Model {
+            desc: ModelDesc::empty(),
+            plan: ScratchPlan::default(),
+            blob,
+        };
+        let rest = crate::wire::read::read_into(body, &mut model.desc)
+            .map_err(|_| FormatError::Malformed)?;
         if !rest.is_empty() {
             return Err(FormatError::TrailingBytes);
         }
+        let desc = &model.desc;
         // The version field is outside the CRC; holding it to the one value the table allows
         // protects it all the same (`FORMAT.md` §2).
-        let body_version = crate::wire::version::version_for(&desc);
+        let body_version = crate::wire::version::version_for(desc);
         if header.version != body_version {
             return Err(FormatError::VersionMismatch {
                 header: header.version,
                 body: body_version,
             });
         }
-        let plan = validate::check(&desc)?;
+        let plan = validate::check(desc)?;
         let computed = u32::try_from(plan.total()).unwrap_or(u32::MAX);
         if computed != header.scratch_bytes {
             return Err(FormatError::ScratchMismatch {
@@ -129,7 +133,8 @@ impl<'a> Model<'a> {
                 computed,
             });
         }
-        Ok(Model { desc, plan, blob })
+        model.plan = plan;
+        Ok(model)
     }
 
     /// The decoded layer table.

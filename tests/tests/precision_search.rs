@@ -119,16 +119,24 @@ fn dataset(rows: &[Vec<f32>], labels: Option<&[i64]>, source: &str) -> Dataset {
 }
 
 fn mlp784(criteria: Criteria) -> Search {
-    let text = std::fs::read_to_string(path("tests/fixtures/linear/lr_digits_minmax.json")).unwrap();
+    let text =
+        std::fs::read_to_string(path("tests/fixtures/linear/lr_digits_minmax.json")).unwrap();
     let d: DigitRows = serde_json::from_str(&text).unwrap();
     let model = import_file(&path("tests/fixtures/search/mlp_pixels784_div255.onnx")).unwrap();
     let calib = dataset(&d.calibration, None, "calibration pixels");
-    let held = rows(dataset(&d.heldout, Some(&d.heldout_labels), "held-out pixels"));
+    let held = rows(dataset(
+        &d.heldout,
+        Some(&d.heldout_labels),
+        "held-out pixels",
+    ));
     run(&model, &calib, &held, criteria)
 }
 
 #[test]
 fn print_784() {
     let s = mlp784(drop_bound(0.5));
-    eprintln!("{}", kinglet_converter::search::render::render(&s, &drop_bound(0.5), None));
+    eprintln!(
+        "{}",
+        kinglet_converter::search::render::render(&s, &drop_bound(0.5), None)
+    );
 }

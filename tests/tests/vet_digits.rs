@@ -282,3 +282,130 @@ fn digits_numbers_for_the_record() {
     }
     assert!(r.fidelity[0].clipped > 0);
 }
+
+/// Writes the rows of `d` (repeated `times` times) as `.npy` features and integer labels.
+fn save_npy(
+    d: &Dataset,
+    times: usize,
+    dir: &std::path::Path,
+) -> (std::path::PathBuf, std::path::PathBuf) {
+    use npyz::WriterBuilder;
+    let x = dir.join("rows.npy");
+    let y = dir.join("labels.npy");
+    let mut buf = Vec::new();
+    {
+        let mut w = npyz::WriteOptions::<f32>::new()
+            .default_dtype()
+            .shape(&[(d.rows * times) as u64, d.width as u64])
+            .writer(&mut buf)
+            .begin_nd()
+            .unwrap();
+        for _ in 0..times {
+            w.extend(d.features.iter().copied()).unwrap();
+        }
+        w.finish().unwrap();
+    }
+    std::fs::write(&x, &buf).unwrap();
+    let labels: Vec<i64> = d
+        .labels
+        .as_ref()
+        .unwrap()
+        .iter()
+        .map(|l| l.parse().unwrap())
+        .collect();
+    let mut buf = Vec::new();
+    {
+        let mut w = npyz::WriteOptions::<i64>::new()
+            .default_dtype()
+            .shape(&[(d.rows * times) as u64])
+            .writer(&mut buf)
+            .begin_nd()
+            .unwrap();
+        for _ in 0..times {
+            w.extend(labels.iter().copied()).unwrap();
+        }
+        w.finish().unwrap();
+    }
+    std::fs::write(&y, &buf).unwrap();
+    (x, y)
+}
+
+#[test]
+fn streamed_rows_give_the_whole_file_report() {
+    use kinglet_converter::dataset::{load_file, LoadOptions, RowStream};
+    use kinglet_converter::score::Entry;
+    use kinglet_converter::vet::{Engine, How};
+    let (f, q) = blobs();
+    let pair = ModelPair::new(Model::parse(&f).unwrap(), Model::parse(&q).unwrap()).unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let criteria = Criteria {
+        max_drop_pp: Some(1.0),
+        benign: vec!["0".into()],
+        ..Criteria::default()
+    };
+    // Once (the rows scikit-learn's metrics were checked on), and twice over (every row
+    // repeated: the repeat count and its note).
+    for times in [1, 2] {
+        let (x, y) = save_npy(&heldout(), times, dir.path());
+        let opts = LoadOptions {
+            label_file: Some(y),
+            ..LoadOptions::default()
+        };
+        let whole = load_file(&x, &opts).unwrap();
+        for engine in [Engine::Batched, Engine::PerRow] {
+            let how = How {
+                parallelism: Parallelism::Parallel,
+                engine,
+            };
+            let expected = vet::vet_rows(
+                &pair,
+                &kinglet_converter::score::Rows::floats(whole.clone()),
+                Entry::Infer,
+                &Sources::default(),
+                &criteria,
+                how,
+                &|_| {},
+            )
+            .unwrap();
+            assert_eq!(
+                expected.repeated_rows,
+                (times as u64 - 1) * whole.rows as u64 / times as u64
+            );
+            // 7 rows: many chunks, each smaller than a batch; 1,100: more than a batch of 1,024.
+            for chunk in [7, 1100] {
+                let mut s = RowStream::open(&x, &opts).unwrap();
+                assert!(s.streamed());
+                let got = vet::vet_stream(
+                    &pair,
+                    &mut s,
+                    Entry::Infer,
+                    &Sources::default(),
+                    &criteria,
+                    how,
+                    chunk,
+                    &|_| {},
+                )
+                .unwrap();
+                assert_eq!(got, expected, "{times}x, {engine:?}, chunks of {chunk}");
+            }
+        }
+        if times == 1 {
+            // The streamed report is the one checked against scikit-learn above.
+            let mut s = RowStream::open(&x, &opts).unwrap();
+            let r = vet::vet_stream(
+                &pair,
+                &mut s,
+                Entry::Infer,
+                &Sources::default(),
+                &Criteria::default(),
+                Parallelism::Serial,
+                13,
+                &|_| {},
+            )
+            .unwrap();
+            let sk = json("tests/fixtures/vet/digits_sklearn.json");
+            check_against_sklearn(&r, true, &sk["float"]);
+            check_against_sklearn(&r, false, &sk["int8"]);
+        }
+    }
+}

@@ -16,3 +16,17 @@ pub fn emit(text: &str) -> Result<()> {
 pub fn line(text: &str) -> Result<()> {
     emit(&format!("{text}\n"))
 }
+
+/// Writes `value` as indented JSON and a line break, straight to standard output (a report of a
+/// million rows is not built as one string first).
+pub fn json<T: serde::Serialize>(value: &T) -> Result<()> {
+    let mut out = std::io::BufWriter::new(std::io::stdout().lock());
+    let written = serde_json::to_writer_pretty(&mut out, value)
+        .map_err(std::io::Error::from)
+        .and_then(|()| out.write_all(b"\n"))
+        .and_then(|()| out.flush());
+    match written {
+        Err(e) if e.kind() == ErrorKind::BrokenPipe => Ok(()),
+        r => r.context("cannot write the JSON report to standard output"),
+    }
+}

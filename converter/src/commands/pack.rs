@@ -40,6 +40,13 @@ impl PackProgress for TerminalProgress {
     fn calibrating(&self, rows: usize) {
         self.show(super::progress::rows_bar("calibrating", rows));
     }
+    fn calibrating_passes(&self, rows: usize, passes: usize) {
+        let what = format!("calibrating, {passes} passes of {rows} rows:");
+        self.show(super::progress::rows_bar(
+            &what,
+            rows.saturating_mul(passes),
+        ));
+    }
     fn rows_done(&self, n: u64) {
         if let Ok(s) = self.shown.lock() {
             if let Some(b) = s.as_ref() {

@@ -1,7 +1,7 @@
 //! What `vet` and `score` share: the CSV header choice, the input path and entry point the
 //! firmware uses, and loading rows for that path with the options' names in the errors.
 use anyhow::Result;
-use kinglet_converter::dataset::{DatasetError, LabelColumn, LoadOptions};
+use kinglet_converter::dataset::{DatasetError, LabelColumn, LoadOptions, RowStream};
 use kinglet_converter::output_guard::Named;
 use kinglet_converter::score::{load_rows, Entry, Feed, Rows};
 use std::path::PathBuf;
@@ -95,26 +95,43 @@ impl RowArgs {
     }
 }
 
-/// Loads the rows for the chosen input type.
-pub fn load(s: &RowArgs) -> Result<Rows> {
+fn options(s: &RowArgs) -> LoadOptions {
     let has_header = match s.header {
         Header::Auto => None,
         Header::Yes => Some(true),
         Header::No => Some(false),
     };
-    let opts = LoadOptions {
+    LoadOptions {
         label: s.label.clone(),
         has_header,
         label_file: s.label_file.clone(),
-    };
+    }
+}
+
+/// Loads the rows for the chosen input type.
+pub fn load(s: &RowArgs) -> Result<Rows> {
     let spinner = super::progress::loading(&s.data);
-    let loaded = load_rows(&s.data, &opts, s.feed.into());
+    let loaded = load_rows(&s.data, &options(s), s.feed.into());
     spinner.finish_and_clear();
-    loaded.map_err(|e| match e {
+    loaded.map_err(named)
+}
+
+/// Opens the rows to be read a chunk at a time (the f32 input type; a CSV file is read whole
+/// here, with the spinner).
+pub fn open_stream(s: &RowArgs) -> Result<RowStream> {
+    let spinner = super::progress::loading(&s.data);
+    let opened = RowStream::open(&s.data, &options(s));
+    spinner.finish_and_clear();
+    opened.map_err(named)
+}
+
+/// A loader error with the option it concerns named.
+fn named(e: DatasetError) -> anyhow::Error {
+    match e {
         DatasetError::LabelColumnForNpy { .. } => anyhow::Error::new(e).context(
             "--label names a CSV column (for .npy features give --label-file <labels.npy>)",
         ),
         DatasetError::LabelFileForCsv { .. } => anyhow::Error::new(e).context("--label-file"),
         e => e.into(),
-    })
+    }
 }

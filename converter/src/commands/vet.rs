@@ -3,6 +3,7 @@ use anyhow::{anyhow, bail, Context, Result};
 use kinglet_converter::atomic::write_atomic;
 use kinglet_converter::echo;
 use kinglet_converter::output_guard::{check_distinct, Named};
+use kinglet_converter::score::Feed;
 use kinglet_converter::vet::load::load_float;
 use kinglet_converter::vet::render_text::TextOptions;
 use kinglet_converter::vet::{
@@ -112,9 +113,6 @@ pub fn run(a: Args) -> Result<Outcome> {
     let float_model = Model::parse(&float.blob)
         .map_err(|e| anyhow!("{}: not a valid model blob: {e}", a.float_model.display()))?;
     let pair = ModelPair::new(float_model, int8)?;
-    let rows = super::rows::load(&a.source)?;
-    let data = &rows.data;
-
     let criteria = Criteria {
         max_drop_pp: a.max_drop,
         gate: Some(match a.gate {
@@ -129,28 +127,44 @@ pub fn run(a: Args) -> Result<Outcome> {
         float_model: a.float_model.display().to_string(),
         int8_model: a.int8_blob.display().to_string(),
     };
-    let bar = super::progress::rows_bar("vetting", data.rows);
     let parallelism = if a.serial {
         Parallelism::Serial
     } else {
         Parallelism::Parallel
     };
-    let mut report = vet::vet_rows(
-        &pair,
-        &rows,
-        a.source.entry.into(),
-        &sources,
-        &criteria,
-        vet::How {
-            parallelism,
-            engine: if a.per_row {
-                vet::Engine::PerRow
-            } else {
-                vet::Engine::Batched
-            },
+    let how = vet::How {
+        parallelism,
+        engine: if a.per_row {
+            vet::Engine::PerRow
+        } else {
+            vet::Engine::Batched
         },
-        &|n| bar.inc(n),
-    )?;
+    };
+    let entry = a.source.entry.into();
+    // The f32 feed reads the rows a chunk at a time; an integer feed loads them whole (its
+    // exact integers are read by the whole-file loaders).
+    let (mut report, bar) = if Feed::from(a.source.feed) == Feed::F32 {
+        let mut stream = super::rows::open_stream(&a.source)?;
+        let bar = super::progress::rows_bar("vetting", stream.rows());
+        let r = vet::vet_stream(
+            &pair,
+            &mut stream,
+            entry,
+            &sources,
+            &criteria,
+            how,
+            vet::STREAM_ROWS,
+            &|n| bar.inc(n),
+        )?;
+        (r, bar)
+    } else {
+        let rows = super::rows::load(&a.source)?;
+        let bar = super::progress::rows_bar("vetting", rows.data.rows);
+        let r = vet::vet_rows(&pair, &rows, entry, &sources, &criteria, how, &|n| {
+            bar.inc(n)
+        })?;
+        (r, bar)
+    };
     bar.finish_and_clear();
     report.notes.splice(0..0, float.notes);
 
@@ -159,7 +173,7 @@ pub fn run(a: Args) -> Result<Outcome> {
         write_atomic(path, page.as_bytes())?;
     }
     if a.json {
-        super::out::line(&serde_json::to_string_pretty(&report)?)?;
+        super::out::json(&report)?;
     } else {
         let colour = std::io::stdout().is_terminal() && std::env::var_os("NO_COLOR").is_none();
         super::out::emit(&render_text::render(

@@ -1,6 +1,7 @@
 //! Loading feature rows from a comma-separated file.
 
-use std::path::Path;
+use std::io::{BufRead, Read};
+use std::path::{Path, PathBuf};
 
 use super::{CsvOptions, Dataset, DatasetError, LabelColumn};
 
@@ -22,16 +23,17 @@ fn is_number(s: &str) -> bool {
 }
 
 /// Turns record offsets into 1-based line numbers as an editor shows them. The CSV reader's own
-/// line count does not count blank lines, so lines are counted here from the text. Offsets must come in
-/// increasing order (they do: records are read front to back).
-struct LineCounter<'a> {
-    input: &'a [u8],
-    offset: usize,
+/// line count does not count blank lines, so lines are counted here from the text, read a second
+/// time from `input` (the same bytes, front to back). Offsets must come in increasing order (they
+/// do: records are read front to back).
+pub(super) struct LineCounter<L: BufRead> {
+    input: L,
+    offset: u64,
     line: u64,
 }
 
-impl<'a> LineCounter<'a> {
-    fn new(input: &'a [u8]) -> Self {
+impl<L: BufRead> LineCounter<L> {
+    pub(super) fn new(input: L) -> Self {
         LineCounter {
             input,
             offset: 0,
@@ -40,18 +42,36 @@ impl<'a> LineCounter<'a> {
     }
 
     fn line_at(&mut self, byte: u64) -> u64 {
-        let mut end = usize::try_from(byte)
-            .unwrap_or(usize::MAX)
-            .min(self.input.len());
+        while self.offset < byte {
+            let Ok(buf) = self.input.fill_buf() else {
+                break;
+            };
+            if buf.is_empty() {
+                break;
+            }
+            let take = buf
+                .len()
+                .min(usize::try_from(byte - self.offset).unwrap_or(usize::MAX));
+            let skipped = buf.get(..take).unwrap_or(&[]);
+            self.line += skipped.iter().filter(|&&c| c == b'\n').count() as u64;
+            self.input.consume(take);
+            self.offset += take as u64;
+        }
         // The reader's offset is where it began looking for the record, before the blank lines
         // (and the `\n` of a CRLF) it skipped.
-        while let Some(b'\r' | b'\n') = self.input.get(end) {
-            end += 1;
-        }
-        if end > self.offset {
-            let skipped = self.input.get(self.offset..end).unwrap_or(&[]);
-            self.line += skipped.iter().filter(|&&c| c == b'\n').count() as u64;
-            self.offset = end;
+        loop {
+            let next = match self.input.fill_buf() {
+                Ok(buf) => buf.first().copied(),
+                Err(_) => None,
+            };
+            match next {
+                Some(c @ (b'\r' | b'\n')) => {
+                    self.line += u64::from(c == b'\n');
+                    self.input.consume(1);
+                    self.offset += 1;
+                }
+                _ => break,
+            }
         }
         self.line
     }
@@ -86,7 +106,7 @@ pub(super) struct CsvRows<T> {
 }
 
 /// A feature field as a finite f32.
-fn finite_f32(field: &str, at: &FieldAt<'_>) -> Result<f32, DatasetError> {
+pub(super) fn finite_f32(field: &str, at: &FieldAt<'_>) -> Result<f32, DatasetError> {
     let v: f32 = field.parse().map_err(|_| DatasetError::NonNumeric {
         path: at.path.to_path_buf(),
         line: at.line,
@@ -128,141 +148,202 @@ pub(super) fn read_csv_with<T>(
     opts: &CsvOptions,
     mut field: impl FnMut(&str, &FieldAt<'_>) -> Result<T, DatasetError>,
 ) -> Result<CsvRows<T>, DatasetError> {
-    let csv_err = |source| DatasetError::Csv {
-        path: path.to_path_buf(),
-        source,
-    };
-    let mut reader = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .trim(csv::Trim::All)
-        .from_reader(input);
-    let mut records = reader.records();
-    let mut first = match records.next() {
-        None => {
-            return Err(DatasetError::Empty {
-                path: path.to_path_buf(),
-            })
-        }
-        Some(r) => r.map_err(csv_err)?,
-    };
-    // A byte-order mark (as some spreadsheet programs write) is not part of the first field.
-    if let Some(f0) = first.get(0) {
-        if let Some(stripped) = f0.strip_prefix('\u{feff}') {
-            let mut fixed = csv::StringRecord::new();
-            fixed.push_field(stripped.trim());
-            for f in first.iter().skip(1) {
-                fixed.push_field(f);
-            }
-            fixed.set_position(first.position().cloned());
-            first = fixed;
-        }
+    let mut r = CsvReader::open(input, input, path, opts)?;
+    match r.next_chunk(usize::MAX, &mut field)? {
+        Some(rows) => Ok(rows),
+        None => Err(DatasetError::NoDataRows {
+            path: path.to_path_buf(),
+        }),
     }
-    let columns = first.len();
+}
 
-    let has_header = match (opts.has_header, &opts.label) {
-        (Some(false), Some(LabelColumn::Name(name))) => {
-            return Err(DatasetError::LabelNameWithoutHeader {
-                path: path.to_path_buf(),
-                name: name.clone(),
-            })
-        }
-        (Some(h), _) => h,
-        (None, Some(LabelColumn::Name(_))) => true,
-        (None, label) => {
-            let skip = match label {
-                Some(LabelColumn::Index(i)) => Some(*i),
-                _ => None,
-            };
-            first
-                .iter()
-                .enumerate()
-                .any(|(j, f)| Some(j) != skip && !f.is_empty() && !is_number(f))
-        }
-    };
-    let names: Option<Vec<String>> = has_header.then(|| first.iter().map(str::to_string).collect());
+/// A CSV file's rows read a chunk at a time: the first record settles the header, the label
+/// column and the width; then records are read as they are asked for. `R` reads the text for the
+/// CSV reader, `L` the same text again for the line numbers of messages.
+pub(super) struct CsvReader<R: Read, L: BufRead> {
+    path: PathBuf,
+    records: csv::StringRecordsIntoIter<R>,
+    first: Option<csv::StringRecord>,
+    columns: usize,
+    label_index: Option<usize>,
+    names: Option<Vec<String>>,
+    lines: LineCounter<L>,
+    /// Features per row.
+    pub width: usize,
+    /// Rows read so far.
+    pub rows: usize,
+}
 
-    let label_index = match &opts.label {
-        None => None,
-        Some(LabelColumn::Index(i)) => {
-            if *i >= columns {
-                return Err(DatasetError::LabelIndexOutOfRange {
+impl<R: Read, L: BufRead> CsvReader<R, L> {
+    /// Reads the first record of `input`; `lines` reads the same text for line numbers.
+    pub(super) fn open(
+        input: R,
+        lines: L,
+        path: &Path,
+        opts: &CsvOptions,
+    ) -> Result<Self, DatasetError> {
+        let csv_err = |source| DatasetError::Csv {
+            path: path.to_path_buf(),
+            source,
+        };
+        let reader = csv::ReaderBuilder::new()
+            .has_headers(false)
+            .flexible(true)
+            .trim(csv::Trim::All)
+            .from_reader(input);
+        let mut records = reader.into_records();
+        let mut first = match records.next() {
+            None => {
+                return Err(DatasetError::Empty {
                     path: path.to_path_buf(),
-                    index: *i,
-                    columns,
-                });
+                })
             }
-            Some(*i)
+            Some(r) => r.map_err(csv_err)?,
+        };
+        // A byte-order mark (as some spreadsheet programs write) is not part of the first field.
+        if let Some(f0) = first.get(0) {
+            if let Some(stripped) = f0.strip_prefix('\u{feff}') {
+                let mut fixed = csv::StringRecord::new();
+                fixed.push_field(stripped.trim());
+                for f in first.iter().skip(1) {
+                    fixed.push_field(f);
+                }
+                fixed.set_position(first.position().cloned());
+                first = fixed;
+            }
         }
-        Some(LabelColumn::Name(name)) => {
-            let header = names.as_deref().unwrap_or(&[]);
-            match header.iter().position(|h| h == name.trim()) {
-                Some(i) => Some(i),
-                None => {
-                    let listed: Vec<String> = header.iter().map(|h| format!("{h:?}")).collect();
-                    return Err(DatasetError::LabelColumnNotFound {
+        let columns = first.len();
+
+        let has_header = match (opts.has_header, &opts.label) {
+            (Some(false), Some(LabelColumn::Name(name))) => {
+                return Err(DatasetError::LabelNameWithoutHeader {
+                    path: path.to_path_buf(),
+                    name: name.clone(),
+                })
+            }
+            (Some(h), _) => h,
+            (None, Some(LabelColumn::Name(_))) => true,
+            (None, label) => {
+                let skip = match label {
+                    Some(LabelColumn::Index(i)) => Some(*i),
+                    _ => None,
+                };
+                first
+                    .iter()
+                    .enumerate()
+                    .any(|(j, f)| Some(j) != skip && !f.is_empty() && !is_number(f))
+            }
+        };
+        let names: Option<Vec<String>> =
+            has_header.then(|| first.iter().map(str::to_string).collect());
+
+        let label_index = match &opts.label {
+            None => None,
+            Some(LabelColumn::Index(i)) => {
+                if *i >= columns {
+                    return Err(DatasetError::LabelIndexOutOfRange {
                         path: path.to_path_buf(),
-                        name: name.clone(),
-                        available: listed.join(", "),
+                        index: *i,
+                        columns,
                     });
                 }
+                Some(*i)
             }
-        }
-    };
-    let width = columns - usize::from(label_index.is_some());
-    if width == 0 {
-        return Err(DatasetError::NoFeatureColumns {
-            path: path.to_path_buf(),
-        });
-    }
-
-    let mut values = Vec::new();
-    let mut labels = label_index.map(|_| Vec::new());
-    let mut rows = 0usize;
-    let mut lines = LineCounter::new(input);
-    let data_records = (!has_header)
-        .then_some(Ok(first))
-        .into_iter()
-        .chain(records);
-    for record in data_records {
-        let record = record.map_err(csv_err)?;
-        let line = record.position().map_or(0, |p| lines.line_at(p.byte()));
-        if record.len() != columns {
-            return Err(DatasetError::Ragged {
+            Some(LabelColumn::Name(name)) => {
+                let header = names.as_deref().unwrap_or(&[]);
+                match header.iter().position(|h| h == name.trim()) {
+                    Some(i) => Some(i),
+                    None => {
+                        let listed: Vec<String> = header.iter().map(|h| format!("{h:?}")).collect();
+                        return Err(DatasetError::LabelColumnNotFound {
+                            path: path.to_path_buf(),
+                            name: name.clone(),
+                            available: listed.join(", "),
+                        });
+                    }
+                }
+            }
+        };
+        let width = columns - usize::from(label_index.is_some());
+        if width == 0 {
+            return Err(DatasetError::NoFeatureColumns {
                 path: path.to_path_buf(),
-                line,
-                found: record.len(),
-                expected: columns,
             });
         }
-        for (j, text) in record.iter().enumerate() {
-            if Some(j) == label_index {
-                if let Some(l) = labels.as_mut() {
-                    l.push(text.to_string());
-                }
-                continue;
-            }
-            let at = FieldAt {
-                path,
-                line,
-                index: j,
-                names: names.as_deref(),
-            };
-            values.push(field(text, &at)?);
-        }
-        rows += 1;
-    }
-    if rows == 0 {
-        return Err(DatasetError::NoDataRows {
+        Ok(CsvReader {
             path: path.to_path_buf(),
-        });
+            records,
+            first: (!has_header).then_some(first),
+            columns,
+            label_index,
+            names,
+            lines: LineCounter::new(lines),
+            width,
+            rows: 0,
+        })
     }
-    Ok(CsvRows {
-        rows,
-        width,
-        values,
-        labels,
-    })
+
+    /// The next rows, at most `max_rows` (at least one), their features turned into `T` by
+    /// `field`; `None` after the last row.
+    pub(super) fn next_chunk<T>(
+        &mut self,
+        max_rows: usize,
+        field: &mut impl FnMut(&str, &FieldAt<'_>) -> Result<T, DatasetError>,
+    ) -> Result<Option<CsvRows<T>>, DatasetError> {
+        let path = self.path.as_path();
+        let mut values = Vec::new();
+        let mut labels = self.label_index.map(|_| Vec::new());
+        let mut rows = 0usize;
+        while rows < max_rows.max(1) {
+            let record = match self.first.take() {
+                Some(r) => r,
+                None => match self.records.next() {
+                    None => break,
+                    Some(r) => r.map_err(|source| DatasetError::Csv {
+                        path: path.to_path_buf(),
+                        source,
+                    })?,
+                },
+            };
+            let line = record
+                .position()
+                .map_or(0, |p| self.lines.line_at(p.byte()));
+            if record.len() != self.columns {
+                return Err(DatasetError::Ragged {
+                    path: path.to_path_buf(),
+                    line,
+                    found: record.len(),
+                    expected: self.columns,
+                });
+            }
+            for (j, text) in record.iter().enumerate() {
+                if Some(j) == self.label_index {
+                    if let Some(l) = labels.as_mut() {
+                        l.push(text.to_string());
+                    }
+                    continue;
+                }
+                let at = FieldAt {
+                    path,
+                    line,
+                    index: j,
+                    names: self.names.as_deref(),
+                };
+                values.push(field(text, &at)?);
+            }
+            rows += 1;
+        }
+        self.rows += rows;
+        if rows == 0 {
+            return Ok(None);
+        }
+        Ok(Some(CsvRows {
+            rows,
+            width: self.width,
+            values,
+            labels,
+        }))
+    }
 }
 
 #[cfg(test)]

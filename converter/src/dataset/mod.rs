@@ -20,6 +20,9 @@ mod labels;
 mod load_file;
 pub(crate) mod npy_array;
 mod npy_load;
+mod npy_stream;
+mod row_labels;
+mod stream;
 
 pub use csv_load::load_csv;
 pub use error::DatasetError;
@@ -31,6 +34,9 @@ pub use labels::resolve_labels;
 pub use load_file::{is_npy, load_file, LoadOptions};
 pub use npy_array::NpyArrayError;
 pub use npy_load::load_npy;
+pub use npy_stream::NpyRows;
+pub use row_labels::RowLabels;
+pub use stream::RowStream;
 
 /// Feature rows, row-major, with optional labels.
 #[derive(Debug, Clone, PartialEq)]

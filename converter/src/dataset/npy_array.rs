@@ -82,7 +82,7 @@ impl NpyValues {
 }
 
 /// Numpy's name for a dtype, for messages (`float32`, `int64`, `<U7`, ...).
-fn dtype_name(dtype: &DType) -> String {
+pub(crate) fn dtype_name(dtype: &DType) -> String {
     match dtype {
         DType::Plain(ts) => {
             let bits = ts.size_field().saturating_mul(8);
@@ -107,7 +107,7 @@ pub(crate) fn read_npy(path: &Path) -> Result<NpyArray, NpyArrayError> {
 
 /// Longest header accepted: numpy's own reader refuses headers over 10,000 bytes by default
 /// (`numpy.lib.format`, `max_header_size`, recalled from memory) for the same reason as here.
-const MAX_HEADER_LEN: u64 = 10_000;
+pub(crate) const MAX_HEADER_LEN: u64 = 10_000;
 
 /// Deepest bracket nesting accepted in the header text. A plain array's header nests 2 deep
 /// (`{... 'shape': (3, 4), }`); a structured dtype a few more.
@@ -120,10 +120,16 @@ const MAX_HEADER_NESTING: usize = 8;
 /// - brackets may nest at most [`MAX_HEADER_NESTING`] deep: the reader's header parser slows
 ///   down steeply with nesting (a 118-byte header nesting 37 deep took 14 s under the fuzzer).
 fn check_header(bytes: &[u8]) -> Result<(), NpyArrayError> {
+    check_header_in(bytes, bytes.len() as u64)
+}
+
+/// [`check_header`] on the first bytes of a file of `file_len` bytes (`bytes` holds at least the
+/// preamble and, when the file has them, [`MAX_HEADER_LEN`] bytes after it).
+pub(crate) fn check_header_in(bytes: &[u8], file_len: u64) -> Result<(), NpyArrayError> {
     if !bytes.starts_with(b"\x93NUMPY") {
         return Ok(()); // the reader reports the bad magic
     }
-    let (declared, start) = match bytes.get(6) {
+    let (declared, start): (Option<u64>, usize) = match bytes.get(6) {
         Some(1) => (
             bytes
                 .get(8..10)
@@ -141,7 +147,7 @@ fn check_header(bytes: &[u8]) -> Result<(), NpyArrayError> {
     let Some(n) = declared else {
         return Ok(()); // too short for a length: the reader reports it
     };
-    let follows = bytes.len().saturating_sub(start) as u64;
+    let follows = file_len.saturating_sub(start as u64);
     if n > follows {
         return Err(NpyArrayError::Header(format!(
             "the header is declared as {n} bytes but only {follows} follow"
@@ -152,7 +158,9 @@ fn check_header(bytes: &[u8]) -> Result<(), NpyArrayError> {
             "the header is {n} bytes; at most {MAX_HEADER_LEN} are accepted"
         )));
     }
-    let text = bytes.get(start..start + n as usize).unwrap_or(&[]);
+    let text = bytes
+        .get(start..start.saturating_add(n as usize).min(bytes.len()))
+        .unwrap_or(&[]);
     let (mut depth, mut deepest) = (0usize, 0usize);
     for &c in text {
         match c {

@@ -87,6 +87,15 @@ pub(super) fn read_features(path: &Path) -> Result<(usize, usize, NpyArray), Dat
 
 /// Reads a 1-D label array of integers or strings, `rows` long.
 pub(super) fn load_labels(path: &Path, rows: usize) -> Result<Vec<String>, DatasetError> {
+    load_labels_as(path, rows)
+}
+
+/// [`load_labels`] into any collection of labels (a [`super::RowLabels`] keeps each distinct
+/// label once).
+pub(super) fn load_labels_as<C: FromIterator<String>>(
+    path: &Path,
+    rows: usize,
+) -> Result<C, DatasetError> {
     let arr = read_npy(path).map_err(|source| DatasetError::Npy {
         path: path.to_path_buf(),
         source,
@@ -100,10 +109,10 @@ pub(super) fn load_labels(path: &Path, rows: usize) -> Result<Vec<String>, Datas
             })
         }
     };
-    let labels: Vec<String> = match arr.values {
+    let labels: C = match arr.values {
         NpyValues::Int(v) => v.iter().map(i64::to_string).collect(),
         NpyValues::UInt(v) => v.iter().map(u64::to_string).collect(),
-        NpyValues::Str(v) => v,
+        NpyValues::Str(v) => v.into_iter().collect(),
         NpyValues::F32(_) | NpyValues::F64(_) => {
             return Err(DatasetError::NpyContent {
                 path: path.to_path_buf(),

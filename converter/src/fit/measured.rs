@@ -19,20 +19,20 @@ use super::{Code, Measured};
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
     default_build: Code {
-        text: 20452,
-        rodata: 1495,
+        text: 17600,
+        rodata: 1375,
     },
     int8_only: Code {
-        text: 13536,
-        rodata: 1372,
+        text: 11200,
+        rodata: 1316,
     },
     classify_only: Code {
-        text: 10544,
-        rodata: 1364,
+        text: 8200,
+        rodata: 1308,
     },
-    stack_parse: 3288,
-    stack_infer: 640,
-    stack_classify: 640,
+    stack_parse: 1012,
+    stack_infer: 592,
+    stack_classify: 592,
     model_struct: 628,
 };
 
@@ -40,19 +40,19 @@ pub const CORTEX_M0: Measured = Measured {
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
     default_build: Code {
-        text: 16428,
-        rodata: 1495,
+        text: 13740,
+        rodata: 1375,
     },
     int8_only: Code {
-        text: 10636,
-        rodata: 1372,
+        text: 8348,
+        rodata: 1316,
     },
     classify_only: Code {
-        text: 9724,
-        rodata: 1364,
+        text: 7532,
+        rodata: 1308,
     },
-    stack_parse: 3212,
-    stack_infer: 676,
-    stack_classify: 644,
+    stack_parse: 952,
+    stack_infer: 636,
+    stack_classify: 604,
     model_struct: 628,
 };

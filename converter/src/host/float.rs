@@ -1,5 +1,5 @@
-//! An f32 blob over many rows at once, each layer one matrix product (`matrixmultiply`, through
-//! `ndarray`).
+//! An f32 blob over many rows at once, each layer one matrix product (`faer`, through
+//! `host::product`).
 //!
 //! The input scaler, bias, ReLU, softmax, sigmoid and argmax are the runtime's steps in the
 //! runtime's order. The dot products are not: the runtime's kernels add each row's products in
@@ -15,8 +15,8 @@ use kinglet_runtime::unstable::output::{argmax, sigmoid, softmax};
 use kinglet_runtime::OutputKind;
 use kinglet_runtime::{Model, Precision, RunError};
 
-use super::int8::product;
 use super::layers::FloatLayer;
+use super::product::product;
 
 /// One f32 tensor of a batch: `rows × width` values.
 #[derive(Debug, Clone, PartialEq)]
@@ -59,6 +59,21 @@ pub struct FloatHost {
     output: OutputKind,
 }
 
+/// [`FloatHost::run`] as a [`pulp::WithSimd`] operation.
+struct Run<'h> {
+    host: &'h FloatHost,
+    x: &'h [f32],
+    rows: usize,
+}
+
+impl pulp::WithSimd for Run<'_> {
+    type Output = Result<FloatBatch, (usize, RunError)>;
+    #[inline(always)]
+    fn with_simd<S: pulp::Simd>(self, _: S) -> Self::Output {
+        self.host.run_vectorised(self.x, self.rows)
+    }
+}
+
 impl FloatHost {
     /// Reads `model`; `None` unless it is an f32 blob.
     pub fn new(model: &Model<'_>) -> Option<Self> {
@@ -84,6 +99,15 @@ impl FloatHost {
     /// Runs the `rows` rows of row-major `x` (`rows × input_len`). On error, the first failing
     /// row (0-based, within the batch) and the runtime's error for it.
     pub fn run(&self, x: &[f32], rows: usize) -> Result<FloatBatch, (usize, RunError)> {
+        super::vectorised(Run {
+            host: self,
+            x,
+            rows,
+        })
+    }
+
+    #[inline(always)]
+    fn run_vectorised(&self, x: &[f32], rows: usize) -> Result<FloatBatch, (usize, RunError)> {
         let w = self.width;
         if x.len() != rows * w {
             let got = x.len().checked_div(rows).unwrap_or(0);
@@ -96,21 +120,37 @@ impl FloatHost {
             ));
         }
         let mut first_error: Option<(usize, RunError)> = None;
-        let mut input = x.to_vec();
-        for (r, row) in input.chunks_exact_mut(w.max(1)).enumerate() {
-            if let Some(i) = row.iter().position(|v| !v.is_finite()) {
-                first_error.get_or_insert((r, RunError::NonFiniteInput { index: i as u32 }));
-            }
-            if let Some((off, sc)) = &self.scaler {
-                for ((v, o), s) in row.iter_mut().zip(off).zip(sc) {
-                    *v = (*v - o) * s;
+        // One pass over the rows scales them and notes whether any value is not finite (its
+        // exponent bits all ones); only then are the refused rows searched for.
+        let mut bad = 0u32;
+        let mut note = |v: f32| bad |= u32::from(v.to_bits() & 0x7f80_0000 == 0x7f80_0000);
+        let input = match &self.scaler {
+            Some((off, sc)) => {
+                let mut input = Vec::with_capacity(x.len());
+                for row in x.chunks_exact(w.max(1)) {
+                    input.extend(row.iter().zip(off).zip(sc).map(|((&v, o), s)| {
+                        note(v);
+                        (v - o) * s
+                    }));
                 }
+                input
             }
+            None => {
+                x.iter().for_each(|&v| note(v));
+                x.to_vec()
+            }
+        };
+        if bad != 0 {
+            first_error = x.chunks_exact(w.max(1)).enumerate().find_map(|(r, row)| {
+                let i = row.iter().position(|v| !v.is_finite())?;
+                Some((r, RunError::NonFiniteInput { index: i as u32 }))
+            });
         }
-        let mut stages = vec![FloatTensor {
+        let mut stages = Vec::with_capacity(self.layers.len() + 1);
+        stages.push(FloatTensor {
             width: w,
             values: input,
-        }];
+        });
         for layer in &self.layers {
             let Some(prev) = stages.last() else { break };
             let mut values = product(
@@ -119,15 +159,20 @@ impl FloatHost {
                 rows,
                 layer.inputs,
                 layer.outputs,
-                0.0f32,
             );
             for row in values.chunks_exact_mut(layer.outputs.max(1)) {
                 for (v, b) in row.iter_mut().zip(&layer.bias) {
                     *v += b;
-                    if layer.relu && *v < 0.0 {
-                        *v = 0.0;
+                }
+                if layer.relu {
+                    for v in row.iter_mut() {
+                        if *v < 0.0 {
+                            *v = 0.0;
+                        }
                     }
-                    if let Some(p) = &layer.pointwise {
+                }
+                if let Some(p) = &layer.pointwise {
+                    for v in row.iter_mut() {
                         *v = p.eval(*v);
                     }
                 }

@@ -11,19 +11,20 @@
 //! below 2^53. The exact integer is then added to the bias and requantised by the runtime's own
 //! [`requantise_validated`], so every output byte is the runtime's.
 //!
-//! We use a matrix-multiplication crate (`matrixmultiply`, through `ndarray`) rather than a
-//! hand-written i8 × i8 → i32 loop: it is cache-blocked and vectorised for the host at run time
-//! (AVX2 and FMA where present), which plain safe Rust compiled for the baseline x86-64 target
+//! We use a matrix-multiplication crate (`faer`, `host::product`) rather than a hand-written
+//! i8 × i8 → i32 loop: it is cache-blocked and vectorised for the host at run time (AVX-512,
+//! AVX2 and FMA where present), which plain safe Rust compiled for the baseline x86-64 target
 //! is not.
+use std::cell::RefCell;
+
 use kinglet_runtime::unstable::output::{argmax, argmax_i8, sigmoid, softmax};
 use kinglet_runtime::unstable::requant::requantise_validated;
-use kinglet_runtime::unstable::scale::{quantise_integer, quantize_linear};
 use kinglet_runtime::OutputKind;
 use kinglet_runtime::{Input, Model, Precision, RunError};
-use ndarray::linalg::general_mat_mul;
-use ndarray::{Array2, ArrayView2};
 
+use super::input::InputQuant;
 use super::layers::{words, Int8Layer};
+use super::product::Scalar;
 
 /// Largest dot-product bound an f32 product keeps exact: 2^24.
 const F32_EXACT: u64 = 1 << 24;
@@ -72,16 +73,11 @@ pub struct Int8Batch {
     pub classify_class: Vec<usize>,
 }
 
-/// The per-feature input quantisation of an int8 blob.
+/// A layer's weights in the number type its product runs in (see the module docs).
 #[derive(Debug, Clone)]
-struct InputQuant {
-    /// Scaler offset and scale per feature (`0` and `1` without a scaler).
-    offset: Vec<f32>,
-    scale: Vec<f32>,
-    quant_scale: f32,
-    zero_point: i8,
-    /// Integer paths: multiplier, addend, shift per feature.
-    integer: Vec<(i32, i64, u8)>,
+enum Wide {
+    F32(Vec<f32>),
+    F64(Vec<f64>),
 }
 
 /// An int8 blob read for batched evaluation.
@@ -90,6 +86,8 @@ pub struct Int8Host {
     width: usize,
     input: InputQuant,
     layers: Vec<Int8Layer>,
+    /// One per layer.
+    wide: Vec<Wide>,
     output: OutputKind,
 }
 
@@ -101,6 +99,44 @@ fn per_feature(bytes: Option<&[u8]>, width: usize, default: f32) -> Vec<f32> {
     (0..width)
         .map(|i| v.get(i).or(v.first()).copied().unwrap_or(default))
         .collect()
+}
+
+/// Buffers a thread reuses from batch to batch: the input as f32, a product's output.
+#[derive(Default)]
+struct Scratch {
+    wide_input: Vec<f32>,
+    acc32: Vec<f32>,
+    acc64: Vec<f64>,
+    in32: Vec<f32>,
+    in64: Vec<f64>,
+}
+
+thread_local! {
+    static SCRATCH: RefCell<Scratch> = RefCell::new(Scratch::default());
+}
+
+/// `v` resized to `len` (its old contents kept or zeros: every caller overwrites it).
+fn sized<T: Copy + Default>(v: &mut Vec<T>, len: usize) -> &mut [T] {
+    if v.len() < len {
+        v.resize(len, T::default());
+    }
+    v.get_mut(..len).unwrap_or_default()
+}
+
+/// [`Int8Host::run`] as a [`pulp::WithSimd`] operation.
+struct Run<'h, F> {
+    host: &'h Int8Host,
+    rows: usize,
+    input: F,
+    scratch: &'h mut Scratch,
+}
+
+impl<'a, F: Fn(usize) -> Input<'a>> pulp::WithSimd for Run<'_, F> {
+    type Output = Result<Int8Batch, (usize, RunError)>;
+    #[inline(always)]
+    fn with_simd<S: pulp::Simd>(self, _: S) -> Self::Output {
+        self.host.run_with(self.rows, self.input, self.scratch)
+    }
 }
 
 impl Int8Host {
@@ -137,6 +173,16 @@ impl Int8Host {
             .iter()
             .map(Int8Layer::new)
             .collect::<Option<Vec<_>>>()?;
+        let wide = layers
+            .iter()
+            .map(|l| {
+                if l.dot_bound() <= F32_EXACT {
+                    Wide::F32(l.weights.iter().map(|&v| f32::from(v)).collect())
+                } else {
+                    Wide::F64(l.weights.iter().map(|&v| f64::from(v)).collect())
+                }
+            })
+            .collect();
         Some(Int8Host {
             width,
             input: InputQuant {
@@ -147,40 +193,19 @@ impl Int8Host {
                 integer,
             },
             layers,
+            wide,
             output: d.output,
         })
     }
 
-    /// Quantises one row into `dst`, as the runtime's input stage.
-    fn load_row(&self, input: Input<'_>, dst: &mut [i8]) -> Result<(), RunError> {
-        let q = &self.input;
+    /// Quantises one row into `dst` (and as f32 into `wide`), as the runtime's input stage.
+    #[inline(always)]
+    fn load_row(&self, input: Input<'_>, dst: &mut [i8], wide: &mut [f32]) -> Result<(), RunError> {
         match input {
-            Input::F32(v) => {
-                // Refused rows first, so that the loop below has no early exit and vectorises.
-                if let Some(i) = v.iter().position(|x| !x.is_finite()) {
-                    return Err(RunError::NonFiniteInput { index: i as u32 });
-                }
-                let params = q.offset.iter().zip(&q.scale);
-                for ((d, &x), (off, sc)) in dst.iter_mut().zip(v).zip(params) {
-                    *d = quantize_linear((x - off) * sc, q.quant_scale, q.zero_point);
-                }
-            }
-            // A blob without the integer input path (version 5, `FORMAT.md` §3.4), as the runtime.
-            Input::I16(_) | Input::U8(_) if q.integer.is_empty() => {
-                return Err(RunError::NoIntegerInput)
-            }
-            Input::I16(v) => {
-                for ((d, &x), &(m, a, s)) in dst.iter_mut().zip(v).zip(&q.integer) {
-                    *d = quantise_integer(i32::from(x), m, a, s);
-                }
-            }
-            Input::U8(v) => {
-                for ((d, &x), &(m, a, s)) in dst.iter_mut().zip(v).zip(&q.integer) {
-                    *d = quantise_integer(i32::from(x), m, a, s);
-                }
-            }
+            Input::F32(v) => self.input.floats(v, dst, wide),
+            Input::I16(v) => self.input.integers(v, dst, wide),
+            Input::U8(v) => self.input.integers(v, dst, wide),
         }
-        Ok(())
     }
 
     /// Runs `rows` rows, row `r` given by `input(r)`. On error, the first failing row (0-based,
@@ -190,53 +215,116 @@ impl Int8Host {
         rows: usize,
         input: impl Fn(usize) -> Input<'a>,
     ) -> Result<Int8Batch, (usize, RunError)> {
-        let mut x = Int8Tensor {
-            width: self.width,
-            values: vec![0; rows * self.width],
-            scale: self.input.quant_scale,
-            zero_point: self.input.zero_point,
+        let go = |scratch: &mut Scratch| {
+            super::vectorised(Run {
+                host: self,
+                rows,
+                input,
+                scratch,
+            })
         };
-        for (r, dst) in x.values.chunks_exact_mut(self.width.max(1)).enumerate() {
+        // A call from inside `input` on the same thread finds the buffers taken: it gets its own.
+        SCRATCH.with(|cell| match cell.try_borrow_mut() {
+            Ok(mut scratch) => go(&mut scratch),
+            Err(_) => go(&mut Scratch::default()),
+        })
+    }
+
+    #[inline(always)]
+    fn run_with<'a>(
+        &self,
+        rows: usize,
+        input: impl Fn(usize) -> Input<'a>,
+        scratch: &mut Scratch,
+    ) -> Result<Int8Batch, (usize, RunError)> {
+        let w = self.width;
+        let mut values = vec![0i8; rows * w];
+        let wide = sized(&mut scratch.wide_input, rows * w);
+        for (r, (dst, wd)) in values
+            .chunks_exact_mut(w.max(1))
+            .zip(wide.chunks_exact_mut(w.max(1)))
+            .enumerate()
+        {
             let row = input(r);
             let got = match row {
                 Input::F32(v) => v.len(),
                 Input::I16(v) => v.len(),
                 Input::U8(v) => v.len(),
             };
-            if got != self.width {
+            if got != w {
                 return Err((
                     r,
                     RunError::InputLength {
-                        expected: self.width as u32,
+                        expected: w as u32,
                         got: got as u32,
                     },
                 ));
             }
-            self.load_row(row, dst).map_err(|e| (r, e))?;
+            self.load_row(row, dst, wd).map_err(|e| (r, e))?;
         }
-        let mut stages = vec![x];
-        for layer in &self.layers {
-            let next = match stages.last() {
-                Some(prev) => dense(layer, prev, rows),
-                None => break,
-            };
-            stages.push(next);
-        }
-        let out_len = self.layers.last().map_or(0, |l| l.outputs);
-        let last = stages.last().cloned().unwrap_or(Int8Tensor {
-            width: 0,
-            values: Vec::new(),
-            scale: 1.0,
-            zero_point: 0,
+        let mut stages = Vec::with_capacity(self.layers.len() + 1);
+        stages.push(Int8Tensor {
+            width: w,
+            values,
+            scale: self.input.quant_scale,
+            zero_point: self.input.zero_point,
         });
+        for (k, (layer, weights)) in self.layers.iter().zip(&self.wide).enumerate() {
+            let Some(prev) = stages.last() else { break };
+            let n = rows * layer.inputs;
+            let values = match weights {
+                Wide::F32(wt) => {
+                    let a: &[f32] = if k == 0 {
+                        scratch.wide_input.get(..n).unwrap_or(&[])
+                    } else {
+                        let a = sized(&mut scratch.in32, n);
+                        for (d, &v) in a.iter_mut().zip(&prev.values) {
+                            *d = f32::from(v);
+                        }
+                        a
+                    };
+                    let acc = sized(&mut scratch.acc32, rows * layer.outputs);
+                    dense(layer, a, wt, rows, acc, |v| v as i32)
+                }
+                Wide::F64(wt) => {
+                    let a = sized(&mut scratch.in64, n);
+                    for (d, &v) in a.iter_mut().zip(&prev.values) {
+                        *d = f64::from(v);
+                    }
+                    let acc = sized(&mut scratch.acc64, rows * layer.outputs);
+                    // `Model::parse` proved `bias + dot` fits in i32; the kernels add in
+                    // wrapping i32.
+                    dense(layer, a, wt, rows, acc, |v| v as i64 as i32)
+                }
+            };
+            stages.push(Int8Tensor {
+                width: layer.outputs,
+                values,
+                scale: layer.output_scale,
+                zero_point: layer.zero_point,
+            });
+        }
+        Ok(self.finish(rows, stages))
+    }
+
+    /// Scores and classes from the last tensor.
+    fn finish(&self, rows: usize, stages: Vec<Int8Tensor>) -> Int8Batch {
+        let out_len = self.layers.last().map_or(0, |l| l.outputs);
+        let (last, scale, zp) = match stages.last() {
+            Some(t) => (t.values.as_slice(), t.scale, t.zero_point),
+            None => (&[][..], 1.0, 0),
+        };
         let mut scores = vec![0f32; rows * out_len];
         let mut infer_class = Vec::with_capacity(rows);
         let mut classify_class = Vec::with_capacity(rows);
-        for (r, s) in scores.chunks_exact_mut(out_len.max(1)).enumerate() {
-            for (i, v) in s.iter_mut().enumerate() {
-                *v = last.real(r, i);
+        let mut bytes = Vec::with_capacity(out_len);
+        for (s, q) in scores
+            .chunks_exact_mut(out_len.max(1))
+            .zip(last.chunks_exact(out_len.max(1)))
+        {
+            for (v, &q) in s.iter_mut().zip(q) {
+                *v = (f32::from(q) - f32::from(zp)) * scale;
             }
-            let q = last.row(r);
             let (infer, classify) = match self.output {
                 OutputKind::Sigmoid => {
                     for v in s.iter_mut() {
@@ -245,75 +333,52 @@ impl Int8Host {
                     let p = s.first().copied().unwrap_or(0.0);
                     (
                         usize::from(p > 0.5),
-                        usize::from(q.first().is_some_and(|&v| v > last.zero_point)),
+                        usize::from(q.first().is_some_and(|&v| v > zp)),
                     )
                 }
                 kind => {
                     if kind == OutputKind::Softmax {
                         softmax(s);
                     }
-                    let bytes: Vec<u8> = q.iter().map(|&v| v as u8).collect();
+                    bytes.clear();
+                    bytes.extend(q.iter().map(|&v| v as u8));
                     (argmax(s).map_or(0, |(c, _)| c), argmax_i8(&bytes))
                 }
             };
             infer_class.push(infer);
             classify_class.push(classify);
         }
-        Ok(Int8Batch {
+        Int8Batch {
             rows,
             stages,
             scores,
             infer_class,
             classify_class,
-        })
+        }
     }
 }
 
-/// The exact dot products `x · wᵀ` of `rows` rows (see the module docs), in i64.
-fn dots(layer: &Int8Layer, x: &Int8Tensor, rows: usize) -> Vec<i64> {
-    dots_in(layer, x, rows, layer.dot_bound() <= F32_EXACT)
+/// The exact dot products `x · wᵀ` of `rows` rows (see the module docs) into `acc`, as `T`.
+fn dots<T: Scalar>(layer: &Int8Layer, x: &[T], w: &[T], rows: usize, acc: &mut [T]) {
+    T::product_into(x, w, rows, layer.inputs, layer.outputs, acc);
 }
 
-/// [`dots`] in f32 (`single`) or f64.
-fn dots_in(layer: &Int8Layer, x: &Int8Tensor, rows: usize, single: bool) -> Vec<i64> {
-    let (n, m) = (layer.inputs, layer.outputs);
-    if single {
-        let a: Vec<f32> = x.values.iter().map(|&v| f32::from(v)).collect();
-        let w: Vec<f32> = layer.weights.iter().map(|&v| f32::from(v)).collect();
-        product(&a, &w, rows, n, m, 0.0f32)
-            .into_iter()
-            .map(|v| v as i64)
-            .collect()
-    } else {
-        let a: Vec<f64> = x.values.iter().map(|&v| f64::from(v)).collect();
-        let w: Vec<f64> = layer.weights.iter().map(|&v| f64::from(v)).collect();
-        product(&a, &w, rows, n, m, 0.0f64)
-            .into_iter()
-            .map(|v| v as i64)
-            .collect()
-    }
-}
-
-/// `a · wᵀ` for row-major `a` (`rows × n`) and `w` (`m × n`), row-major `rows × m`.
-pub(crate) fn product<T>(a: &[T], w: &[T], rows: usize, n: usize, m: usize, zero: T) -> Vec<T>
-where
-    T: ndarray::LinalgScalar,
-{
-    let mut c = Array2::from_elem((rows, m), zero);
-    if let (Ok(a), Ok(w)) = (
-        ArrayView2::from_shape((rows, n), a),
-        ArrayView2::from_shape((m, n), w),
-    ) {
-        general_mat_mul(T::one(), &a, &w.t(), zero, &mut c);
-    }
-    c.into_raw_vec_and_offset().0
-}
-
-/// One int8 layer over the batch: exact dot products, bias, the runtime's requantisation.
-fn dense(layer: &Int8Layer, x: &Int8Tensor, rows: usize) -> Int8Tensor {
+/// One int8 layer over the batch: exact dot products (`a`, the input as `T`; `w`, the weights
+/// as `T`; `acc`, room for the products), bias, the runtime's requantisation. `exact` turns an
+/// exact product into its integer.
+#[inline(always)]
+fn dense<T: Scalar>(
+    layer: &Int8Layer,
+    a: &[T],
+    w: &[T],
+    rows: usize,
+    acc: &mut [T],
+    exact: impl Fn(T) -> i32,
+) -> Vec<i8> {
     let m = layer.outputs;
-    let acc = dots(layer, x, rows);
+    dots(layer, a, w, rows, acc);
     let mut values = vec![0i8; rows * m];
+    let (zp, lo, hi) = (layer.requant_zero_point, layer.act_min, layer.act_max);
     for (out, acc) in values
         .chunks_exact_mut(m.max(1))
         .zip(acc.chunks_exact(m.max(1)))
@@ -321,27 +386,16 @@ fn dense(layer: &Int8Layer, x: &Int8Tensor, rows: usize) -> Int8Tensor {
         let params = layer.bias.iter().zip(&layer.multiplier).zip(&layer.shift);
         for ((o, &a), ((&b, &mult), &shift)) in out.iter_mut().zip(acc).zip(params) {
             // `Model::parse` proved `bias + dot` fits in i32; the kernels add in wrapping i32.
-            let sum = (a as i32).wrapping_add(b);
-            let q = requantise_validated(
-                sum,
-                mult,
-                shift,
-                layer.requant_zero_point,
-                layer.act_min,
-                layer.act_max,
-            );
-            *o = match &layer.table {
-                Some(t) => t.get(usize::from(q as u8 ^ 0x80)).map_or(q, |&b| b as i8),
-                None => q,
-            };
+            let sum = exact(a).wrapping_add(b);
+            *o = requantise_validated(sum, mult, shift, zp, lo, hi);
         }
     }
-    Int8Tensor {
-        width: m,
-        values,
-        scale: layer.output_scale,
-        zero_point: layer.zero_point,
+    if let Some(t) = &layer.table {
+        for o in values.iter_mut() {
+            *o = t.get(usize::from(*o as u8 ^ 0x80)).map_or(*o, |&b| b as i8);
+        }
     }
+    values
 }
 
 #[cfg(test)]
@@ -397,7 +451,51 @@ mod tests {
             })
             .collect();
         assert_eq!(want[0], -(n as i64) * 127 * 128);
-        assert_eq!(dots_in(&layer, &x, rows, true), want);
-        assert_eq!(dots_in(&layer, &x, rows, false), want);
+        let got32 = {
+            let a: Vec<f32> = x.values.iter().map(|&v| f32::from(v)).collect();
+            let w: Vec<f32> = layer.weights.iter().map(|&v| f32::from(v)).collect();
+            let mut acc = vec![0f32; rows * m];
+            dots(&layer, &a, &w, rows, &mut acc);
+            acc.into_iter().map(|v| v as i64).collect::<Vec<_>>()
+        };
+        let got64 = {
+            let a: Vec<f64> = x.values.iter().map(|&v| f64::from(v)).collect();
+            let w: Vec<f64> = layer.weights.iter().map(|&v| f64::from(v)).collect();
+            let mut acc = vec![0f64; rows * m];
+            dots(&layer, &a, &w, rows, &mut acc);
+            acc.into_iter().map(|v| v as i64).collect::<Vec<_>>()
+        };
+        assert_eq!(got32, want);
+        assert_eq!(got64, want);
+    }
+
+    /// A pass started from inside another's input callback, on the same thread, gets its own
+    /// buffers and the same results as a pass alone.
+    #[test]
+    fn nested_passes_give_the_same_results() {
+        let blob = kinglet_builder::sample::tiny_int8()
+            .encode_to_vec()
+            .unwrap();
+        let model = Model::parse(&blob).unwrap();
+        let host = Int8Host::new(&model).unwrap();
+        let rows: Vec<Vec<f32>> = (0..5)
+            .map(|r| {
+                (0..model.input_len())
+                    .map(|i| (r * 7 + i * 3) as f32 * 0.1 - 1.0)
+                    .collect()
+            })
+            .collect();
+        let alone = host.run(rows.len(), |r| Input::F32(&rows[r])).unwrap();
+        let inner = std::cell::RefCell::new(Vec::new());
+        let outer = host
+            .run(rows.len(), |r| {
+                inner
+                    .borrow_mut()
+                    .push(host.run(rows.len(), |r| Input::F32(&rows[r])).unwrap());
+                Input::F32(&rows[r])
+            })
+            .unwrap();
+        assert_eq!(outer, alone);
+        assert!(inner.borrow().iter().all(|b| *b == alone));
     }
 }

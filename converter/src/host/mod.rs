@@ -7,13 +7,32 @@
 //!   score and class), because the integer dot products are computed exactly (see there);
 //! - [`float`] runs an f32 blob through a matrix-multiplication crate: it sums each dot
 //!   product in another order than the runtime's kernels, so its values may differ from the
-//!   runtime's in the last bits (see there for the bound).
+//!   runtime's in the last bits (see there for the bound);
+//! - `product` is the one matrix product both use (`faer`), `input` the int8 input stage in
+//!   loops that vectorise.
+//!
+//! Speed (`converter/benches/vet.rs`, `BENCHMARKS.md`): each pass runs inside `vectorised`,
+//! so that its per-element loops are compiled for AVX-512 or AVX2 where the host has them; the
+//! int8 pass multiplies the f32 copy of its input it wrote while quantising (no second
+//! conversion), keeps each layer's weights in the product's number type from [`Int8Host::new`]
+//! on, and reuses one thread's buffers from batch to batch.
 //!
 //! `kinglet vet` uses these by default; its `--per-row` flag runs every row through
 //! [`kinglet_runtime::Model::infer_traced`] instead.
 pub mod float;
+mod input;
 pub mod int8;
 pub mod layers;
+mod product;
 
 pub use float::{FloatBatch, FloatHost};
 pub use int8::{Int8Batch, Int8Host};
+
+/// Runs `op` compiled for the best vector instruction set the host has (AVX-512, AVX2 or the
+/// baseline), chosen at run time by `pulp`, so that the per-element loops of the passes
+/// vectorise as wide as the machine allows (the crate is built for the baseline x86-64 target,
+/// SSE2). `op`'s `with_simd` and what it calls must be `#[inline(always)]` for that.
+#[inline(always)]
+fn vectorised<Op: pulp::WithSimd>(op: Op) -> Op::Output {
+    pulp::Arch::new().dispatch(op)
+}

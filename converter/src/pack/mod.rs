@@ -180,12 +180,77 @@ pub fn pack_int8_options(
     opts: Int8Options,
     progress: &dyn Fn(u64),
 ) -> Result<Int8Pack> {
-    let method = opts.method;
     let float_blob = pack_f32(model)?;
     let float_model = Model::parse(&float_blob)
         .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
-    let cal = crate::quantise::calibrate::calibrate_observed(&float_model, data, method, progress)?;
+    let cal =
+        crate::quantise::calibrate::calibrate_observed(&float_model, data, opts.method, progress)?;
     check_plausible(model, &cal, &data.source)?;
+    finish_int8(
+        model,
+        &float_model,
+        cal,
+        Some(data),
+        (&data.source, data.rows),
+        opts,
+    )
+}
+
+/// Whether [`pack_int8_streamed`] can pack with `opts`: a min/max or percentile range, and no
+/// raw-input trial (the least-error search and the trial need every calibration row).
+pub fn streams(opts: &Int8Options) -> bool {
+    opts.method != RangeMethod::LeastError && opts.fold_scaler == FoldScaler::No
+}
+
+/// [`pack_int8_options`] on rows read again for each of the streamed calibration's passes
+/// ([`crate::quantise::calibrate_stream`]): the same blob and statistics, without holding the
+/// rows or their traced values. `Ok(None)` when the whole rows are needed: options that do not
+/// [`streams`], or rows that drown the first layer's biases (whose error message the
+/// whole-file pack gives, with the percentile that would clip them).
+pub fn pack_int8_streamed(
+    model: &FloatModel,
+    passes: &dyn crate::quantise::calibrate_stream::Passes,
+    opts: Int8Options,
+    progress: &dyn Fn(u64),
+) -> Result<Option<Int8Pack>> {
+    if !streams(&opts) {
+        return Ok(None);
+    }
+    let float_blob = pack_f32(model)?;
+    let float_model = Model::parse(&float_blob)
+        .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
+    let streamed = crate::quantise::calibrate_stream::calibrate_streamed(
+        &float_model,
+        passes,
+        opts.method,
+        model.layers.first(),
+        progress,
+    )?;
+    if streamed.biases_lost.is_some() {
+        return Ok(None);
+    }
+    finish_int8(
+        model,
+        &float_model,
+        streamed.calibration,
+        None,
+        (passes.source(), passes.rows()),
+        opts,
+    )
+    .map(Some)
+}
+
+/// The int8 blob from a calibration on `rows` rows of `source`; `data` (the calibration rows)
+/// for the raw-input trial.
+fn finish_int8(
+    model: &FloatModel,
+    float_model: &Model<'_>,
+    cal: Calibration,
+    data: Option<&Dataset>,
+    (source, rows): (&str, usize),
+    opts: Int8Options,
+) -> Result<Int8Pack> {
+    let method = opts.method;
     let build = |m: &FloatModel, ranges: &[TensorRange], means: &[Vec<f64>]| -> Result<Vec<u8>> {
         let mut owned = if opts.bias_correction {
             let corrected = bias_corrected_bits(m, means, opts.weights)?;
@@ -202,11 +267,12 @@ pub fn pack_int8_options(
         size::encode_within_limit(&owned)
     };
     let mut blob = build(model, &cal.ranges, &cal.means)?;
-    let raw_input = match opts.fold_scaler {
-        FoldScaler::No => None,
-        how => {
+    let raw_input = match (opts.fold_scaler, data) {
+        (FoldScaler::No, _) => None,
+        (_, None) => bail!("internal: the raw-input trial needs the calibration rows"),
+        (how, Some(data)) => {
             let (choice, folded) =
-                raw_trial::try_folded(model, &float_model, data, &cal, &blob, how, &build)?;
+                raw_trial::try_folded(model, float_model, data, &cal, &blob, how, &build)?;
             if let Some(f) = folded {
                 blob = f;
             }
@@ -218,9 +284,9 @@ pub fn pack_int8_options(
         method,
         bias_correction: opts.bias_correction,
         raw_input,
-        warnings: advice::warnings(&cal, &data.source),
+        warnings: advice::warnings(&cal, source),
         ranges: cal.ranges,
-        calibration_rows: data.rows,
+        calibration_rows: rows,
         tensors: cal.tensors,
     })
 }

@@ -10,6 +10,7 @@ use crate::import::import_file;
 use crate::import::plain::referenced_files;
 use crate::output_guard::Named;
 use crate::quantise::calibrate::RangeMethod;
+use crate::quantise::calibrate_stream::{FilePasses, Passes, CHUNK_ROWS, PASSES};
 use crate::report::calibration::CalibrationReport;
 use crate::report::BlobReport;
 use crate::scaler_file::{attach_scaler, load_scaler_file, uniform_divisor};
@@ -155,6 +156,11 @@ pub trait PackProgress {
     fn loading(&self, _path: &Path) {}
     /// Calibration over `rows` rows starts.
     fn calibrating(&self, _rows: usize) {}
+    /// Calibration over `rows` rows read `passes` times starts (the streamed calibration);
+    /// by default [`PackProgress::calibrating`] over every row of every pass.
+    fn calibrating_passes(&self, rows: usize, passes: usize) {
+        self.calibrating(rows.saturating_mul(passes));
+    }
     /// `n` more calibration rows have been run.
     fn rows_done(&self, _n: u64) {}
 }
@@ -210,10 +216,6 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
             fold_scaler,
             weights,
         } => {
-            progress.loading(rows);
-            let data = load_rows(rows, label.clone())?;
-            check_calibration_width(&data, model.input_len, label.is_some())?;
-            progress.calibrating(data.rows);
             let opts = Int8Options {
                 method: *method,
                 bias_correction: *bias_correction,
@@ -225,8 +227,22 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
                 sections: req.sections,
                 weights: *weights,
             };
-            let p = pack_int8_options(&model, &data, opts, &|n| progress.rows_done(n))
-                .with_context(|| format!("cannot pack {}", model_path.display()))?;
+            let p = match streamed(&model, model_path, rows, label, opts, progress)? {
+                Some(p) => p,
+                None => {
+                    progress.loading(rows);
+                    let data = load_rows(rows, label.clone())?;
+                    check_calibration_width(
+                        &data.source,
+                        data.width,
+                        model.input_len,
+                        label.is_some(),
+                    )?;
+                    progress.calibrating(data.rows);
+                    pack_int8_options(&model, &data, opts, &|n| progress.rows_done(n))
+                        .with_context(|| format!("cannot pack {}", model_path.display()))?
+                }
+            };
             notes.push(format!(
                 "calibrated on {} rows of {} ({}{})",
                 p.calibration_rows,
@@ -319,7 +335,12 @@ fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<crate::dataset::
             ..LoadOptions::default()
         },
     )
-    .map_err(|e| match e {
+    .map_err(|e| rows_error(e, labelled))
+}
+
+/// A calibration file's error, with the option that fixes it when there is one.
+fn rows_error(e: DatasetError, labelled: bool) -> anyhow::Error {
+    match e {
         DatasetError::LabelColumnForNpy { .. } => {
             anyhow::Error::new(e).context("--calibration-label")
         }
@@ -328,7 +349,7 @@ fn load_rows(path: &Path, label: Option<LabelColumn>) -> Result<crate::dataset::
             anyhow::anyhow!("{e}; {hint}")
         }
         e => e.into(),
-    })
+    }
 }
 
 /// How to leave a label column out, for the column `column` as a message names it
@@ -345,17 +366,11 @@ fn label_hint(column: &str) -> String {
 }
 
 /// One column more than the model takes, with no label column named: most likely the label.
-fn check_calibration_width(
-    data: &crate::dataset::Dataset,
-    inputs: usize,
-    label: bool,
-) -> Result<()> {
-    if !label && data.width == inputs + 1 {
+fn check_calibration_width(source: &str, width: usize, inputs: usize, label: bool) -> Result<()> {
+    if !label && width == inputs + 1 {
         bail!(
-            "{}: {} features per row, but the model takes {inputs} inputs; if one column holds \
-             class labels, leave it out with --calibration-label <name or index>",
-            data.source,
-            data.width
+            "{source}: {width} features per row, but the model takes {inputs} inputs; if one column holds \
+             class labels, leave it out with --calibration-label <name or index>"
         );
     }
     Ok(())
@@ -384,6 +399,47 @@ fn int4_note(bits: &crate::quantise::weight_bits::LayerBits, layers: usize) -> O
     })
 }
 
+/// The int8 pack calibrated on a C-order `.npy` or a CSV file read a chunk at a time on each
+/// pass ([`super::pack_int8_streamed`]); `None` when the rows are to be loaded whole instead (a
+/// Fortran-order array, options that need every row, or rows the bias check refuses).
+fn streamed(
+    model: &crate::graph::FloatModel,
+    model_path: &Path,
+    rows: &Path,
+    label: &Option<LabelColumn>,
+    opts: Int8Options,
+    progress: &dyn PackProgress,
+) -> Result<Option<super::Int8Pack>> {
+    if !super::streams(&opts) {
+        return Ok(None);
+    }
+    progress.loading(rows);
+    let load = LoadOptions {
+        label: label.clone(),
+        ..LoadOptions::default()
+    };
+    let Some(passes) =
+        FilePasses::open(rows, &load, CHUNK_ROWS).map_err(|e| rows_error(e, label.is_some()))?
+    else {
+        return Ok(None);
+    };
+    check_calibration_width(
+        passes.source(),
+        passes.width(),
+        model.input_len,
+        label.is_some(),
+    )?;
+    progress.calibrating_passes(passes.rows(), PASSES);
+    // A bad value read on a pass is the file's error, as when the file is loaded first.
+    super::pack_int8_streamed(model, &passes, opts, &|n| progress.rows_done(n)).map_err(|e| {
+        if e.downcast_ref::<DatasetError>().is_some() {
+            e
+        } else {
+            e.context(format!("cannot pack {}", model_path.display()))
+        }
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -392,6 +448,81 @@ mod tests {
         Path::new(env!("CARGO_MANIFEST_DIR"))
             .join("../examples")
             .join(rel)
+    }
+
+    #[derive(Default)]
+    struct Recorded {
+        loaded: std::cell::Cell<bool>,
+        passes: std::cell::Cell<(usize, usize)>,
+        done: std::cell::Cell<u64>,
+    }
+
+    impl PackProgress for Recorded {
+        fn loading(&self, _path: &Path) {
+            self.loaded.set(true);
+        }
+        fn calibrating_passes(&self, rows: usize, passes: usize) {
+            self.passes.set((rows, passes));
+        }
+        fn rows_done(&self, n: u64) {
+            self.done.set(self.done.get() + n);
+        }
+    }
+
+    #[test]
+    fn npy_rows_stream_through_the_passes_and_pack_as_the_csv_does() {
+        let csv = example("vibration/calibration.csv");
+        let data = crate::dataset::load_csv(&csv, &crate::dataset::CsvOptions::default()).unwrap();
+        let dir = tempfile::tempdir().unwrap();
+        let npy = dir.path().join("rows.npy");
+        let mut bytes = Vec::new();
+        {
+            use npyz::WriterBuilder;
+            let mut w = npyz::WriteOptions::<f32>::new()
+                .default_dtype()
+                .shape(&[data.rows as u64, data.width as u64])
+                .writer(&mut bytes)
+                .begin_nd()
+                .unwrap();
+            w.extend(data.features.iter().copied()).unwrap();
+            w.finish().unwrap();
+        }
+        std::fs::write(&npy, bytes).unwrap();
+        let req = |calibration: PathBuf, method| PackRequest {
+            model: example("vibration/model.onnx"),
+            scaler: None,
+            labels: None,
+            precision: Precision::Int8 {
+                calibration,
+                label: None,
+                method,
+                bias_correction: true,
+                fold_scaler: false,
+                weights: Default::default(),
+            },
+            sections: Sections::default(),
+        };
+        for method in [RangeMethod::MinMax, RangeMethod::Percentile(99.0)] {
+            let whole = pack(&req(csv.clone(), method)).unwrap();
+            let progress = Recorded::default();
+            let streamed = pack_with(&req(npy.clone(), method), &progress).unwrap();
+            assert_eq!(streamed.blob, whole.blob);
+            assert!(progress.loaded.get());
+            assert_eq!(progress.passes.get(), (data.rows, PASSES));
+            assert_eq!(progress.done.get(), (PASSES * data.rows) as u64);
+        }
+        // The CSV streams too (the same passes); the least-error range loads the rows whole.
+        let progress = Recorded::default();
+        let streamed = pack_with(&req(csv.clone(), RangeMethod::MinMax), &progress).unwrap();
+        assert_eq!(progress.done.get(), (PASSES * data.rows) as u64);
+        assert_eq!(
+            streamed.blob,
+            pack(&req(npy.clone(), RangeMethod::MinMax)).unwrap().blob
+        );
+        let progress = Recorded::default();
+        pack_with(&req(npy, RangeMethod::LeastError), &progress).unwrap();
+        assert!(progress.loaded.get());
+        assert_eq!(progress.done.get(), data.rows as u64);
     }
 
     #[test]

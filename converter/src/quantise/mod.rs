@@ -5,7 +5,9 @@
 pub mod advice;
 pub mod bias_correction;
 pub mod calibrate;
+pub mod calibrate_stream;
 pub mod least_error;
+pub mod order_stats;
 pub mod params;
 pub mod percentile;
 pub mod plausible;

@@ -15,8 +15,13 @@
 /// fraction is at least one half, so the result is exact at both ends and never leaves
 /// `[v[⌊h⌋], v[⌊h⌋ + 1]]`.
 pub fn percentile(sorted: &[f32], p: f64) -> f32 {
-    let n = sorted.len();
-    let (Some(&first), Some(&last)) = (sorted.first(), sorted.last()) else {
+    percentile_at(sorted.len(), p, &|i| sorted.get(i).copied())
+}
+
+/// [`percentile`] of `n` sorted values read through `at` (`at(i)` is `sorted[i]`), so that the
+/// values can come from an exact selection ([`super::order_stats`]) instead of a sorted copy.
+pub fn percentile_at(n: usize, p: f64, at: &dyn Fn(usize) -> Option<f32>) -> f32 {
+    let (Some(first), Some(last)) = (at(0).filter(|_| n > 0), n.checked_sub(1).and_then(at)) else {
         return 0.0;
     };
     let h = (n - 1) as f64 * (p / 100.0);
@@ -27,7 +32,7 @@ pub fn percentile(sorted: &[f32], p: f64) -> f32 {
         return first;
     }
     let i = h.floor() as usize;
-    let (Some(&a), Some(&b)) = (sorted.get(i), sorted.get(i + 1)) else {
+    let (Some(a), Some(b)) = (at(i), at(i + 1)) else {
         return last;
     };
     let (a, b, t) = (f64::from(a), f64::from(b), h - h.floor());
@@ -37,6 +42,16 @@ pub fn percentile(sorted: &[f32], p: f64) -> f32 {
         a + (b - a) * t
     };
     v as f32
+}
+
+/// The ranks (indices into the sorted values) that [`percentile_at`] reads for `n` values.
+pub fn percentile_ranks(n: usize, p: f64) -> Vec<usize> {
+    let asked = std::cell::RefCell::new(Vec::new());
+    percentile_at(n, p, &|i| {
+        asked.borrow_mut().push(i);
+        Some(0.0)
+    });
+    asked.into_inner()
 }
 
 /// The largest percentile (to two decimals) whose range leaves out the `outer` most extreme
@@ -74,6 +89,17 @@ mod tests {
         assert_eq!(percentile(&arange(2), 75.0), 0.75);
         // By hand: rank (4 - 1) · 0.5 = 1.5, halfway between 10 and 30.
         assert_eq!(percentile(&[0.0, 10.0, 30.0, 100.0], 50.0), 20.0);
+    }
+
+    #[test]
+    fn the_ranks_read_are_the_ones_that_matter() {
+        // Rank 763.92 of 765 values reads indices 763 and 764 (with the ends).
+        let r = percentile_ranks(765, 99.99);
+        assert!(r.contains(&763) && r.contains(&764), "{r:?}");
+        // Values other than those ranks do not change the result.
+        let v = arange(765);
+        let only = |i: usize| r.contains(&i).then(|| v[i]);
+        assert_eq!(percentile_at(765, 99.99, &only), percentile(&v, 99.99));
     }
 
     #[test]

@@ -34,22 +34,52 @@ pub struct BiasesLost {
 /// unit of `layer` with a non-zero bias has `|w·x| > 2^24 · |b|`; `None` when there is none (or
 /// no unit has a bias).
 pub fn biases_lost(layer: &DenseLayer, scaled: &[f32], range: TensorRange) -> Option<BiasesLost> {
-    let width = layer.inputs.max(1);
-    let units: Vec<(&[f32], f64)> = layer
-        .weights
-        .chunks_exact(width)
-        .zip(&layer.bias)
-        .filter(|(_, &b)| b != 0.0)
-        .map(|(w, &b)| (w, f64::from(b).abs()))
-        .collect();
-    let largest_bias = units.iter().map(|u| u.1).fold(0.0, f64::max);
-    if units.is_empty() {
-        return None;
+    let mut scan = BiasScan::new(layer, range)?;
+    for x in scaled.chunks_exact(layer.inputs.max(1)) {
+        scan.add_row(x);
     }
-    let mut found: Option<BiasesLost> = None;
-    for (r, x) in scaled.chunks_exact(width).enumerate() {
+    scan.finish()
+}
+
+/// [`biases_lost`] a row at a time, in row order.
+#[derive(Debug, Clone)]
+pub struct BiasScan<'a> {
+    units: Vec<(&'a [f32], f64)>,
+    largest_bias: f64,
+    range: TensorRange,
+    row: usize,
+    found: Option<BiasesLost>,
+}
+
+impl<'a> BiasScan<'a> {
+    /// The scan of `layer`'s inputs clamped to `range`; `None` when no unit has a bias.
+    pub fn new(layer: &'a DenseLayer, range: TensorRange) -> Option<Self> {
+        let width = layer.inputs.max(1);
+        let units: Vec<(&[f32], f64)> = layer
+            .weights
+            .chunks_exact(width)
+            .zip(&layer.bias)
+            .filter(|(_, &b)| b != 0.0)
+            .map(|(w, &b)| (w, f64::from(b).abs()))
+            .collect();
+        let largest_bias = units.iter().map(|u| u.1).fold(0.0, f64::max);
+        if units.is_empty() {
+            return None;
+        }
+        Some(BiasScan {
+            units,
+            largest_bias,
+            range,
+            row: 0,
+            found: None,
+        })
+    }
+
+    /// The next row of the layer's (scaled) input.
+    pub fn add_row(&mut self, x: &[f32]) {
+        let range = self.range;
         let mut smallest = f64::INFINITY;
-        let lost = units.iter().all(|(w, b)| {
+        let lost = self.units.iter().all(|(w, b)| {
             let z: f64 = w
                 .iter()
                 .zip(x)
@@ -59,20 +89,25 @@ pub fn biases_lost(layer: &DenseLayer, scaled: &[f32], range: TensorRange) -> Op
             z.abs() > BIAS_LOST * b
         });
         if lost {
-            match &mut found {
+            match &mut self.found {
                 Some(f) => f.rows += 1,
                 None => {
-                    found = Some(BiasesLost {
-                        row: r,
+                    self.found = Some(BiasesLost {
+                        row: self.row,
                         rows: 1,
                         smallest_term: smallest,
-                        largest_bias,
+                        largest_bias: self.largest_bias,
                     })
                 }
             }
         }
+        self.row += 1;
     }
-    found
+
+    /// The rows found.
+    pub fn finish(self) -> Option<BiasesLost> {
+        self.found
+    }
 }
 
 #[cfg(test)]

@@ -87,76 +87,25 @@ impl TensorStats {
         range: TensorRange,
     ) -> Self {
         let n = sorted.len();
-        let observed_min = sorted.first().copied().unwrap_or(0.0);
-        let observed_max = sorted.last().copied().unwrap_or(0.0);
-        let k = ((n as f64 * CORE_TRIM).ceil() as usize)
-            .max(width)
-            .min(n.saturating_sub(1) / 4);
-        let core = (sorted.get(k), sorted.get(n.saturating_sub(1 + k)));
-        let far_bounds = match core {
-            (Some(&lo), Some(&hi)) if k > 0 => {
-                let w = width_with_zero(lo, hi);
-                (w > 0.0).then(|| (f64::from(lo.min(0.0)) - w, f64::from(hi.max(0.0)) + w))
-            }
-            _ => None,
-        };
-        let mut s = TensorStats {
+        let k = core_trim(n, width);
+        let mut scan = SpreadScan::new(
             tensor,
-            values: n,
-            observed_min,
-            observed_max,
-            min: range.min,
-            max: range.max,
-            clipped_below: values.iter().filter(|&&v| v < range.min).count(),
-            clipped_above: values.iter().filter(|&&v| v > range.max).count(),
-            core_trim: if far_bounds.is_some() { k } else { 0 },
-            far_below: 0,
-            far_above: 0,
-            far_rows: Vec::new(),
-            far_row_count: 0,
-            others_min: observed_min,
-            others_max: observed_max,
-            spread: None,
-            dominated: false,
-        };
-        let mut others = (f32::INFINITY, f32::NEG_INFINITY);
-        let mut last_row = None;
-        for (i, &v) in values.iter().enumerate() {
-            let x = f64::from(v);
-            let far = match far_bounds {
-                Some((below, _)) if x < below => {
-                    s.far_below += 1;
-                    true
-                }
-                Some((_, above)) if x > above => {
-                    s.far_above += 1;
-                    true
-                }
-                _ => false,
-            };
-            if far {
-                let row = i / width.max(1);
-                if last_row != Some(row) {
-                    last_row = Some(row);
-                    s.far_row_count += 1;
-                    if s.far_rows.len() < ROWS_LISTED {
-                        s.far_rows.push(row);
-                    }
-                }
-            } else {
-                others = (others.0.min(v), others.1.max(v));
-            }
+            Sorted {
+                n,
+                first: sorted.first().copied().unwrap_or(0.0),
+                last: sorted.last().copied().unwrap_or(0.0),
+                core: (
+                    sorted.get(k).copied(),
+                    sorted.get(n.saturating_sub(1 + k)).copied(),
+                ),
+            },
+            width,
+            range,
+        );
+        for &v in values {
+            scan.add(v);
         }
-        if others.0 <= others.1 {
-            (s.others_min, s.others_max) = others;
-        }
-        let w_others = width_with_zero(s.others_min, s.others_max);
-        if w_others > 0.0 {
-            let spread = width_with_zero(range.min, range.max) / w_others;
-            s.spread = Some(spread);
-            s.dominated = s.far() > 0 && spread >= DOMINATED_SPREAD;
-        }
-        s
+        scan.finish()
     }
 
     /// The far values, both sides.
@@ -167,6 +116,134 @@ impl TensorStats {
     /// The far values on the side that has more of them.
     pub fn far_per_side(&self) -> usize {
         self.far_below.max(self.far_above)
+    }
+}
+
+/// Values left out on each side of `n` values `width` per row to form the core (the `k` of the
+/// module documentation): the core is `sorted[k]..=sorted[n - 1 - k]`.
+pub fn core_trim(n: usize, width: usize) -> usize {
+    ((n as f64 * CORE_TRIM).ceil() as usize)
+        .max(width)
+        .min(n.saturating_sub(1) / 4)
+}
+
+/// What the statistics need of a tensor's sorted values: how many, the first and last, and the
+/// core's ends (`sorted[k]`, `sorted[n - 1 - k]` with `k` = [`core_trim`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Sorted {
+    /// Values.
+    pub n: usize,
+    /// `sorted[0]`.
+    pub first: f32,
+    /// `sorted[n - 1]`.
+    pub last: f32,
+    /// `sorted[k]` and `sorted[n - 1 - k]`.
+    pub core: (Option<f32>, Option<f32>),
+}
+
+/// [`TensorStats::of`] a value at a time, in row order, once the sorted values' ends and core
+/// are known (a second pass over the values).
+#[derive(Debug, Clone)]
+pub struct SpreadScan {
+    s: TensorStats,
+    far_bounds: Option<(f64, f64)>,
+    width: usize,
+    range: TensorRange,
+    others: (f32, f32),
+    last_row: Option<usize>,
+    index: usize,
+}
+
+impl SpreadScan {
+    /// The scan of a tensor `width` per row, calibrated to `range`.
+    pub fn new(tensor: String, sorted: Sorted, width: usize, range: TensorRange) -> Self {
+        let k = core_trim(sorted.n, width);
+        let far_bounds = match sorted.core {
+            (Some(lo), Some(hi)) if k > 0 => {
+                let w = width_with_zero(lo, hi);
+                (w > 0.0).then(|| (f64::from(lo.min(0.0)) - w, f64::from(hi.max(0.0)) + w))
+            }
+            _ => None,
+        };
+        SpreadScan {
+            s: TensorStats {
+                tensor,
+                values: sorted.n,
+                observed_min: sorted.first,
+                observed_max: sorted.last,
+                min: range.min,
+                max: range.max,
+                clipped_below: 0,
+                clipped_above: 0,
+                core_trim: if far_bounds.is_some() { k } else { 0 },
+                far_below: 0,
+                far_above: 0,
+                far_rows: Vec::new(),
+                far_row_count: 0,
+                others_min: sorted.first,
+                others_max: sorted.last,
+                spread: None,
+                dominated: false,
+            },
+            far_bounds,
+            width,
+            range,
+            others: (f32::INFINITY, f32::NEG_INFINITY),
+            last_row: None,
+            index: 0,
+        }
+    }
+
+    /// The next value, in row order.
+    pub fn add(&mut self, v: f32) {
+        let s = &mut self.s;
+        s.clipped_below += usize::from(v < self.range.min);
+        s.clipped_above += usize::from(v > self.range.max);
+        let x = f64::from(v);
+        let far = match self.far_bounds {
+            Some((below, _)) if x < below => {
+                s.far_below += 1;
+                true
+            }
+            Some((_, above)) if x > above => {
+                s.far_above += 1;
+                true
+            }
+            _ => false,
+        };
+        if far {
+            let row = self.index / self.width.max(1);
+            if self.last_row != Some(row) {
+                self.last_row = Some(row);
+                s.far_row_count += 1;
+                if s.far_rows.len() < ROWS_LISTED {
+                    s.far_rows.push(row);
+                }
+            }
+        } else {
+            self.others = (self.others.0.min(v), self.others.1.max(v));
+        }
+        self.index += 1;
+    }
+
+    /// The statistics.
+    pub fn finish(self) -> TensorStats {
+        let SpreadScan {
+            mut s,
+            others,
+            range,
+            ..
+        } = self;
+        if others.0 <= others.1 {
+            (s.others_min, s.others_max) = others;
+        }
+        let w_others = width_with_zero(s.others_min, s.others_max);
+        if w_others > 0.0 {
+            let spread = width_with_zero(range.min, range.max) / w_others;
+            s.spread = Some(spread);
+            s.dominated = s.far() > 0 && spread >= DOMINATED_SPREAD;
+        }
+        s
     }
 }
 

@@ -92,7 +92,10 @@ impl Candidate {
 
     /// Layers with int4 weights.
     pub fn int4_layers(&self) -> usize {
-        self.weights.iter().filter(|&&b| b == WeightBits::Int4).count()
+        self.weights
+            .iter()
+            .filter(|&&b| b == WeightBits::Int4)
+            .count()
     }
 }
 
@@ -129,7 +132,11 @@ pub fn evaluate(cx: &Fixed<'_>, role: Role, weights: Vec<WeightBits>) -> Result<
         weights: layer_bits(&weights),
         ..cx.options
     };
-    let label = weights.iter().map(|b| b.name()).collect::<Vec<_>>().join(" ");
+    let label = weights
+        .iter()
+        .map(|b| b.name())
+        .collect::<Vec<_>>()
+        .join(" ");
     let packed = pack_int8_with(cx.model, cx.calibration, options)
         .with_context(|| format!("cannot pack the candidate {label}"))?;
     let float = Model::parse(cx.float_blob).map_err(|e| anyhow!("internal: f32 blob: {e}"))?;

@@ -46,13 +46,20 @@ fn row(c: &Candidate, base: Option<usize>, picked: bool) -> Vec<Cell> {
         _ => "-".into(),
     };
     vec![
-        Cell::new(format!("{}{}", c.label(), if picked { "  ← picked" } else { "" })),
+        Cell::new(format!(
+            "{}{}",
+            c.label(),
+            if picked { "  ← picked" } else { "" }
+        )),
         Cell::new(c.role.text()),
         right(c.bytes.to_string()),
         right(share),
         right(correct),
         right(drop),
-        right(format!("{} / {} ({:.2} %)", c.agree, c.rows, c.agreement_pct)),
+        right(format!(
+            "{} / {} ({:.2} %)",
+            c.agree, c.rows, c.agreement_pct
+        )),
         Cell::new(if c.meets { "yes" } else { "no" }),
     ]
 }

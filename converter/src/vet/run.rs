@@ -235,7 +235,29 @@ pub fn evaluate(
     engine: Engine,
     progress: &(dyn Fn(u64) + Sync),
 ) -> Result<Vec<RowOutcome>> {
+    evaluate_at(pair, fed, 0, parallelism, engine, progress)
+}
+
+/// [`evaluate`] on rows that start at the file's data row `first_row` (0-based), which errors
+/// count from: one chunk of a file read a chunk at a time.
+pub(crate) fn evaluate_at(
+    pair: &ModelPair<'_>,
+    fed: &Fed<'_>,
+    first_row: usize,
+    parallelism: Parallelism,
+    engine: Engine,
+    progress: &(dyn Fn(u64) + Sync),
+) -> Result<Vec<RowOutcome>> {
     let data = fed.data;
+    let failure = |d: &Dataset, f: RowFailure| {
+        failure(
+            d,
+            RowFailure {
+                row: f.row + first_row,
+                ..f
+            },
+        )
+    };
     data.check_width(pair.int8.input_len())?;
     if let (Engine::Batched, Some(hosts)) = (engine, super::batched::Hosts::new(pair)) {
         return super::batched::evaluate(&hosts, fed, parallelism, progress)

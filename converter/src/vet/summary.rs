@@ -11,6 +11,7 @@ use super::run::RowOutcome;
 use super::stats::{
     mcnemar_exact, newcombe_paired, PairedCounts, INTERVAL_METHOD, TEST_METHOD, Z_95,
 };
+use super::tally::Tally;
 use crate::score::feed::{Entry, Feed};
 
 /// What the accuracy gate compares with `--max-drop`.
@@ -455,23 +456,46 @@ pub fn summarise(
     truth: Truth<'_>,
     criteria: &Criteria,
 ) -> VetReport {
+    let mut tally = Tally::new(pair.stage_names().len());
+    tally.add(outcomes);
+    summarise_tally(pair, data_source, sources, measured, tally, truth, criteria)
+}
+
+/// [`summarise`] from the outcomes' [`Tally`] (the same report: every sum was taken in row
+/// order as it is here).
+pub fn summarise_tally(
+    pair: &ModelPair<'_>,
+    data_source: &str,
+    sources: &Sources,
+    measured: &Measured,
+    tally: Tally,
+    truth: Truth<'_>,
+    criteria: &Criteria,
+) -> VetReport {
     let Truth { labels, benign } = truth;
     let classes = pair.classes();
     let class_names = pair.class_names();
     let name = |k: usize| class_names.get(k).cloned().unwrap_or_else(|| k.to_string());
-    let fp: Vec<usize> = outcomes.iter().map(|o| o.float_class).collect();
-    let qp: Vec<usize> = outcomes.iter().map(|o| o.int8_class).collect();
-    let diffs: Vec<f64> = outcomes.iter().map(RowOutcome::max_score_diff).collect();
-    let rows = outcomes.len() as u64;
+    let Tally {
+        float: fp,
+        int8: qp,
+        diffs,
+        split,
+        sum_abs,
+        count,
+        energy: summed,
+    } = tally;
+    let rows = fp.len() as u64;
 
-    let mut disagreements: Vec<Disagreement> = outcomes
+    let mut disagreements: Vec<Disagreement> = fp
         .iter()
+        .zip(&qp)
         .enumerate()
-        .filter(|(_, o)| o.float_class != o.int8_class)
-        .map(|(i, o)| Disagreement {
+        .filter(|(_, (f, q))| f != q)
+        .map(|(i, (&f, &q))| Disagreement {
             data_row: i + 1,
-            float_class: o.float_class,
-            int8_class: o.int8_class,
+            float_class: f,
+            int8_class: q,
             label: labels.and_then(|l| l.get(i).copied()),
             max_score_diff: diffs.get(i).copied().unwrap_or(0.0),
         })
@@ -489,24 +513,11 @@ pub fn summarise(
         disagreements,
     };
 
-    let split: Vec<usize> = outcomes
-        .iter()
-        .enumerate()
-        .filter(|(_, o)| o.int8_infer_class != o.int8_classify_class)
-        .map(|(i, _)| i + 1)
-        .collect();
     let entry_split = EntrySplit {
         rows: split.len() as u64,
         data_rows: split,
     };
 
-    let (mut sum_abs, mut count) = (0.0f64, 0u64);
-    for o in outcomes {
-        for (f, q) in o.float_scores.iter().zip(&o.int8_scores) {
-            sum_abs += (f64::from(*f) - f64::from(*q)).abs();
-            count += 1;
-        }
-    }
     let score_error = ScoreError {
         max_abs: diffs.iter().copied().fold(0.0, f64::max),
         mean_abs: if count == 0 {
@@ -519,10 +530,8 @@ pub fn summarise(
 
     let names = pair.stage_names();
     let mut energy = vec![Energy::default(); names.len()];
-    for o in outcomes {
-        for (e, r) in energy.iter_mut().zip(&o.energy) {
-            e.merge(r);
-        }
+    for (e, r) in energy.iter_mut().zip(&summed) {
+        e.merge(r);
     }
     let fidelity = names
         .into_iter()
@@ -573,7 +582,7 @@ pub fn summarise(
         int8_model: sources.int8_model.clone(),
         data: data_source.to_string(),
         measured: measured.clone(),
-        rows: outcomes.len(),
+        rows: fp.len(),
         classes,
         class_names,
         output: output_name(pair.int8.desc().output).to_string(),

@@ -31,7 +31,7 @@ pub enum Activation {
 /// (`FORMAT.md` §3). [`LayerDesc`] keeps the record's fields beside a one-byte
 /// [`Activation`] instead, so that a layer of the table grows by one slice, not by a tagged
 /// record (every `Model` holds [`MAX_LAYERS`] of them).
-#[derive(Serialize, Deserialize)]
+#[derive(Serialize)]
 enum ActivationWire<'a> {
     Linear,
     Relu,
@@ -241,58 +241,6 @@ impl<'a> LayerDesc<'a> {
     }
 }
 
-impl<'de: 'a, 'a> Deserialize<'de> for LayerDesc<'a> {
-    /// Field by field, as the derive for `LayerWire` would, but into the layer itself (no
-    /// intermediate copy of the layer: flash on the Cortex-M).
-    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        struct Fields<'a>(core::marker::PhantomData<&'a ()>);
-        impl<'de: 'a, 'a> serde::de::Visitor<'de> for Fields<'a> {
-            type Value = LayerDesc<'a>;
-            fn expecting(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
-                f.write_str("a layer")
-            }
-            fn visit_seq<A: serde::de::SeqAccess<'de>>(
-                self,
-                mut s: A,
-            ) -> Result<Self::Value, A::Error> {
-                let missing = || serde::de::Error::invalid_length(0, &"7 fields");
-                let inputs = s.next_element()?.ok_or_else(missing)?;
-                let outputs = s.next_element()?.ok_or_else(missing)?;
-                let (activation, act_kind, act_zero_point, act_data) =
-                    match s.next_element()?.ok_or_else(missing)? {
-                        ActivationWire::Linear => (Activation::Linear, 0, 0, &[][..]),
-                        ActivationWire::Relu => (Activation::Relu, 0, 0, &[][..]),
-                        ActivationWire::Pointwise(p) => {
-                            (Activation::Pointwise, p.kind, p.input_zero_point, p.data)
-                        }
-                    };
-                Ok(LayerDesc {
-                    inputs,
-                    outputs,
-                    activation,
-                    act_kind,
-                    act_zero_point,
-                    act_data,
-                    layout: s.next_element()?.ok_or_else(missing)?,
-                    weights: s.next_element()?.ok_or_else(missing)?,
-                    bias: s.next_element()?.ok_or_else(missing)?,
-                    quant: s.next_element()?.ok_or_else(missing)?,
-                })
-            }
-        }
-        const FIELDS: [&str; 7] = [
-            "inputs",
-            "outputs",
-            "activation",
-            "layout",
-            "weights",
-            "bias",
-            "quant",
-        ];
-        d.deserialize_struct("LayerDesc", &FIELDS, Fields(core::marker::PhantomData))
-    }
-}
-
 impl Serialize for LayerDesc<'_> {
     fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
         let activation = match self.pointwise() {
@@ -313,8 +261,8 @@ impl Serialize for LayerDesc<'_> {
     }
 }
 
-/// The whole body of a blob.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+/// The whole body of a blob. Its `Deserialize` (in `wire::read`) fills a table in place.
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ModelDesc<'a> {
     /// Width of the raw input vector.
     pub input_len: u32,
@@ -334,4 +282,79 @@ pub struct ModelDesc<'a> {
     /// Class labels separated by `'\n'`; empty when the model has none.
     #[serde(borrow)]
     pub labels: &'a str,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A 1 → 1 int8 layer with `activation`, as the encoder writes it.
+    fn layer_bytes(activation: Activation, p: Option<PointwiseDesc<'_>>, out: &mut [u8]) -> usize {
+        let quant = LayerQuantDesc {
+            multiplier: &[0, 0, 0, 64],
+            shift: &[0],
+            weight_scale: &[],
+            output_scale: 0.5,
+            output_zero_point: -3,
+        };
+        let l = LayerDesc {
+            inputs: 1,
+            outputs: 1,
+            activation: Activation::Linear,
+            act_kind: 0,
+            act_zero_point: 0,
+            act_data: &[],
+            layout: WeightLayout::OutputMajor,
+            weights: &[7],
+            bias: &[1, 0, 0, 0],
+            quant: Some(quant),
+        }
+        .with_activation(activation, p);
+        postcard::to_slice(&l, out).map(|b| b.len()).unwrap_or(0)
+    }
+
+    /// The reader takes the activation enum apart by hand; every variant must decode to what
+    /// the derived `Serialize` wrote (postcard's encoding, `FORMAT.md` §3), and the byte after
+    /// the record must still be the layout.
+    #[test]
+    fn activation_parts_round_trip() {
+        let table = [9u8; 256];
+        let cases = [
+            (Activation::Linear, None),
+            (Activation::Relu, None),
+            (
+                Activation::Pointwise,
+                Some(PointwiseDesc {
+                    kind: 10,
+                    input_zero_point: -128,
+                    data: &table,
+                }),
+            ),
+        ];
+        for (activation, p) in cases {
+            let mut buf = [0u8; 512];
+            let n = layer_bytes(activation, p, &mut buf);
+            assert!(n > 0);
+            let back: LayerDesc<'_> = postcard::from_bytes(&buf[..n]).unwrap();
+            assert_eq!(back.activation, activation);
+            assert_eq!(back.pointwise(), p);
+            assert_eq!(back.weights, &[7]);
+            assert_eq!(back.quant.map(|q| q.output_zero_point), Some(-3));
+        }
+    }
+
+    /// A variant index past `Pointwise`, one byte (3) or a two-byte varint (128), is refused.
+    #[test]
+    fn unknown_activation_variant_is_refused() {
+        let mut buf = [0u8; 64];
+        let n = layer_bytes(Activation::Linear, None, &mut buf);
+        // inputs (1), outputs (1), then the activation's variant index.
+        assert_eq!(buf[2], 0);
+        for bad in [&[3u8][..], &[0x80, 0x01]] {
+            let mut b = buf[..2].to_vec();
+            b.extend_from_slice(bad);
+            b.extend_from_slice(&buf[3..n]);
+            assert!(postcard::from_bytes::<LayerDesc<'_>>(&b).is_err());
+        }
+    }
 }

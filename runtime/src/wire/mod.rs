@@ -5,4 +5,5 @@ pub mod format;
 pub mod header;
 pub mod layout;
 pub mod nibble;
+pub mod read;
 pub mod version;

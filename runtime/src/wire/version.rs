@@ -70,19 +70,22 @@ pub fn version_for_table(
     layers: &[crate::wire::format::LayerDesc<'_>],
     output: crate::wire::format::OutputKind,
 ) -> u16 {
-    let blocked = layers
-        .iter()
-        .any(|l| l.layout == crate::wire::format::WeightLayout::Blocked4x4);
-    let pointwise = layers
-        .iter()
-        .any(|l| l.activation == crate::wire::format::Activation::Pointwise);
-    if pointwise {
-        4
-    } else if output == crate::wire::format::OutputKind::OneVsRest {
+    use crate::wire::format::{Activation, OutputKind, WeightLayout};
+    // One pass: each layer needs 4 for a pointwise record, 2 for `Blocked4x4`; the output 3
+    // for `OneVsRest`; the blob the highest of these.
+    let least = if output == OutputKind::OneVsRest {
         3
-    } else if blocked {
-        2
     } else {
         OLDEST_VERSION
-    }
+    };
+    layers.iter().fold(least, |v, l| {
+        let need = if l.activation == Activation::Pointwise {
+            4
+        } else if l.layout == WeightLayout::Blocked4x4 {
+            2
+        } else {
+            OLDEST_VERSION
+        };
+        v.max(need)
+    })
 }
