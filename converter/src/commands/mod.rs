@@ -6,6 +6,7 @@ mod emit_rust;
 mod inspect;
 mod out;
 mod pack;
+mod pack_search;
 mod progress;
 mod rows;
 mod score;

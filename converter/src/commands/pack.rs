@@ -91,6 +91,20 @@ struct PackJson<'a> {
     calibration: Option<&'a kinglet_converter::report::calibration::CalibrationReport>,
 }
 
+/// `--flash-budget`: bytes or `K`/`M` suffixes, as `kinglet budget --flash`.
+fn flash_size(s: &str) -> Result<u64, String> {
+    kinglet_converter::fit::size::parse(s, kinglet_converter::fit::MAX_BYTES)
+}
+
+/// What `--max-drop` is compared with.
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+enum GateArg {
+    /// The measured accuracy drop.
+    Estimate,
+    /// The upper limit of the drop's 95% interval (stricter).
+    Upper,
+}
+
 /// `--percentile` when `--range percentile` is given without it.
 const DEFAULT_PERCENTILE: f64 = 99.99;
 
@@ -147,13 +161,54 @@ pub struct Args {
     #[arg(long)]
     weight_scales: bool,
     /// Weight precision (int8 models): `int8` (the default), `int4` for every layer (two
-    /// weights per byte; a format-version-6 blob), or per layer, e.g. `0:int4,1:int8` (layers
-    /// not named stay int8). Activations stay int8.
+    /// weights per byte; a format-version-6 blob), per layer, e.g. `0:int4,1:int8` (layers
+    /// not named stay int8), or `auto`: the smallest blob whose accuracy on the --holdout
+    /// rows stays within the bound (--max-drop / --min-agreement; default a 1 pp drop, or 99 %
+    /// agreement for rows without labels). Activations stay int8.
     #[arg(long, value_name = "PRECISION")]
     weights: Option<String>,
+    /// `--weights auto`: held-out rows to judge each candidate on (CSV or `.npy`), not the
+    /// calibration rows.
+    #[arg(long, value_name = "FILE")]
+    holdout: Option<PathBuf>,
+    /// `--weights auto`: the label column of the --holdout CSV (name or 0-based index).
+    #[arg(long, value_name = "COLUMN", requires = "holdout")]
+    holdout_label: Option<LabelColumn>,
+    /// `--weights auto`: labels for `.npy` --holdout features (a 1-D `.npy` array).
+    #[arg(long, value_name = "FILE", requires = "holdout")]
+    holdout_label_file: Option<PathBuf>,
+    /// `--weights auto`: largest accuracy drop (float minus int8) allowed, percentage points.
+    #[arg(long, value_name = "PP", requires = "holdout")]
+    max_drop: Option<f64>,
+    /// `--weights auto`: what --max-drop is compared with: the measured drop, or the upper
+    /// limit of its 95% interval (as `vet --gate`).
+    #[arg(long, value_enum, default_value = "estimate", requires = "max_drop")]
+    gate: GateArg,
+    /// `--weights auto`: smallest agreement with the float model allowed, percent of rows.
+    #[arg(long, value_name = "PERCENT", requires = "holdout")]
+    min_agreement: Option<f64>,
+    /// `--weights auto`: largest blob the board's flash takes: bytes, or with a K or M suffix
+    /// (e.g. 48K).
+    #[arg(long, value_name = "SIZE", requires = "holdout", value_parser = flash_size)]
+    flash_budget: Option<u64>,
     /// Print the report as JSON.
     #[arg(long)]
     json: bool,
+}
+
+impl Args {
+    /// The `--weights auto` options.
+    fn search_args(&self) -> super::pack_search::SearchArgs {
+        super::pack_search::SearchArgs {
+            holdout: self.holdout.clone(),
+            holdout_label: self.holdout_label.clone(),
+            holdout_label_file: self.holdout_label_file.clone(),
+            max_drop: self.max_drop,
+            upper: matches!(self.gate, GateArg::Upper),
+            min_agreement: self.min_agreement,
+            flash_budget: self.flash_budget,
+        }
+    }
 }
 
 pub fn run(a: Args) -> Result<Outcome> {
@@ -198,9 +253,9 @@ pub fn run(a: Args) -> Result<Outcome> {
                 }
             },
             bias_correction: a.correct_bias,
-            weights: match &a.weights {
+            weights: match a.weights.as_deref() {
+                Some("auto") | None => LayerBits::default(),
                 Some(s) => LayerBits::parse(s).context("--weights")?,
-                None => LayerBits::default(),
             },
             fold_scaler: a.fold_scaler,
         }
@@ -216,8 +271,20 @@ pub fn run(a: Args) -> Result<Outcome> {
         },
     };
     let out = a.out.clone().unwrap_or_else(|| req.default_out());
-    let inputs = req.inputs();
+    let mut inputs = req.inputs();
+    if let Some(h) = &a.holdout {
+        inputs.push(("--holdout".into(), h.clone()));
+    }
+    if let Some(h) = &a.holdout_label_file {
+        inputs.push(("--holdout-label-file".into(), h.clone()));
+    }
     check_distinct(&[Named::new("the output (-o)", &out)], &named(&inputs))?;
+    if a.weights.as_deref() == Some("auto") {
+        return super::pack_search::run(&a.search_args(), &req, &out, a.json);
+    }
+    if a.holdout.is_some() {
+        bail!("--holdout is for --weights auto (the rows each candidate is judged on); add --weights auto, or use `kinglet vet` to judge one blob");
+    }
     let packed = pack_with(&req, &TerminalProgress::default())?;
     write_atomic(&out, &packed.blob)?;
     // Warnings go to stderr (seen also when stdout is JSON or piped), after the write succeeded.

@@ -42,3 +42,20 @@ pub fn loading(path: &Path) -> ProgressBar {
     b.enable_steady_tick(Duration::from_millis(120));
     b
 }
+
+/// A spinner counting finished steps of unknown number, `what` before the count and the
+/// current step's name after it (hidden unless stderr is a terminal).
+pub fn counter(what: &str) -> ProgressBar {
+    if !std::io::stderr().is_terminal() {
+        return ProgressBar::hidden();
+    }
+    let b = ProgressBar::with_draw_target(None, ProgressDrawTarget::stderr());
+    if let Ok(style) =
+        ProgressStyle::with_template("{spinner} {prefix}: {pos} done, last {msg} ({elapsed})")
+    {
+        b.set_style(style);
+    }
+    b.set_prefix(what.to_string());
+    b.enable_steady_tick(Duration::from_millis(120));
+    b
+}

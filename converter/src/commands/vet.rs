@@ -73,7 +73,7 @@ pub struct Args {
 }
 
 /// `--max-drop`: percentage points, -100 to 100 (a negative bound asks int8 to gain accuracy).
-fn check_drop(v: Option<f64>) -> Result<()> {
+pub(super) fn check_drop(v: Option<f64>) -> Result<()> {
     match v {
         Some(x) if !x.is_finite() || !(-100.0..=100.0).contains(&x) => bail!(
             "--max-drop must be a number of percentage points between -100 and 100, not {}",
@@ -84,7 +84,7 @@ fn check_drop(v: Option<f64>) -> Result<()> {
 }
 
 /// `--min-agreement`: a percentage of rows, 0 to 100.
-fn check_agreement(v: Option<f64>) -> Result<()> {
+pub(super) fn check_agreement(v: Option<f64>) -> Result<()> {
     match v {
         Some(x) if !x.is_finite() || !(0.0..=100.0).contains(&x) => bail!(
             "--min-agreement must be a percentage of rows between 0 and 100, not {}",

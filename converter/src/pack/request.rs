@@ -183,25 +183,7 @@ pub fn pack(req: &PackRequest) -> Result<Packed> {
 /// [`pack`], telling `progress` how loading and calibration go.
 pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packed> {
     let model_path = &req.model;
-    let mut model = import_file(model_path)
-        .with_context(|| format!("cannot import {}", model_path.display()))?;
-    match &req.scaler {
-        Some(ScalerSource::File(p)) => attach_scaler(&mut model, load_scaler_file(p)?)
-            .with_context(|| format!("--scaler {}", p.display()))?,
-        Some(ScalerSource::DivideBy(d)) => attach_scaler(&mut model, uniform_divisor(*d)?)?,
-        None => {}
-    }
-    let mut notes = Vec::new();
-    if let Some(labels) = &req.labels {
-        check_labels(labels, model.classes())?;
-        if !model.labels.is_empty() && model.labels != *labels {
-            notes.push(format!(
-                "--labels replaces the model's own class labels ({})",
-                shown_labels(&model.labels)
-            ));
-        }
-        model.labels = labels.clone();
-    }
+    let (model, mut notes) = prepare(req)?;
     let mut calibration = None;
     let blob = match &req.precision {
         Precision::F32 => {
@@ -291,6 +273,44 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
         notes,
         calibration,
     })
+}
+
+/// The request's model imported, with its scaler and class labels attached, and the notes to
+/// print about them.
+pub fn prepare(req: &PackRequest) -> Result<(crate::graph::FloatModel, Vec<String>)> {
+    let model_path = &req.model;
+    let mut model = import_file(model_path)
+        .with_context(|| format!("cannot import {}", model_path.display()))?;
+    match &req.scaler {
+        Some(ScalerSource::File(p)) => attach_scaler(&mut model, load_scaler_file(p)?)
+            .with_context(|| format!("--scaler {}", p.display()))?,
+        Some(ScalerSource::DivideBy(d)) => attach_scaler(&mut model, uniform_divisor(*d)?)?,
+        None => {}
+    }
+    let mut notes = Vec::new();
+    if let Some(labels) = &req.labels {
+        check_labels(labels, model.classes())?;
+        if !model.labels.is_empty() && model.labels != *labels {
+            notes.push(format!(
+                "--labels replaces the model's own class labels ({})",
+                shown_labels(&model.labels)
+            ));
+        }
+        model.labels = labels.clone();
+    }
+    Ok((model, notes))
+}
+
+/// The calibration rows of `path` held whole, checked against the model's input width.
+pub fn calibration_rows(
+    path: &Path,
+    label: Option<LabelColumn>,
+    inputs: usize,
+) -> Result<crate::dataset::Dataset> {
+    let labelled = label.is_some();
+    let data = load_rows(path, label)?;
+    check_calibration_width(&data.source, data.width, inputs, labelled)?;
+    Ok(data)
 }
 
 /// `--integer-input` and `--weight-scales` are int8 sections: an f32 blob takes integer inputs

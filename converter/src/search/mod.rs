@@ -20,6 +20,7 @@
 pub mod candidate;
 pub mod overlap;
 pub mod render;
+pub mod request;
 pub mod strategy;
 
 pub use candidate::{Candidate, Role};

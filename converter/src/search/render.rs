@@ -69,14 +69,14 @@ pub fn render(s: &Search, criteria: &Criteria, budget: Option<u64>) -> String {
     let mut t = Table::new();
     t.load_preset(UTF8_BORDERS_ONLY);
     t.set_header(vec![
-        "weights by layer",
-        "candidate",
-        "blob bytes",
-        "of all int8",
+        "weights",
+        "tried as",
+        "bytes",
+        "vs int8",
         "correct",
-        "drop, pp [95% interval]",
-        "agreement with float",
-        "within bound",
+        "drop pp [95% interval]",
+        "agreement",
+        "in bound",
     ]);
     let base = s.all_int8().map(|c| c.bytes);
     for (i, c) in s.candidates.iter().enumerate() {
@@ -89,7 +89,7 @@ pub fn render(s: &Search, criteria: &Criteria, budget: Option<u64>) -> String {
         }
     };
     let mut out = format!(
-        "weight precision search: {method}; bound: {}{}\n{t}\n",
+        "weight precision search: {method}; bound: {}{}; ◀ marks the pick\n{t}\n",
         bound_text(criteria),
         budget.map_or(String::new(), |b| format!("; flash budget {b} bytes"))
     );
