@@ -19,16 +19,16 @@ use super::{Code, Measured};
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
     default_build: Code {
-        text: 20452,
-        rodata: 1495,
+        text: 19908,
+        rodata: 1375,
     },
     int8_only: Code {
-        text: 13536,
-        rodata: 1372,
+        text: 13500,
+        rodata: 1316,
     },
     classify_only: Code {
-        text: 10544,
-        rodata: 1364,
+        text: 10508,
+        rodata: 1308,
     },
     stack_parse: 3288,
     stack_infer: 640,
@@ -40,16 +40,16 @@ pub const CORTEX_M0: Measured = Measured {
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
     default_build: Code {
-        text: 16428,
-        rodata: 1495,
+        text: 15876,
+        rodata: 1375,
     },
     int8_only: Code {
-        text: 10636,
-        rodata: 1372,
+        text: 10596,
+        rodata: 1316,
     },
     classify_only: Code {
-        text: 9724,
-        rodata: 1364,
+        text: 9684,
+        rodata: 1308,
     },
     stack_parse: 3212,
     stack_infer: 676,
