@@ -101,7 +101,7 @@ for t in "${targets[@]}"; do
   step "$t: vectors"
   if run "$t" vectors "$work/vectors-$t.txt"; then :; else fail "$t: vectors exited non-zero"; fi
   grep -E '^(stack|vectors|MISMATCH|ERROR)' "$work/vectors-$t.txt" || true
-  if grep -E '^(digits_u8|digits_f32|digits_float|vibration|lr_digits_u8|lr_digits_float|tanh_digits_u8|tanh_digits_float) ' "$work/vectors-$t.txt" | diff -u "$expected" - >"$work/diff-$t.txt"; then
+  if grep -E '^(digits_u8|digits_f32|digits_float|vibration|lr_digits_u8|lr_digits_float|tanh_digits_u8|tanh_digits_float|int4_digits_u8) ' "$work/vectors-$t.txt" | diff -u "$expected" - >"$work/diff-$t.txt"; then
     echo "$(wc -l <"$expected") lines identical to tests/fixtures/vectors/*.txt"
   else
     head -20 "$work/diff-$t.txt"; fail "$t: vector output differs from the expected files"

@@ -2226,6 +2226,10 @@ fn int4_pack_then_inspect_and_budget_show_the_int4_layer() {
     let out = c.run(&["inspect", "m.kgl"]);
     let text = String::from_utf8_lossy(&out.stdout).into_owned();
     assert!(text.contains("weights") && text.contains("int4"), "{text}");
+    assert!(
+        text.contains("int4 layers counted at the int8 rates"),
+        "{text}"
+    );
     let out = c.run(&["budget", "m.kgl", "--board", "m0-16k"]);
     let text = String::from_utf8_lossy(&out.stdout).into_owned();
     assert!(text.contains("int4 weights on layer 1:"), "{text}");

@@ -8,8 +8,10 @@
 //! `kinglet pack tests/fixtures/activation/mlp_tanh_iris.onnx --calibration <its calibration
 //! rows as CSV> --integer-input --weight-scales`; `v5-vibration-int8.kgl` at version 5 (both
 //! optional sections left out, `runtime/FORMAT.md` §3.4) by `kinglet pack
-//! examples/vibration/model.onnx --calibration examples/vibration/calibration.csv`; none is
-//! ever regenerated. A reader change that rejects them, or
+//! examples/vibration/model.onnx --calibration examples/vibration/calibration.csv`;
+//! `v6-digits-int4.kgl` at version 6 (int4 weights on every layer, `runtime/FORMAT.md` §3.5) by
+//! `kinglet pack examples/digits/model.onnx --calibration examples/digits/calibration.csv
+//! --weights int4`; none is ever regenerated. A reader change that rejects them, or
 //! changes their predictions, fails here; `runtime/tests/fixture_bytes.rs` checks that every
 //! single-byte change of each is rejected.
 use kinglet_converter::dataset::{load_csv, CsvOptions, LabelColumn};
@@ -193,4 +195,19 @@ fn heldout_right(m: &Model<'_>, rel: &str, check: impl Fn(&[f32])) -> usize {
             class as u64 == l.as_u64().unwrap()
         })
         .count()
+}
+
+#[test]
+fn version_6_digits_int4_blob_still_reads_and_predicts() {
+    use kinglet_runtime::unstable::wire::format::WeightLayout;
+    let blob = std::fs::read(path("tests/fixtures/blobs/v6-digits-int4.kgl")).unwrap();
+    assert_eq!(u16::from_le_bytes([blob[4], blob[5]]), 6);
+    let m = Model::parse(&blob).unwrap();
+    assert!(m.layers().all(|l| l.desc.layout == WeightLayout::Nibble4x4));
+    let data = heldout("digits");
+    let right = (0..data.rows)
+        .filter(|&r| run(&m, data.row(r)).0.to_string() == data.labels.as_ref().unwrap()[r])
+        .count();
+    // 433 of 450 when the fixture was made (the float model's count: 434).
+    assert!(right >= 430, "{right}/450");
 }

@@ -38,6 +38,13 @@ fn estimate_lines(r: &BlobReport) -> Vec<(&'static str, String)> {
         "",
         "fitted to instruction counts under QEMU, not cycles; see BENCHMARKS.md".into(),
     ));
+    if r.layers.iter().any(|l| l.weights == "int4") {
+        // The rates are fitted to int8 layers; BENCHMARKS.md has the int4 kernel's own count.
+        lines.push((
+            "",
+            "int4 layers counted at the int8 rates (the int4 kernels take a little more per MAC: BENCHMARKS.md, i4-784x100)".into(),
+        ));
+    }
     for a in assumptions {
         lines.push(("", format!("latency assumes {a}")));
     }

@@ -142,14 +142,20 @@ pub fn synth(dir: &str) -> Result<(), String> {
         write(dir, &format!("f32_{n}x{m}.om.kgl"), &o)?;
     }
     // Its own generator, so the blobs above keep their bytes.
-    write(dir, "i4_784x100.kgl", &int4_layer(784, 100, &mut Rng(0x4934_3834))?)?;
+    write(
+        dir,
+        "i4_784x100.kgl",
+        &int4_layer(784, 100, &mut Rng(0x4934_3834))?,
+    )?;
     Ok(())
 }
 
 /// One int4 layer `n → m` (`FORMAT.md` §3.5, uniform scaler as the compact int8 layer blob):
 /// weights uniform in [-8, 7], the rest drawn as [`int8_layer`] draws it.
 fn int4_layer(n: usize, m: usize, rng: &mut Rng) -> Result<Vec<u8>, String> {
-    let w: Vec<i8> = (0..n * m).map(|_| ((rng.next() % 16) as i32 - 8) as i8).collect();
+    let w: Vec<i8> = (0..n * m)
+        .map(|_| ((rng.next() % 16) as i32 - 8) as i8)
+        .collect();
     let bias: Vec<i32> = (0..m).map(|_| (rng.next() % 8193) as i32 - 4096).collect();
     let mult: Vec<i32> = (0..m)
         .map(|_| (1 << 30) + (rng.next() & 0x3FFF_FFFF) as i32)

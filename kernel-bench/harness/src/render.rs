@@ -45,7 +45,13 @@ pub fn results(targets: &[Target], estimates: &[Checked]) -> String {
     w!(s, "Dense layers, instructions per MAC (lower is better):\n");
     w!(s, "| layer | target | naive | portable, output-major (before) | portable, blocked | kernel (after) | kernel |");
     w!(s, "|---|---|---:|---:|---:|---:|---|");
-    for name in ["i8-784x100", "i4-784x100", "i8-64x32", "f32-784x100", "f32-64x32"] {
+    for name in [
+        "i8-784x100",
+        "i4-784x100",
+        "i8-64x32",
+        "f32-784x100",
+        "f32-64x32",
+    ] {
         for t in targets {
             let r = &t.bench;
             if r.case(name, "naive").is_none() {
