@@ -2234,3 +2234,111 @@ fn int4_pack_then_inspect_and_budget_show_the_int4_layer() {
     let text = String::from_utf8_lossy(&out.stdout).into_owned();
     assert!(text.contains("int4 weights on layer 1:"), "{text}");
 }
+
+// ---- the weight-precision search (`pack --weights auto`, docs/precision-search.md) ----
+
+/// Labelled held-out rows for the plain 2-input model.
+const HELD: &[u8] = b"a,b,label\n1,2,1\n3,4,1\n-1,0.5,0\n2,-1,0\n0.5,0.5,1\n";
+
+#[test]
+fn c131_weights_auto_without_holdout_rows() {
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    c.fails(
+        &["pack", "model_2in.json", "--calibration", "rows.csv", "--weights", "auto", "-o", "m.kgl"],
+        &["--weights auto needs --holdout <rows.csv|rows.npy>: held-out rows (not the calibration rows)"],
+    );
+}
+
+#[test]
+fn c132_holdout_rows_that_are_the_calibration_file() {
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "--weights",
+            "auto",
+            "--holdout",
+            "./rows.csv",
+            "-o",
+            "m.kgl",
+        ],
+        &["--holdout ./rows.csv is the calibration file"],
+    );
+}
+
+#[test]
+fn c133_holdout_rows_without_weights_auto() {
+    let c = Case::new()
+        .with("model_2in.json")
+        .with("rows.csv")
+        .put("held.csv", HELD);
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "--holdout",
+            "held.csv",
+            "--holdout-label",
+            "label",
+            "-o",
+            "m.kgl",
+        ],
+        &["--holdout is for --weights auto"],
+    );
+}
+
+/// Runs a search that picks nothing: exit code 1, the closest candidate named on stdout, no
+/// blob written.
+fn search_picks_nothing(extra: &[&str], says: &str) {
+    let c = Case::new()
+        .with("model_2in.json")
+        .with("rows.csv")
+        .put("held.csv", HELD);
+    let mut args = vec![
+        "pack",
+        "model_2in.json",
+        "--calibration",
+        "rows.csv",
+        "--weights",
+        "auto",
+        "--holdout",
+        "held.csv",
+        "--holdout-label",
+        "label",
+        "-o",
+        "m.kgl",
+    ];
+    args.extend_from_slice(extra);
+    let out = c.run(&args);
+    let stdout = String::from_utf8_lossy(&out.stdout);
+    assert_eq!(
+        out.status.code(),
+        Some(1),
+        "{stdout}{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(stdout.contains(says), "{stdout}");
+    assert!(!c.listing().contains("m.kgl"), "a blob was written");
+}
+
+#[test]
+fn c134_no_candidate_within_the_bound() {
+    // A drop of at most -50 pp asks int8 to gain half the rows: nothing can.
+    search_picks_nothing(
+        &["--max-drop=-50"],
+        "no candidate meets the bound; the closest is",
+    );
+}
+
+#[test]
+fn c135_no_candidate_within_the_flash_budget() {
+    search_picks_nothing(
+        &["--flash-budget", "64"],
+        "no candidate fits the flash budget; the smallest within the bound is",
+    );
+}

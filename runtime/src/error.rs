@@ -167,6 +167,11 @@ pub enum FormatError {
     },
     /// An f32 model, and this runtime was built without the `f32` feature (int8 only).
     F32NotBuiltIn,
+    /// A layer with int4 weights, and this runtime was built without the `int4` feature.
+    Int4NotBuiltIn {
+        /// Layer index.
+        layer: u8,
+    },
     /// A pointwise activation's kind byte is not one this reader knows.
     UnknownActivation {
         /// Layer index.
@@ -279,6 +284,10 @@ impl fmt::Display for FormatError {
             ),
             F32NotBuiltIn => f.write_str(
                 "f32 model, but this runtime was built without the `f32` feature (int8 models only)",
+            ),
+            Int4NotBuiltIn { layer } => write!(
+                f,
+                "layer {layer}: int4 weights, but this runtime was built without the `int4` feature"
             ),
             UnknownActivation { layer, kind } => {
                 write!(f, "layer {layer}: unknown activation kind {kind}")

@@ -45,6 +45,8 @@
 //!
 //! - `f32` (default): f32 models. Without it the runtime is int8-only and
 //!   [`Model::parse`] refuses f32 blobs with [`FormatError::F32NotBuiltIn`].
+//! - `int4` (default): int4 weights (`Nibble4x4`, format version 6) and their kernels. Without
+//!   it [`Model::parse`] refuses a blob with an int4 layer with [`FormatError::Int4NotBuiltIn`].
 //! - `defmt`: `defmt::Format` for the error and result types.
 //! - `encode`: the blob encoder, `unstable::encode` (host tools).
 #![cfg_attr(not(test), no_std)]

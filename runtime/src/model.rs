@@ -521,7 +521,11 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
             match layer.layout {
                 WeightLayout::OutputMajor => dense_i8(&p, src, dst),
                 WeightLayout::Blocked4x4 => dense_i8_blocked_auto(&p, src, dst),
-                WeightLayout::Nibble4x4 => crate::dense::dense_i4_auto(&p, src, dst),
+                // Without the `int4` feature `parse` has refused int4 layers.
+                WeightLayout::Nibble4x4 => {
+                    #[cfg(feature = "int4")]
+                    crate::dense::dense_i4_auto(&p, src, dst);
+                }
             }
             Some((q.output_scale, q.output_zero_point))
         }

@@ -132,6 +132,10 @@ fn check_layer(
             l.weights
         }
         WeightLayout::Blocked4x4 => check_blocked(l.weights, inputs, outputs, precision, at)?,
+        // Without the `int4` feature the int4 kernels are not built.
+        WeightLayout::Nibble4x4 if !cfg!(feature = "int4") => {
+            return Err(FormatError::Int4NotBuiltIn { layer: k });
+        }
         // int4 weights belong to int8 models only.
         WeightLayout::Nibble4x4 if precision != Precision::Int8 => {
             return Err(FormatError::PrecisionMismatch { layer: at });
@@ -237,10 +241,14 @@ fn abs_row_sum(w: &[u8], l: WeightLayout, inputs: usize, o: usize) -> i64 {
             .filter_map(|i| w.get(layout::index(o, i, inputs)))
             .map(|&b| i64::from(layout::decode_i8(b).unsigned_abs()))
             .sum(),
+        #[cfg(feature = "int4")]
         WeightLayout::Nibble4x4 => (0..inputs)
             .filter_map(|i| nibble::get(w, o, i, inputs))
             .map(|v| i64::from(v.unsigned_abs()))
             .sum(),
+        // Refused by `check_layer` without the `int4` feature.
+        #[cfg(not(feature = "int4"))]
+        WeightLayout::Nibble4x4 => 0,
     }
 }
 
@@ -448,6 +456,22 @@ mod tests {
                 );
             }
         }
+    }
+
+    /// docs/bad-inputs.md R50 (the refusal is tested with `--no-default-features`).
+    #[test]
+    fn int4_blobs_need_the_int4_feature() {
+        let blob = crate::embed_blob!("../../tests/fixtures/blobs/v6-digits-int4.kgl");
+        let got = crate::Model::parse(blob).map(|_| ());
+        if cfg!(feature = "int4") {
+            assert_eq!(got, Ok(()));
+        } else {
+            assert_eq!(got, Err(E::Int4NotBuiltIn { layer: 0 }));
+        }
+        assert_eq!(
+            E::Int4NotBuiltIn { layer: 0 }.to_string(),
+            "layer 0: int4 weights, but this runtime was built without the `int4` feature"
+        );
     }
 
     #[test]

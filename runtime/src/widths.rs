@@ -211,6 +211,8 @@ mod tests {
                 }
                 // The int8-only build refuses f32 blobs; the widths are still read.
                 Err(crate::FormatError::F32NotBuiltIn) if !cfg!(feature = "f32") => {}
+                // So does a build without `int4` refuse int4 blobs.
+                Err(crate::FormatError::Int4NotBuiltIn { .. }) if !cfg!(feature = "int4") => {}
                 Err(e) => panic!("{e}"),
             }
         }

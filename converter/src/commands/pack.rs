@@ -91,9 +91,12 @@ struct PackJson<'a> {
     calibration: Option<&'a kinglet_converter::report::calibration::CalibrationReport>,
 }
 
-/// `--flash-budget`: bytes or `K`/`M` suffixes, as `kinglet budget --flash`.
+/// `--flash-budget`: bytes or `K`/`M` suffixes, in the size grammar of `kinglet budget` (a
+/// bare number is bytes here, however small: a blob can be a few hundred).
 fn flash_size(s: &str) -> Result<u64, String> {
-    kinglet_converter::fit::size::parse(s, kinglet_converter::fit::MAX_BYTES)
+    kinglet_sizes::parse(s, kinglet_converter::fit::MAX_BYTES)
+        .map(|z| z.bytes)
+        .map_err(|e| e.to_string())
 }
 
 /// What `--max-drop` is compared with.
