@@ -19,18 +19,18 @@ use super::{Code, Measured};
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
     default_build: Code {
-        text: 19908,
+        text: 19568,
         rodata: 1375,
     },
     int8_only: Code {
-        text: 13500,
+        text: 11240,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 10508,
+        text: 8264,
         rodata: 1308,
     },
-    stack_parse: 3288,
+    stack_parse: 1004,
     stack_infer: 640,
     stack_classify: 640,
     model_struct: 628,
@@ -40,18 +40,18 @@ pub const CORTEX_M0: Measured = Measured {
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
     default_build: Code {
-        text: 15876,
+        text: 15516,
         rodata: 1375,
     },
     int8_only: Code {
-        text: 10596,
+        text: 8468,
         rodata: 1316,
     },
     classify_only: Code {
-        text: 9684,
+        text: 7592,
         rodata: 1308,
     },
-    stack_parse: 3212,
+    stack_parse: 952,
     stack_infer: 676,
     stack_classify: 644,
     model_struct: 628,

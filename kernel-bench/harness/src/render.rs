@@ -179,7 +179,7 @@ pub fn results(targets: &[Target], estimates: &[Checked]) -> String {
     unaligned(&mut s, targets);
     estimate_table(&mut s, estimates);
     w!(s, "\nCode size:\n");
-    w!(s, "| target | runtime .text, int8-only build (bytes) | int8-only, `classify` (bytes) | default build with f32 (bytes) | self-check |");
+    w!(s, "| target | runtime .text, int8-only build (bytes) | int8-only, `classify` (bytes) | default build, f32 and int4 (bytes) | self-check |");
     w!(s, "|---|---:|---:|---:|---|");
     for t in targets {
         w!(
