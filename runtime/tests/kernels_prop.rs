@@ -308,6 +308,7 @@ fn one_by_one_and_exact_ties() {
 /// The widest layer the format allows, at the extremes of the sums of `FORMAT.md` §3.5 (every
 /// byte `0x00` or `0xFF`, every input −128 or 127): no sum wraps, the kernels still agree.
 #[test]
+#[cfg_attr(miri, ignore = "a 16384-input layer takes minutes under Miri")]
 fn int4_widest_layer_at_the_extremes() {
     let n = 16_384;
     for (w, x) in [(-8i8, -128i8), (7, -128), (-8, 127), (7, 127)] {
