@@ -102,6 +102,27 @@ impl PackRequest {
         v
     }
 
+    /// The calibration options of an int8 pack of this request.
+    pub fn int8_options(
+        &self,
+        method: RangeMethod,
+        bias_correction: bool,
+        fold_scaler: bool,
+        weights: crate::quantise::weight_bits::LayerBits,
+    ) -> Int8Options {
+        Int8Options {
+            method,
+            bias_correction,
+            fold_scaler: if fold_scaler {
+                FoldScaler::Try
+            } else {
+                FoldScaler::No
+            },
+            sections: self.sections,
+            weights,
+        }
+    }
+
     /// The default output name: the model's stem + `.int8.kgl` or `.f32.kgl`, here.
     pub fn default_out(&self) -> PathBuf {
         let stem = self
@@ -198,17 +219,7 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
             fold_scaler,
             weights,
         } => {
-            let opts = Int8Options {
-                method: *method,
-                bias_correction: *bias_correction,
-                fold_scaler: if *fold_scaler {
-                    FoldScaler::Try
-                } else {
-                    FoldScaler::No
-                },
-                sections: req.sections,
-                weights: *weights,
-            };
+            let opts = req.int8_options(*method, *bias_correction, *fold_scaler, *weights);
             let p = match streamed(&model, model_path, rows, label, opts, progress)? {
                 Some(p) => p,
                 None => {

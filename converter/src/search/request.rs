@@ -7,7 +7,6 @@ use super::overlap::{refuse_same_file, repeated_rows, repeated_warning};
 use super::{search, Candidate, Search, SearchInput};
 use crate::dataset::{LabelColumn, LoadOptions};
 use crate::pack::request::{calibration_rows, prepare, PackRequest, Precision};
-use crate::pack::{FoldScaler, Int8Options};
 use crate::score::feed::{load_rows, Feed};
 use crate::vet::{Criteria, Engine, Gate, How, Parallelism};
 
@@ -84,17 +83,7 @@ pub fn search_pack(
             criteria.min_agreement_pct = Some(DEFAULT_MIN_AGREEMENT_PCT);
         }
     }
-    let options = Int8Options {
-        method: *method,
-        bias_correction: *bias_correction,
-        fold_scaler: if *fold_scaler {
-            FoldScaler::Try
-        } else {
-            FoldScaler::No
-        },
-        sections: req.sections,
-        weights: Default::default(),
-    };
+    let options = req.int8_options(*method, *bias_correction, *fold_scaler, Default::default());
     let warnings = repeated_warning(repeated_rows(&cal, &rows.data), &rows.data)
         .into_iter()
         .collect();
