@@ -60,6 +60,7 @@ GENERATORS = [
     ("tests/python/make_activation_cases.py", "tests/fixtures/activation", None),
     ("tests/python/vet_ref.py", "tests/fixtures/vet", ["digits_sklearn.json", "stats_cases.json"]),
     ("tests/python/calib_ref.py", "tests/fixtures/calib", ["calib_cases.json"]),
+    ("tests/python/sqnr_bound_ref.py", "tests/fixtures/calib", ["digits_sqnr_bound.json"]),
     ("tests/python/int4_ref.py", "tests/fixtures/int4", ["digits_int4.json"]),
     ("tests/python/make_search_cases.py", "tests/fixtures/search", ["mlp_pixels784_div255.onnx", "mlp_pixels784_div255.json"]),
     ("tests/python/search_ref.py", "tests/fixtures/search", ["digits_candidates_sklearn.json"]),

@@ -205,3 +205,91 @@ fn calibration_choices_on_digits_match_the_docs() {
         "docs/vet.md's calibration table is stale; rerun with KINGLET_BLESS=1"
     );
 }
+
+const BOUND_BEGIN: &str = "<!-- sqnr-bound: begin (tests/python/sqnr_bound_ref.py) -->";
+const BOUND_END: &str = "<!-- sqnr-bound: end -->";
+
+/// The numpy simulation of what would meet the SQNR goal
+/// (`tests/fixtures/calib/digits_sqnr_bound.json`, from `tests/python/sqnr_bound_ref.py`): its
+/// first case is the model packed today, and must be the measured report within 0.3 dB per
+/// tensor (a check of the simulation against the runtime, so its other cases can be read as
+/// what the format would give); its table must be the one in docs/vet.md between the
+/// `sqnr-bound` markers (`KINGLET_BLESS=1` rewrites it).
+#[test]
+fn the_sqnr_simulation_matches_the_measured_model_and_the_docs() {
+    let text =
+        std::fs::read_to_string(path("tests/fixtures/calib/digits_sqnr_bound.json")).unwrap();
+    let sim: serde_json::Value = serde_json::from_str(&text).unwrap();
+    let cases = sim["cases"].as_array().unwrap();
+    let first = &cases[0];
+    assert_eq!(first["input"], "int8, one range, calibration min/max");
+    assert_eq!(first["hidden"], "calibration min/max");
+    let measured = vet_with(
+        Int8Options {
+            method: RangeMethod::MinMax,
+            bias_correction: false,
+            fold_scaler: FoldScaler::No,
+            sections: Sections::ALL,
+            weights: Default::default(),
+        },
+        "examples/digits/calibration.csv",
+    );
+    let simulated: Vec<f64> = first["sqnr_db"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_f64().unwrap())
+        .collect();
+    assert_eq!(simulated.len(), measured.fidelity.len());
+    for (k, (s, f)) in simulated.iter().zip(&measured.fidelity).enumerate() {
+        let m = f.sqnr_db.unwrap();
+        assert!(
+            (s - m).abs() <= 0.3,
+            "tensor {k}: simulated {s} dB, measured {m} dB"
+        );
+    }
+
+    let mut t = String::from(
+        "| input tensor | hidden and output ranges | SQNR (dB): input / layer 1 / 2 / 3 | agreement | every tensor ≥ 30 dB |\n\
+         |---|---|---|---|---|\n",
+    );
+    for c in cases {
+        let db: Vec<f64> = c["sqnr_db"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|v| v.as_f64().unwrap())
+            .collect();
+        let (agree, rows) = (c["agree"].as_u64().unwrap(), c["rows"].as_u64().unwrap());
+        t.push_str(&format!(
+            "| {} | {} | {} | {agree} / {rows} | {} |\n",
+            c["input"].as_str().unwrap(),
+            c["hidden"].as_str().unwrap(),
+            db.iter()
+                .map(|d| format!("{d:.1}"))
+                .collect::<Vec<_>>()
+                .join(" / "),
+            if db.iter().all(|&d| d >= GOAL_SQNR_DB) {
+                "yes"
+            } else {
+                "no"
+            }
+        ));
+    }
+    let doc_path = path("docs/vet.md");
+    let doc = std::fs::read_to_string(&doc_path).unwrap();
+    let (Some(b), Some(e)) = (doc.find(BOUND_BEGIN), doc.find(BOUND_END)) else {
+        panic!("docs/vet.md has no {BOUND_BEGIN} … {BOUND_END} block");
+    };
+    let start = b + BOUND_BEGIN.len() + 1;
+    if std::env::var_os("KINGLET_BLESS").is_some() {
+        let new = format!("{}{t}{}", &doc[..start], &doc[e..]);
+        std::fs::write(&doc_path, new).unwrap();
+        return;
+    }
+    assert_eq!(
+        &doc[start..e],
+        t,
+        "docs/vet.md's SQNR bound table is stale; rerun with KINGLET_BLESS=1"
+    );
+}
