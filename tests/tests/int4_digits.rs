@@ -148,3 +148,43 @@ fn int4_pack_against_float_on_held_out_rows() {
         assert!(agree * 10 >= n * 8, "{name}: agreement {agree}/{n}");
     }
 }
+
+/// `inspect`'s instruction estimate counts an int4 layer at the int4 rate: the all-int4 blob's
+/// estimate exceeds the int8 blob's by exactly its padded MACs (64·64 + 64·32 + 32·12) times
+/// `per_mac_int4 − per_mac` of each int8 rate (the rest of the model is the same), and a
+/// model with int4 on layer 2 only by that layer's share. (The rates themselves are checked
+/// against the whole digits model with int4 weights by `scripts/kernel-bench.sh --check`.)
+#[test]
+fn the_instruction_estimate_counts_int4_layers_at_their_rate() {
+    use kinglet_converter::report::cycles::{Weights, RATES};
+    use kinglet_converter::report::inspect::BlobReport;
+    let est = |blob: &[u8]| BlobReport::of(&Model::parse(blob).unwrap()).instruction_estimate;
+    let int8 = est(&pack(LayerBits::default(), Sections::default()));
+    let int4 = est(&pack(LayerBits::all(WeightBits::Int4), Sections::default()));
+    let mixed = est(&pack(
+        LayerBits::parse("0:int8,1:int4,2:int8").unwrap(),
+        Sections::default(),
+    ));
+    let rates: Vec<_> = RATES
+        .iter()
+        .filter(|r| r.weights == Weights::Int8)
+        .collect();
+    assert!(!int8.is_empty() && int8.len() == int4.len() && int8.len() == mixed.len());
+    for ((a, b), c) in int8.iter().zip(&int4).zip(&mixed) {
+        let r = rates
+            .iter()
+            .find(|r| r.target == a.target && r.feed == a.feed)
+            .unwrap();
+        let extra = r.per_mac_int4 - r.per_mac;
+        assert!(extra > 0.0, "{}: int4 costs more per MAC", r.target);
+        let got = b.instructions as f64 - a.instructions as f64;
+        let want = (64.0 * 64.0 + 64.0 * 32.0 + 32.0 * 12.0) * extra;
+        assert!((got - want).abs() <= 1.0, "{}: {got} vs {want}", r.target);
+        let got_mixed = c.instructions as f64 - a.instructions as f64;
+        assert!(
+            (got_mixed - 64.0 * 32.0 * extra).abs() <= 1.0,
+            "{}",
+            r.target
+        );
+    }
+}

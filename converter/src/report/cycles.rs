@@ -11,14 +11,19 @@
 //!
 //! The model: each dense layer costs `per_mac` per multiply-accumulate of its weight matrix
 //! padded to the `Blocked4x4` layout (both widths rounded up to 4: what the kernels loop
-//! over), `per_row` per padded output row, `per_partial_row` more per padded row when the
+//! over; `per_mac_int4` instead for a layer with int4 weights, `Nibble4x4`, padded alike),
+//! `per_row` per padded output row, `per_partial_row` more per padded row when the
 //! input width is not a multiple of 4 (the kernels finish the last, partial group of inputs
 //! apart), `per_input` per padded input (the `128·Σx` correction of the int8 kernels) and
 //! `per_layer`; the rest of an inference costs
 //! `per_feature` per raw input feature (scaling and quantisation), `per_class` per score
 //! (dequantisation, softmax, argmax) and `fixed`. The layer rates are fitted to every
 //! measured layer (two synthetic layers and the examples' layers) and the rest to the whole
-//! models less the estimated layers, by least squares on relative error.
+//! models less the estimated layers, by least squares on relative error; `per_mac_int4` is
+//! `per_mac` plus the difference between the int4 and the int8 kernel's instructions per MAC
+//! on the same 784 → 100 layer (the int4 kernels share the int8 ones' block loop and
+//! requantisation, so only the inner loop differs), and is checked against the whole digits
+//! model with int4 weights.
 use serde::Serialize;
 
 /// How far (relative) the estimate may be from a measured whole-model count: what the
@@ -69,6 +74,8 @@ pub struct Rates {
     pub feed: Feed,
     /// Per multiply-accumulate of the padded weight matrix.
     pub per_mac: f64,
+    /// Per multiply-accumulate of the padded weight matrix of a layer with int4 weights.
+    pub per_mac_int4: f64,
     /// Per padded output row of a layer.
     pub per_row: f64,
     /// Per padded output row more, when the layer's input width is not a multiple of 4.
@@ -124,6 +131,7 @@ pub const RATES: [Rates; 5] = [
         weights: Weights::Int8,
         feed: Feed::F32,
         per_mac: 1.3,
+        per_mac_int4: 1.43,
         per_row: 77.29,
         per_partial_row: 27.3,
         per_input: 9.33,
@@ -138,6 +146,7 @@ pub const RATES: [Rates; 5] = [
         weights: Weights::Int8,
         feed: Feed::Integer,
         per_mac: 1.3,
+        per_mac_int4: 1.43,
         per_row: 77.29,
         per_partial_row: 27.3,
         per_input: 9.33,
@@ -152,6 +161,7 @@ pub const RATES: [Rates; 5] = [
         weights: Weights::F32,
         feed: Feed::F32,
         per_mac: 1.28,
+        per_mac_int4: 1.28,
         per_row: 51.25,
         per_partial_row: 31.48,
         per_input: -3.45,
@@ -166,6 +176,7 @@ pub const RATES: [Rates; 5] = [
         weights: Weights::Int8,
         feed: Feed::F32,
         per_mac: 3.5,
+        per_mac_int4: 4.11,
         per_row: 158.28,
         per_partial_row: 33.02,
         per_input: 13.92,
@@ -180,6 +191,7 @@ pub const RATES: [Rates; 5] = [
         weights: Weights::Int8,
         feed: Feed::Integer,
         per_mac: 3.5,
+        per_mac_int4: 4.11,
         per_row: 158.28,
         per_partial_row: 33.02,
         per_input: 13.92,
@@ -220,20 +232,44 @@ pub struct Latency {
     pub assumption: &'static str,
 }
 
+/// A dense layer as the estimate sees it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Layer {
+    /// Input width.
+    pub inputs: usize,
+    /// Output width.
+    pub outputs: usize,
+    /// Whether its weights are int4 (`Nibble4x4`), which cost [`Rates::per_mac_int4`].
+    pub int4: bool,
+}
+
+impl Layer {
+    /// A layer of int8 (or f32) weights.
+    pub fn new(inputs: usize, outputs: usize) -> Self {
+        Self {
+            inputs,
+            outputs,
+            int4: false,
+        }
+    }
+}
+
 /// `v` rounded up to a multiple of 4 (the `Blocked4x4` padding).
 fn pad4(v: usize) -> f64 {
     v.div_ceil(4) as f64 * 4.0
 }
 
 /// Instructions one inference takes with `rates`, for a model with `features` raw inputs and
-/// `layers` (inputs, outputs) in order.
-pub fn instructions(r: &Rates, features: usize, layers: &[(usize, usize)]) -> f64 {
-    let classes = layers.last().map_or(0, |l| l.1);
+/// `layers` in order.
+pub fn instructions(r: &Rates, features: usize, layers: &[Layer]) -> f64 {
+    let classes = layers.last().map_or(0, |l| l.outputs);
     let dense: f64 = layers
         .iter()
-        .map(|&(i, o)| {
+        .map(|l| {
+            let (i, o) = (l.inputs, l.outputs);
             let partial = if i % 4 == 0 { 0.0 } else { pad4(o) };
-            r.per_mac * pad4(i) * pad4(o)
+            let per_mac = if l.int4 { r.per_mac_int4 } else { r.per_mac };
+            per_mac * pad4(i) * pad4(o)
                 + r.per_row * pad4(o)
                 + r.per_partial_row * partial
                 + r.per_input * pad4(i)
@@ -261,7 +297,7 @@ pub fn estimate(
     rates: &[Rates],
     weights: Weights,
     features: usize,
-    layers: &[(usize, usize)],
+    layers: &[Layer],
     clock_mhz: Option<f64>,
 ) -> Vec<Estimate> {
     rates
@@ -291,6 +327,7 @@ mod tests {
             weights: Weights::Int8,
             feed: Feed::F32,
             per_mac: 2.0,
+            per_mac_int4: 3.0,
             per_row: 10.0,
             per_partial_row: 6.0,
             per_input: 1.0,
@@ -306,15 +343,29 @@ mod tests {
         // 3→5→2, padded 4→8 and 8→4: MACs 32 + 32 (128), rows 8 + 4 (120), partial groups
         // in both layers (3 and 5 inputs: 12 rows, 72), padded inputs 4 + 8 (12), 2 layers
         // (14); 3 features (9), 2 classes (8), fixed 5.
-        let e = estimate(&[rates()], Weights::Int8, 3, &[(3, 5), (5, 2)], None);
+        let e = estimate(
+            &[rates()],
+            Weights::Int8,
+            3,
+            &[Layer::new(3, 5), Layer::new(5, 2)],
+            None,
+        );
         assert_eq!(e.len(), 1);
         assert_eq!(e[0].instructions, 128 + 120 + 72 + 12 + 14 + 9 + 8 + 5);
         // 8 inputs: no partial group. MACs 32 (64), rows 4 (40), inputs 8, layer 7; 8
         // features (24), 4 classes (16), fixed 5.
-        let whole = estimate(&[rates()], Weights::Int8, 8, &[(8, 4)], None)[0].instructions;
+        let whole =
+            estimate(&[rates()], Weights::Int8, 8, &[Layer::new(8, 4)], None)[0].instructions;
         assert_eq!(whole, 64 + 40 + 8 + 7 + 24 + 16 + 5);
+        // The same layer with int4 weights: its 32 MACs at 3 instead of 2 (96).
+        let int4 = Layer {
+            int4: true,
+            ..Layer::new(8, 4)
+        };
+        let w4 = estimate(&[rates()], Weights::Int8, 8, &[int4], None)[0].instructions;
+        assert_eq!(w4, 96 + 40 + 8 + 7 + 24 + 16 + 5);
         assert_eq!(e[0].latency, None);
-        assert!(estimate(&[rates()], Weights::F32, 3, &[(3, 5)], None).is_empty());
+        assert!(estimate(&[rates()], Weights::F32, 3, &[Layer::new(3, 5)], None).is_empty());
     }
 
     #[test]

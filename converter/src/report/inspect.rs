@@ -140,7 +140,11 @@ impl BlobReport {
                 model.input_len(),
                 &model
                     .layers()
-                    .map(|l| (l.desc.inputs as usize, l.desc.outputs as usize))
+                    .map(|l| super::cycles::Layer {
+                        inputs: l.desc.inputs as usize,
+                        outputs: l.desc.outputs as usize,
+                        int4: l.desc.layout == WeightLayout::Nibble4x4,
+                    })
                     .collect::<Vec<_>>(),
                 None,
             )

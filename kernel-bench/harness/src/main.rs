@@ -227,7 +227,7 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
     let ex = p.root.join("examples");
     // The int8 blobs keep the integer input path: the benchmark and stack probes feed them
     // raw i16/u8 samples as well as f32 features.
-    let packs: [(&str, &[&str]); 4] = [
+    let packs: [(&str, &[&str]); 5] = [
         (
             "digits",
             &["--calibration", "digits/calibration.csv", "--integer-input"],
@@ -238,6 +238,16 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
                 "--calibration",
                 "vibration/calibration.csv",
                 "--integer-input",
+            ],
+        ),
+        // int4 weights on every layer, f32 features only: the int4 estimate's whole-model check.
+        (
+            "digits_int4",
+            &[
+                "--calibration",
+                "digits/calibration.csv",
+                "--weights",
+                "int4",
             ],
         ),
         ("digits_float", &["--float"]),
@@ -267,6 +277,7 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
         ("digits", "digits"),
         ("vibration", "vibration"),
         ("digits-f32", "digits_float"),
+        ("digits-i4", "digits_int4"),
         ("vibration-f32", "vibration_float"),
         ("i8-784x100", "i8_784x100.whole"),
         ("i8-64x32", "i8_64x32"),
@@ -281,7 +292,12 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
         let m = kinglet_runtime::Model::parse(&bytes).map_err(|e| format!("{file}: {e}"))?;
         let layers = m
             .layers()
-            .map(|l| (l.desc.inputs as usize, l.desc.outputs as usize))
+            .map(|l| rates::cycles::Layer {
+                inputs: l.desc.inputs as usize,
+                outputs: l.desc.outputs as usize,
+                int4: l.desc.layout
+                    == kinglet_runtime::unstable::wire::format::WeightLayout::Nibble4x4,
+            })
             .collect();
         shapes.insert(
             case.to_string(),

@@ -10,15 +10,15 @@ use std::collections::BTreeMap;
 #[allow(dead_code)]
 pub mod cycles;
 
-use cycles::{Core, Feed, Rates, Weights};
+use cycles::{Core, Feed, Layer, Rates, Weights};
 
 /// A measured model: raw input features and (inputs, outputs) of each layer, read from its blob.
 #[derive(Clone, Debug)]
 pub struct Shape {
     /// Raw input features.
     pub features: usize,
-    /// (inputs, outputs) per layer.
-    pub layers: Vec<(usize, usize)>,
+    /// Each layer's widths and whether its weights are int4.
+    pub layers: Vec<Layer>,
 }
 
 /// The shapes of every model the benchmark runs, by case name (`digits`, `digits-f32`,
@@ -27,6 +27,9 @@ pub type Shapes = BTreeMap<String, Shape>;
 
 /// The whole-model cases of int8 models (`bench`) and of f32 models (`bench_f32`).
 pub const INT8_MODELS: [&str; 5] = ["digits", "vibration", "i8-784x100", "i8-64x32", "i8-18x40"];
+/// The whole-model cases of int8 models with int4 weights (`bench_i4`), checked with the int8
+/// rates (not fitted to: `per_mac_int4` comes from the layer counts).
+pub const INT4_MODELS: [&str; 1] = ["digits-i4"];
 /// The f32 whole-model cases (Cortex-M4F only; `f32-784x100` does not fit the M0).
 pub const F32_MODELS: [&str; 5] = [
     "digits-f32",
@@ -144,7 +147,8 @@ fn layer_rates(t: &Target, shapes: &Shapes, models: &[&str]) -> Result<[f64; 5],
     let mut rows = Vec::new();
     for m in models {
         let s = shape(shapes, m)?;
-        for (k, &(i, o)) in s.layers.iter().enumerate() {
+        for (k, l) in s.layers.iter().enumerate() {
+            let (i, o) = (l.inputs, l.outputs);
             let Some(c) = t.bench.case(&format!("{m}-L{}", k + 1), "layer-kernel") else {
                 continue;
             };
@@ -182,12 +186,26 @@ fn fit(
         (Weights::F32, false) => return Err("f32 rates are fitted on the FPU target only".into()),
     };
     let [per_mac, per_row, per_partial_row, per_input, per_layer] = layers.map(round2);
+    // int4 layers: the int8 rate plus what the int4 inner loop costs more per MAC on the same
+    // layer (the kernels share the block loop and requantisation).
+    let per_mac_int4 = match weights {
+        Weights::Int8 => {
+            let k = |name| {
+                t.bench
+                    .per_mac(name, "kernel")
+                    .ok_or(format!("{}: no {name} kernel count", t.name))
+            };
+            round2(per_mac + k("i4-784x100")? - k("i8-784x100")?)
+        }
+        Weights::F32 => per_mac,
+    };
     let mut r = Rates {
         target,
         core,
         weights,
         feed,
         per_mac,
+        per_mac_int4,
         per_row,
         per_partial_row,
         per_input,
@@ -204,7 +222,7 @@ fn fit(
         let s = shape(shapes, m)?;
         // The layers as estimated (the other rates are still 0 here).
         let rest = c.count as f64 - cycles::instructions(&r, 0, &s.layers);
-        let classes = s.layers.last().map_or(0, |l| l.1) as f64;
+        let classes = s.layers.last().map_or(0, |l| l.outputs) as f64;
         let y = c.count as f64;
         rows.push(([s.features as f64 / y, classes / y, 1.0 / y], rest / y));
     }
@@ -266,7 +284,11 @@ pub fn check(targets: &[Target], shapes: &Shapes, rates: &[Rates]) -> Result<Vec
         let dsp = t.bench.kernel == "dsp";
         let target = if dsp { Core::M4 } else { Core::M0 };
         let mine: Vec<Rates> = rates.iter().copied().filter(|r| r.core == target).collect();
-        for (weights, models) in [(Weights::Int8, &INT8_MODELS), (Weights::F32, &F32_MODELS)] {
+        for (weights, models) in [
+            (Weights::Int8, &INT8_MODELS[..]),
+            (Weights::Int8, &INT4_MODELS[..]),
+            (Weights::F32, &F32_MODELS[..]),
+        ] {
             for m in models {
                 let s = shape(shapes, m)?;
                 for e in cycles::estimate(&mine, weights, s.features, &s.layers, None) {

@@ -390,6 +390,7 @@ pub fn rates(rates: &[Rates]) -> String {
         w!(s, "        feed: Feed::{:?},", r.feed);
         for (name, v) in [
             ("per_mac", r.per_mac),
+            ("per_mac_int4", r.per_mac_int4),
             ("per_row", r.per_row),
             ("per_partial_row", r.per_partial_row),
             ("per_input", r.per_input),
