@@ -188,22 +188,7 @@ fn calibration_choices_on_digits_match_the_docs() {
     let (t, meets) = table();
     eprintln!("{t}");
     assert_eq!(meets.len(), 12);
-    let doc_path = path("docs/vet.md");
-    let doc = std::fs::read_to_string(&doc_path).unwrap();
-    let (Some(b), Some(e)) = (doc.find(BEGIN), doc.find(END)) else {
-        panic!("docs/vet.md has no {BEGIN} … {END} block");
-    };
-    let start = b + BEGIN.len() + 1;
-    let committed = &doc[start..e];
-    if std::env::var_os("KINGLET_BLESS").is_some() {
-        let new = format!("{}{t}{}", &doc[..start], &doc[e..]);
-        std::fs::write(&doc_path, new).unwrap();
-        return;
-    }
-    assert_eq!(
-        committed, t,
-        "docs/vet.md's calibration table is stale; rerun with KINGLET_BLESS=1"
-    );
+    doc_block(BEGIN, END, &t, "calibration table");
 }
 
 const BOUND_BEGIN: &str = "<!-- sqnr-bound: begin (tests/python/sqnr_bound_ref.py) -->";
@@ -234,12 +219,7 @@ fn the_sqnr_simulation_matches_the_measured_model_and_the_docs() {
         },
         "examples/digits/calibration.csv",
     );
-    let simulated: Vec<f64> = first["sqnr_db"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|v| v.as_f64().unwrap())
-        .collect();
+    let simulated = f64s(&first["sqnr_db"]);
     assert_eq!(simulated.len(), measured.fidelity.len());
     for (k, (s, f)) in simulated.iter().zip(&measured.fidelity).enumerate() {
         let m = f.sqnr_db.unwrap();
@@ -254,12 +234,7 @@ fn the_sqnr_simulation_matches_the_measured_model_and_the_docs() {
          |---|---|---|---|---|\n",
     );
     for c in cases {
-        let db: Vec<f64> = c["sqnr_db"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .map(|v| v.as_f64().unwrap())
-            .collect();
+        let db = f64s(&c["sqnr_db"]);
         let (agree, rows) = (c["agree"].as_u64().unwrap(), c["rows"].as_u64().unwrap());
         t.push_str(&format!(
             "| {} | {} | {} | {agree} / {rows} | {} |\n",
@@ -276,20 +251,35 @@ fn the_sqnr_simulation_matches_the_measured_model_and_the_docs() {
             }
         ));
     }
+    doc_block(BOUND_BEGIN, BOUND_END, &t, "SQNR bound table");
+}
+
+/// Checks that docs/vet.md holds `table` between `begin` and `end` (`KINGLET_BLESS=1` writes it
+/// there instead).
+fn doc_block(begin: &str, end: &str, table: &str, what: &str) {
     let doc_path = path("docs/vet.md");
     let doc = std::fs::read_to_string(&doc_path).unwrap();
-    let (Some(b), Some(e)) = (doc.find(BOUND_BEGIN), doc.find(BOUND_END)) else {
-        panic!("docs/vet.md has no {BOUND_BEGIN} … {BOUND_END} block");
+    let (Some(b), Some(e)) = (doc.find(begin), doc.find(end)) else {
+        panic!("docs/vet.md has no {begin} … {end} block");
     };
-    let start = b + BOUND_BEGIN.len() + 1;
+    let start = b + begin.len() + 1;
     if std::env::var_os("KINGLET_BLESS").is_some() {
-        let new = format!("{}{t}{}", &doc[..start], &doc[e..]);
+        let new = format!("{}{table}{}", &doc[..start], &doc[e..]);
         std::fs::write(&doc_path, new).unwrap();
         return;
     }
     assert_eq!(
         &doc[start..e],
-        t,
-        "docs/vet.md's SQNR bound table is stale; rerun with KINGLET_BLESS=1"
+        table,
+        "docs/vet.md's {what} is stale; rerun with KINGLET_BLESS=1"
     );
+}
+
+/// A JSON array of numbers.
+fn f64s(v: &serde_json::Value) -> Vec<f64> {
+    v.as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_f64().unwrap())
+        .collect()
 }
