@@ -70,6 +70,13 @@ fn check_hosts_on(
     let q = Int8Host::new(&pair.int8).unwrap();
     let f = FloatHost::new(&pair.float).unwrap();
     let qb = q.run(data.rows, |r| input_at(data, integers, r)).unwrap();
+    // The portable products (what a host without AVX-512 VNNI runs) give the same batch; on
+    // such a host both are the portable path.
+    let portable = Int8Host::portable(&pair.int8).unwrap();
+    let pb = portable
+        .run(data.rows, |r| input_at(data, integers, r))
+        .unwrap();
+    assert_eq!(pb, qb, "portable and default int8 products differ");
     let fb = if float {
         f.run(&data.features, data.rows).unwrap()
     } else {

@@ -24,6 +24,8 @@ mod input;
 pub mod int8;
 pub mod layers;
 mod product;
+#[cfg(target_arch = "x86_64")]
+mod vnni;
 
 pub use float::{FloatBatch, FloatHost};
 pub use int8::{Int8Batch, Int8Host};
