@@ -11,12 +11,13 @@
 //! earlier layers' differences carry forward. For the 64-input layer of a 64→32→4 model that is
 //! a relative difference below about 10^-5 of the magnitudes summed; reports print SQNR to two
 //! decimals and rates to four, far coarser.
-use kinglet_runtime::unstable::output::{argmax, sigmoid, softmax};
+use kinglet_runtime::unstable::output::{argmax, sigmoid};
 use kinglet_runtime::OutputKind;
 use kinglet_runtime::{Model, Precision, RunError};
 
 use super::layers::FloatLayer;
 use super::product::product;
+use super::softmax::softmax_rows;
 
 /// One f32 tensor of a batch: `rows × width` values.
 #[derive(Debug, Clone, PartialEq)]
@@ -185,27 +186,31 @@ impl FloatHost {
         let last = stages.last().map(|t| t.values.clone()).unwrap_or_default();
         let out_len = self.layers.last().map_or(0, |l| l.outputs);
         let mut scores = last;
+        match self.output {
+            OutputKind::Sigmoid => scores.iter_mut().for_each(|v| *v = sigmoid(*v)),
+            OutputKind::Softmax => softmax_rows(&mut scores, out_len),
+            _ => {}
+        }
         let mut class = Vec::with_capacity(rows);
-        for (r, s) in scores.chunks_exact_mut(out_len.max(1)).enumerate() {
-            if !s.iter().all(|v| v.is_finite()) {
+        for (r, (s, logits)) in scores
+            .chunks_exact(out_len.max(1))
+            .zip(
+                stages
+                    .last()
+                    .map_or(&[][..], |t| &t.values)
+                    .chunks_exact(out_len.max(1)),
+            )
+            .enumerate()
+        {
+            if !logits.iter().all(|v| v.is_finite()) {
                 // A row whose input was refused fails on its input first.
                 if first_error.as_ref().is_none_or(|(e, _)| *e > r) {
                     first_error = Some((r, RunError::NonFiniteOutput));
                 }
             }
             class.push(match self.output {
-                OutputKind::Sigmoid => {
-                    for v in s.iter_mut() {
-                        *v = sigmoid(*v);
-                    }
-                    usize::from(s.first().is_some_and(|&p| p > 0.5))
-                }
-                kind => {
-                    if kind == OutputKind::Softmax {
-                        softmax(s);
-                    }
-                    argmax(s).map_or(0, |(c, _)| c)
-                }
+                OutputKind::Sigmoid => usize::from(s.first().is_some_and(|&p| p > 0.5)),
+                _ => argmax(s).map_or(0, |(c, _)| c),
             });
         }
         match first_error {

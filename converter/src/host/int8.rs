@@ -17,7 +17,7 @@
 //! is not.
 use std::cell::RefCell;
 
-use kinglet_runtime::unstable::output::{argmax, argmax_i8, sigmoid, softmax};
+use kinglet_runtime::unstable::output::{argmax, argmax_i8, sigmoid};
 use kinglet_runtime::unstable::requant::requantise_validated;
 use kinglet_runtime::OutputKind;
 use kinglet_runtime::{Input, Model, Precision, RunError};
@@ -25,6 +25,7 @@ use kinglet_runtime::{Input, Model, Precision, RunError};
 use super::input::{InputQuant, Lane};
 use super::layers::{words, Int8Layer};
 use super::product::Scalar;
+use super::softmax::softmax_rows;
 
 /// Largest dot-product bound an f32 product keeps exact: 2^24.
 const F32_EXACT: u64 = 1 << 24;
@@ -414,31 +415,30 @@ impl Int8Host {
             None => (&[][..], 1.0, 0),
         };
         let mut scores = vec![0f32; rows * out_len];
+        for (v, &q) in scores.iter_mut().zip(last) {
+            *v = (f32::from(q) - f32::from(zp)) * scale;
+        }
+        match self.output {
+            OutputKind::Sigmoid => scores.iter_mut().for_each(|v| *v = sigmoid(*v)),
+            OutputKind::Softmax => softmax_rows(&mut scores, out_len),
+            _ => {}
+        }
         let mut infer_class = Vec::with_capacity(rows);
         let mut classify_class = Vec::with_capacity(rows);
         let mut bytes = Vec::with_capacity(out_len);
         for (s, q) in scores
-            .chunks_exact_mut(out_len.max(1))
+            .chunks_exact(out_len.max(1))
             .zip(last.chunks_exact(out_len.max(1)))
         {
-            for (v, &q) in s.iter_mut().zip(q) {
-                *v = (f32::from(q) - f32::from(zp)) * scale;
-            }
             let (infer, classify) = match self.output {
                 OutputKind::Sigmoid => {
-                    for v in s.iter_mut() {
-                        *v = sigmoid(*v);
-                    }
                     let p = s.first().copied().unwrap_or(0.0);
                     (
                         usize::from(p > 0.5),
                         usize::from(q.first().is_some_and(|&v| v > zp)),
                     )
                 }
-                kind => {
-                    if kind == OutputKind::Softmax {
-                        softmax(s);
-                    }
+                _ => {
                     bytes.clear();
                     bytes.extend(q.iter().map(|&v| v as u8));
                     (argmax(s).map_or(0, |(c, _)| c), argmax_i8(&bytes))

@@ -24,6 +24,7 @@ mod input;
 pub mod int8;
 pub mod layers;
 mod product;
+mod softmax;
 #[cfg(target_arch = "x86_64")]
 mod vnni;
 
