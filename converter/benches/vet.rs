@@ -73,7 +73,7 @@ fn median(mut t: Vec<f64>) -> f64 {
 
 /// The two batched forward passes over every row of `data` (what numpy's pass is compared
 /// with): f32 and int8, batches of `vet::run::BATCH` rows over rayon's threads, as `vet` runs
-/// them. Seconds.
+/// them (the f32 pass as `run_lean`: vet scales an input row where it reads it). Seconds.
 fn passes(fh: &FloatHost, qh: &Int8Host, data: &Dataset) -> f64 {
     passes_of(fh, qh, data, (true, true))
 }
@@ -87,7 +87,7 @@ fn passes_of(fh: &FloatHost, qh: &Int8Host, data: &Dataset, sides: (bool, bool))
         .map(|b| {
             let (start, n) = (b * BATCH, BATCH.min(data.rows - b * BATCH));
             let x = &data.features[start * data.width..(start + n) * data.width];
-            let f = sides.0.then(|| fh.run(x, n).expect("f32 pass"));
+            let f = sides.0.then(|| fh.run_lean(x, n).expect("f32 pass"));
             let q = sides.1.then(|| {
                 qh.run(n, |r| kinglet_runtime::Input::F32(data.row(start + r)))
                     .expect("int8 pass")

@@ -15,6 +15,7 @@ use kinglet_runtime::unstable::output::{argmax, sigmoid};
 use kinglet_runtime::OutputKind;
 use kinglet_runtime::{Model, Precision, RunError};
 
+use super::input::all_finite;
 use super::layers::FloatLayer;
 use super::product::product;
 use super::softmax::softmax_rows;
@@ -57,6 +58,9 @@ pub struct FloatHost {
     /// Scaler offset and scale per feature; `None` without a scaler.
     scaler: Option<(Vec<f32>, Vec<f32>)>,
     layers: Vec<FloatLayer>,
+    /// The first layer's weights with the scaler's scale folded in (`s_i · w_oi`), when the
+    /// scaler's offsets are all zero: that product then reads the raw rows (see [`FloatHost::new`]).
+    folded: Option<Vec<f32>>,
     output: OutputKind,
 }
 
@@ -65,13 +69,14 @@ struct Run<'h> {
     host: &'h FloatHost,
     x: &'h [f32],
     rows: usize,
+    keep_input: bool,
 }
 
 impl pulp::WithSimd for Run<'_> {
     type Output = Result<FloatBatch, (usize, RunError)>;
     #[inline(always)]
     fn with_simd<S: pulp::Simd>(self, _: S) -> Self::Output {
-        self.host.run_vectorised(self.x, self.rows)
+        self.host.run_vectorised(self.x, self.rows, self.keep_input)
     }
 }
 
@@ -89,12 +94,41 @@ impl FloatHost {
                 .map(|i| v.get(i).or(v.first()).copied().unwrap_or(0.0))
                 .collect()
         };
+        let scaler = d.scaler.map(|s| (expand(s.offset), expand(s.scale)));
+        let layers: Vec<FloatLayer> = d.layers.iter().map(FloatLayer::new).collect();
+        // `((x − 0) · s) · w` and `x · (s · w)` differ by at most two roundings per product,
+        // `|x s w| · 2u` (u = 2^-24), which adds 2u to the relative bound of the module docs
+        // (γ_n becomes at most γ_{n+2}). With a nonzero offset, folding it too would subtract
+        // large, nearly equal terms (`x s w − o s w`), so the scaler is then applied as is.
+        let folded = match (&scaler, layers.first()) {
+            (Some((off, sc)), Some(first)) if off.iter().all(|&o| o == 0.0) => Some(
+                first
+                    .weights
+                    .chunks(first.inputs.max(1))
+                    .flat_map(|row| row.iter().zip(sc).map(|(w, s)| s * w))
+                    .collect(),
+            ),
+            _ => None,
+        };
         Some(FloatHost {
             width,
-            scaler: d.scaler.map(|s| (expand(s.offset), expand(s.scale))),
-            layers: d.layers.iter().map(FloatLayer::new).collect(),
+            scaler,
+            layers,
+            folded,
             output: d.output,
         })
+    }
+
+    /// The scaled input of one row, as the runtime's input stage computes it (what
+    /// [`FloatHost::run`] keeps as its first stage), into `out`.
+    pub fn scaled_row(&self, x: &[f32], out: &mut Vec<f32>) {
+        out.clear();
+        match &self.scaler {
+            Some((off, sc)) => {
+                out.extend(x.iter().zip(off).zip(sc).map(|((&v, o), s)| (v - o) * s))
+            }
+            None => out.extend_from_slice(x),
+        }
     }
 
     /// Runs the `rows` rows of row-major `x` (`rows × input_len`). On error, the first failing
@@ -104,11 +138,31 @@ impl FloatHost {
             host: self,
             x,
             rows,
+            keep_input: true,
+        })
+    }
+
+    /// [`FloatHost::run`] without keeping the scaled input where the pass can do without it:
+    /// with no scaler, or one without offsets (its scale is folded into the first layer's
+    /// weights), the first stage's `values` are empty (its `width` is the input's), the rows
+    /// are read by the first product directly and no scaled copy is written;
+    /// [`FloatHost::scaled_row`] gives a row of it when asked. With offsets it is kept.
+    pub fn run_lean(&self, x: &[f32], rows: usize) -> Result<FloatBatch, (usize, RunError)> {
+        super::vectorised(Run {
+            host: self,
+            x,
+            rows,
+            keep_input: false,
         })
     }
 
     #[inline(always)]
-    fn run_vectorised(&self, x: &[f32], rows: usize) -> Result<FloatBatch, (usize, RunError)> {
+    fn run_vectorised(
+        &self,
+        x: &[f32],
+        rows: usize,
+        keep_input: bool,
+    ) -> Result<FloatBatch, (usize, RunError)> {
         let w = self.width;
         if x.len() != rows * w {
             let got = x.len().checked_div(rows).unwrap_or(0);
@@ -122,10 +176,18 @@ impl FloatHost {
         }
         let mut first_error: Option<(usize, RunError)> = None;
         // One pass over the rows scales them and notes whether any value is not finite (its
-        // exponent bits all ones); only then are the refused rows searched for.
+        // exponent bits all ones); only then are the refused rows searched for. A lean pass
+        // that needs no scaled copy only checks.
+        let lean = !keep_input && (self.folded.is_some() || self.scaler.is_none());
         let mut bad = 0u32;
         let mut note = |v: f32| bad |= u32::from(v.to_bits() & 0x7f80_0000 == 0x7f80_0000);
         let input = match &self.scaler {
+            _ if lean => {
+                if !all_finite(x) {
+                    note(f32::NAN);
+                }
+                Vec::new()
+            }
             Some((off, sc)) => {
                 let mut input = Vec::with_capacity(x.len());
                 for row in x.chunks_exact(w.max(1)) {
@@ -152,15 +214,16 @@ impl FloatHost {
             width: w,
             values: input,
         });
-        for layer in &self.layers {
+        for (k, layer) in self.layers.iter().enumerate() {
             let Some(prev) = stages.last() else { break };
-            let mut values = product(
-                &prev.values,
-                &layer.weights,
-                rows,
-                layer.inputs,
-                layer.outputs,
-            );
+            // The first product reads the raw rows where the scale is folded into its weights
+            // or there is no scaler.
+            let (a, weights) = match &self.folded {
+                Some(folded) if k == 0 => (x, folded),
+                None if k == 0 && self.scaler.is_none() => (x, &layer.weights),
+                _ => (prev.values.as_slice(), &layer.weights),
+            };
+            let mut values = product(a, weights, rows, layer.inputs, layer.outputs);
             for row in values.chunks_exact_mut(layer.outputs.max(1)) {
                 for (v, b) in row.iter_mut().zip(&layer.bias) {
                     *v += b;
