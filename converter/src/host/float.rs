@@ -8,9 +8,12 @@
 //! recursive summation, `|ŝ − s| ≤ γ_n · Σ_i |w_i x_i|` with `γ_n = n·u / (1 − n·u)` and
 //! `u = 2^-24` (Higham, "Accuracy and Stability of Numerical Algorithms", 2nd ed., §3.1 and
 //! §4.2), so the two differ by at most `2γ_n · Σ_i |w_i x_i|` per output of a layer, plus what
-//! earlier layers' differences carry forward. For the 64-input layer of a 64→32→4 model that is
-//! a relative difference below about 10^-5 of the magnitudes summed; reports print SQNR to two
-//! decimals and rates to four, far coarser.
+//! earlier layers' differences carry forward. Where the scaler has no offsets, its scale is
+//! folded into the first layer's weights ([`FloatHost::new`]): `x · (s · w)` instead of
+//! `(x · s) · w`, two more roundings per product, so that layer's bound becomes
+//! `(γ_n + γ_{n+2}) · Σ_i |w_i s_i x_i|`, below `2γ_{n+2} · Σ_i |w_i s_i x_i|`. For the 64-input
+//! layer of a 64→32→4 model that is a relative difference below about 10^-5 of the magnitudes
+//! summed; reports print SQNR to two decimals and rates to four, far coarser.
 use kinglet_runtime::unstable::output::{argmax, sigmoid};
 use kinglet_runtime::OutputKind;
 use kinglet_runtime::{Model, Precision, RunError};
@@ -182,12 +185,10 @@ impl FloatHost {
         let mut bad = 0u32;
         let mut note = |v: f32| bad |= u32::from(v.to_bits() & 0x7f80_0000 == 0x7f80_0000);
         let input = match &self.scaler {
-            _ if lean => {
-                if !all_finite(x) {
-                    note(f32::NAN);
-                }
-                Vec::new()
-            }
+            // Checked on the first product's output below: a NaN or infinite input makes every
+            // output of its row NaN or infinite (IEEE 754: NaN and ∞ times any number, zero
+            // included, are NaN or ∞, and stay so through every sum).
+            _ if lean => Vec::new(),
             Some((off, sc)) => {
                 let mut input = Vec::with_capacity(x.len());
                 for row in x.chunks_exact(w.max(1)) {
@@ -224,6 +225,12 @@ impl FloatHost {
                 _ => (prev.values.as_slice(), &layer.weights),
             };
             let mut values = product(a, weights, rows, layer.inputs, layer.outputs);
+            if lean && k == 0 && !all_finite(&values) {
+                first_error = x.chunks_exact(w.max(1)).enumerate().find_map(|(r, row)| {
+                    let i = row.iter().position(|v| !v.is_finite())?;
+                    Some((r, RunError::NonFiniteInput { index: i as u32 }))
+                });
+            }
             for row in values.chunks_exact_mut(layer.outputs.max(1)) {
                 for (v, b) in row.iter_mut().zip(&layer.bias) {
                     *v += b;
@@ -284,6 +291,59 @@ impl FloatHost {
                 scores,
                 class,
             }),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::graph::{Activation, DenseLayer, FloatModel, Scaler, ScalerKind};
+
+    /// A non-finite input is refused by the lean pass as by the full one (and the runtime),
+    /// also where every weight of that feature is zero, with and without a folded scale.
+    #[test]
+    fn lean_pass_refuses_the_same_rows() {
+        for scaler in [
+            None,
+            Some(Scaler {
+                kind: ScalerKind::Affine,
+                offset: vec![0.0; 3],
+                scale: vec![0.5, 0.0, 2.0],
+            }),
+        ] {
+            let model = FloatModel {
+                input_len: 3,
+                scaler,
+                layers: vec![DenseLayer {
+                    inputs: 3,
+                    outputs: 2,
+                    // Feature 1 has only zero weights.
+                    weights: vec![1.0, 0.0, -1.0, 0.5, 0.0, 2.0],
+                    bias: vec![0.0, 0.1],
+                    activation: Activation::Relu,
+                }],
+                output: OutputKind::Softmax,
+                labels: vec![],
+            };
+            let blob = crate::pack::pack_f32(&model).unwrap();
+            let m = Model::parse(&blob).unwrap();
+            let host = FloatHost::new(&m).unwrap();
+            for bad in [f32::NAN, f32::INFINITY, f32::NEG_INFINITY] {
+                let mut x = vec![0.25f32; 3 * 6];
+                x[3 * 4 + 1] = bad;
+                x[3 * 5] = bad;
+                let want = m
+                    .infer(
+                        kinglet_runtime::Input::F32(&x[12..15]),
+                        &mut vec![0u8; m.scratch_bytes()],
+                        &mut [0.0; 2],
+                    )
+                    .unwrap_err();
+                let full = host.run(&x, 6).unwrap_err();
+                assert_eq!(full, (4, want));
+                assert_eq!(host.run_lean(&x, 6).unwrap_err(), full, "{bad}");
+            }
         }
     }
 }

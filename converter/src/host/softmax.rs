@@ -5,8 +5,9 @@
 //! vectorise; over 10,000 rows of ten scores that was a tenth of the batched passes' time.
 //! [`expf`] is the same function (libm 0.2's port of FreeBSD's `e_expf.c`, and its `scalbnf`)
 //! written without branches: every path is computed and the right one selected, with the
-//! same IEEE 754 operations in the same order, so every result is identical (the test below
-//! compares the two on a sweep of every float's exponent range and the edge values).
+//! same IEEE 754 operations in the same order, so every result is identical. The test below
+//! compares the two on a sweep of every float's exponent range and the edge values; a one-off
+//! release-build check of all 2^32 bit patterns against `libm::expf` found no difference.
 //! We keep libm's own function rather than a faster vector approximation so that the int8
 //! scores stay the runtime's exactly.
 
