@@ -73,8 +73,13 @@ fn median(mut t: Vec<f64>) -> f64 {
 
 /// The two batched forward passes over every row of `data` (what numpy's pass is compared
 /// with): f32 and int8, batches of `vet::run::BATCH` rows over rayon's threads, as `vet` runs
-/// them. Seconds.
+/// them (the f32 pass as `run_lean`: vet scales an input row where it reads it). Seconds.
 fn passes(fh: &FloatHost, qh: &Int8Host, data: &Dataset) -> f64 {
+    passes_of(fh, qh, data, (true, true))
+}
+
+/// [`passes`], the f32 and int8 sides each only if asked for (`sides`).
+fn passes_of(fh: &FloatHost, qh: &Int8Host, data: &Dataset, sides: (bool, bool)) -> f64 {
     let t = Instant::now();
     let batches = data.rows.div_ceil(BATCH);
     let sum: usize = (0..batches)
@@ -82,11 +87,13 @@ fn passes(fh: &FloatHost, qh: &Int8Host, data: &Dataset) -> f64 {
         .map(|b| {
             let (start, n) = (b * BATCH, BATCH.min(data.rows - b * BATCH));
             let x = &data.features[start * data.width..(start + n) * data.width];
-            let f = fh.run(x, n).expect("f32 pass");
-            let q = qh
-                .run(n, |r| kinglet_runtime::Input::F32(data.row(start + r)))
-                .expect("int8 pass");
-            f.class.iter().sum::<usize>() + q.infer_class.iter().sum::<usize>()
+            let f = sides.0.then(|| fh.run_lean(x, n).expect("f32 pass"));
+            let q = sides.1.then(|| {
+                qh.run(n, |r| kinglet_runtime::Input::F32(data.row(start + r)))
+                    .expect("int8 pass")
+            });
+            f.map_or(0, |f| f.class.iter().sum::<usize>())
+                + q.map_or(0, |q| q.infer_class.iter().sum::<usize>())
         })
         .sum();
     std::hint::black_box(sum);
@@ -148,7 +155,8 @@ fn main() {
         .blob;
 
     // `cargo bench --bench vet -- passes [N]`: only the two batched forward passes, N times
-    // (default 20), one line of times; no numpy. For a profiler.
+    // (default 20), one line of times, then each side alone and the int8 side on its portable
+    // product; no numpy. For a profiler.
     let args: Vec<String> = std::env::args().skip(1).collect();
     if let Some(at) = args.iter().position(|a| a == "passes") {
         let n = args
@@ -163,12 +171,25 @@ fn main() {
             FloatHost::new(&fm).expect("f32 host"),
             Int8Host::new(&qm).expect("int8 host"),
         );
-        let t: Vec<f64> = (0..n).map(|_| passes(&fh, &qh, &data)).collect();
-        let best = t.iter().copied().fold(f64::INFINITY, f64::min);
-        println!(
-            "passes only: {n} runs, median {:.4} s, best {best:.4} s",
-            median(t)
-        );
+        let portable = Int8Host::portable(&qm).expect("int8 host");
+        let cases: [(&str, &Int8Host, (bool, bool)); 4] = [
+            ("f32 + int8 passes", &qh, (true, true)),
+            ("f32 pass alone", &qh, (true, false)),
+            ("int8 pass alone", &qh, (false, true)),
+            (
+                "int8 pass alone, portable product",
+                &portable,
+                (false, true),
+            ),
+        ];
+        for (name, q, sides) in cases {
+            let t: Vec<f64> = (0..n).map(|_| passes_of(&fh, q, &data, sides)).collect();
+            let best = t.iter().copied().fold(f64::INFINITY, f64::min);
+            println!(
+                "{name:<36} {n} runs, median {:.4} s, best {best:.4} s",
+                median(t)
+            );
+        }
         return;
     }
 

@@ -70,8 +70,30 @@ fn check_hosts_on(
     let q = Int8Host::new(&pair.int8).unwrap();
     let f = FloatHost::new(&pair.float).unwrap();
     let qb = q.run(data.rows, |r| input_at(data, integers, r)).unwrap();
+    // The portable products (what a host without AVX-512 VNNI runs) give the same batch; on
+    // such a host both are the portable path.
+    let portable = Int8Host::portable(&pair.int8).unwrap();
+    let pb = portable
+        .run(data.rows, |r| input_at(data, integers, r))
+        .unwrap();
+    assert_eq!(pb, qb, "portable and default int8 products differ");
     let fb = if float {
-        f.run(&data.features, data.rows).unwrap()
+        let fb = f.run(&data.features, data.rows).unwrap();
+        // The lean pass (what `vet` runs) gives the same batch, its input stage row by row.
+        let lean = f.run_lean(&data.features, data.rows).unwrap();
+        assert_eq!(
+            (&lean.stages[1..], &lean.scores, &lean.class),
+            (&fb.stages[1..], &fb.scores, &fb.class)
+        );
+        let mut row = Vec::new();
+        for r in 0..data.rows {
+            f.scaled_row(data.row(r), &mut row);
+            assert_eq!(row, fb.stages[0].row(r), "scaled row {r}");
+            if !lean.stages[0].values.is_empty() {
+                assert_eq!(lean.stages[0].row(r), fb.stages[0].row(r), "lean row {r}");
+            }
+        }
+        fb
     } else {
         FloatBatch {
             rows: 0,
@@ -159,7 +181,7 @@ fn model_strategy() -> impl Strategy<Value = (FloatModel, Vec<i16>, usize)> {
         1usize..10,
         prop::collection::vec(1usize..9, 1..4),
         0u8..3,
-        0u8..3,
+        0u8..4,
     )
         .prop_flat_map(|(inputs, hidden, output, scaler)| {
             let mut widths = vec![inputs];
@@ -204,9 +226,15 @@ fn model_strategy() -> impl Strategy<Value = (FloatModel, Vec<i16>, usize)> {
                     offset: vec![3.0],
                     scale: vec![0.01],
                 }),
-                _ => Some(Scaler {
+                2 => Some(Scaler {
                     kind: ScalerKind::Affine,
                     offset: (0..n).map(|i| i as f32 * 7.0).collect(),
+                    scale: sc.iter().map(|s| s * 0.01).collect(),
+                }),
+                // No offsets: the f32 pass folds the scales into the first layer.
+                _ => Some(Scaler {
+                    kind: ScalerKind::Affine,
+                    offset: vec![0.0; n],
                     scale: sc.iter().map(|s| s * 0.01).collect(),
                 }),
             };

@@ -37,6 +37,27 @@ pub(crate) fn quantise(y: f32, scale: f32, zero_point: i32) -> i8 {
     (r + zero_point).clamp(-128, 127) as i8
 }
 
+/// How the int8 pass's first product takes a quantised input value: as f32 (the portable
+/// product) or as the unsigned byte `q ^ 0x80` (`host::vnni`).
+pub(crate) trait Lane: Copy + Default {
+    /// `q` in this form.
+    fn of(q: i8) -> Self;
+}
+
+impl Lane for f32 {
+    #[inline(always)]
+    fn of(q: i8) -> f32 {
+        f32::from(q)
+    }
+}
+
+impl Lane for u8 {
+    #[inline(always)]
+    fn of(q: i8) -> u8 {
+        q as u8 ^ 0x80
+    }
+}
+
 /// The int8 input quantisation of a blob, per feature.
 #[derive(Debug, Clone)]
 pub(crate) struct InputQuant {
@@ -50,14 +71,14 @@ pub(crate) struct InputQuant {
 }
 
 impl InputQuant {
-    /// Quantises one row of floats into `dst` (and its values as f32 into `wide`), as the
+    /// Quantises one row of floats into `dst` (and its values as [`Lane`]s into `wide`), as the
     /// runtime's input stage: the first non-finite feature is refused.
     #[inline(always)]
-    pub(crate) fn floats(
+    pub(crate) fn floats<L: Lane>(
         &self,
         v: &[f32],
         dst: &mut [i8],
-        wide: &mut [f32],
+        wide: &mut [L],
     ) -> Result<(), RunError> {
         if !all_finite(v) {
             let i = v.iter().position(|x| !x.is_finite()).unwrap_or(0);
@@ -68,18 +89,18 @@ impl InputQuant {
         for (((d, w), &x), (off, sc)) in dst.iter_mut().zip(wide.iter_mut()).zip(v).zip(params) {
             let q = quantise((x - off) * sc, qs, zp);
             *d = q;
-            *w = f32::from(q);
+            *w = L::of(q);
         }
         Ok(())
     }
 
     /// Quantises one row of integers through the integer input path.
     #[inline(always)]
-    pub(crate) fn integers<T: Copy + Into<i32>>(
+    pub(crate) fn integers<T: Copy + Into<i32>, L: Lane>(
         &self,
         v: &[T],
         dst: &mut [i8],
-        wide: &mut [f32],
+        wide: &mut [L],
     ) -> Result<(), RunError> {
         // A blob without the integer input path (version 5, `FORMAT.md` §3.4), as the runtime.
         if self.integer.is_empty() {
@@ -92,7 +113,7 @@ impl InputQuant {
         {
             let q = quantise_integer(x.into(), m, a, s);
             *d = q;
-            *w = f32::from(q);
+            *w = L::of(q);
         }
         Ok(())
     }

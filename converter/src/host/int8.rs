@@ -11,20 +11,26 @@
 //! below 2^53. The exact integer is then added to the bias and requantised by the runtime's own
 //! [`requantise_validated`], so every output byte is the runtime's.
 //!
-//! We use a matrix-multiplication crate (`faer`, `host::product`) rather than a hand-written
-//! i8 × i8 → i32 loop: it is cache-blocked and vectorised for the host at run time (AVX-512,
-//! AVX2 and FMA where present), which plain safe Rust compiled for the baseline x86-64 target
-//! is not.
+//! Where the CPU has AVX-512 VNNI, the products run instead on `host::vnni`'s integer kernel
+//! (u8 × i8 → i32 multiply-adds, exact in wrapping i32; see there), about four times the f32
+//! product's multiply rate; [`Int8Host::portable`] keeps the floating-point products, which
+//! are also what every other host and Miri run.
+//!
+//! For the portable path we use a matrix-multiplication crate (`faer`, `host::product`) rather
+//! than a hand-written i8 × i8 → i32 loop: it is cache-blocked and vectorised for the host at
+//! run time (AVX-512, AVX2 and FMA where present), which plain safe Rust compiled for the
+//! baseline x86-64 target is not.
 use std::cell::RefCell;
 
-use kinglet_runtime::unstable::output::{argmax, argmax_i8, sigmoid, softmax};
+use kinglet_runtime::unstable::output::{argmax, argmax_i8, sigmoid};
 use kinglet_runtime::unstable::requant::requantise_validated;
 use kinglet_runtime::OutputKind;
 use kinglet_runtime::{Input, Model, Precision, RunError};
 
-use super::input::InputQuant;
+use super::input::{InputQuant, Lane};
 use super::layers::{words, Int8Layer};
 use super::product::Scalar;
+use super::softmax::softmax_rows;
 
 /// Largest dot-product bound an f32 product keeps exact: 2^24.
 const F32_EXACT: u64 = 1 << 24;
@@ -73,11 +79,53 @@ pub struct Int8Batch {
     pub classify_class: Vec<usize>,
 }
 
-/// A layer's weights in the number type its product runs in (see the module docs).
+/// A layer's weights in the form its product runs in (see the module docs).
 #[derive(Debug, Clone)]
 enum Wide {
     F32(Vec<f32>),
     F64(Vec<f64>),
+    /// Packed for the AVX-512 VNNI kernel, with the biases less the kernel's input shift
+    /// (`bias − 128 · Σ_i w_oi`, wrapping).
+    #[cfg(target_arch = "x86_64")]
+    Vnni(super::vnni::Packed, Vec<i32>),
+}
+
+impl Wide {
+    /// The portable exact product for `layer` (see the module docs).
+    fn portable(l: &Int8Layer) -> Self {
+        if l.dot_bound() <= F32_EXACT {
+            Wide::F32(l.weights.iter().map(|&v| f32::from(v)).collect())
+        } else {
+            Wide::F64(l.weights.iter().map(|&v| f64::from(v)).collect())
+        }
+    }
+
+    /// The VNNI kernel's form where this CPU has it (and `vnni`), else the portable one.
+    fn new(l: &Int8Layer, vnni: bool) -> Self {
+        #[cfg(target_arch = "x86_64")]
+        if vnni {
+            if let Some(p) = super::vnni::Packed::new(&l.weights, l.inputs, l.outputs) {
+                let bias = l
+                    .bias
+                    .iter()
+                    .zip(p.shift_sum())
+                    .map(|(&b, &c)| b.wrapping_sub(c))
+                    .collect();
+                return Wide::Vnni(p, bias);
+            }
+        }
+        let _ = vnni;
+        Wide::portable(l)
+    }
+
+    /// Bytes per row of the VNNI kernel's input; `None` for the portable products.
+    fn vnni_stride(&self) -> Option<usize> {
+        match self {
+            #[cfg(target_arch = "x86_64")]
+            Wide::Vnni(p, _) => Some(p.stride()),
+            _ => None,
+        }
+    }
 }
 
 /// An int8 blob read for batched evaluation.
@@ -105,6 +153,9 @@ fn per_feature(bytes: Option<&[u8]>, width: usize, default: f32) -> Vec<f32> {
 #[derive(Default)]
 struct Scratch {
     wide_input: Vec<f32>,
+    /// The VNNI kernel's input (`q ^ 0x80`, rows padded) and output.
+    unsigned: Vec<u8>,
+    acc_i32: Vec<i32>,
     acc32: Vec<f32>,
     acc64: Vec<f64>,
     in32: Vec<f32>,
@@ -140,8 +191,19 @@ impl<'a, F: Fn(usize) -> Input<'a>> pulp::WithSimd for Run<'_, F> {
 }
 
 impl Int8Host {
-    /// Reads `model`; `None` unless it is an int8 blob.
+    /// Reads `model`; `None` unless it is an int8 blob. Its products run on the AVX-512 VNNI
+    /// kernel (`host::vnni`) where the CPU has it, else on the portable exact product.
     pub fn new(model: &Model<'_>) -> Option<Self> {
+        Self::with_kernels(model, true)
+    }
+
+    /// [`Int8Host::new`] with the portable products only, whatever the CPU (what a host
+    /// without AVX-512 VNNI runs): for tests and benchmarks of that path.
+    pub fn portable(model: &Model<'_>) -> Option<Self> {
+        Self::with_kernels(model, false)
+    }
+
+    fn with_kernels(model: &Model<'_>, vnni: bool) -> Option<Self> {
         if model.precision() != Precision::Int8 {
             return None;
         }
@@ -173,16 +235,7 @@ impl Int8Host {
             .iter()
             .map(Int8Layer::new)
             .collect::<Option<Vec<_>>>()?;
-        let wide = layers
-            .iter()
-            .map(|l| {
-                if l.dot_bound() <= F32_EXACT {
-                    Wide::F32(l.weights.iter().map(|&v| f32::from(v)).collect())
-                } else {
-                    Wide::F64(l.weights.iter().map(|&v| f64::from(v)).collect())
-                }
-            })
-            .collect();
+        let wide = layers.iter().map(|l| Wide::new(l, vnni)).collect();
         Some(Int8Host {
             width,
             input: InputQuant {
@@ -198,9 +251,14 @@ impl Int8Host {
         })
     }
 
-    /// Quantises one row into `dst` (and as f32 into `wide`), as the runtime's input stage.
+    /// Quantises one row into `dst` (and as [`Lane`]s into `wide`), as the runtime's input stage.
     #[inline(always)]
-    fn load_row(&self, input: Input<'_>, dst: &mut [i8], wide: &mut [f32]) -> Result<(), RunError> {
+    fn load_row<L: Lane>(
+        &self,
+        input: Input<'_>,
+        dst: &mut [i8],
+        wide: &mut [L],
+    ) -> Result<(), RunError> {
         match input {
             Input::F32(v) => self.input.floats(v, dst, wide),
             Input::I16(v) => self.input.integers(v, dst, wide),
@@ -230,19 +288,20 @@ impl Int8Host {
         })
     }
 
+    /// Quantises `rows` rows (row `r` is `input(r)`) into `values` (`rows × width`) and, as
+    /// [`Lane`]s, into `wide` (`rows × stride`, `stride ≥ width`).
     #[inline(always)]
-    fn run_with<'a>(
+    fn load_rows<'a, L: Lane>(
         &self,
-        rows: usize,
         input: impl Fn(usize) -> Input<'a>,
-        scratch: &mut Scratch,
-    ) -> Result<Int8Batch, (usize, RunError)> {
+        values: &mut [i8],
+        wide: &mut [L],
+        stride: usize,
+    ) -> Result<(), (usize, RunError)> {
         let w = self.width;
-        let mut values = vec![0i8; rows * w];
-        let wide = sized(&mut scratch.wide_input, rows * w);
         for (r, (dst, wd)) in values
             .chunks_exact_mut(w.max(1))
-            .zip(wide.chunks_exact_mut(w.max(1)))
+            .zip(wide.chunks_exact_mut(stride.max(1)))
             .enumerate()
         {
             let row = input(r);
@@ -261,6 +320,30 @@ impl Int8Host {
                 ));
             }
             self.load_row(row, dst, wd).map_err(|e| (r, e))?;
+        }
+        Ok(())
+    }
+
+    #[inline(always)]
+    fn run_with<'a>(
+        &self,
+        rows: usize,
+        input: impl Fn(usize) -> Input<'a>,
+        scratch: &mut Scratch,
+    ) -> Result<Int8Batch, (usize, RunError)> {
+        let w = self.width;
+        let mut values = vec![0i8; rows * w];
+        // The first product's input is written while quantising: as unsigned bytes for the
+        // VNNI kernel, as f32 for the portable one (no second pass over the rows).
+        match self.wide.first().and_then(Wide::vnni_stride) {
+            Some(stride) => {
+                let wide = sized(&mut scratch.unsigned, rows * stride);
+                self.load_rows(input, &mut values, wide, stride)?;
+            }
+            None => {
+                let wide = sized(&mut scratch.wide_input, rows * w);
+                self.load_rows(input, &mut values, wide, w)?;
+            }
         }
         let mut stages = Vec::with_capacity(self.layers.len() + 1);
         stages.push(Int8Tensor {
@@ -284,7 +367,8 @@ impl Int8Host {
                         a
                     };
                     let acc = sized(&mut scratch.acc32, rows * layer.outputs);
-                    dense(layer, a, wt, rows, acc, |v| v as i32)
+                    dots(layer, a, wt, rows, acc);
+                    requantise(layer, acc, &layer.bias, |v| v as i32)
                 }
                 Wide::F64(wt) => {
                     let a = sized(&mut scratch.in64, n);
@@ -292,9 +376,30 @@ impl Int8Host {
                         *d = f64::from(v);
                     }
                     let acc = sized(&mut scratch.acc64, rows * layer.outputs);
+                    dots(layer, a, wt, rows, acc);
                     // `Model::parse` proved `bias + dot` fits in i32; the kernels add in
                     // wrapping i32.
-                    dense(layer, a, wt, rows, acc, |v| v as i64 as i32)
+                    requantise(layer, acc, &layer.bias, |v| v as i64 as i32)
+                }
+                #[cfg(target_arch = "x86_64")]
+                Wide::Vnni(p, bias) => {
+                    let stride = p.stride();
+                    if k > 0 {
+                        let u = sized(&mut scratch.unsigned, rows * stride);
+                        for (d, s) in u
+                            .chunks_exact_mut(stride.max(1))
+                            .zip(prev.values.chunks_exact(layer.inputs.max(1)))
+                        {
+                            for (d, &v) in d.iter_mut().zip(s) {
+                                *d = u8::of(v);
+                            }
+                        }
+                    }
+                    let u = scratch.unsigned.get(..rows * stride).unwrap_or(&[]);
+                    let acc = sized(&mut scratch.acc_i32, rows * layer.outputs);
+                    p.product(u, rows, acc);
+                    // `bias` has the kernel's input shift taken off (see `host::vnni`).
+                    requantise(layer, acc, bias, |v| v)
                 }
             };
             stages.push(Int8Tensor {
@@ -315,31 +420,30 @@ impl Int8Host {
             None => (&[][..], 1.0, 0),
         };
         let mut scores = vec![0f32; rows * out_len];
+        for (v, &q) in scores.iter_mut().zip(last) {
+            *v = (f32::from(q) - f32::from(zp)) * scale;
+        }
+        match self.output {
+            OutputKind::Sigmoid => scores.iter_mut().for_each(|v| *v = sigmoid(*v)),
+            OutputKind::Softmax => softmax_rows(&mut scores, out_len),
+            _ => {}
+        }
         let mut infer_class = Vec::with_capacity(rows);
         let mut classify_class = Vec::with_capacity(rows);
         let mut bytes = Vec::with_capacity(out_len);
         for (s, q) in scores
-            .chunks_exact_mut(out_len.max(1))
+            .chunks_exact(out_len.max(1))
             .zip(last.chunks_exact(out_len.max(1)))
         {
-            for (v, &q) in s.iter_mut().zip(q) {
-                *v = (f32::from(q) - f32::from(zp)) * scale;
-            }
             let (infer, classify) = match self.output {
                 OutputKind::Sigmoid => {
-                    for v in s.iter_mut() {
-                        *v = sigmoid(*v);
-                    }
                     let p = s.first().copied().unwrap_or(0.0);
                     (
                         usize::from(p > 0.5),
                         usize::from(q.first().is_some_and(|&v| v > zp)),
                     )
                 }
-                kind => {
-                    if kind == OutputKind::Softmax {
-                        softmax(s);
-                    }
+                _ => {
                     bytes.clear();
                     bytes.extend(q.iter().map(|&v| v as u8));
                     (argmax(s).map_or(0, |(c, _)| c), argmax_i8(&bytes))
@@ -363,27 +467,25 @@ fn dots<T: Scalar>(layer: &Int8Layer, x: &[T], w: &[T], rows: usize, acc: &mut [
     T::product_into(x, w, rows, layer.inputs, layer.outputs, acc);
 }
 
-/// One int8 layer over the batch: exact dot products (`a`, the input as `T`; `w`, the weights
-/// as `T`; `acc`, room for the products), bias, the runtime's requantisation. `exact` turns an
-/// exact product into its integer.
+/// One int8 layer's outputs over the batch from its exact dot products `acc` (`exact` turns
+/// one into its integer): `bias` added in wrapping i32, the runtime's requantisation, then a
+/// pointwise table if the layer has one.
 #[inline(always)]
-fn dense<T: Scalar>(
+fn requantise<T: Copy>(
     layer: &Int8Layer,
-    a: &[T],
-    w: &[T],
-    rows: usize,
-    acc: &mut [T],
+    acc: &[T],
+    bias: &[i32],
     exact: impl Fn(T) -> i32,
 ) -> Vec<i8> {
     let m = layer.outputs;
-    dots(layer, a, w, rows, acc);
+    let rows = acc.len().checked_div(m).unwrap_or(0);
     let mut values = vec![0i8; rows * m];
     let (zp, lo, hi) = (layer.requant_zero_point, layer.act_min, layer.act_max);
     for (out, acc) in values
         .chunks_exact_mut(m.max(1))
         .zip(acc.chunks_exact(m.max(1)))
     {
-        let params = layer.bias.iter().zip(&layer.multiplier).zip(&layer.shift);
+        let params = bias.iter().zip(&layer.multiplier).zip(&layer.shift);
         for ((o, &a), ((&b, &mult), &shift)) in out.iter_mut().zip(acc).zip(params) {
             // `Model::parse` proved `bias + dot` fits in i32; the kernels add in wrapping i32.
             let sum = exact(a).wrapping_add(b);

@@ -4,18 +4,24 @@
 //!
 //! - [`layers`] reads each layer of a validated blob into plain matrices;
 //! - [`int8`] runs an int8 blob: its results are the runtime's bit for bit (every tensor,
-//!   score and class), because the integer dot products are computed exactly (see there);
+//!   score and class), because the integer dot products are computed exactly (see there):
+//!   by `vnni`, an AVX-512 VNNI kernel chosen at run time (the crate's one module with
+//!   `unsafe`), or else by an f32/f64 matrix product whose partial sums are exact integers;
 //! - [`float`] runs an f32 blob through a matrix-multiplication crate: it sums each dot
-//!   product in another order than the runtime's kernels, so its values may differ from the
-//!   runtime's in the last bits (see there for the bound);
-//! - `product` is the one matrix product both use (`faer`), `input` the int8 input stage in
-//!   loops that vectorise.
+//!   product in another order than the runtime's kernels, and may fold an offset-free input
+//!   scale into the first layer's weights, so its values may differ from the runtime's in the
+//!   last bits (see there for the bound);
+//! - `product` is the matrix product both use (`faer`), `input` the int8 input stage in
+//!   loops that vectorise, `softmax` the runtime's softmax over a whole batch (libm's `expf`
+//!   without branches, bit for bit).
 //!
 //! Speed (`converter/benches/vet.rs`, `BENCHMARKS.md`): each pass runs inside `vectorised`,
 //! so that its per-element loops are compiled for AVX-512 or AVX2 where the host has them; the
-//! int8 pass multiplies the f32 copy of its input it wrote while quantising (no second
-//! conversion), keeps each layer's weights in the product's number type from [`Int8Host::new`]
-//! on, and reuses one thread's buffers from batch to batch.
+//! int8 pass writes its first product's input (unsigned bytes for the VNNI kernel, f32 for the
+//! portable product) while quantising, keeps each layer's weights in the product's form from
+//! [`Int8Host::new`] on, and reuses one thread's buffers from batch to batch; the f32 pass
+//! run by `vet` ([`FloatHost::run_lean`]) does not write a scaled copy of the rows where the
+//! scale can be folded.
 //!
 //! `kinglet vet` uses these by default; its `--per-row` flag runs every row through
 //! [`kinglet_runtime::Model::infer_traced`] instead.
@@ -24,6 +30,9 @@ mod input;
 pub mod int8;
 pub mod layers;
 mod product;
+mod softmax;
+#[cfg(target_arch = "x86_64")]
+mod vnni;
 
 pub use float::{FloatBatch, FloatHost};
 pub use int8::{Int8Batch, Int8Host};

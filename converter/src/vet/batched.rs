@@ -49,10 +49,20 @@ fn first_failure(
     })
 }
 
-/// Per-row outcomes of one batch of both sides; `raw` holds the batch's raw rows when the int8
-/// input tensor is compared with them instead of the float model's scaled input.
-fn outcomes(f: &FloatBatch, q: &Int8Batch, entry: Entry, raw: Option<&[f32]>) -> Vec<RowOutcome> {
+/// Per-row outcomes of one batch of both sides (`x`, the batch's raw rows; `f`, from
+/// [`FloatHost::run_lean`], whose input stage `host` scales row by row here if it was not
+/// kept); `raw` when the int8 input tensor is compared with the raw row instead of the float
+/// model's scaled input.
+fn outcomes(
+    host: &FloatHost,
+    f: &FloatBatch,
+    q: &Int8Batch,
+    entry: Entry,
+    x: &[f32],
+    raw: bool,
+) -> Vec<RowOutcome> {
     let out_len = f.scores.len().checked_div(f.rows).unwrap_or(0);
+    let mut scaled = Vec::new();
     (0..f.rows)
         .map(|r| {
             let energy = f
@@ -64,8 +74,12 @@ fn outcomes(f: &FloatBatch, q: &Int8Batch, entry: Entry, raw: Option<&[f32]>) ->
                     let mut e = Energy::default();
                     let bounds = int8_bounds(qs.scale, qs.zero_point);
                     let w = qs.width;
-                    let float_row = match raw {
-                        Some(x) if k == 0 => x.get(r * w..(r + 1) * w).unwrap_or(&[]),
+                    let float_row = match k {
+                        0 if raw => x.get(r * w..(r + 1) * w).unwrap_or(&[]),
+                        0 if fs.values.is_empty() => {
+                            host.scaled_row(x.get(r * w..(r + 1) * w).unwrap_or(&[]), &mut scaled);
+                            &scaled
+                        }
                         _ => fs.row(r),
                     };
                     for (i, &v) in float_row.iter().enumerate() {
@@ -106,12 +120,19 @@ fn run_batch(
         .features
         .get(start * w..(start + rows) * w)
         .unwrap_or(&[]);
-    let f = hosts.float.run(x, rows);
+    let f = hosts.float.run_lean(x, rows);
     let q = hosts
         .int8
         .run(rows, |r| input_at(fed.data, fed.integers, start + r));
     match (f, q) {
-        (Ok(f), Ok(q)) => Ok(outcomes(&f, &q, fed.entry, hosts.raw_input.then_some(x))),
+        (Ok(f), Ok(q)) => Ok(outcomes(
+            &hosts.float,
+            &f,
+            &q,
+            fed.entry,
+            x,
+            hosts.raw_input,
+        )),
         (f, q) => match first_failure(f.err(), q.err(), start) {
             Some(e) => Err(e),
             None => Ok(Vec::new()),
