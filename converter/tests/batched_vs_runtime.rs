@@ -240,7 +240,7 @@ fn model_strategy() -> impl Strategy<Value = (FloatModel, Vec<i16>, usize)> {
     (
         1usize..10,
         prop::collection::vec(1usize..9, 1..4),
-        0u8..3,
+        0u8..4,
         0u8..4,
     )
         .prop_flat_map(|(inputs, hidden, output, scaler)| {
@@ -305,6 +305,7 @@ fn model_strategy() -> impl Strategy<Value = (FloatModel, Vec<i16>, usize)> {
                 output: match output {
                     0 => OutputKind::Softmax,
                     1 => OutputKind::Sigmoid,
+                    2 => OutputKind::OneVsRest,
                     _ => OutputKind::Logits,
                 },
                 labels: vec![],

@@ -21,7 +21,7 @@ use kinglet_runtime::{Model, Precision, RunError};
 use super::input::all_finite;
 use super::layers::FloatLayer;
 use super::product::product;
-use super::softmax::softmax_rows;
+use super::softmax::{one_vs_rest_rows, softmax_rows};
 
 /// One f32 tensor of a batch: `rows × width` values.
 #[derive(Debug, Clone, PartialEq)]
@@ -259,7 +259,8 @@ impl FloatHost {
         match self.output {
             OutputKind::Sigmoid => scores.iter_mut().for_each(|v| *v = sigmoid(*v)),
             OutputKind::Softmax => softmax_rows(&mut scores, out_len),
-            _ => {}
+            OutputKind::OneVsRest => one_vs_rest_rows(&mut scores, out_len),
+            OutputKind::Logits => {}
         }
         let mut class = Vec::with_capacity(rows);
         for (r, (s, logits)) in scores

@@ -30,7 +30,7 @@ use kinglet_runtime::{Input, Model, Precision, RunError};
 use super::input::{InputQuant, Lane};
 use super::layers::{words, Int8Layer};
 use super::product::Scalar;
-use super::softmax::softmax_rows;
+use super::softmax::{one_vs_rest_rows, softmax_rows};
 
 /// Largest dot-product bound an f32 product keeps exact: 2^24.
 const F32_EXACT: u64 = 1 << 24;
@@ -426,7 +426,8 @@ impl Int8Host {
         match self.output {
             OutputKind::Sigmoid => scores.iter_mut().for_each(|v| *v = sigmoid(*v)),
             OutputKind::Softmax => softmax_rows(&mut scores, out_len),
-            _ => {}
+            OutputKind::OneVsRest => one_vs_rest_rows(&mut scores, out_len),
+            OutputKind::Logits => {}
         }
         let mut infer_class = Vec::with_capacity(rows);
         let mut classify_class = Vec::with_capacity(rows);

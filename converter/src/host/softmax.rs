@@ -70,6 +70,23 @@ pub(crate) fn expf(x: f32) -> f32 {
     }
 }
 
+/// The runtime's one-vs-rest probabilities on every `width`-long row of `scores`, in place,
+/// through the runtime's own functions (so the results are its bit for bit): `one_vs_rest`,
+/// and `softmax` for a row whose scores are all below −80, as `Model::infer` does. Rows of this
+/// output are rare enough in a batch's time (scikit-learn's one-vs-rest models) that the
+/// scalar path is kept.
+pub(crate) fn one_vs_rest_rows(scores: &mut [f32], width: usize) {
+    use kinglet_runtime::unstable::output::{one_vs_rest, softmax};
+    if width == 0 {
+        return;
+    }
+    for row in scores.chunks_exact_mut(width) {
+        if !one_vs_rest(row) {
+            softmax(row);
+        }
+    }
+}
+
 /// The runtime's `softmax` on every `width`-long row of `scores`, in place: the same maximum,
 /// the same `expf` (above), the same sums and products in the same order.
 #[inline(always)]
