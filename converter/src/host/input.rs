@@ -80,16 +80,20 @@ impl InputQuant {
         dst: &mut [i8],
         wide: &mut [L],
     ) -> Result<(), RunError> {
-        if !all_finite(v) {
-            let i = v.iter().position(|x| !x.is_finite()).unwrap_or(0);
-            return Err(RunError::NonFiniteInput { index: i as u32 });
-        }
         let (qs, zp) = (self.quant_scale, i32::from(self.zero_point));
         let params = self.offset.iter().zip(&self.scale);
+        // The finiteness check rides along (exponent bits all ones), so the row is read once;
+        // a refused row's outputs are left half written, as the caller drops them.
+        let mut bad = 0u32;
         for (((d, w), &x), (off, sc)) in dst.iter_mut().zip(wide.iter_mut()).zip(v).zip(params) {
+            bad |= u32::from(x.to_bits() & 0x7f80_0000 == 0x7f80_0000);
             let q = quantise((x - off) * sc, qs, zp);
             *d = q;
             *w = L::of(q);
+        }
+        if bad != 0 || v.len() > self.offset.len() && !all_finite(&v[self.offset.len()..]) {
+            let i = v.iter().position(|x| !x.is_finite()).unwrap_or(0);
+            return Err(RunError::NonFiniteInput { index: i as u32 });
         }
         Ok(())
     }
@@ -123,6 +127,39 @@ impl InputQuant {
 mod tests {
     use super::*;
     use kinglet_runtime::unstable::scale::quantize_linear;
+
+    /// A row is refused at its first non-finite feature, as the runtime's input stage refuses
+    /// it; a finite row is quantised feature by feature.
+    #[test]
+    fn floats_refuses_the_first_non_finite_feature() {
+        let iq = InputQuant {
+            offset: vec![1.0; 8],
+            scale: vec![0.5; 8],
+            quant_scale: 0.25,
+            zero_point: -3,
+            integer: Vec::new(),
+        };
+        let (mut dst, mut wide) = ([0i8; 8], [0u8; 8]);
+        let mut row = [0.0f32, 1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0];
+        iq.floats(&row, &mut dst, &mut wide).unwrap();
+        for (i, (&d, &w)) in dst.iter().zip(&wide).enumerate() {
+            let want = quantize_linear((row[i] - 1.0) * 0.5, 0.25, -3);
+            assert_eq!((d, w), (want, want as u8 ^ 0x80), "feature {i}");
+        }
+        for (at, bad) in [(0, f32::NAN), (3, f32::INFINITY), (7, f32::NEG_INFINITY)] {
+            let mut r = row;
+            r[at] = bad;
+            if at < 7 {
+                r[7] = f32::NAN;
+            }
+            assert_eq!(
+                iq.floats(&r, &mut dst, &mut wide),
+                Err(RunError::NonFiniteInput { index: at as u32 })
+            );
+        }
+        row[2] = f32::MAX;
+        assert!(iq.floats(&row, &mut dst, &mut wide).is_ok());
+    }
 
     /// Equal to the runtime's function on ties, both ends, far values, infinities, NaN and a
     /// sweep of quotients, for several zero points and scales.
