@@ -231,16 +231,13 @@ impl FloatHost {
                     Some((r, RunError::NonFiniteInput { index: i as u32 }))
                 });
             }
+            let relu = layer.relu;
             for row in values.chunks_exact_mut(layer.outputs.max(1)) {
+                // Bias and ReLU in one loop, the ReLU as a select (the runtime's `v < 0 → 0`:
+                // NaN and −0 pass) so that it vectorises; a conditional store did not.
                 for (v, b) in row.iter_mut().zip(&layer.bias) {
-                    *v += b;
-                }
-                if layer.relu {
-                    for v in row.iter_mut() {
-                        if *v < 0.0 {
-                            *v = 0.0;
-                        }
-                    }
+                    let s = *v + b;
+                    *v = if relu && s < 0.0 { 0.0 } else { s };
                 }
                 if let Some(p) = &layer.pointwise {
                     for v in row.iter_mut() {
