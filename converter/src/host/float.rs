@@ -67,6 +67,15 @@ pub struct FloatHost {
     output: OutputKind,
 }
 
+/// The first row of `x` (rows of `w` values) holding a value that is not finite, and the
+/// runtime's error for it (the index of its first such feature).
+fn first_non_finite(x: &[f32], w: usize) -> Option<(usize, RunError)> {
+    x.chunks_exact(w.max(1)).enumerate().find_map(|(r, row)| {
+        let i = row.iter().position(|v| !v.is_finite())?;
+        Some((r, RunError::NonFiniteInput { index: i as u32 }))
+    })
+}
+
 /// [`FloatHost::run`] as a [`pulp::WithSimd`] operation.
 struct Run<'h> {
     host: &'h FloatHost,
@@ -205,10 +214,7 @@ impl FloatHost {
             }
         };
         if bad != 0 {
-            first_error = x.chunks_exact(w.max(1)).enumerate().find_map(|(r, row)| {
-                let i = row.iter().position(|v| !v.is_finite())?;
-                Some((r, RunError::NonFiniteInput { index: i as u32 }))
-            });
+            first_error = first_non_finite(x, w);
         }
         let mut stages = Vec::with_capacity(self.layers.len() + 1);
         stages.push(FloatTensor {
@@ -226,10 +232,7 @@ impl FloatHost {
             };
             let mut values = product(a, weights, rows, layer.inputs, layer.outputs);
             if lean && k == 0 && !all_finite(&values) {
-                first_error = x.chunks_exact(w.max(1)).enumerate().find_map(|(r, row)| {
-                    let i = row.iter().position(|v| !v.is_finite())?;
-                    Some((r, RunError::NonFiniteInput { index: i as u32 }))
-                });
+                first_error = first_non_finite(x, w);
             }
             let relu = layer.relu;
             for row in values.chunks_exact_mut(layer.outputs.max(1)) {
