@@ -1,8 +1,8 @@
 //! The owned layer table: every field of `kinglet_runtime::unstable::wire::format::ModelDesc` (`FORMAT.md` §3),
 //! tensors as wire bytes that a test or a fuzz target may edit freely, lengths included.
 use kinglet_runtime::unstable::wire::format::{
-    Activation as WireActivation, InputQuantDesc, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind,
-    PointwiseDesc, Precision, ScalerDesc, WeightLayout, MAX_LAYERS,
+    Activation as WireActivation, InputQuantDesc, InputWidth, LayerDesc, LayerQuantDesc, ModelDesc,
+    OutputKind, PointwiseDesc, Precision, ScalerDesc, WeightLayout, MAX_LAYERS,
 };
 
 use crate::error::BuildError;
@@ -212,6 +212,8 @@ pub struct OwnedInput {
     pub int_add: Vec<u8>,
     /// `u8` integer-path shifts.
     pub int_shift: Vec<u8>,
+    /// The input tensor's element type (int16: format version 7, zero point 0).
+    pub width: InputWidth,
 }
 
 impl OwnedInput {
@@ -229,6 +231,7 @@ impl OwnedInput {
             int_mult: le::i32s(int_mult),
             int_add: le::i64s(int_add),
             int_shift: int_shift.to_vec(),
+            width: InputWidth::I8,
         }
     }
 }
@@ -265,6 +268,7 @@ impl OwnedModel {
                 int_mult: q.int_mult.to_vec(),
                 int_add: q.int_add.to_vec(),
                 int_shift: q.int_shift.to_vec(),
+                width: q.width,
             }),
             layers: d.layers.iter().map(OwnedLayer::from_desc).collect(),
             output: d.output,
@@ -292,6 +296,7 @@ impl OwnedModel {
                 int_mult: &q.int_mult,
                 int_add: &q.int_add,
                 int_shift: &q.int_shift,
+                width: q.width,
             }),
             layers,
             output: self.output,

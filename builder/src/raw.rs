@@ -15,7 +15,8 @@ pub fn planned_scratch(desc: &ModelDesc<'_>) -> u32 {
         desc.input_len as usize,
         desc.layers.iter().map(|l| l.outputs as usize),
         desc.precision.activation_bytes(),
-    );
+    )
+    .with_input_width(desc.input_len as usize, desc.input_width());
     u32::try_from(plan.total()).unwrap_or(u32::MAX)
 }
 

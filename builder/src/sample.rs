@@ -39,6 +39,29 @@ pub fn tiny_int8() -> OwnedModel {
     }
 }
 
+/// [`tiny_int8`] with an int16 input tensor (format version 7, `FORMAT.md` §3.6): input scale
+/// `0.05 / 256`, zero point 0, so every input value is 256 times [`tiny_int8`]'s minus its zero
+/// point; layer 1's biases hold `256 · (bias − 10 · Σw)` (the int8 model's zero point −10
+/// unfolded, then scaled) and its shifts 8 more (1 → 9), so its accumulators are 256 times
+/// the int8 model's and every later tensor is the same.
+pub fn tiny_int16_input() -> OwnedModel {
+    let mut m = tiny_int8();
+    // q = round(((x - 1) * 0.5) / (0.05 / 256)) = 2560x - 2560 (fixed point, shift 4).
+    let mut q = OwnedInput::new(0.05 / 256.0, 0, &[160 * 256], &[-160 * 256], &[4]);
+    q.width = kinglet_runtime::unstable::wire::format::InputWidth::I16;
+    m.input_quant = Some(q);
+    let half = 1 << 30;
+    m.layers[0] = OwnedLayer::int8(
+        3,
+        4,
+        Activation::Relu,
+        &[1, 2, 3, -4, 5, -6, 7, 8, -9, 10, 11, 12],
+        &[-12_800, 7_680, -7_680, 17_920],
+        OwnedQuant::new(&[0.01; 4], &[half; 4], &[9; 4], 0.02, -5),
+    );
+    m
+}
+
 /// 2 inputs → 3 ReLU → 1 sigmoid, f32, no scaler: the blob `FORMAT.md` §7 pins byte for byte.
 pub fn tiny_f32() -> OwnedModel {
     OwnedModel {

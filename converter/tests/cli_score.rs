@@ -67,6 +67,7 @@ fn in_process(m: &Model<'_>, input: Input<'_>) -> Expected {
                 outputs = (0..s.values.len())
                     .map(|k| match s.values {
                         Activations::Int8 { .. } => i64::from(s.values.int8(k).unwrap()),
+                        Activations::Int16 { .. } => i64::from(s.values.int16(k).unwrap()),
                         Activations::F32 { .. } => i64::from(s.values.real(k).unwrap().to_bits()),
                     })
                     .collect();

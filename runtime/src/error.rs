@@ -172,6 +172,12 @@ pub enum FormatError {
         /// Layer index.
         layer: u8,
     },
+    /// An int16 input tensor (format version 7), and this runtime was built without the
+    /// `int16-input` feature.
+    Int16InputNotBuiltIn,
+    /// An int16 input tensor with a non-zero zero point: int16 inputs are symmetric
+    /// (`FORMAT.md` §3.6).
+    InputZeroPoint,
     /// A pointwise activation's kind byte is not one this reader knows.
     UnknownActivation {
         /// Layer index.
@@ -289,6 +295,12 @@ impl fmt::Display for FormatError {
                 f,
                 "layer {layer}: int4 weights, but this runtime was built without the `int4` feature"
             ),
+            Int16InputNotBuiltIn => f.write_str(
+                "int16 input tensor, but this runtime was built without the `int16-input` feature",
+            ),
+            InputZeroPoint => {
+                f.write_str("input stage: an int16 input tensor must have zero point 0")
+            }
             UnknownActivation { layer, kind } => {
                 write!(f, "layer {layer}: unknown activation kind {kind}")
             }

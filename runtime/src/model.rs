@@ -9,7 +9,9 @@ use crate::scale::{integer_params, quantise_floats, quantise_integer, Scaler};
 use crate::scratch::ScratchPlan;
 use crate::stage::{Activations, Stage};
 use crate::unstable::pointwise::TABLE_LEN;
-use crate::wire::format::{Activation, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout};
+use crate::wire::format::{
+    Activation, InputWidth, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout,
+};
 use crate::wire::header::{Header, HEADER_LEN};
 use crate::{le, validate};
 
@@ -380,11 +382,23 @@ impl<'a> Model<'a> {
             .split_at_mut_checked(self.plan.ping)
             .ok_or(too_small)?;
         let elem = self.desc.precision.accepted_bytes();
-        let first = ping.get_mut(..self.input_len() * elem).ok_or(too_small)?;
+        let wide = self.desc.input_width() == InputWidth::I16;
+        // Tensor 0 is two bytes per element when it is int16 (`FORMAT.md` §4).
+        let first_elem = if wide { 2 } else { elem };
+        let first = ping
+            .get_mut(..self.input_len() * first_elem)
+            .ok_or(too_small)?;
         let mut quant = self.load_input(input, first)?;
         trace(&Stage {
             index: 0,
-            values: view(quant, first),
+            values: if wide {
+                Activations::Int16 {
+                    data: first,
+                    scale: quant.map_or(1.0, |q| q.0),
+                }
+            } else {
+                view(quant, first)
+            },
         });
 
         for (k, layer) in self.desc.layers.iter().enumerate() {
@@ -393,11 +407,14 @@ impl<'a> Model<'a> {
             } else {
                 (&*pong, &mut *ping)
             };
-            let src = src.get(..layer.inputs as usize * elem).ok_or(too_small)?;
+            let src_elem = if k == 0 { first_elem } else { elem };
+            let src = src
+                .get(..layer.inputs as usize * src_elem)
+                .ok_or(too_small)?;
             let dst = dst
                 .get_mut(..layer.outputs as usize * elem)
                 .ok_or(too_small)?;
-            quant = run_layer(layer, src, dst);
+            quant = run_layer(layer, src, dst, k == 0 && wide);
             trace(&Stage {
                 index: k + 1,
                 values: view(quant, dst),
@@ -419,6 +436,11 @@ impl<'a> Model<'a> {
                     let (m, a, s) = integer_params(q, i);
                     quantise_integer(x, m, a, s) as u8
                 };
+                #[cfg(feature = "int16-input")]
+                if q.width == InputWidth::I16 {
+                    self.load_input_i16(q, input, dst)?;
+                    return Ok(Some((q.scale, 0)));
+                }
                 match input {
                     Input::F32(v) => quantise_floats(self.desc.scaler, q, v, dst)?,
                     Input::I16(v) => {
@@ -454,6 +476,37 @@ impl<'a> Model<'a> {
             }
             _ => Ok(None),
         }
+    }
+}
+
+impl Model<'_> {
+    /// [`Model::load_input`] for an int16 input tensor: two little-endian bytes per feature.
+    #[cfg(feature = "int16-input")]
+    fn load_input_i16(
+        &self,
+        q: &crate::wire::format::InputQuantDesc<'_>,
+        input: Input<'_>,
+        dst: &mut [u8],
+    ) -> Result<(), RunError> {
+        let integer = |i: usize, x: i32| {
+            let (m, a, s) = integer_params(q, i);
+            crate::scale::quantise_integer_i16(x, m, a, s).to_le_bytes()
+        };
+        let out = dst.as_chunks_mut::<2>().0.iter_mut();
+        match input {
+            Input::F32(v) => crate::scale::quantise_floats_i16(self.desc.scaler, q, v, dst)?,
+            Input::I16(v) => {
+                for (i, (d, &x)) in out.zip(v).enumerate() {
+                    *d = integer(i, i32::from(x));
+                }
+            }
+            Input::U8(v) => {
+                for (i, (d, &x)) in out.zip(v).enumerate() {
+                    *d = integer(i, i32::from(x));
+                }
+            }
+        }
+        Ok(())
     }
 }
 
@@ -494,7 +547,7 @@ fn view(q: Quant, data: &[u8]) -> Activations<'_> {
 }
 
 /// Runs one layer from `src` into `dst`; returns the output's quantisation.
-fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
+fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8], wide: bool) -> Quant {
     match &layer.quant {
         Some(q) => {
             let (act_min, act_max) = activation_range(layer.activation, q.output_zero_point);
@@ -518,6 +571,17 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
                 act_max,
                 table,
             };
+            // The first layer of an int16-input model (`parse` refused int4 weights there, and
+            // the model without the `int16-input` feature).
+            #[cfg(feature = "int16-input")]
+            if wide {
+                match layer.layout {
+                    WeightLayout::Blocked4x4 => crate::dense::wide::dense_i16_blocked(&p, src, dst),
+                    _ => crate::dense::wide::dense_i16(&p, src, dst),
+                }
+                return Some((q.output_scale, q.output_zero_point));
+            }
+            let _ = wide;
             match layer.layout {
                 WeightLayout::OutputMajor => dense_i8(&p, src, dst),
                 WeightLayout::Blocked4x4 => dense_i8_blocked_auto(&p, src, dst),
@@ -562,7 +626,7 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8]) -> Quant {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use kinglet_builder::sample::{tiny_f32, tiny_int8};
+    use kinglet_builder::sample::{tiny_f32, tiny_int16_input, tiny_int8};
 
     fn trace_int8(model: &Model<'_>, input: Input<'_>) -> (Prediction, Vec<Vec<i8>>) {
         let mut scratch = vec![0u8; model.scratch_bytes()];
@@ -602,6 +666,63 @@ mod tests {
         // The integer-only paths give the same tensors for the same raw values.
         assert_eq!(trace_int8(&m, Input::I16(&[1, 2, 3])).1, stages);
         assert_eq!(trace_int8(&m, Input::U8(&[1, 2, 3])).1, stages);
+    }
+
+    /// The int16-input twin of the worked example (`kinglet_builder::sample::tiny_int16_input`):
+    /// input `[0, 2560, 5120]`, layer 1's accumulators 256 times the int8 model's
+    /// (`[7680, −10240, −33280, 107520]`), and from there the same tensors and class.
+    #[test]
+    #[cfg(feature = "int16-input")]
+    fn int16_input_forward_pass_hand_worked() {
+        let blob = tiny_int16_input().encode_to_vec().unwrap();
+        assert_eq!(u16::from_le_bytes([blob[4], blob[5]]), 7);
+        let m = Model::parse(&blob).unwrap();
+        // ping: max(2 · 3, 2), pong: 4.
+        assert_eq!(m.scratch_bytes(), 10);
+        assert_eq!(crate::scratch_bytes(&blob), 10);
+        for input in [
+            Input::F32(&[1.0, 2.0, 3.0]),
+            Input::I16(&[1, 2, 3]),
+            Input::U8(&[1, 2, 3]),
+        ] {
+            let mut scratch = vec![0u8; m.scratch_bytes()];
+            let mut scores = [0f32; 2];
+            let mut first = Vec::new();
+            let mut rest = Vec::new();
+            let p = m
+                .infer_traced(input, &mut scratch, &mut scores, &mut |s: &Stage<'_>| {
+                    if s.index == 0 {
+                        first = (0..s.values.len())
+                            .filter_map(|i| s.values.int16(i))
+                            .collect();
+                        assert_eq!(s.values.real(2), Some(1.0));
+                    } else {
+                        rest.push(
+                            (0..s.values.len())
+                                .filter_map(|i| s.values.int8(i))
+                                .collect::<Vec<_>>(),
+                        );
+                    }
+                })
+                .unwrap();
+            assert_eq!(first, [0, 2560, 5120]);
+            assert_eq!(rest, vec![vec![3, -5, -5, 100], vec![-30, 33]]);
+            assert_eq!(p.class, 1);
+            assert!((p.score - 1.0 / (1.0 + (-6.3f32).exp())).abs() < 1e-6);
+        }
+        // Saturation at the int16 ends: raw 13 is 30,720, raw 20 would be 48,640 → 32,767;
+        // raw −20 → −53,760 → −32,768 (float and integer paths alike).
+        for input in [Input::F32(&[20.0, -20.0, 13.0]), Input::I16(&[20, -20, 13])] {
+            let mut scratch = vec![0u8; m.scratch_bytes()];
+            let mut first = Vec::new();
+            m.infer_traced(input, &mut scratch, &mut [0f32; 2], &mut |s: &Stage<'_>| {
+                if s.index == 0 {
+                    first = (0..3).filter_map(|i| s.values.int16(i)).collect();
+                }
+            })
+            .unwrap();
+            assert_eq!(first, [32_767, -32_768, 30_720]);
+        }
     }
 
     #[test]

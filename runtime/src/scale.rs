@@ -27,6 +27,16 @@ pub fn quantize_linear(x: f32, scale: f32, zero_point: i8) -> i8 {
     ((r as i32).clamp(-256, 255) + i32::from(zero_point)).clamp(-128, 127) as i8
 }
 
+/// Quantises `x` to a symmetric int16 (`FORMAT.md` §3.6): `saturate(round_half_even(x /
+/// scale))` to `[-32768, 32767]`, computed in f32 with the rounding of [`quantize_linear`]
+/// (exact for `|x / scale| < 2^22`, far beyond the range it saturates at).
+#[inline]
+pub fn quantize_linear_i16(x: f32, scale: f32) -> i16 {
+    const ROUND: f32 = 12_582_912.0; // 1.5 · 2^23
+    let r = (x / scale + ROUND) - ROUND;
+    (r as i32).clamp(-32_768, 32_767) as i16
+}
+
 /// Scales (saved scaler) and quantises float features `x` into `dst`, one int8 per feature,
 /// exactly as [`quantize_linear`]`((x[i] - offset[i]) * scale[i], ...)`. Stops at the first
 /// non-finite feature. One pass, with the uniform and per-feature scalers in separate loops so
@@ -67,6 +77,26 @@ pub(crate) fn quantise_floats(
     }
 }
 
+/// [`quantise_floats`] for an int16 input tensor: two little-endian bytes per feature,
+/// [`quantize_linear_i16`] of the scaled value.
+#[cfg(feature = "int16-input")]
+pub(crate) fn quantise_floats_i16(
+    scaler: Option<ScalerDesc<'_>>,
+    q: &InputQuantDesc<'_>,
+    x: &[f32],
+    dst: &mut [u8],
+) -> Result<(), RunError> {
+    let scaler = Scaler::new(scaler);
+    let out = dst.as_chunks_mut::<2>().0.iter_mut();
+    for (i, (d, &v)) in out.zip(x).enumerate() {
+        if !v.is_finite() {
+            return Err(RunError::NonFiniteInput { index: i as u32 });
+        }
+        *d = quantize_linear_i16(scaler.apply(i, v), q.scale).to_le_bytes();
+    }
+    Ok(())
+}
+
 /// The loop of [`quantise_floats`] for one scaler shape: `map(x, param)` is the scaled value.
 #[inline(always)]
 fn quantise_each<P>(
@@ -91,15 +121,27 @@ fn quantise_each<P>(
 /// `|x * mult| < 2^63 - 2^62` holds for every `x` of 16 bits or fewer.
 #[inline]
 pub fn quantise_integer(x: i32, mult: i32, add: i64, shift: u8) -> i8 {
+    fixed_point_input(x, mult, add, shift).clamp(-128, 127) as i8
+}
+
+/// [`quantise_integer`] for an int16 input tensor: the same map, saturated to
+/// `[-32768, 32767]`.
+#[inline]
+pub fn quantise_integer_i16(x: i32, mult: i32, add: i64, shift: u8) -> i16 {
+    fixed_point_input(x, mult, add, shift).clamp(-32_768, 32_767) as i16
+}
+
+/// `(x * mult + add + 2^(shift-1)) >> shift`, before saturation.
+#[inline(always)]
+fn fixed_point_input(x: i32, mult: i32, add: i64, shift: u8) -> i64 {
     let x = i64::from(x.clamp(-(1 << 16), 1 << 16));
     let t = x * i64::from(mult) + add;
-    let r = if shift == 0 {
+    if shift == 0 {
         t
     } else {
         let s = u32::from(shift.min(62));
         (t + (1i64 << (s - 1))) >> s
-    };
-    r.clamp(-128, 127) as i8
+    }
 }
 
 /// The float scaler, with uniform (length-1) or per-feature tensors.
@@ -245,6 +287,7 @@ mod tests {
     fn quantise_floats_is_scaler_then_quantize_linear() {
         let q_tables = (vec![0u8; 4], vec![0u8; 8], vec![0u8]);
         let q = InputQuantDesc {
+            width: crate::wire::format::InputWidth::I8,
             scale: 0.037,
             zero_point: -5,
             int_mult: &q_tables.0,

@@ -13,6 +13,14 @@ pub enum Activations<'a> {
         /// Zero point of the tensor.
         zero_point: i8,
     },
+    /// Little-endian int16 values (symmetric: zero point 0) with their scale: the input tensor
+    /// of an int16-input model (format version 7).
+    Int16 {
+        /// Two bytes per element.
+        data: &'a [u8],
+        /// Scale of the tensor.
+        scale: f32,
+    },
     /// Little-endian f32 values.
     F32 {
         /// Four bytes per element.
@@ -25,6 +33,7 @@ impl Activations<'_> {
     pub fn len(&self) -> usize {
         match self {
             Activations::Int8 { data, .. } => data.len(),
+            Activations::Int16 { data, .. } => data.len() / 2,
             Activations::F32 { data } => data.len() / 4,
         }
     }
@@ -44,6 +53,7 @@ impl Activations<'_> {
             } => data
                 .get(i)
                 .map(|&q| (f32::from(q as i8) - f32::from(*zero_point)) * scale),
+            Activations::Int16 { scale, .. } => self.int16(i).map(|q| f32::from(q) * scale),
             Activations::F32 { data } => le::f32_at(data, i),
         }
     }
@@ -52,7 +62,18 @@ impl Activations<'_> {
     pub fn int8(&self, i: usize) -> Option<i8> {
         match self {
             Activations::Int8 { data, .. } => data.get(i).map(|&q| q as i8),
-            Activations::F32 { .. } => None,
+            Activations::Int16 { .. } | Activations::F32 { .. } => None,
+        }
+    }
+
+    /// Element `i` of an int16 tensor.
+    pub fn int16(&self, i: usize) -> Option<i16> {
+        match self {
+            Activations::Int16 { data, .. } => data
+                .get(2 * i..2 * i + 2)
+                .and_then(|b| <[u8; 2]>::try_from(b).ok())
+                .map(i16::from_le_bytes),
+            Activations::Int8 { .. } | Activations::F32 { .. } => None,
         }
     }
 }

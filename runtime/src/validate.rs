@@ -4,8 +4,8 @@ use crate::error::{FormatError, TensorKind};
 use crate::le;
 use crate::scratch::ScratchPlan;
 use crate::wire::format::{
-    InputQuantDesc, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout, MAX_INPUT_SHIFT,
-    MAX_WIDTH,
+    InputQuantDesc, InputWidth, LayerDesc, ModelDesc, OutputKind, Precision, WeightLayout,
+    MAX_INPUT_SHIFT, MAX_WIDTH,
 };
 use crate::wire::layout;
 use crate::wire::nibble;
@@ -60,7 +60,7 @@ fn good_scale(s: f32, zero_point: i8, layer: Option<u8>) -> Result<(), FormatErr
 }
 
 /// Whether the f32 with bits `b` is finite and positive and its product with `steps`
-/// (`1..=255`) rounds to a finite f32: `s.is_finite() && s > 0.0 && (s * steps).is_finite()`,
+/// (`1..=65535`) rounds to a finite f32: `s.is_finite() && s > 0.0 && (s * steps).is_finite()`,
 /// in integer arithmetic, so that parsing needs no float routine on a core without an FPU.
 ///
 /// `s = m · 2^e` exactly (`m` the 24-bit significand). IEEE-754 round-to-nearest-even turns
@@ -77,19 +77,31 @@ fn scale_fits(b: u32, steps: u16) -> bool {
     } else {
         (frac | 1 << 23, exp as i32 - 150)
     };
-    let product = m * u64::from(steps); // < 2^32
+    let product = m * u64::from(steps); // < 2^40
     let limit = (1u64 << 25) - 1;
     match 103 - e {
-        // (2^25 - 1) · 2^8 already exceeds every product.
-        8.. => true,
-        k @ 0..=7 => product < limit << k,
+        // (2^25 - 1) · 2^16 already exceeds every product.
+        16.. => true,
+        k @ 0..=15 => product < limit << k,
         // e = 104, the largest exponent: compare product · 2 with the limit.
         _ => product << 1 < limit,
     }
 }
 
 fn check_input_quant(q: &InputQuantDesc<'_>, input_len: usize) -> Result<(), FormatError> {
-    good_scale(q.scale, q.zero_point, None)?;
+    match q.width {
+        InputWidth::I8 => good_scale(q.scale, q.zero_point, None)?,
+        // Without the `int16-input` feature its kernels are not built.
+        InputWidth::I16 if !cfg!(feature = "int16-input") => {
+            return Err(FormatError::Int16InputNotBuiltIn)
+        }
+        // Symmetric: the widest step from zero is 32,768.
+        InputWidth::I16 if q.zero_point != 0 => return Err(FormatError::InputZeroPoint),
+        InputWidth::I16 if !scale_fits(q.scale.to_bits(), 32_768) => {
+            return Err(FormatError::BadScale { layer: None })
+        }
+        InputWidth::I16 => {}
+    }
     // `n = 0`: the integer input path is left out (version 5, `FORMAT.md` §3.4); then all three
     // tables must be empty, as the length checks below require.
     let n = q.int_shift.len();
@@ -118,6 +130,7 @@ fn check_layer(
     prev: usize,
     precision: Precision,
     scales: bool,
+    input: InputWidth,
 ) -> Result<usize, FormatError> {
     let at = Some(k);
     let inputs = width(l.inputs, at)?;
@@ -136,8 +149,9 @@ fn check_layer(
         WeightLayout::Nibble4x4 if !cfg!(feature = "int4") => {
             return Err(FormatError::Int4NotBuiltIn { layer: k });
         }
-        // int4 weights belong to int8 models only.
-        WeightLayout::Nibble4x4 if precision != Precision::Int8 => {
+        // int4 weights belong to int8 models only, and read int8 inputs only (the first
+        // layer of an int16-input model has int8 weights, `FORMAT.md` §3.6).
+        WeightLayout::Nibble4x4 if precision != Precision::Int8 || input != InputWidth::I8 => {
             return Err(FormatError::PrecisionMismatch { layer: at });
         }
         WeightLayout::Nibble4x4 => check_nibbles(l.weights, inputs, outputs, at)?,
@@ -175,10 +189,11 @@ fn check_layer(
                 }
             }
             // |bias| + 128 · Σ|w| bounds the accumulator for every int8 input (int4 weights
-            // included: they are exact int8 values in [-8, 7]).
+            // included: they are exact int8 values in [-8, 7]); 32,768 · Σ|w| for an int16 one.
+            let reach = input.reach();
             for (c, b) in le::i32s(l.bias).enumerate() {
                 let sum = abs_row_sum(weights, l.layout, inputs, c);
-                if i64::from(b).abs() + 128 * sum > i64::from(i32::MAX) {
+                if i64::from(b).abs() + reach * sum > i64::from(i32::MAX) {
                     return Err(FormatError::AccumulatorOverflow {
                         layer: k,
                         channel: c as u32,
@@ -346,7 +361,13 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ScratchPlan, FormatError> {
     let scales = keeps_weight_scales(&d.layers);
     let mut prev = input_len;
     for (k, l) in d.layers.iter().enumerate() {
-        prev = check_layer(l, k as u8, prev, d.precision, scales)?;
+        // Only the first layer reads the input tensor.
+        let input = if k == 0 {
+            d.input_width()
+        } else {
+            InputWidth::I8
+        };
+        prev = check_layer(l, k as u8, prev, d.precision, scales, input)?;
     }
     if d.output == OutputKind::Sigmoid && prev != 1 {
         return Err(FormatError::SigmoidWidth);
@@ -370,7 +391,8 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ScratchPlan, FormatError> {
         input_len,
         d.layers.iter().map(|l| l.outputs as usize),
         d.precision.accepted_bytes(),
-    ))
+    )
+    .with_input_width(input_len, d.input_width()))
 }
 
 #[cfg(test)]
@@ -644,6 +666,71 @@ mod tests {
                 layer: 0,
                 channel: 1
             })
+        );
+    }
+
+    /// The int16 input's rules (`FORMAT.md` §3.6, §5 rules 3, 11, 13, 14).
+    #[test]
+    #[cfg(feature = "int16-input")]
+    fn int16_input_is_checked() {
+        use kinglet_builder::sample::tiny_int16_input;
+        let wide = |f: &dyn Fn(&mut OwnedModel)| {
+            let mut m = tiny_int16_input();
+            f(&mut m);
+            parse(&m)
+        };
+        assert_eq!(wide(&|_| {}), Ok(()));
+        assert_eq!(
+            wide(&|m| m.input_quant.as_mut().unwrap().zero_point = -10),
+            Err(E::InputZeroPoint)
+        );
+        // 2e34 · 255 is finite, 2e34 · 32768 is not.
+        assert_eq!(
+            with(|m| m.input_quant.as_mut().unwrap().scale = 2e34),
+            Ok(())
+        );
+        assert_eq!(
+            wide(&|m| m.input_quant.as_mut().unwrap().scale = 2e34),
+            Err(E::BadScale { layer: None })
+        );
+        // Layer 0's row 3 has Σ|w| = 33: 32768 · 33 + |bias| must fit in i32; the same bias
+        // passes on an int8 input (128 · 33).
+        let bias = i32::MAX - 32_768 * 33 + 1;
+        let at_limit = |m: &mut OwnedModel| m.layers[0].bias = i32s(&[0, 0, 0, bias]);
+        assert_eq!(
+            wide(&at_limit),
+            Err(E::AccumulatorOverflow {
+                layer: 0,
+                channel: 3
+            })
+        );
+        assert_eq!(with(at_limit), Ok(()));
+        assert_eq!(
+            wide(&|m| m.layers[0].bias = i32s(&[0, 0, 0, bias - 1])),
+            Ok(())
+        );
+        // Layer 1 reads int8 whatever the input: the int8 bound there (row 0: Σ|w| = 100).
+        assert_eq!(
+            wide(&|m| m.layers[1].bias = i32s(&[i32::MAX - 128 * 100 + 1, 0])),
+            Err(E::AccumulatorOverflow {
+                layer: 1,
+                channel: 0
+            })
+        );
+        // An int8-width table under a version-7 header, and the other way round.
+        let mut narrow = tiny_int8().raw_blob();
+        narrow[offset::VERSION..offset::VERSION + 2].copy_from_slice(&7u16.to_le_bytes());
+        reseal(&mut narrow).unwrap();
+        assert_eq!(
+            Model::parse(&narrow).err(),
+            Some(E::VersionMismatch { header: 7, body: 1 })
+        );
+        let mut blob = tiny_int16_input().raw_blob();
+        blob[offset::VERSION..offset::VERSION + 2].copy_from_slice(&6u16.to_le_bytes());
+        reseal(&mut blob).unwrap();
+        assert_eq!(
+            Model::parse(&blob).err(),
+            Some(E::VersionMismatch { header: 6, body: 7 })
         );
     }
 

@@ -91,14 +91,14 @@ const fn last_outputs(b: &[u8]) -> Option<u64> {
     let Some((_, i)) = varint(b, i) else {
         return None;
     };
-    // scaler: offset, scale. input_quant: scale (f32), zero point (i8), then int_mult,
-    // int_add, int_shift.
+    // scaler: offset, scale. input_quant: its tag (0 none, 1 int8, 2 int16), scale (f32),
+    // zero point (i8), then int_mult, int_add, int_shift.
     let Some(i) = skip_option(b, i, 2, 0) else {
         return None;
     };
     let i = match at(b, i) {
         Some(0) => i + 1,
-        Some(1) => match skip_n_bytes(b, i + 1 + 5, 3) {
+        Some(1 | 2) => match skip_n_bytes(b, i + 1 + 5, 3) {
             Some(next) => next,
             None => return None,
         },

@@ -60,7 +60,8 @@ fn score_row(
                 return;
             }
             outputs = match st.values {
-                Activations::Int8 { .. } => {
+                // An int16 tensor is only ever the input (stage 0), never the last layer's.
+                Activations::Int8 { .. } | Activations::Int16 { .. } => {
                     LastOutputs::Int8((0..n).map(|k| st.values.int8(k).unwrap_or(0)).collect())
                 }
                 Activations::F32 { .. } => {

@@ -176,6 +176,8 @@ fn eval_row(
                 Activations::Int8 {
                     scale, zero_point, ..
                 } => int8_bounds(scale, zero_point),
+                // Symmetric int16 (an int16 input tensor, format version 7).
+                Activations::Int16 { scale, .. } => (-32_768.0 * scale, 32_767.0 * scale),
                 Activations::F32 { .. } => (f32::NEG_INFINITY, f32::INFINITY),
             };
             for (i, &f) in buf.iter().enumerate() {

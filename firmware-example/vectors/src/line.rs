@@ -131,7 +131,8 @@ pub(crate) fn run_traced(
             return;
         }
         outputs = match stage.values {
-            Activations::Int8 { .. } => {
+            // An int16 tensor is only ever the input (stage 0), never the last layer's.
+            Activations::Int8 { .. } | Activations::Int16 { .. } => {
                 let mut v = [0i8; MAX_OUTPUTS];
                 for (k, slot) in v.iter_mut().enumerate().take(n_out) {
                     *slot = stage.values.int8(k).unwrap_or(0);

@@ -16,6 +16,9 @@
 //! [`int4`]) take [`dense_i4_auto`]: `asm::m4` or `asm::m0` on the same targets as int8,
 //! [`int4::dense_i4_portable`] elsewhere.
 //!
+//! The first layer of a model with an int16 input tensor (format version 7) takes [`wide`]:
+//! plain Rust on every target.
+//!
 //! All `asm!` lives in `asm` (only compiled for those targets). [`m0`] is the same Armv6-M
 //! kernel shape in plain safe Rust, compiled everywhere, so the host tests run it and the
 //! shared block loop (`fixed::blocks_i8`) too.
@@ -29,6 +32,8 @@ mod blocked_f32;
 pub mod fixed;
 pub mod int4;
 pub mod portable;
+#[cfg(feature = "int16-input")]
+pub mod wide;
 
 /// The `asm!` kernels; the crate's only module where `unsafe` is allowed.
 #[cfg(any(kinglet_kernel = "dsp", kinglet_kernel = "m0"))]

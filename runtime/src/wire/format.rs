@@ -128,12 +128,48 @@ pub struct ScalerDesc<'a> {
     pub scale: &'a [u8],
 }
 
-/// Quantisation of the scaled input to int8 (int8 models only).
+/// Element type of an int8 model's quantised input tensor (tensor 0, the first layer's input).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum InputWidth {
+    /// int8, asymmetric (any zero point): every version.
+    #[default]
+    I8,
+    /// int16, symmetric (zero point 0), saturated to `[-32768, 32767]`; the first layer
+    /// multiplies it by its int8 weights in the same i32 accumulator (`FORMAT.md` §3.6).
+    /// Format version 7.
+    I16,
+}
+
+impl InputWidth {
+    /// Bytes per element of the input tensor.
+    pub const fn bytes(self) -> usize {
+        match self {
+            InputWidth::I8 => 1,
+            InputWidth::I16 => 2,
+        }
+    }
+
+    /// Largest `|q - zero_point|` the tensor can hold for `zero_point`: what bounds the first
+    /// layer's accumulator (`FORMAT.md` §5 rule 14).
+    pub const fn reach(self) -> i64 {
+        match self {
+            InputWidth::I8 => 128,
+            InputWidth::I16 => 32_768,
+        }
+    }
+}
+
+/// Quantisation of the scaled input to int8, or to int16 (int8 models only).
 ///
 /// Float inputs: `q = saturate(round_half_even(y / scale) + zero_point)`, as ONNX
 /// `QuantizeLinear`. Integer inputs (`i16`, `u8`) skip the float scaler and use the per-feature
 /// fixed-point map `q = saturate((x * int_mult + int_add + 2^(s-1)) >> s)` with `s = int_shift`,
-/// which the converter derives from the same scaler and quantisation.
+/// which the converter derives from the same scaler and quantisation. `saturate` is to the
+/// tensor's [`InputWidth`].
+///
+/// On the wire the `Option` around this record is a three-way tag (`FORMAT.md` §3): `0` none,
+/// `1` an int8 input, `2` an int16 input (version 7), then the five fields; `width` is the tag.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct InputQuantDesc<'a> {
     /// Scale of the quantised input tensor.
@@ -149,6 +185,9 @@ pub struct InputQuantDesc<'a> {
     /// `n` right shifts, each at most [`MAX_INPUT_SHIFT`].
     #[serde(borrow)]
     pub int_shift: &'a [u8],
+    /// The input tensor's element type: written as the record's tag, not as a field.
+    #[serde(skip)]
+    pub width: InputWidth,
 }
 
 /// Quantisation parameters of one int8 dense layer.
@@ -261,26 +300,75 @@ impl Serialize for LayerDesc<'_> {
     }
 }
 
+/// The wire form of the input quantisation (`FORMAT.md` §3): postcard writes an enum as its
+/// variant index then the content, so tags `0` and `1` are the bytes an `Option` gives.
+#[derive(Serialize)]
+enum InputQuantWire<'a> {
+    None,
+    #[serde(borrow)]
+    Int8(InputQuantDesc<'a>),
+    #[serde(borrow)]
+    Int16(InputQuantDesc<'a>),
+}
+
+/// [`ModelDesc`] as the wire has it (the encoder's view).
+#[derive(Serialize)]
+struct ModelWire<'d, 'a> {
+    input_len: u32,
+    precision: Precision,
+    #[serde(borrow)]
+    scaler: Option<ScalerDesc<'a>>,
+    #[serde(borrow)]
+    input_quant: InputQuantWire<'a>,
+    layers: &'d [LayerDesc<'a>],
+    output: OutputKind,
+    labels: &'a str,
+}
+
+impl Serialize for ModelDesc<'_> {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        let input_quant = match self.input_quant {
+            None => InputQuantWire::None,
+            Some(q) if q.width == InputWidth::I16 => InputQuantWire::Int16(q),
+            Some(q) => InputQuantWire::Int8(q),
+        };
+        ModelWire {
+            input_len: self.input_len,
+            precision: self.precision,
+            scaler: self.scaler,
+            input_quant,
+            layers: &self.layers,
+            output: self.output,
+            labels: self.labels,
+        }
+        .serialize(s)
+    }
+}
+
+impl ModelDesc<'_> {
+    /// The input tensor's element type: int16 when the input quantisation says so, else one
+    /// byte (int8) — an f32 model's input tensor is f32 ([`Precision::activation_bytes`]).
+    pub fn input_width(&self) -> InputWidth {
+        self.input_quant.map_or(InputWidth::I8, |q| q.width)
+    }
+}
+
 /// The whole body of a blob. Its `Deserialize` (in `wire::read`) fills a table in place.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct ModelDesc<'a> {
     /// Width of the raw input vector.
     pub input_len: u32,
     /// Precision of every layer.
     pub precision: Precision,
     /// The saved input scaler, if any.
-    #[serde(borrow)]
     pub scaler: Option<ScalerDesc<'a>>,
     /// Input quantisation: present exactly when the model is int8.
-    #[serde(borrow)]
     pub input_quant: Option<InputQuantDesc<'a>>,
     /// The dense layers in order.
-    #[serde(borrow)]
     pub layers: heapless::Vec<LayerDesc<'a>, MAX_LAYERS>,
     /// What turns the last layer's outputs into scores.
     pub output: OutputKind,
     /// Class labels separated by `'\n'`; empty when the model has none.
-    #[serde(borrow)]
     pub labels: &'a str,
 }
 

@@ -229,11 +229,11 @@ mod tests {
             Header::read(b"PK\x03\x04 zip file"),
             Err(FormatError::BadMagic)
         );
-        let mut v7 = good;
-        v7[offset::VERSION] = 7;
+        let mut v8 = good;
+        v8[offset::VERSION] = 8;
         assert_eq!(
-            Header::read(&v7),
-            Err(FormatError::UnsupportedVersion { found: 7 })
+            Header::read(&v8),
+            Err(FormatError::UnsupportedVersion { found: 8 })
         );
         let mut v0 = good;
         v0[offset::VERSION] = 0;

@@ -7,8 +7,8 @@
 //! that keeps the value ([`read_into`] fills the `Model`'s own table), and the wire format is
 //! the derive's, field for field.
 use super::format::{
-    Activation, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind, Precision, WeightLayout,
-    MAX_LAYERS,
+    Activation, InputQuantDesc, InputWidth, LayerDesc, LayerQuantDesc, ModelDesc, OutputKind,
+    Precision, WeightLayout, MAX_LAYERS,
 };
 use serde::de::{DeserializeSeed, Error, SeqAccess, Visitor};
 use serde::{Deserialize, Deserializer};
@@ -66,11 +66,13 @@ impl<'de: 'a, 'a> DeserializeSeed<'de> for Table<'_, 'a> {
     type Value = ();
     fn deserialize<D: Deserializer<'de>>(self, d: D) -> Result<(), D::Error> {
         // Postcard reads a struct as a tuple of this many fields.
-        const FIELDS: [&str; 7] = [
+        // The input quantisation counts as two: its tag, then its record.
+        const FIELDS: [&str; 8] = [
             "input_len",
             "precision",
             "scaler",
             "input_quant",
+            "input_quant_record",
             "layers",
             "output",
             "labels",
@@ -89,7 +91,24 @@ impl<'de: 'a, 'a> Visitor<'de> for Table<'_, 'a> {
         m.input_len = s.next_element()?.ok_or_else(missing)?;
         m.precision = s.next_element()?.ok_or_else(missing)?;
         m.scaler = s.next_element()?.ok_or_else(missing)?;
-        m.input_quant = s.next_element()?.ok_or_else(missing)?;
+        // The input quantisation's three-way tag (`FORMAT.md` §3): `0` none, `1` int8, `2`
+        // int16 (version 7), then the record. Tags `0` and `1` are an `Option`'s bytes.
+        m.input_quant = match s.next_element::<u8>()?.ok_or_else(missing)? {
+            0 => None,
+            tag @ (1 | 2) => {
+                let mut q: InputQuantDesc<'a> = s.next_element()?.ok_or_else(missing)?;
+                if tag == 2 {
+                    q.width = InputWidth::I16;
+                }
+                Some(q)
+            }
+            _ => {
+                return Err(A::Error::invalid_value(
+                    serde::de::Unexpected::Other("input quantisation tag"),
+                    &"0, 1 or 2",
+                ))
+            }
+        };
         s.next_element_seed(Layers(&mut m.layers))?
             .ok_or_else(missing)?;
         m.output = s.next_element()?.ok_or_else(missing)?;

@@ -3,13 +3,14 @@
 //! it without depending on each other.
 
 /// The newest format version this reader accepts (and writes when a blob needs it).
-pub const FORMAT_VERSION: u16 = 6;
+pub const FORMAT_VERSION: u16 = 7;
 
 /// The oldest format version this reader accepts. Version 1 is version 2 without the
 /// `Blocked4x4` weight layout, version 2 is version 3 without the `OneVsRest` output, version 3
 /// is version 4 without pointwise activation records, and version 5 is version 4 with optional
 /// sections that may be left out (empty), and version 6 is version 5 with the `Nibble4x4`
-/// (int4) weight layout; a blob carries exactly the lowest version that holds
+/// (int4) weight layout, and version 7 is version 6 with an int16 input tensor; a blob carries
+/// exactly the lowest version that holds
 /// it ([`version_for`]), which writers emit and the reader requires.
 pub const OLDEST_VERSION: u16 = 1;
 
@@ -19,7 +20,8 @@ pub const fn accepts(v: u16) -> bool {
     v >= OLDEST_VERSION && v <= FORMAT_VERSION
 }
 
-/// The version a blob with this layer table carries: 6 if any layer has int4 weights
+/// The version a blob with this layer table carries: 7 if its input tensor is int16
+/// ([`crate::wire::format::InputWidth::I16`]), else 6 if any layer has int4 weights
 /// (`Nibble4x4`, [`has_int4`]), else 5 if it leaves out an optional section
 /// (the integer input tables or a layer's weight scales, [`omits_a_section`]), else 4 if any
 /// layer has a pointwise activation record, else 3 if the output is `OneVsRest`, else 2 if any
@@ -28,7 +30,9 @@ pub const fn accepts(v: u16) -> bool {
 /// rejects any other (`FormatError::VersionMismatch`): the CRC does not cover the version
 /// field, this rule protects it.
 pub fn version_for(desc: &crate::wire::format::ModelDesc<'_>) -> u16 {
-    if has_int4(&desc.layers) {
+    if desc.input_width() == crate::wire::format::InputWidth::I16 {
+        7
+    } else if has_int4(&desc.layers) {
         6
     } else if omits_a_section(desc) {
         5
