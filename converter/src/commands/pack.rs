@@ -5,13 +5,14 @@ use kinglet_converter::atomic::write_atomic;
 use kinglet_converter::dataset::LabelColumn;
 use kinglet_converter::output_guard::{check_distinct, Named};
 use kinglet_converter::pack::request::{
-    named, pack_with, PackProgress, PackRequest, Precision, ScalerSource,
+    named, pack_with, PackProgress, PackRequest, Precision, ScalerSource, TensorOptions,
 };
 use kinglet_converter::pack::Sections;
 use kinglet_converter::quantise::calibrate::RangeMethod;
 use kinglet_converter::quantise::weight_bits::LayerBits;
 use kinglet_converter::report::calibration;
 use kinglet_converter::report::table;
+use kinglet_runtime::unstable::wire::format::InputWidth;
 use std::path::PathBuf;
 
 use super::Outcome;
@@ -76,6 +77,16 @@ enum Range {
     /// Per tensor, the range with the smallest int8 quantisation error on the calibration
     /// rows (a grid search over clipping thresholds; docs/calibration.md).
     LeastError,
+}
+
+/// The input tensor's type (`--input-tensor`).
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+enum InputTensor {
+    /// int8 with a zero point: every reader.
+    Int8,
+    /// int16, symmetric, over the input's whole domain (format version 7): for inputs whose
+    /// rare values lie far beyond the common ones (docs/calibration.md).
+    Int16,
 }
 
 /// `pack --json`: the written file, then the blob's report in `inspect --json`'s order and
@@ -144,6 +155,14 @@ pub struct Args {
     /// layer, and keep whichever is closer to the float model on the calibration rows.
     #[arg(long)]
     fold_scaler: bool,
+    /// The input tensor's type: `int8`, or `int16` over the input's whole domain (a
+    /// format-version-7 blob; twice the input's scratch RAM; layer 1 keeps int8 weights).
+    #[arg(long, value_enum, default_value = "int8")]
+    input_tensor: InputTensor,
+    /// Widen every layer output's calibrated range this many times (e.g. 2), for held-out
+    /// values beyond any calibration row; 1 keeps the ranges.
+    #[arg(long, value_name = "FACTOR", default_value_t = 1.0)]
+    headroom: f64,
     /// A scaler saved separately (JSON: mean/std, min/max, or divide_by), when the model has none.
     #[arg(long, value_name = "FILE", conflicts_with = "divide_by")]
     scaler: Option<PathBuf>,
@@ -214,6 +233,31 @@ impl Args {
     }
 }
 
+/// `--input-tensor` and `--headroom`, checked against the options they cannot go with.
+fn tensor_options(a: &Args) -> Result<TensorOptions> {
+    let input = match a.input_tensor {
+        InputTensor::Int8 => InputWidth::I8,
+        InputTensor::Int16 => InputWidth::I16,
+    };
+    if !(a.headroom.is_finite() && a.headroom >= 1.0) {
+        bail!(
+            "--headroom must be a number ≥ 1 (1 keeps the calibrated ranges), got {}",
+            a.headroom
+        );
+    }
+    let custom = input == InputWidth::I16 || a.headroom != 1.0;
+    if input == InputWidth::I16 && a.fold_scaler {
+        bail!("--fold-scaler quantises the raw input to int8 and --input-tensor int16 keeps the scaler with an int16 input; drop one of them");
+    }
+    if custom && a.weights.as_deref() == Some("auto") {
+        bail!("--weights auto searches int8-input packs without headroom; drop --input-tensor int16 / --headroom, or pick the weights yourself");
+    }
+    Ok(TensorOptions {
+        input,
+        headroom: a.headroom,
+    })
+}
+
 pub fn run(a: Args) -> Result<Outcome> {
     let scaler = match (&a.scaler, a.divide_by) {
         (Some(p), _) => Some(ScalerSource::File(p.clone())),
@@ -261,6 +305,7 @@ pub fn run(a: Args) -> Result<Outcome> {
                 Some(s) => LayerBits::parse(s).context("--weights")?,
             },
             fold_scaler: a.fold_scaler,
+            tensors: tensor_options(&a)?,
         }
     };
     let req = PackRequest {

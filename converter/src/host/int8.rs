@@ -209,6 +209,10 @@ impl Int8Host {
         }
         let d = model.desc();
         let q = d.input_quant.as_ref()?;
+        // An int16 input tensor (format version 7) is run row by row on the runtime itself.
+        if q.width != kinglet_runtime::unstable::wire::format::InputWidth::I8 {
+            return None;
+        }
         let width = model.input_len();
         let mult: Vec<i32> = words(q.int_mult).map(i32::from_le_bytes).collect();
         let add: Vec<i64> = q

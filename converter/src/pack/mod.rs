@@ -12,7 +12,7 @@ pub use raw_trial::RawInputChoice;
 
 use anyhow::{bail, Result};
 use kinglet_builder::OwnedLayer;
-use kinglet_runtime::unstable::wire::format::Precision;
+use kinglet_runtime::unstable::wire::format::{InputWidth, Precision};
 use kinglet_runtime::Model;
 
 use crate::dataset::Dataset;
@@ -22,7 +22,7 @@ use crate::quantise::advice::{self, num, percentile_option, rows_text, suggested
 use crate::quantise::bias_correction::bias_corrected_bits;
 use crate::quantise::calibrate::{range_of, Calibration, RangeMethod, TensorRange};
 use crate::quantise::plausible::biases_lost;
-use crate::quantise::quantise_bits;
+use crate::quantise::quantise_input;
 use crate::quantise::spread::TensorStats;
 use crate::quantise::weight_bits::LayerBits;
 
@@ -110,6 +110,12 @@ pub struct Int8Options {
     /// The weight precision of each layer: int8 (the default) or int4 (`FORMAT.md` §3.5, a
     /// format-version-6 blob; [`crate::quantise::weight_bits`]).
     pub weights: LayerBits,
+    /// The input tensor's type: int8 (the default) or int16 (`FORMAT.md` §3.6, a
+    /// format-version-7 blob; its range from [`wide_input_range`]).
+    pub input: InputWidth,
+    /// Every layer output's calibrated range is widened this many times about zero
+    /// ([`crate::quantise::calibrate::widen`]); 1 keeps them.
+    pub headroom: f64,
 }
 
 /// Whether to fold the scaler into the first layer and quantise the raw input
@@ -133,6 +139,8 @@ impl From<RangeMethod> for Int8Options {
             fold_scaler: FoldScaler::No,
             sections: Sections::default(),
             weights: LayerBits::default(),
+            input: InputWidth::I8,
+            headroom: 1.0,
         }
     }
 }
@@ -183,8 +191,28 @@ pub fn pack_int8_options(
     let float_blob = pack_f32(model)?;
     let float_model = Model::parse(&float_blob)
         .map_err(|e| anyhow::anyhow!("internal: float pack rejected: {e}"))?;
-    let cal =
-        crate::quantise::calibrate::calibrate_observed(&float_model, data, opts.method, progress)?;
+    let mut cal = crate::quantise::calibrate::calibrate_widened(
+        &float_model,
+        data,
+        opts.method,
+        opts.headroom,
+        progress,
+    )?;
+    if opts.input == InputWidth::I16 {
+        let (range, _) = wide_input_range(model, data, &cal);
+        let mut sorted = cal.scaled_input.clone();
+        sorted.sort_by(f32::total_cmp);
+        if let (Some(r), Some(t)) = (cal.ranges.first_mut(), cal.tensors.first_mut()) {
+            *r = range;
+            *t = TensorStats::of(
+                t.tensor.clone(),
+                &cal.scaled_input,
+                &sorted,
+                data.width,
+                range,
+            );
+        }
+    }
     check_plausible(model, &cal, &data.source)?;
     finish_int8(
         model,
@@ -196,10 +224,84 @@ pub fn pack_int8_options(
     )
 }
 
-/// Whether [`pack_int8_streamed`] can pack with `opts`: a min/max or percentile range, and no
-/// raw-input trial (the least-error search and the trial need every calibration row).
+/// Whether [`pack_int8_streamed`] can pack with `opts`: a min/max or percentile range, no
+/// raw-input trial, an int8 input and no headroom (the least-error search, the trial, the int16
+/// input's domain and the widened statistics need every calibration row).
 pub fn streams(opts: &Int8Options) -> bool {
-    opts.method != RangeMethod::LeastError && opts.fold_scaler == FoldScaler::No
+    opts.method != RangeMethod::LeastError
+        && opts.fold_scaler == FoldScaler::No
+        && opts.input == InputWidth::I8
+        && opts.headroom == 1.0
+}
+
+/// How [`wide_input_range`] took the int16 input's range.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum WideRange {
+    /// The calibration rows are whole numbers: every feature over the pooled raw range
+    /// `[lo, hi]` (the smallest and largest raw value of any feature) through its scaler.
+    Domain {
+        /// Smallest raw value of any feature.
+        lo: i64,
+        /// Largest raw value of any feature.
+        hi: i64,
+    },
+    /// Other rows: the calibrated input range, [`INT16_INPUT_WIDENING`] times as wide.
+    Widened,
+}
+
+/// How much wider than the calibrated range an int16 input's range is when the rows are not
+/// whole numbers: 16 times costs 4 of its 16 bits and leaves 12, more than int8's 8 (common
+/// practice, no source: room beyond the calibration rows is cheap at 16 bits).
+pub const INT16_INPUT_WIDENING: f64 = 16.0;
+
+/// The range of an int16 input tensor (`--input-tensor int16`). Whole-number rows (pixels,
+/// counts) may take any raw value between the smallest and largest seen in any feature, so the
+/// range covers every feature's scaled image of that pooled raw range: a rarely lit pixel's
+/// standardised value is within it however far it lies from the calibration rows' values.
+/// Other rows get the calibrated range [`INT16_INPUT_WIDENING`] times as wide.
+pub fn wide_input_range(
+    model: &FloatModel,
+    data: &Dataset,
+    cal: &Calibration,
+) -> (TensorRange, WideRange) {
+    let whole = data
+        .features
+        .iter()
+        .all(|v| v.fract() == 0.0 && v.abs() <= 65_536.0);
+    let calibrated = cal
+        .ranges
+        .first()
+        .copied()
+        .unwrap_or(TensorRange { min: 0.0, max: 0.0 });
+    let (lo, hi) = data
+        .features
+        .iter()
+        .fold((f32::INFINITY, f32::NEG_INFINITY), |(a, b), &v| {
+            (a.min(v), b.max(v))
+        });
+    if !whole || lo > hi {
+        let r = crate::quantise::calibrate::widen(calibrated, INT16_INPUT_WIDENING);
+        return (r, WideRange::Widened);
+    }
+    let (offset, scale) = match &model.scaler {
+        Some(s) => (s.offset.clone(), s.scale.clone()),
+        None => (vec![0.0], vec![1.0]),
+    };
+    let (mut min, mut max) = (calibrated.min, calibrated.max);
+    for (&off, &sc) in offset.iter().zip(&scale) {
+        for raw in [lo, hi] {
+            let y = (raw - off) * sc;
+            min = min.min(y);
+            max = max.max(y);
+        }
+    }
+    (
+        TensorRange { min, max },
+        WideRange::Domain {
+            lo: lo as i64,
+            hi: hi as i64,
+        },
+    )
 }
 
 /// [`pack_int8_options`] on rows read again for each of the streamed calibration's passes
@@ -254,9 +356,15 @@ fn finish_int8(
     let build = |m: &FloatModel, ranges: &[TensorRange], means: &[Vec<f64>]| -> Result<Vec<u8>> {
         let mut owned = if opts.bias_correction {
             let corrected = bias_corrected_bits(m, means, opts.weights)?;
-            quantise_bits(&corrected, ranges, &cal.pre_activation, opts.weights)?
+            quantise_input(
+                &corrected,
+                ranges,
+                &cal.pre_activation,
+                opts.weights,
+                opts.input,
+            )?
         } else {
-            quantise_bits(m, ranges, &cal.pre_activation, opts.weights)?
+            quantise_input(m, ranges, &cal.pre_activation, opts.weights, opts.input)?
         };
         if !opts.sections.integer_input {
             owned.drop_integer_input();

@@ -46,7 +46,29 @@ pub enum Precision {
         /// Also try the raw integer input with the scaler folded in; keep the better
         /// (`--fold-scaler`).
         fold_scaler: bool,
+        /// The input tensor's type and the layer outputs' headroom (`--input-tensor`,
+        /// `--headroom`).
+        tensors: TensorOptions,
     },
+}
+
+/// The input tensor's type and how much room the layer outputs' ranges get beyond the
+/// calibration rows.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TensorOptions {
+    /// int8 (the default) or int16 (`--input-tensor int16`, format version 7).
+    pub input: kinglet_runtime::unstable::wire::format::InputWidth,
+    /// Every layer output's range widened this many times (`--headroom`, default 1).
+    pub headroom: f64,
+}
+
+impl Default for TensorOptions {
+    fn default() -> Self {
+        TensorOptions {
+            input: kinglet_runtime::unstable::wire::format::InputWidth::I8,
+            headroom: 1.0,
+        }
+    }
 }
 
 /// Everything `pack` needs to know.
@@ -120,6 +142,8 @@ impl PackRequest {
             },
             sections: self.sections,
             weights,
+            input: kinglet_runtime::unstable::wire::format::InputWidth::I8,
+            headroom: 1.0,
         }
     }
 
@@ -218,8 +242,13 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
             bias_correction,
             fold_scaler,
             weights,
+            tensors,
         } => {
-            let opts = req.int8_options(*method, *bias_correction, *fold_scaler, *weights);
+            let opts = Int8Options {
+                input: tensors.input,
+                headroom: tensors.headroom,
+                ..req.int8_options(*method, *bias_correction, *fold_scaler, *weights)
+            };
             let p = match streamed(&model, model_path, rows, label, opts, progress)? {
                 Some(p) => p,
                 None => {
@@ -529,6 +558,7 @@ mod tests {
                 method,
                 bias_correction: true,
                 fold_scaler: false,
+                tensors: TensorOptions::default(),
                 weights: Default::default(),
             },
             sections: Sections::default(),
@@ -578,6 +608,7 @@ mod tests {
                 bias_correction: false,
                 weights: Default::default(),
                 fold_scaler: false,
+                tensors: TensorOptions::default(),
             },
             sections: Sections::default(),
         };

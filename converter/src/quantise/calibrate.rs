@@ -103,6 +103,34 @@ pub fn calibrate_observed(
     method: RangeMethod,
     progress: &dyn Fn(u64),
 ) -> Result<Calibration> {
+    calibrate_widened(float_model, data, method, 1.0, progress)
+}
+
+/// A range `factor` times as wide about zero, `[factor · min, factor · max]` (`pack
+/// --headroom`): room for values beyond any calibration row. 1 leaves it as it is.
+pub fn widen(r: TensorRange, factor: f64) -> TensorRange {
+    if factor == 1.0 {
+        return r;
+    }
+    TensorRange {
+        min: (f64::from(r.min) * factor) as f32,
+        max: (f64::from(r.max) * factor) as f32,
+    }
+}
+
+/// [`calibrate_observed`] with every layer's output range (and the range before a pointwise
+/// activation) widened by `headroom` ([`widen`]); the input's range is left as the method
+/// gives it. The statistics (clipped values) are those of the widened ranges.
+pub fn calibrate_widened(
+    float_model: &Model<'_>,
+    data: &Dataset,
+    method: RangeMethod,
+    headroom: f64,
+    progress: &dyn Fn(u64),
+) -> Result<Calibration> {
+    if !(headroom.is_finite() && headroom >= 1.0) {
+        bail!("--headroom must be a number ≥ 1 (1 keeps the calibrated ranges), got {headroom}");
+    }
     if data.rows == 0 {
         bail!("calibration set {} has no rows", data.source);
     }
@@ -153,13 +181,20 @@ pub fn calibrate_observed(
         let mut sorted = v.clone();
         sorted.sort_by(f32::total_cmp);
         let range = range_of(&sorted, method);
+        let range = if t == 0 {
+            range
+        } else {
+            widen(range, headroom)
+        };
         tensors.push(TensorStats::of(tensor_name(t), v, &sorted, width, range));
         ranges.push(range);
     }
     let pre_activation = float_model
         .layers()
         .zip(&values)
-        .map(|(l, x)| pre_activation_range(l.desc, x, data.rows, method))
+        .map(|(l, x)| {
+            pre_activation_range(l.desc, x, data.rows, method).map(|r| widen(r, headroom))
+        })
         .collect();
     let scaled_input = values.into_iter().next().unwrap_or_default();
     Ok(Calibration {

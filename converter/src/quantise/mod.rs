@@ -16,7 +16,7 @@ pub mod spread;
 pub mod weight_bits;
 
 use anyhow::{anyhow, bail, Result};
-use kinglet_runtime::unstable::wire::format::{Precision, WeightLayout};
+use kinglet_runtime::unstable::wire::format::{InputWidth, Precision, WeightLayout};
 
 use crate::graph::{Activation, FloatModel, Pointwise};
 use crate::layer_table::builder_activation;
@@ -54,7 +54,34 @@ pub fn quantise_bits(
     pre: &[Option<TensorRange>],
     bits: LayerBits,
 ) -> Result<OwnedModel> {
+    quantise_input(model, ranges, pre, bits, InputWidth::I8)
+}
+
+/// The symmetric int16 quantisation of the input tensor over `r` (`FORMAT.md` §3.6): zero
+/// point 0, scale `max(|min|, |max|) / 32767`, so both ends of the range are within the
+/// tensor.
+pub fn int16_input_quant(r: TensorRange) -> AffineQuant {
+    let reach = f64::from(r.min.abs().max(r.max.abs())).max(1e-30);
+    AffineQuant {
+        scale: (reach / 32_767.0) as f32,
+        zero_point: 0,
+    }
+}
+
+/// [`quantise_bits`] with the input tensor of type `input`: int8 (asymmetric over `ranges[0]`)
+/// or int16 (symmetric over it, [`int16_input_quant`]; a format-version-7 blob whose first
+/// layer has int8 weights).
+pub fn quantise_input(
+    model: &FloatModel,
+    ranges: &[TensorRange],
+    pre: &[Option<TensorRange>],
+    bits: LayerBits,
+    input: InputWidth,
+) -> Result<OwnedModel> {
     bits.check_layers(model.layers.len())?;
+    if input == InputWidth::I16 && bits.get(0) != WeightBits::Int8 {
+        bail!("an int16 input tensor needs int8 weights in layer 1 (its kernels multiply int16 by int8); give layer 1 int8 weights (e.g. --weights 0:int8,1:int4) or use --input-tensor int8");
+    }
     if ranges.len() != model.layers.len() + 1 {
         bail!(
             "internal: {} ranges for {} tensors",
@@ -66,6 +93,18 @@ pub fn quantise_bits(
         .iter()
         .enumerate()
         .map(|(t, r)| {
+            if t == 0 && input == InputWidth::I16 {
+                let q = int16_input_quant(*r);
+                if !(q.scale.is_finite() && q.scale > 0.0 && (q.scale * 32_768.0).is_finite()) {
+                    bail!(
+                        "input: the calibrated range [{}, {}] is too wide for int16: 32,768 steps of {} overflow f32",
+                        num(f64::from(r.min)),
+                        num(f64::from(r.max)),
+                        num(f64::from(q.scale))
+                    );
+                }
+                return Ok(q);
+            }
             let q = activation_quant(r.min, r.max);
             // The reader (FORMAT.md §5) needs every step from the zero point, up to 128 of them,
             // to stay finite in f32. We refuse more: a range whose width (255 steps) is not a
@@ -111,13 +150,17 @@ pub fn quantise_bits(
             }
             _ => None,
         };
-        layers.push(quantise_layer(k, l, qi, qo, table, bits.get(k))?);
+        // Only the first layer reads the input tensor: its accumulator bound is the int16
+        // reach when the input is int16.
+        let reach = if k == 0 { input.reach() } else { 128 };
+        layers.push(quantise_layer(k, l, qi, qo, table, bits.get(k), reach)?);
     }
     let q_in = q
         .first()
         .copied()
         .ok_or_else(|| anyhow!("internal: no input range"))?;
-    let input_quant = integer_input(model, q_in)?;
+    let mut input_quant = integer_input(model, q_in)?;
+    input_quant.width = input;
     owned_table(model, Precision::Int8, Some(input_quant), layers)
 }
 
@@ -177,6 +220,7 @@ fn quantise_layer(
     qo: AffineQuant,
     table: Option<(Pointwise, AffineQuant)>,
     bits: WeightBits,
+    reach: i64,
 ) -> Result<OwnedLayer> {
     // A pointwise layer requantises onto its table's input; the table maps it onto `qo`.
     let (q_req, activation) = match table {
@@ -217,7 +261,13 @@ fn quantise_layer(
         }
         // Fold the input zero point: Σ w (q - z) = Σ w q - z Σ w.
         let folded = bias_steps as i64 - i64::from(qi.zero_point) * sum_w;
-        let bound = folded.abs() + 128 * row_q.iter().map(|&w| i64::from(w).abs()).sum::<i64>();
+        let bound = folded.abs() + reach * row_q.iter().map(|&w| i64::from(w).abs()).sum::<i64>();
+        if bound > i64::from(i32::MAX) && reach > 128 {
+            bail!(
+                "layer {k}, output {o}: with an int16 input the int32 accumulator could overflow (|bias| + 32768·Σ|w| = {bound} > 2^31 - 1): \
+                 the layer is too wide for an int16 input; use --input-tensor int8"
+            );
+        }
         if bound > i64::from(i32::MAX) {
             bail!(
                 "layer {k}, output {o}: the int32 accumulator could overflow (|bias| + 128·Σ|w| = {bound} > 2^31 - 1); \
@@ -269,7 +319,8 @@ fn quantise_layer(
 }
 
 /// Fixed-point tables for raw integer inputs: `q = round(a·x + b)` with `a = scale / s_in`,
-/// `b = zp - offset · scale / s_in`, as `(x·mult + add + 2^(s-1)) >> s`.
+/// `b = zp - offset · scale / s_in`, as `(x·mult + add + 2^(s-1)) >> s` (the runtime
+/// saturates the result to the tensor's `width`).
 fn integer_input(model: &FloatModel, q: AffineQuant) -> Result<OwnedInput> {
     let (offset, scale) = match &model.scaler {
         Some(s) => (s.offset.clone(), s.scale.clone()),
