@@ -64,6 +64,8 @@ pub struct Int8Pack {
     pub tensors: Vec<TensorStats>,
     /// One line per range that a few far values set, with the option that clips them.
     pub warnings: Vec<String>,
+    /// An int16 input tensor's range and how it was taken (`--input-tensor int16`).
+    pub wide_input: Option<(TensorRange, WideRange)>,
 }
 
 /// The optional sections of an int8 blob to write (`runtime/FORMAT.md` §3.4). Each left out
@@ -198,8 +200,12 @@ pub fn pack_int8_options(
         opts.headroom,
         progress,
     )?;
+    let mut wide_input = None;
     if opts.input == InputWidth::I16 {
-        let (range, _) = wide_input_range(model, data, &cal);
+        if opts.fold_scaler != FoldScaler::No {
+            bail!("the raw-input trial quantises the raw input to int8; it does not apply to an int16 input tensor");
+        }
+        let (range, how) = wide_input_range(model, data, &cal);
         let mut sorted = cal.scaled_input.clone();
         sorted.sort_by(f32::total_cmp);
         if let (Some(r), Some(t)) = (cal.ranges.first_mut(), cal.tensors.first_mut()) {
@@ -211,17 +217,22 @@ pub fn pack_int8_options(
                 data.width,
                 range,
             );
+            // The far-value warning counts int8 steps; an int16 range has 256 times as many.
+            t.dominated = false;
         }
+        wide_input = Some((range, how));
     }
     check_plausible(model, &cal, &data.source)?;
-    finish_int8(
+    let mut pack = finish_int8(
         model,
         &float_model,
         cal,
         Some(data),
         (&data.source, data.rows),
         opts,
-    )
+    )?;
+    pack.wide_input = wide_input;
+    Ok(pack)
 }
 
 /// Whether [`pack_int8_streamed`] can pack with `opts`: a min/max or percentile range, no
@@ -232,6 +243,23 @@ pub fn streams(opts: &Int8Options) -> bool {
         && opts.fold_scaler == FoldScaler::No
         && opts.input == InputWidth::I8
         && opts.headroom == 1.0
+}
+
+/// The pack note on an int16 input tensor's range.
+pub fn wide_input_line(range: TensorRange, how: WideRange) -> String {
+    let from = match how {
+        WideRange::Domain { lo, hi } => format!(
+            "every feature's scaled image of the raw values {lo}..{hi}, the smallest and largest in any feature of the calibration rows"
+        ),
+        WideRange::Widened => format!(
+            "the calibrated range {INT16_INPUT_WIDENING} times as wide (the calibration rows are not all whole numbers)"
+        ),
+    };
+    format!(
+        "input tensor: int16, symmetric, over [{}, {}]: {from} (format version 7)",
+        num(f64::from(range.min)),
+        num(f64::from(range.max))
+    )
 }
 
 /// How [`wide_input_range`] took the int16 input's range.
@@ -396,6 +424,7 @@ fn finish_int8(
         ranges: cal.ranges,
         calibration_rows: rows,
         tensors: cal.tensors,
+        wide_input: None,
     })
 }
 

@@ -282,6 +282,15 @@ pub fn pack_with(req: &PackRequest, progress: &dyn PackProgress) -> Result<Packe
             if let Some(c) = &p.raw_input {
                 notes.push(crate::report::calibration::raw_input_line(c));
             }
+            if let Some((range, how)) = p.wide_input {
+                notes.push(super::wide_input_line(range, how));
+            }
+            if tensors.headroom != 1.0 {
+                notes.push(format!(
+                    "headroom: every layer output's range is the calibrated one widened {} times",
+                    crate::quantise::advice::num(tensors.headroom)
+                ));
+            }
             calibration = Some(CalibrationReport::new(
                 p.method,
                 p.bias_correction,

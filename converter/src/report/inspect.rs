@@ -42,6 +42,9 @@ pub struct BlobReport {
     pub scaler: String,
     /// Input scale and zero point (int8 only).
     pub input_quant: Option<(f32, i8)>,
+    /// The quantised input tensor's type: "int8", "int16" (symmetric, zero point 0; format
+    /// version 7) or, for an f32 blob, "f32".
+    pub input_tensor: String,
     /// Whether the blob takes raw `i16` / `u8` samples (`Model::takes_integer_input`): an int8
     /// blob only with the integer input path (`kinglet pack --integer-input`).
     pub integer_input: bool,
@@ -126,6 +129,12 @@ impl BlobReport {
             }
             .into(),
             input_quant: d.input_quant.map(|q| (q.scale, q.zero_point)),
+            input_tensor: match d.input_quant.map(|q| q.width) {
+                None => "f32",
+                Some(kinglet_runtime::unstable::wire::format::InputWidth::I8) => "int8",
+                Some(kinglet_runtime::unstable::wire::format::InputWidth::I16) => "int16",
+            }
+            .into(),
             integer_input: model.takes_integer_input(),
             labels: model.labels().map(String::from).collect(),
             parameters: layers.iter().map(|l| l.parameters).sum(),

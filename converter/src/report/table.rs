@@ -99,9 +99,10 @@ pub fn render(r: &BlobReport) -> String {
         (
             "input",
             format!(
-                "{} features, scaler: {}, quant: {}{}",
+                "{} features, scaler: {}, quant: {}{}{}",
                 r.inputs,
                 r.scaler,
+                if r.input_tensor == "int16" { "int16 " } else { "" },
                 quant(r.input_quant),
                 match (r.input_quant, r.integer_input) {
                     (None, _) => "",
