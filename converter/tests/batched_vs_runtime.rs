@@ -558,6 +558,8 @@ fn both_engines_compare_a_folded_input_with_the_raw_row() {
             fold_scaler: FoldScaler::Always,
             sections: Sections::ALL,
             weights: Default::default(),
+            input: kinglet_runtime::unstable::wire::format::InputWidth::I8,
+            headroom: 1.0,
         },
     )
     .unwrap();

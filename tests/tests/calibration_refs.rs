@@ -142,6 +142,8 @@ fn bias_correction_equals_numpy() {
         fold_scaler: FoldScaler::No,
         sections: Sections::ALL,
         weights: Default::default(),
+        input: kinglet_runtime::unstable::wire::format::InputWidth::I8,
+        headroom: 1.0,
     };
     let p = pack_int8_with(&model, &data, opts).unwrap();
     assert!(p.bias_correction && Model::parse(&p.blob).is_ok());

@@ -63,6 +63,8 @@ fn run(model: &FloatModel, calibration: &Dataset, heldout: &Rows, criteria: Crit
             fold_scaler: FoldScaler::No,
             sections: Sections::default(),
             weights: Default::default(),
+            input: kinglet_runtime::unstable::wire::format::InputWidth::I8,
+            headroom: 1.0,
         },
         heldout,
         criteria,
