@@ -11,7 +11,7 @@
 //!   or not, behind a correct header, so that a test reaches exactly the rule it is about;
 //! - [`reseal`] makes a blob's length and CRC right again after a test changed its bytes;
 //! - [`le`] turns typed values into the wire bytes of tensors, [`blocked`] converts weights
-//!   between the layouts of `FORMAT.md` §3.1, [`sample`] holds two small hand-worked models,
+//!   between the layouts of `FORMAT.md` §3.1, [`sample`] holds three small hand-worked models,
 //!   and `npy` (feature `npy`) writes `.npy` arrays for tests and benchmarks.
 #![deny(missing_docs)]
 
@@ -28,6 +28,8 @@ pub use error::BuildError;
 pub use kinglet_runtime::unstable::encode::{reseal, seal};
 /// The table's enums, for filling in an [`OwnedModel`]. (The runtime's own unit tests name them
 /// from here: they see a second copy of the runtime crate, whose types are not these.)
-pub use kinglet_runtime::unstable::wire::format::{OutputKind, Precision, WeightLayout};
+pub use kinglet_runtime::unstable::wire::format::{
+    InputWidth, OutputKind, Precision, WeightLayout,
+};
 pub use owned::{Activation, OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 pub use raw::{planned_scratch, raw_blob, raw_blob_with_layers};

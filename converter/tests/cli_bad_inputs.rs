@@ -2342,3 +2342,137 @@ fn c135_no_candidate_within_the_flash_budget() {
         "no candidate fits the flash budget; the smallest within the bound is",
     );
 }
+
+// ---- The int16 input tensor of format version 7 and the headroom (C136–C140) ----
+
+#[test]
+fn c136_int16_input_with_the_raw_input_trial() {
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "--input-tensor",
+            "int16",
+            "--fold-scaler",
+            "-o",
+            "m.kgl",
+        ],
+        &["--fold-scaler quantises the raw input to int8 and --input-tensor int16 keeps the scaler"],
+    );
+}
+
+#[test]
+fn c137_headroom_below_one_or_not_a_number() {
+    for bad in ["0.5", "NaN", "inf"] {
+        let c = Case::new().with("model_2in.json").with("rows.csv");
+        c.fails(
+            &[
+                "pack",
+                "model_2in.json",
+                "--calibration",
+                "rows.csv",
+                "--headroom",
+                bad,
+                "-o",
+                "m.kgl",
+            ],
+            &["--headroom must be a number ≥ 1 (1 keeps the calibrated ranges), got"],
+        );
+    }
+}
+
+#[test]
+fn c138_int16_input_with_int4_weights_in_layer_1() {
+    let c = Case::new().with("model_2in.json").with("rows.csv");
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "--input-tensor",
+            "int16",
+            "--weights",
+            "int4",
+            "-o",
+            "m.kgl",
+        ],
+        &["an int16 input tensor needs int8 weights in layer 1"],
+    );
+}
+
+#[test]
+fn c139_int16_input_with_the_precision_search() {
+    let c = Case::new()
+        .with("model_2in.json")
+        .with("rows.csv")
+        .put("held.csv", HELD);
+    c.fails(
+        &[
+            "pack",
+            "model_2in.json",
+            "--calibration",
+            "rows.csv",
+            "--input-tensor",
+            "int16",
+            "--weights",
+            "auto",
+            "--holdout",
+            "held.csv",
+            "--holdout-label",
+            "label",
+            "-o",
+            "m.kgl",
+        ],
+        &["--weights auto searches int8-input packs without headroom"],
+    );
+}
+
+/// A first layer of 600 inputs whose weights are all equal: every one quantises to 127, so
+/// `32768 · Σ|w| = 32768 · 76,200 ≈ 2.5 · 10^9` passes `2^31 − 1`, while `128 · Σ|w|` (an int8
+/// input) is far within it.
+#[test]
+fn c140_int16_input_on_a_layer_too_wide_for_its_accumulator() {
+    let n = 600;
+    let row = vec!["0.01"; n].join(",");
+    let model = format!(
+        r#"{{"kinglet_model": 1, "input_width": {n}, "layers": [{{"inputs": {n}, "outputs": 2, "activation": "linear",
+            "weights": [[{row}], [{row}]], "bias": [0, 0]}}], "output": "softmax"}}"#
+    );
+    let rows: String = (0..4)
+        .map(|r| vec![format!("{}", r + 1); n].join(",") + "\n")
+        .collect();
+    let c = Case::new()
+        .put("wide.json", model.as_bytes())
+        .put("rows.csv", rows.as_bytes());
+    c.fails(
+        &[
+            "pack",
+            "wide.json",
+            "--calibration",
+            "rows.csv",
+            "--input-tensor",
+            "int16",
+            "-o",
+            "m.kgl",
+        ],
+        &["layer 0, output 0: with an int16 input the int32 accumulator could overflow (|bias| + 32768·Σ|w| = 2496921600 > 2^31 - 1)"],
+    );
+    // The same model packs with an int8 input.
+    let out = c.run(&[
+        "pack",
+        "wide.json",
+        "--calibration",
+        "rows.csv",
+        "-o",
+        "m.kgl",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}

@@ -669,7 +669,8 @@ mod tests {
         );
     }
 
-    /// The int16 input's rules (`FORMAT.md` §3.6, §5 rules 3, 11, 13, 14).
+    /// The int16 input's rules (`FORMAT.md` §3.6, §5 rules 3, 11, 13, 14): docs/bad-inputs.md
+    /// R51, R52, R54 and R56.
     #[test]
     #[cfg(feature = "int16-input")]
     fn int16_input_is_checked() {

@@ -441,3 +441,44 @@ fn r49_int4_accumulator_bound() {
         })
     );
 }
+
+/// R53: int4 weights in the first layer of an int16-input model (its kernels multiply int16
+/// by int8 only, `FORMAT.md` §3.6) are refused; in a later layer they are allowed.
+#[cfg(all(feature = "int4", feature = "int16-input"))]
+#[test]
+fn r53_int4_weights_cannot_read_an_int16_input() {
+    let mut m = kinglet_builder::sample::tiny_int16_input();
+    let w: Vec<i8> = [1, 2, 3, -4, 5, -6, 7, -8, 7, 6, 5, 4].into();
+    let field_len = kinglet_runtime::unstable::wire::nibble::bytes(3, 4);
+    let mut field = vec![0u8; field_len];
+    assert!(kinglet_runtime::unstable::wire::nibble::pack(
+        3, 4, &w, &mut field
+    ));
+    let mut first = m.clone();
+    first.layers[0].layout = kinglet_builder::WeightLayout::Nibble4x4;
+    first.layers[0].weights = field;
+    assert_eq!(
+        Model::parse(&first.raw_blob()).map(|_| ()),
+        Err(FormatError::PrecisionMismatch { layer: Some(0) })
+    );
+    // Layer 2 (4 → 2) in int4 is fine: it reads int8.
+    let w2: Vec<i8> = [1, -2, 3, -4, -5, 6, -7, 7].into();
+    let mut field = vec![0u8; kinglet_runtime::unstable::wire::nibble::bytes(4, 2)];
+    assert!(kinglet_runtime::unstable::wire::nibble::pack(
+        4, 2, &w2, &mut field
+    ));
+    m.layers[1].layout = kinglet_builder::WeightLayout::Nibble4x4;
+    m.layers[1].weights = field;
+    assert_eq!(Model::parse(&m.raw_blob()).map(|_| ()), Ok(()));
+}
+
+/// R55: an int16-input blob on a runtime built without the `int16-input` feature.
+#[cfg(not(feature = "int16-input"))]
+#[test]
+fn r55_int16_input_needs_its_feature() {
+    let blob = kinglet_builder::sample::tiny_int16_input().raw_blob();
+    assert_eq!(
+        Model::parse(&blob).map(|_| ()),
+        Err(FormatError::Int16InputNotBuiltIn)
+    );
+}

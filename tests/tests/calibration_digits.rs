@@ -223,7 +223,10 @@ fn calibration_choices_on_digits_match_the_docs() {
     assert_eq!(meets.len(), 16);
     // Issue 15's goal (every tensor ≥ 30 dB, agreement ≥ 99.5 %): no int8 input meets it; the
     // int16 input with the layer outputs' ranges widened 2 and 3 times does.
-    assert!(!meets[..12].iter().any(|&m| m), "an int8-input row meets the goal: update the docs");
+    assert!(
+        !meets[..12].iter().any(|&m| m),
+        "an int8-input row meets the goal: update the docs"
+    );
     assert_eq!(&meets[12..], &[false, false, true, true]);
     doc_block(BEGIN, END, &t, "calibration table");
 }
@@ -244,7 +247,10 @@ fn int16_input_packs_match_the_numpy_simulation() {
         };
         let case = cases
             .iter()
-            .find(|c| c["input"] == "int16 symmetric, the input's domain" && c["hidden"] == hidden.as_str())
+            .find(|c| {
+                c["input"] == "int16 symmetric, the input's domain"
+                    && c["hidden"] == hidden.as_str()
+            })
             .unwrap_or_else(|| panic!("no simulated case for headroom {h}"));
         let measured = vet_with(
             Int8Options {
@@ -255,7 +261,11 @@ fn int16_input_packs_match_the_numpy_simulation() {
             },
             "examples/digits/calibration.csv",
         );
-        for (k, (s, f)) in f64s(&case["sqnr_db"]).iter().zip(&measured.fidelity).enumerate() {
+        for (k, (s, f)) in f64s(&case["sqnr_db"])
+            .iter()
+            .zip(&measured.fidelity)
+            .enumerate()
+        {
             let m = f.sqnr_db.unwrap();
             assert!(
                 (s - m).abs() <= 0.3,

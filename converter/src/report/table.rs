@@ -102,7 +102,11 @@ pub fn render(r: &BlobReport) -> String {
                 "{} features, scaler: {}, quant: {}{}{}",
                 r.inputs,
                 r.scaler,
-                if r.input_tensor == "int16" { "int16 " } else { "" },
+                if r.input_tensor == "int16" {
+                    "int16 "
+                } else {
+                    ""
+                },
                 quant(r.input_quant),
                 match (r.input_quant, r.integer_input) {
                     (None, _) => "",
