@@ -47,6 +47,9 @@
 //!   [`Model::parse`] refuses f32 blobs with [`FormatError::F32NotBuiltIn`].
 //! - `int4` (default): int4 weights (`Nibble4x4`, format version 6) and their kernels. Without
 //!   it [`Model::parse`] refuses a blob with an int4 layer with [`FormatError::Int4NotBuiltIn`].
+//! - `int16-input` (default): an int16 input tensor (format version 7) and the first-layer
+//!   kernels that read it. Without it [`Model::parse`] refuses such a blob with
+//!   [`FormatError::Int16InputNotBuiltIn`].
 //! - `defmt`: `defmt::Format` for the error and result types.
 //! - `encode`: the blob encoder, `unstable::encode` (host tools).
 #![cfg_attr(not(test), no_std)]
