@@ -626,7 +626,7 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8], wide: bool) -> Q
 #[cfg(test)]
 mod tests {
     use super::*;
-    use kinglet_builder::sample::{tiny_f32, tiny_int16_input, tiny_int8};
+    use kinglet_builder::sample::{tiny_f32, tiny_int8};
 
     fn trace_int8(model: &Model<'_>, input: Input<'_>) -> (Prediction, Vec<Vec<i8>>) {
         let mut scratch = vec![0u8; model.scratch_bytes()];
@@ -674,7 +674,9 @@ mod tests {
     #[test]
     #[cfg(feature = "int16-input")]
     fn int16_input_forward_pass_hand_worked() {
-        let blob = tiny_int16_input().encode_to_vec().unwrap();
+        let blob = kinglet_builder::sample::tiny_int16_input()
+            .encode_to_vec()
+            .unwrap();
         assert_eq!(u16::from_le_bytes([blob[4], blob[5]]), 7);
         let m = Model::parse(&blob).unwrap();
         // ping: max(2 · 3, 2), pong: 4.

@@ -273,7 +273,7 @@ fn int16_input_packs_match_the_numpy_simulation() {
             );
         }
         assert_eq!(
-            measured.agreement.agree as u64,
+            measured.agreement.agree,
             case["agree"].as_u64().unwrap(),
             "headroom {h}: agreeing rows"
         );
