@@ -46,7 +46,7 @@ FLOAT_REL = 1e-5
 # (generator script, committed directory, files the generator writes)
 GENERATORS = [
     ("tests/python/requant_ref.py", "tests/fixtures", ["requant_cases.csv", "multiplier_cases.csv"]),
-    ("tests/python/quantize_linear_ref.py", "tests/fixtures", ["quantize_linear_cases.csv"]),
+    ("tests/python/quantize_linear_ref.py", "tests/fixtures", ["quantize_linear_cases.csv", "quantize_linear_i16_cases.csv"]),
     ("tests/python/dense_ref.py", "tests/fixtures", ["softmax_cases.json", "dense_int8_cases.json"]),
     ("examples/digits/make_model.py", "examples/digits",
      ["model.onnx", "heldout.csv", "calibration.csv", "expected_proba.csv", "reference_metrics.json"]),

@@ -1,4 +1,4 @@
-"""Reference for Kinglet's float -> int8 input quantisation, checked against ONNX QuantizeLinear.
+"""Reference for Kinglet's float -> int8 (and int16) input quantisation, checked against ONNX QuantizeLinear.
 
 Reference: the ONNX operator QuantizeLinear (opset 21, https://onnx.ai/onnx/operators/onnx__QuantizeLinear.html):
     y = saturate(round_half_to_even(x / y_scale) + y_zero_point), int8 output, computed in float32,
@@ -9,7 +9,9 @@ Note: the reference evaluator casts `rint(x / scale)` to int32 before clipping, 
 |x / scale| >= 2^31, so every case here keeps |x / scale| below 1e9 (still far outside int8 range).
 
 Writes `quantize_linear_cases.csv` (x,scale,zero_point,expected) into the output directory (default:
-tests/fixtures). Float values are written as repr(float(np.float32(v))), which round-trips float32.
+tests/fixtures), and `quantize_linear_i16_cases.csv` (x,scale,expected): the same operator with an
+int16 output and zero point 0, the symmetric int16 input tensor of format version 7
+(runtime/FORMAT.md §3.6; QuantizeLinear takes int16 outputs from opset 21). Float values are written as repr(float(np.float32(v))), which round-trips float32.
 
 Usage: python quantize_linear_ref.py [OUT_DIR]
 """
@@ -32,7 +34,7 @@ DEFAULT_OUT = Path(__file__).resolve().parent.parent / "fixtures"
 F32 = np.float32
 
 
-def build_model() -> onnx.ModelProto:
+def build_model(out_type=TensorProto.INT8) -> onnx.ModelProto:
     node = helper.make_node("QuantizeLinear", ["x", "scale", "zero_point"], ["y"], name="quantize_input")
     graph = helper.make_graph(
         [node],
@@ -40,9 +42,9 @@ def build_model() -> onnx.ModelProto:
         [
             helper.make_tensor_value_info("x", TensorProto.FLOAT, ["n"]),
             helper.make_tensor_value_info("scale", TensorProto.FLOAT, []),
-            helper.make_tensor_value_info("zero_point", TensorProto.INT8, []),
+            helper.make_tensor_value_info("zero_point", out_type, []),
         ],
-        [helper.make_tensor_value_info("y", TensorProto.INT8, ["n"])],
+        [helper.make_tensor_value_info("y", out_type, ["n"])],
     )
     model = helper.make_model(graph, opset_imports=[helper.make_opsetid("", OPSET)])
     onnx.checker.check_model(model)
@@ -102,6 +104,51 @@ def build_groups(rng) -> "OrderedDict[tuple[float, int], list[float]]":
     return groups
 
 
+def build_groups_i16(rng) -> "OrderedDict[float, list[float]]":
+    """Cases for the symmetric int16 quantisation (zero point 0)."""
+    groups: "OrderedDict[float, list[float]]" = OrderedDict()
+
+    def add(scale, xs):
+        s = F32(scale)
+        lst = groups.setdefault(float(s), [])
+        for v in xs:
+            v32 = F32(v)
+            assert abs(float(v32) / float(s)) < 1e9, (v, scale)
+            lst.append(float(v32))
+
+    # Exact ties with power-of-two scales, around zero and the int16 ends.
+    for scale in (1.0, 2.0**-8, 2.0**-15, 0.5, 2.0**3):
+        ks = list(range(-5, 5)) + [-32770, -32769, -32768, -32767, 32766, 32767, 32768] + list(rng.integers(-40000, 40000, size=8))
+        add(scale, [(int(k) + 0.5) * scale for k in ks])
+    # Saturation and the ends themselves.
+    for scale in (0.0179, 1e-3, 3.0):
+        add(scale, [32767 * scale, -32768 * scale, 32768 * scale, -32769 * scale, 1e6 * scale, -1e6 * scale, 0.0, -0.0])
+    # Random scales (the digits example's is about 0.018).
+    for _ in range(12):
+        scale = float(10.0 ** rng.uniform(-5.0, 1.0))
+        add(scale, list(rng.uniform(-40000.0, 40000.0, size=24) * scale))
+    return groups
+
+
+def write_i16(out: Path, rng) -> int:
+    sess = ReferenceEvaluator(build_model(TensorProto.INT16))
+    rows = []
+    for scale, xs in build_groups_i16(rng).items():
+        x = np.array(xs, dtype=F32)
+        (y,) = sess.run(None, {"x": x, "scale": np.array(scale, dtype=F32), "zero_point": np.array(0, dtype=np.int16)})
+        mine = np.clip(np.rint(x / F32(scale)).astype(np.float64), -32768, 32767).astype(np.int64)
+        if not np.array_equal(y.astype(np.int64), mine):
+            bad = int(np.nonzero(y.astype(np.int64) != mine)[0][0])
+            raise AssertionError(f"int16: numpy and ReferenceEvaluator disagree at x={xs[bad]!r} scale={scale!r}")
+        for xi, yi in zip(x, y):
+            rows.append((repr(float(xi)), repr(float(F32(scale))), int(yi)))
+    with open(out / "quantize_linear_i16_cases.csv", "w", newline="") as f:
+        w = csv.writer(f, lineterminator="\n")
+        w.writerow(["x", "scale", "expected"])
+        w.writerows(rows)
+    return len(rows)
+
+
 def main(argv: list[str]) -> int:
     out = Path(argv[1]) if len(argv) > 1 else DEFAULT_OUT
     out.mkdir(parents=True, exist_ok=True)
@@ -125,6 +172,8 @@ def main(argv: list[str]) -> int:
         w.writerow(["x", "scale", "zero_point", "expected"])
         w.writerows(rows)
     print(f"quantize_linear_cases.csv: {len(rows)} rows ({ties} exact ties) -> {out}")
+    n = write_i16(out, np.random.default_rng(SEED + 1))
+    print(f"quantize_linear_i16_cases.csv: {n} rows -> {out}")
     return 0
 
 

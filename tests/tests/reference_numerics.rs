@@ -5,7 +5,9 @@
 //!   CVPR, §2.2), by `tests/python/requant_ref.py`.
 //! * `multiplier_cases.csv`: `math.frexp` decomposition of real multipliers, same script.
 //! * `quantize_linear_cases.csv`: ONNX `QuantizeLinear` (opset 21) run by the onnx package's
-//!   `onnx.reference.ReferenceEvaluator`, by `tests/python/quantize_linear_ref.py`.
+//!   `onnx.reference.ReferenceEvaluator`, by `tests/python/quantize_linear_ref.py`;
+//!   `quantize_linear_i16_cases.csv` the same operator with an int16 output and zero point 0
+//!   (the int16 input tensor of format version 7).
 //! * `softmax_cases.json`, `dense_int8_cases.json`: numpy float64 softmax and int64 dense layers,
 //!   by `tests/python/dense_ref.py`.
 //!
@@ -15,7 +17,7 @@ use kinglet_converter::quantise::params::decompose_multiplier;
 use kinglet_runtime::unstable::dense::{dense_i8, DenseI8};
 use kinglet_runtime::unstable::output::softmax;
 use kinglet_runtime::unstable::requant::requantise_reference;
-use kinglet_runtime::unstable::scale::quantize_linear;
+use kinglet_runtime::unstable::scale::{quantize_linear, quantize_linear_i16};
 use kinglet_tests::path;
 
 fn rows(rel: &str) -> Vec<Vec<String>> {
@@ -69,6 +71,27 @@ fn input_quantisation_matches_onnx_quantize_linear() {
             "x {x:e} scale {scale:e} zp {zp}"
         );
     }
+}
+
+/// The int16 input quantisation (`FORMAT.md` §3.6) is ONNX `QuantizeLinear` with an int16
+/// output and zero point 0, as the onnx reference evaluator computes it.
+#[test]
+fn int16_input_quantisation_matches_onnx_quantize_linear() {
+    let cases = rows("tests/fixtures/quantize_linear_i16_cases.csv");
+    assert!(cases.len() >= 400);
+    let mut saturated = 0;
+    for c in &cases {
+        let x: f32 = c[0].parse().unwrap();
+        let scale: f32 = c[1].parse().unwrap();
+        let want: i16 = c[2].parse().unwrap();
+        saturated += usize::from(want == i16::MAX || want == i16::MIN);
+        assert_eq!(
+            quantize_linear_i16(x, scale),
+            want,
+            "x {x:e} scale {scale:e}"
+        );
+    }
+    assert!(saturated >= 10, "{saturated} saturated cases");
 }
 
 #[derive(serde::Deserialize)]

@@ -205,7 +205,12 @@ pub fn pack_int8_options(
         if opts.fold_scaler != FoldScaler::No {
             bail!("the raw-input trial quantises the raw input to int8; it does not apply to an int16 input tensor");
         }
-        let (range, how) = wide_input_range(model, data, &cal);
+        let calibrated = cal
+            .ranges
+            .first()
+            .copied()
+            .unwrap_or(TensorRange { min: 0.0, max: 0.0 });
+        let (range, how) = wide_input_range(model, data, calibrated);
         let mut sorted = cal.scaled_input.clone();
         sorted.sort_by(f32::total_cmp);
         if let (Some(r), Some(t)) = (cal.ranges.first_mut(), cal.tensors.first_mut()) {
@@ -290,17 +295,12 @@ pub const INT16_INPUT_WIDENING: f64 = 16.0;
 pub fn wide_input_range(
     model: &FloatModel,
     data: &Dataset,
-    cal: &Calibration,
+    calibrated: TensorRange,
 ) -> (TensorRange, WideRange) {
     let whole = data
         .features
         .iter()
         .all(|v| v.fract() == 0.0 && v.abs() <= 65_536.0);
-    let calibrated = cal
-        .ranges
-        .first()
-        .copied()
-        .unwrap_or(TensorRange { min: 0.0, max: 0.0 });
     let (lo, hi) = data
         .features
         .iter()
@@ -472,4 +472,74 @@ fn check_plausible(model: &FloatModel, cal: &Calibration, source: &str) -> Resul
         num(lost.smallest_term),
         num(lost.largest_bias),
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::graph::{Activation, DenseLayer, OutputKind, Scaler, ScalerKind};
+
+    fn model(offset: Vec<f32>, scale: Vec<f32>) -> FloatModel {
+        FloatModel {
+            input_len: 2,
+            scaler: Some(Scaler {
+                kind: ScalerKind::Standardise,
+                offset,
+                scale,
+            }),
+            layers: vec![DenseLayer {
+                inputs: 2,
+                outputs: 1,
+                weights: vec![1.0, 1.0],
+                bias: vec![0.0],
+                activation: Activation::Linear,
+            }],
+            output: OutputKind::Logits,
+            labels: vec![],
+        }
+    }
+
+    fn rows(features: Vec<f32>) -> Dataset {
+        Dataset {
+            rows: features.len() / 2,
+            width: 2,
+            features,
+            labels: None,
+            source: "rows.csv".into(),
+        }
+    }
+
+    /// Whole numbers: every feature's scaled image of the pooled raw range. Feature 1 never
+    /// reaches 16 in the rows, but feature 0 does, so feature 1's range goes to (16 − 1) · 4.
+    #[test]
+    fn whole_numbers_take_the_pooled_raw_domain() {
+        let m = model(vec![2.0, 1.0], vec![0.5, 4.0]);
+        let data = rows(vec![0.0, 1.0, 16.0, 2.0, 3.0, 1.0]);
+        let calibrated = TensorRange {
+            min: -1.0,
+            max: 7.0,
+        };
+        let (r, how) = wide_input_range(&m, &data, calibrated);
+        assert_eq!(how, WideRange::Domain { lo: 0, hi: 16 });
+        // Feature 0: (0 − 2) · 0.5 = −1 .. 7; feature 1: (0 − 1) · 4 = −4 .. 60.
+        assert_eq!((r.min, r.max), (-4.0, 60.0));
+        let q = crate::quantise::int16_input_quant(r);
+        assert_eq!(q.zero_point, 0);
+        assert_eq!(q.scale, (60.0f64 / 32767.0) as f32);
+    }
+
+    /// Other rows: the calibrated range 16 times as wide.
+    #[test]
+    fn fractions_take_the_widened_calibrated_range() {
+        let m = model(vec![0.0], vec![1.0]);
+        let data = rows(vec![0.5, 1.0, 2.0, -1.25]);
+        let calibrated = TensorRange {
+            min: -1.25,
+            max: 2.0,
+        };
+        let (r, how) = wide_input_range(&m, &data, calibrated);
+        assert_eq!(how, WideRange::Widened);
+        assert_eq!((r.min, r.max), (-20.0, 32.0));
+        assert!(wide_input_line(r, how).contains("16 times as wide"));
+    }
 }

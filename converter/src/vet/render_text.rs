@@ -167,7 +167,7 @@ pub fn render(r: &VetReport, o: &TextOptions) -> String {
 
     let _ = writeln!(
         s,
-        "\nPer-layer fidelity: SQNR = 10·log10(Σ x_f² / Σ (x_f − x_q)²) over all rows; clipped: float values beyond the int8 range, and their share of the noise; rounding alone: the SQNR without that share"
+        "\nPer-layer fidelity: SQNR = 10·log10(Σ x_f² / Σ (x_f − x_q)²) over all rows; clipped: float values beyond the quantised range (int8; int16 for an int16 input tensor), and their share of the noise; rounding alone: the SQNR without that share"
     );
     let mut t = table(
         [
