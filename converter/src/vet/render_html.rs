@@ -185,7 +185,7 @@ pub fn render(r: &VetReport) -> Result<String> {
     let _ = writeln!(h, "<h2>Per-layer fidelity</h2>");
     let _ = writeln!(
         h,
-        "<p class=\"note\">SQNR = 10·log10(Σ x<sub>f</sub>² / Σ (x<sub>f</sub> − x<sub>q</sub>)²) over every element of every row; x<sub>q</sub> is the int8 tensor dequantised.</p>"
+        "<p class=\"note\">SQNR = 10·log10(Σ x<sub>f</sub>² / Σ (x<sub>f</sub> − x<sub>q</sub>)²) over every element of every row; x<sub>q</sub> is the quantised tensor (int8; int16 for an int16 input) dequantised.</p>"
     );
     h.push_str(&sqnr_svg(&r.fidelity)?);
     let _ = writeln!(
@@ -207,7 +207,7 @@ pub fn render(r: &VetReport) -> Result<String> {
     }
     let _ = writeln!(
         h,
-        "</table><p class=\"note\">Clipped: float values beyond the int8 tensor's range (they saturate); their squared errors are the noise from clipping, the others' the rounding noise (with any error that reached the layer through its input).</p>"
+        "</table><p class=\"note\">Clipped: float values beyond the quantised tensor's range (they saturate); their squared errors are the noise from clipping, the others' the rounding noise (with any error that reached the layer through its input).</p>"
     );
 
     let _ = writeln!(h, "<h2>Score differences</h2>");
