@@ -36,7 +36,7 @@ fn kinglet(args: &[&str]) -> Output {
 }
 
 /// The committed sets: name, blob, data arguments, feed.
-const SETS: [(&str, &str, &[&str], &str); 9] = [
+const SETS: [(&str, &str, &[&str], &str); 11] = [
     (
         "digits_u8",
         "firmware-example/models/digits.kgl",
@@ -140,6 +140,32 @@ const SETS: [(&str, &str, &[&str], &str); 9] = [
         "u8",
     ),
     (
+        "digits_int16_input_u8",
+        "firmware-example/models/digits_int16_input.kgl",
+        &[
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--rows",
+            "90..130",
+        ],
+        "u8",
+    ),
+    (
+        "digits_int16_input_f32",
+        "firmware-example/models/digits_int16_input.kgl",
+        &[
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--rows",
+            "130..150",
+        ],
+        "f32",
+    ),
+    (
         "tanh_digits_float",
         "firmware-example/models/tanh_digits_float.kgl",
         &[
@@ -187,7 +213,7 @@ fn the_committed_vectors_are_what_kinglet_score_writes() {
         );
         lines += want.lines().count();
     }
-    assert_eq!(lines, 404);
+    assert_eq!(lines, 464);
 }
 
 /// One committed line's fields.
@@ -247,7 +273,7 @@ fn json_classes_scores_and_outputs_equal_every_committed_line() {
             checked += 1;
         }
     }
-    assert_eq!(checked, 404);
+    assert_eq!(checked, 464);
 }
 
 #[test]
