@@ -337,3 +337,42 @@ fn vet_through_u8_and_classify_reports_the_firmwares_u8_classes() {
         .collect();
     assert_eq!(&int8[150..170], &firmware[..]);
 }
+
+#[test]
+fn vet_reports_the_firmwares_classes_of_the_int16_input_model() {
+    // The int16-input blob (format version 7) through u8 and classify: held-out rows 90..130
+    // are digits_int16_input_u8; through f32 and infer, rows 130..150 are
+    // digits_int16_input_f32.
+    let blob = "firmware-example/models/digits_int16_input.kgl";
+    for (feed_args, set, rows) in [
+        (
+            &["--feed", "u8", "--entry", "classify"][..],
+            "digits_int16_input_u8",
+            90..130,
+        ),
+        (&[][..], "digits_int16_input_f32", 130..150),
+    ] {
+        let mut args = vec![
+            "vet",
+            "examples/digits/model.onnx",
+            blob,
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--json",
+        ];
+        args.extend_from_slice(feed_args);
+        let v: serde_json::Value = serde_json::from_slice(&kinglet(&args).stdout).unwrap();
+        let int8: Vec<usize> = v["predictions"]["int8"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|c| c.as_u64().unwrap() as usize)
+            .collect();
+        assert_eq!(int8.len(), 450, "{set}");
+        let firmware: Vec<usize> = committed(set).lines().map(|l| parse(l).class).collect();
+        assert_eq!(firmware.len(), rows.len(), "{set}");
+        assert_eq!(&int8[rows], &firmware[..], "{set}");
+    }
+}
