@@ -558,6 +558,7 @@ fn both_engines_compare_a_folded_input_with_the_raw_row() {
             fold_scaler: FoldScaler::Always,
             sections: Sections::ALL,
             weights: Default::default(),
+            ..RangeMethod::MinMax.into()
         },
     )
     .unwrap();

@@ -230,7 +230,8 @@ fn version_7_digits_int16_input_blob_still_reads_and_predicts() {
     let data = heldout("digits");
     let labels = data.labels.as_ref().unwrap();
     let (mut right, mut widest) = (0, 0i32);
-    for r in 0..data.rows {
+    assert_eq!(labels.len(), data.rows);
+    for (r, label) in labels.iter().enumerate() {
         let mut scratch = vec![0u8; m.scratch_bytes()];
         let mut scores = vec![0f32; m.output_len()];
         let p = m
@@ -250,7 +251,7 @@ fn version_7_digits_int16_input_blob_still_reads_and_predicts() {
             .unwrap();
         // The traced pass is the plain one.
         assert_eq!(run(&m, data.row(r)).0, p.class, "row {r}");
-        right += usize::from(p.class.to_string() == labels[r]);
+        right += usize::from(p.class.to_string() == *label);
     }
     // The input tensor uses more than int8's range (330 when the fixture was made: a scaled
     // pixel of about 5.9 at a step of 1.793e-2).

@@ -101,6 +101,7 @@ fn row_on(
             fold_scaler,
             sections: Sections::ALL,
             weights: Default::default(),
+            ..RangeMethod::MinMax.into()
         },
         calibration,
     );
@@ -216,6 +217,7 @@ fn the_sqnr_simulation_matches_the_measured_model_and_the_docs() {
             fold_scaler: FoldScaler::No,
             sections: Sections::ALL,
             weights: Default::default(),
+            ..RangeMethod::MinMax.into()
         },
         "examples/digits/calibration.csv",
     );

@@ -142,6 +142,7 @@ fn bias_correction_equals_numpy() {
         fold_scaler: FoldScaler::No,
         sections: Sections::ALL,
         weights: Default::default(),
+        ..RangeMethod::MinMax.into()
     };
     let p = pack_int8_with(&model, &data, opts).unwrap();
     assert!(p.bias_correction && Model::parse(&p.blob).is_ok());

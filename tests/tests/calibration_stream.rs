@@ -119,6 +119,7 @@ fn streamed_packs_equal_whole_file_packs() {
                         fold_scaler: FoldScaler::No,
                         sections: Sections::ALL,
                         weights: Default::default(),
+                        ..method.into()
                     };
                     let loaded = load_file(&file, &LoadOptions::default()).unwrap();
                     let whole = pack_int8_options(model, &loaded, opts, &|_| {}).unwrap();
@@ -161,6 +162,7 @@ fn streamed_packs_equal_whole_file_packs() {
                 fold_scaler: FoldScaler::No,
                 sections: Sections::default(),
                 weights: Default::default(),
+                ..method.into()
             };
             let whole = pack_int8_options(&digits, &loaded, o, &|_| {}).unwrap();
             let passes = FilePasses::open(&file, &opts, 100).unwrap().unwrap();
@@ -202,6 +204,7 @@ fn rows_the_bias_check_refuses_and_least_error_go_to_the_whole_file() {
         fold_scaler: FoldScaler::No,
         sections: Sections::default(),
         weights: Default::default(),
+        ..method.into()
     };
     save(&data, &file);
     let passes = FilePasses::open(&file, &LoadOptions::default(), 50)

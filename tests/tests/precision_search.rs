@@ -63,6 +63,7 @@ fn run(model: &FloatModel, calibration: &Dataset, heldout: &Rows, criteria: Crit
             fold_scaler: FoldScaler::No,
             sections: Sections::default(),
             weights: Default::default(),
+            ..RangeMethod::MinMax.into()
         },
         heldout,
         criteria,
