@@ -18,7 +18,7 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 /// The packed models embedded by `kinglet-fw-vectors::assets` (and so by the binaries).
-const MODELS: [&str; 8] = [
+const MODELS: [&str; 9] = [
     "models/digits.kgl",
     "models/digits_float.kgl",
     "models/vibration.kgl",
@@ -27,6 +27,7 @@ const MODELS: [&str; 8] = [
     "models/tanh_digits.kgl",
     "models/tanh_digits_float.kgl",
     "models/int4_digits.kgl",
+    "models/digits_int16_input.kgl",
 ];
 
 #[derive(Deserialize)]

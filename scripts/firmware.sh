@@ -71,7 +71,7 @@ for f in "$fw"/models/*.kgl "$fw"/models/*.bin; do
 done
 
 expected="$work/expected.txt"
-for s in digits_u8 digits_f32 digits_float vibration lr_digits_u8 lr_digits_float tanh_digits_u8 tanh_digits_float int4_digits_u8; do
+for s in digits_u8 digits_f32 digits_float vibration lr_digits_u8 lr_digits_float tanh_digits_u8 tanh_digits_float int4_digits_u8 digits_int16_input_u8 digits_int16_input_f32; do
   cat "$root/tests/fixtures/vectors/$s.txt"
 done >"$expected"
 
@@ -101,7 +101,7 @@ for t in "${targets[@]}"; do
   step "$t: vectors"
   if run "$t" vectors "$work/vectors-$t.txt"; then :; else fail "$t: vectors exited non-zero"; fi
   grep -E '^(stack|vectors|MISMATCH|ERROR)' "$work/vectors-$t.txt" || true
-  if grep -E '^(digits_u8|digits_f32|digits_float|vibration|lr_digits_u8|lr_digits_float|tanh_digits_u8|tanh_digits_float|int4_digits_u8) ' "$work/vectors-$t.txt" | diff -u "$expected" - >"$work/diff-$t.txt"; then
+  if grep -E '^(digits_u8|digits_f32|digits_float|vibration|lr_digits_u8|lr_digits_float|tanh_digits_u8|tanh_digits_float|int4_digits_u8|digits_int16_input_u8|digits_int16_input_f32) ' "$work/vectors-$t.txt" | diff -u "$expected" - >"$work/diff-$t.txt"; then
     echo "$(wc -l <"$expected") lines identical to tests/fixtures/vectors/*.txt"
   else
     head -20 "$work/diff-$t.txt"; fail "$t: vector output differs from the expected files"

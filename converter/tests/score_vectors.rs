@@ -36,7 +36,7 @@ fn kinglet(args: &[&str]) -> Output {
 }
 
 /// The committed sets: name, blob, data arguments, feed.
-const SETS: [(&str, &str, &[&str], &str); 9] = [
+const SETS: [(&str, &str, &[&str], &str); 11] = [
     (
         "digits_u8",
         "firmware-example/models/digits.kgl",
@@ -140,6 +140,32 @@ const SETS: [(&str, &str, &[&str], &str); 9] = [
         "u8",
     ),
     (
+        "digits_int16_input_u8",
+        "firmware-example/models/digits_int16_input.kgl",
+        &[
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--rows",
+            "90..130",
+        ],
+        "u8",
+    ),
+    (
+        "digits_int16_input_f32",
+        "firmware-example/models/digits_int16_input.kgl",
+        &[
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--rows",
+            "130..150",
+        ],
+        "f32",
+    ),
+    (
         "tanh_digits_float",
         "firmware-example/models/tanh_digits_float.kgl",
         &[
@@ -187,7 +213,7 @@ fn the_committed_vectors_are_what_kinglet_score_writes() {
         );
         lines += want.lines().count();
     }
-    assert_eq!(lines, 404);
+    assert_eq!(lines, 464);
 }
 
 /// One committed line's fields.
@@ -247,7 +273,7 @@ fn json_classes_scores_and_outputs_equal_every_committed_line() {
             checked += 1;
         }
     }
-    assert_eq!(checked, 404);
+    assert_eq!(checked, 464);
 }
 
 #[test]
@@ -310,4 +336,43 @@ fn vet_through_u8_and_classify_reports_the_firmwares_u8_classes() {
         .map(|l| parse(l).class as u64)
         .collect();
     assert_eq!(&int8[150..170], &firmware[..]);
+}
+
+#[test]
+fn vet_reports_the_firmwares_classes_of_the_int16_input_model() {
+    // The int16-input blob (format version 7) through u8 and classify: held-out rows 90..130
+    // are digits_int16_input_u8; through f32 and infer, rows 130..150 are
+    // digits_int16_input_f32.
+    let blob = "firmware-example/models/digits_int16_input.kgl";
+    for (feed_args, set, rows) in [
+        (
+            &["--feed", "u8", "--entry", "classify"][..],
+            "digits_int16_input_u8",
+            90..130,
+        ),
+        (&[][..], "digits_int16_input_f32", 130..150),
+    ] {
+        let mut args = vec![
+            "vet",
+            "examples/digits/model.onnx",
+            blob,
+            "--data",
+            "examples/digits/heldout.csv",
+            "--label",
+            "label",
+            "--json",
+        ];
+        args.extend_from_slice(feed_args);
+        let v: serde_json::Value = serde_json::from_slice(&kinglet(&args).stdout).unwrap();
+        let int8: Vec<usize> = v["predictions"]["int8"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|c| c.as_u64().unwrap() as usize)
+            .collect();
+        assert_eq!(int8.len(), 450, "{set}");
+        let firmware: Vec<usize> = committed(set).lines().map(|l| parse(l).class).collect();
+        assert_eq!(firmware.len(), rows.len(), "{set}");
+        assert_eq!(&int8[rows], &firmware[..], "{set}");
+    }
 }

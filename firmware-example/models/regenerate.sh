@@ -13,6 +13,11 @@
 #   int4_digits.kgl                                    the digits example with int4 weights on
 #                                                      every layer (--weights int4, format
 #                                                      version 6), integer input path kept
+#   digits_int16_input.kgl                             the digits example with an int16 input
+#                                                      tensor and every layer output's range
+#                                                      doubled (--input-tensor int16
+#                                                      --headroom 2, format version 7),
+#                                                      integer input path kept
 #   digits_heldout_*.bin, vibration_replay*.bin        make-assets (this workspace)
 #
 # Usage: bash firmware-example/models/regenerate.sh [OUT_DIR]   (default: firmware-example/models)
@@ -40,6 +45,8 @@ fi
 "$KINGLET" pack "$root/tests/fixtures/activation/mlp_tanh_digits.onnx" --float -o "$out/tanh_digits_float.kgl"
 "$KINGLET" pack "$root/examples/digits/model.onnx" --weights int4 \
   --calibration "$root/examples/digits/calibration.csv" --integer-input -o "$out/int4_digits.kgl"
+"$KINGLET" pack "$root/examples/digits/model.onnx" --input-tensor int16 --headroom 2 \
+  --calibration "$root/examples/digits/calibration.csv" --integer-input -o "$out/digits_int16_input.kgl"
 "$KINGLET" pack "$root/examples/vibration/model.onnx" \
   --calibration "$root/examples/vibration/calibration.csv" -o "$out/vibration.kgl"
 

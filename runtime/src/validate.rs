@@ -496,6 +496,23 @@ mod tests {
         );
     }
 
+    /// An int16-input blob (format version 7) without the `int16-input` feature (tested with
+    /// `--no-default-features`).
+    #[test]
+    fn int16_input_blobs_need_the_int16_input_feature() {
+        let blob = crate::embed_blob!("../../tests/fixtures/blobs/v7-digits-int16-input.kgl");
+        let got = crate::Model::parse(blob).map(|_| ());
+        if cfg!(feature = "int16-input") {
+            assert_eq!(got, Ok(()));
+        } else {
+            assert_eq!(got, Err(E::Int16InputNotBuiltIn));
+        }
+        assert_eq!(
+            E::Int16InputNotBuiltIn.to_string(),
+            "int16 input tensor, but this runtime was built without the `int16-input` feature"
+        );
+    }
+
     #[test]
     fn valid_models_pass() {
         assert_eq!(parse(&tiny_int8()), Ok(()));

@@ -213,6 +213,9 @@ mod tests {
                 Err(crate::FormatError::F32NotBuiltIn) if !cfg!(feature = "f32") => {}
                 // So does a build without `int4` refuse int4 blobs.
                 Err(crate::FormatError::Int4NotBuiltIn { .. }) if !cfg!(feature = "int4") => {}
+                // And a build without `int16-input` an int16-input blob.
+                Err(crate::FormatError::Int16InputNotBuiltIn) if !cfg!(feature = "int16-input") => {
+                }
                 Err(e) => panic!("{e}"),
             }
         }

@@ -1,9 +1,9 @@
 //! Every byte of every committed fixture blob (`tests/fixtures/blobs/`, all format versions) is
 //! protected (`FORMAT.md` §2): changed to another value, the blob is rejected, never accepted
 //! and never a panic. Header bytes get every other value (255), which includes every flip
-//! between versions 1 to 6; body bytes get `+1`, `-1`, `^ 0x80`, `0x00` and `0xFF` (a CRC of
+//! between versions 1 to 7; body bytes get `+1`, `-1`, `^ 0x80`, `0x00` and `0xFF` (a CRC of
 //! degree 32 detects every error burst of up to 32 bits, Peterson and Brown 1961, so any other
-//! value of one byte is caught as surely). About 85,000 parses, 2 s in a debug build.
+//! value of one byte is caught as surely). About 180,000 parses, 2 s in a debug build.
 use kinglet_runtime::unstable::wire::header::offset;
 use kinglet_runtime::{Model, HEADER_LEN};
 use std::path::PathBuf;
@@ -24,7 +24,7 @@ fn fixtures() -> Vec<(String, Vec<u8>)> {
 
 /// The values byte `b` at offset `at` is changed to: every other value for a header byte, else
 /// `+1`, `-1`, `^ 0x80`, `0x00` and `0xFF`. Under Miri (scripts/miri.sh) a header byte gets
-/// those and the six versions, 1 to 6: interpreted, the whole sweep takes hours.
+/// those and the seven versions, 1 to 7: interpreted, the whole sweep takes hours.
 fn changes(at: usize, b: u8) -> Vec<u8> {
     let header = at < HEADER_LEN;
     let mut v: Vec<u8> = if header && !cfg!(miri) {
@@ -33,7 +33,7 @@ fn changes(at: usize, b: u8) -> Vec<u8> {
         vec![b.wrapping_add(1), b.wrapping_sub(1), b ^ 0x80, 0x00, 0xFF]
     };
     if header {
-        v.extend([1, 2, 3, 4, 5, 6]);
+        v.extend([1, 2, 3, 4, 5, 6, 7]);
     }
     v.retain(|&x| x != b);
     v.sort_unstable();
@@ -58,6 +58,12 @@ fn every_single_byte_change_of_every_fixture_blob_is_rejected() {
             Err(kinglet_runtime::FormatError::F32NotBuiltIn) if !cfg!(feature = "f32") => continue,
             // So is an int4 fixture without the `int4` feature.
             Err(kinglet_runtime::FormatError::Int4NotBuiltIn { .. }) if !cfg!(feature = "int4") => {
+                continue
+            }
+            // And an int16-input fixture without the `int16-input` feature.
+            Err(kinglet_runtime::FormatError::Int16InputNotBuiltIn)
+                if !cfg!(feature = "int16-input") =>
+            {
                 continue
             }
             Err(e) => panic!("{name}: the fixture itself is rejected: {e}"),
@@ -85,5 +91,8 @@ fn every_single_byte_change_of_every_fixture_blob_is_rejected() {
             [1, 2, 3, 5].iter().all(|v| versions.contains(v)),
             "fixtures of every version: {versions:?}"
         );
+    }
+    if cfg!(feature = "int16-input") {
+        assert!(versions.contains(&7), "no version-7 fixture: {versions:?}");
     }
 }

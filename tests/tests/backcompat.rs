@@ -11,7 +11,9 @@
 //! examples/vibration/model.onnx --calibration examples/vibration/calibration.csv`;
 //! `v6-digits-int4.kgl` at version 6 (int4 weights on every layer, `runtime/FORMAT.md` §3.5) by
 //! `kinglet pack examples/digits/model.onnx --calibration examples/digits/calibration.csv
-//! --weights int4`; none is ever regenerated. A reader change that rejects them, or
+//! --weights int4`; `v7-digits-int16-input.kgl` at version 7 (an int16 input tensor,
+//! `runtime/FORMAT.md` §3.6) by `kinglet pack examples/digits/model.onnx --calibration
+//! examples/digits/calibration.csv --input-tensor int16 --headroom 2`; none is ever regenerated. A reader change that rejects them, or
 //! changes their predictions, fails here; `runtime/tests/fixture_bytes.rs` checks that every
 //! single-byte change of each is rejected.
 use kinglet_converter::dataset::{load_csv, CsvOptions, LabelColumn};
@@ -209,5 +211,51 @@ fn version_6_digits_int4_blob_still_reads_and_predicts() {
         .filter(|&r| run(&m, data.row(r)).0.to_string() == data.labels.as_ref().unwrap()[r])
         .count();
     // 433 of 450 when the fixture was made (the float model's count: 434).
+    assert!(right >= 430, "{right}/450");
+}
+
+#[test]
+fn version_7_digits_int16_input_blob_still_reads_and_predicts() {
+    use kinglet_runtime::unstable::wire::format::InputWidth;
+    use kinglet_runtime::{Activations, Input, Stage};
+    let blob = std::fs::read(path("tests/fixtures/blobs/v7-digits-int16-input.kgl")).unwrap();
+    assert_eq!(u16::from_le_bytes([blob[4], blob[5]]), 7);
+    let m = Model::parse(&blob).unwrap();
+    assert_eq!(
+        (m.precision(), m.input_len(), m.classes()),
+        (Precision::Int8, 64, 10)
+    );
+    assert_eq!(m.desc().input_width(), InputWidth::I16);
+    assert!(!m.takes_integer_input());
+    let data = heldout("digits");
+    let labels = data.labels.as_ref().unwrap();
+    let (mut right, mut widest) = (0, 0i32);
+    assert_eq!(labels.len(), data.rows);
+    for (r, label) in labels.iter().enumerate() {
+        let mut scratch = vec![0u8; m.scratch_bytes()];
+        let mut scores = vec![0f32; m.output_len()];
+        let p = m
+            .infer_traced(
+                Input::F32(data.row(r)),
+                &mut scratch,
+                &mut scores,
+                &mut |s: &Stage<'_>| {
+                    if s.index == 0 {
+                        assert!(matches!(s.values, Activations::Int16 { .. }), "row {r}");
+                        for i in 0..s.values.len() {
+                            widest = widest.max(i32::from(s.values.int16(i).unwrap()).abs());
+                        }
+                    }
+                },
+            )
+            .unwrap();
+        // The traced pass is the plain one.
+        assert_eq!(run(&m, data.row(r)).0, p.class, "row {r}");
+        right += usize::from(p.class.to_string() == *label);
+    }
+    // The input tensor uses more than int8's range (330 when the fixture was made: a scaled
+    // pixel of about 5.9 at a step of 1.793e-2).
+    assert!(widest > 127, "largest |input| {widest}");
+    // 434 of 450 when the fixture was made (the float model's count too).
     assert!(right >= 430, "{right}/450");
 }

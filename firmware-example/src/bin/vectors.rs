@@ -4,7 +4,8 @@
 //! `u8` input path, 20 through the `f32` path, 10 through the f32 model, 64 recorded vibration
 //! windows through feature extraction and the `f32` path, 60 + 10 rows through a scikit-learn
 //! logistic regression's int8 and f32 blobs, 40 + 10 through a scikit-learn tanh MLP's int8
-//! and f32 blobs), prints one line per vector in the
+//! and f32 blobs, 40 through the digits example with int4 weights, 40 `u8` + 20 `f32` through
+//! the digits example with an int16 input tensor), prints one line per vector in the
 //! format of `kinglet_fw_vectors::format_vector`, compares each line with the expected line
 //! embedded at build time from `tests/fixtures/vectors/<set>.txt`, and ends with
 //! `vectors: N passed, M failed`. `scripts/firmware.sh` also diffs the printed lines against

@@ -33,6 +33,12 @@ pub const TANH_DIGITS_FLOAT: &[u8] =
 /// --integer-input`; `FORMAT.md` §3.5, format version 6).
 pub const INT4_DIGITS: &[u8] = kinglet_runtime::embed_blob!("../../models/int4_digits.kgl");
 
+/// The digits example with an int16 input tensor and every layer output's range doubled
+/// (`kinglet pack ... --input-tensor int16 --headroom 2 --integer-input`; `FORMAT.md` §3.6,
+/// format version 7): its first layer multiplies int16 inputs by int8 weights.
+pub const DIGITS_INT16_INPUT: &[u8] =
+    kinglet_runtime::embed_blob!("../../models/digits_int16_input.kgl");
+
 /// Pixels per digits image.
 pub const DIGITS_PIXELS: usize = 64;
 /// Digits held-out rows: `DIGITS_ROWS · 64` bytes, pixel values 0..=16, in
@@ -69,13 +75,21 @@ pub const TANH_DIGITS_SCRATCH: usize = kinglet_runtime::scratch_bytes(TANH_DIGIT
 /// Scratch bytes of [`TANH_DIGITS_FLOAT`].
 pub const TANH_DIGITS_FLOAT_SCRATCH: usize = kinglet_runtime::scratch_bytes(TANH_DIGITS_FLOAT);
 
+/// Scratch bytes of [`INT4_DIGITS`].
+pub const INT4_DIGITS_SCRATCH: usize = kinglet_runtime::scratch_bytes(INT4_DIGITS);
+/// Scratch bytes of [`DIGITS_INT16_INPUT`] (its input tensor takes two bytes per feature).
+pub const DIGITS_INT16_INPUT_SCRATCH: usize = kinglet_runtime::scratch_bytes(DIGITS_INT16_INPUT);
+
 /// The largest scratch buffer any of the models needs.
 pub const MAX_SCRATCH: usize = max(
     max(
         max(max(DIGITS_SCRATCH, DIGITS_FLOAT_SCRATCH), VIBRATION_SCRATCH),
         max(LR_DIGITS_SCRATCH, LR_DIGITS_FLOAT_SCRATCH),
     ),
-    max(TANH_DIGITS_SCRATCH, TANH_DIGITS_FLOAT_SCRATCH),
+    max(
+        max(TANH_DIGITS_SCRATCH, TANH_DIGITS_FLOAT_SCRATCH),
+        max(INT4_DIGITS_SCRATCH, DIGITS_INT16_INPUT_SCRATCH),
+    ),
 );
 
 const fn max(a: usize, b: usize) -> usize {

@@ -54,7 +54,7 @@ pub struct VectorSet {
 }
 
 /// Every set, in the order the firmware prints them.
-pub const SETS: [VectorSet; 9] = [
+pub const SETS: [VectorSet; 11] = [
     VectorSet {
         name: "digits_u8",
         model: assets::DIGITS,
@@ -126,6 +126,22 @@ pub const SETS: [VectorSet; 9] = [
         first: 50,
         count: 40,
         expected: include_str!("../../../tests/fixtures/vectors/int4_digits_u8.txt"),
+    },
+    VectorSet {
+        name: "digits_int16_input_u8",
+        model: assets::DIGITS_INT16_INPUT,
+        path: Path::DigitsU8,
+        first: 90,
+        count: 40,
+        expected: include_str!("../../../tests/fixtures/vectors/digits_int16_input_u8.txt"),
+    },
+    VectorSet {
+        name: "digits_int16_input_f32",
+        model: assets::DIGITS_INT16_INPUT,
+        path: Path::DigitsF32,
+        first: 130,
+        count: 20,
+        expected: include_str!("../../../tests/fixtures/vectors/digits_int16_input_f32.txt"),
     },
 ];
 
