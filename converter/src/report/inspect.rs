@@ -30,6 +30,9 @@ pub struct LayerRow {
 /// The whole report.
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct BlobReport {
+    /// The blob's format version (`runtime/FORMAT.md` §2): the lowest that holds its table,
+    /// which older readers tell apart (7: an int16 input tensor, 6: int4 weights, …).
+    pub format_version: u16,
     /// "int8" or "f32".
     pub precision: String,
     /// Input width.
@@ -108,6 +111,7 @@ impl BlobReport {
             })
             .collect();
         BlobReport {
+            format_version: kinglet_runtime::unstable::wire::version::version_for(d),
             precision: match d.precision {
                 Precision::Int8 => "int8",
                 Precision::F32 => "f32",

@@ -96,6 +96,7 @@ pub fn render(r: &BlobReport) -> String {
     };
     let lines = [
         ("precision", r.precision.clone()),
+        ("format", format!("version {}", r.format_version)),
         (
             "input",
             format!(
