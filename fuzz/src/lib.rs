@@ -5,7 +5,7 @@ pub mod convert;
 pub mod mutate;
 pub mod oracle;
 
-use kinglet_builder::sample::tiny_f32;
+use kinglet_builder::sample::{tiny_f32, tiny_int16_input};
 use kinglet_builder::Activation;
 use kinglet_builder::{le, OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 use kinglet_runtime::unstable::wire::format::{OutputKind, Precision};
@@ -59,20 +59,22 @@ pub fn tiny_int8() -> OwnedModel {
     }
 }
 
-/// Base model `i` (wrapping): the real blobs first, then the two synthetic ones (the second is
-/// `kinglet_builder::sample::tiny_f32`, a 2 → 3 → 1 f32 sigmoid model).
+/// Base model `i` (wrapping): the real blobs first, then the three synthetic ones (the second is
+/// `kinglet_builder::sample::tiny_f32`, a 2 → 3 → 1 f32 sigmoid model; the third
+/// `kinglet_builder::sample::tiny_int16_input`, a 3 → 4 → 2 int8 model whose input tensor is
+/// int16, format version 7).
 pub fn base(i: usize) -> OwnedModel {
-    let n = BASE_BLOBS.len() + 2;
-    let k = i % n;
+    let k = i % BASES;
     match BASE_BLOBS.get(k) {
         Some(blob) => match kinglet_runtime::Model::parse(blob) {
             Ok(m) => OwnedModel::from_desc(m.desc()),
             Err(e) => panic!("base blob {k} no longer parses: {e}"),
         },
         None if k == BASE_BLOBS.len() => tiny_int8(),
-        None => tiny_f32(),
+        None if k == BASE_BLOBS.len() + 1 => tiny_f32(),
+        None => tiny_int16_input(),
     }
 }
 
 /// Number of base models.
-pub const BASES: usize = BASE_BLOBS.len() + 2;
+pub const BASES: usize = BASE_BLOBS.len() + 3;
