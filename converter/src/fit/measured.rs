@@ -19,7 +19,7 @@ use super::{Code, Measured};
 pub const CORTEX_M0: Measured = Measured {
     target: "thumbv6m-none-eabi",
     default_build: Code {
-        text: 21992,
+        text: 22316,
         rodata: 1375,
     },
     int8_only: Code {
@@ -31,8 +31,8 @@ pub const CORTEX_M0: Measured = Measured {
         rodata: 1308,
     },
     stack_parse: 1092,
-    stack_infer: 664,
-    stack_classify: 664,
+    stack_infer: 672,
+    stack_classify: 672,
     model_struct: 628,
 };
 
@@ -40,7 +40,7 @@ pub const CORTEX_M0: Measured = Measured {
 pub const CORTEX_M4F: Measured = Measured {
     target: "thumbv7em-none-eabihf",
     default_build: Code {
-        text: 17692,
+        text: 17956,
         rodata: 1375,
     },
     int8_only: Code {
@@ -52,7 +52,7 @@ pub const CORTEX_M4F: Measured = Measured {
         rodata: 1308,
     },
     stack_parse: 1008,
-    stack_infer: 692,
-    stack_classify: 660,
+    stack_infer: 708,
+    stack_classify: 676,
     model_struct: 628,
 };
