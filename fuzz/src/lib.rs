@@ -78,3 +78,64 @@ pub fn base(i: usize) -> OwnedModel {
 
 /// Number of base models.
 pub const BASES: usize = BASE_BLOBS.len() + 3;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use arbitrary::Unstructured;
+    use kinglet_runtime::unstable::wire::format::InputWidth;
+    use kinglet_runtime::Model;
+
+    /// Seeded bytes (xorshift32, Marsaglia 2003) for the mutations.
+    fn bytes(seed: u32, len: usize) -> Vec<u8> {
+        let mut s = seed.max(1);
+        (0..len)
+            .map(|_| {
+                s ^= s << 13;
+                s ^= s >> 17;
+                s ^= s << 5;
+                s as u8
+            })
+            .collect()
+    }
+
+    /// Format version 7 is reached: from the int16-input base and from the int8 ones (by the
+    /// width flip), mutated tables with an int16 input tensor are accepted and run the
+    /// oracle's extreme inputs.
+    #[test]
+    fn mutations_reach_accepted_int16_input_models() {
+        let (mut from_base, mut from_flip) = (0, 0);
+        for seed in 1..3000u32 {
+            let data = bytes(seed, 64);
+            let mut u = Unstructured::new(&data);
+            let start = (seed as usize) % BASES;
+            let mut m = base(start);
+            for _ in 0..(seed % 4) {
+                if mutate::mutate_once(&mut m, &mut u).is_err() {
+                    break;
+                }
+            }
+            let wide = m
+                .input_quant
+                .as_ref()
+                .is_some_and(|q| q.width == InputWidth::I16);
+            let blob = kinglet_builder::raw_blob(&m.as_desc(), m.planned_scratch());
+            let Ok(model) = Model::parse(&blob) else {
+                continue;
+            };
+            if wide {
+                oracle::run_extremes(&model);
+                if start == BASES - 1 {
+                    from_base += 1;
+                } else {
+                    from_flip += 1;
+                }
+            }
+        }
+        eprintln!(
+            "accepted int16-input tables: {from_base} from its base, {from_flip} by the flip"
+        );
+        assert!(from_base > 20, "{from_base} from the int16-input base");
+        assert!(from_flip >= 5, "{from_flip} by the width flip");
+    }
+}

@@ -427,7 +427,9 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
                 if let Some(l) = m.layers.first_mut() {
                     // Smaller first-layer weights, so an int16 input's bound holds more often.
                     if l.quant.is_some() && l.layout != WeightLayout::Nibble4x4 {
-                        l.weights.iter_mut().for_each(|b| *b = (*b as i8 / 16) as u8);
+                        l.weights
+                            .iter_mut()
+                            .for_each(|b| *b = (*b as i8 / 16) as u8);
                     }
                 }
             }

@@ -433,7 +433,12 @@ fn int4_widest_layer_at_the_extremes() {
 #[cfg(feature = "int16-input")]
 fn int16_input_wide_layer_at_the_extremes() {
     let n = 511;
-    for (w, x) in [(-128i8, i16::MIN), (127, i16::MIN), (-128, i16::MAX), (127, i16::MAX)] {
+    for (w, x) in [
+        (-128i8, i16::MIN),
+        (127, i16::MIN),
+        (-128, i16::MAX),
+        (127, i16::MAX),
+    ] {
         let c = Int8Case {
             n,
             m: 5,

@@ -248,7 +248,10 @@ pub fn results(targets: &[Target], estimates: &[Checked]) -> String {
         let value = format!("{:.3}", g.value);
         let value = if g.counted { approx(value) } else { value };
         let note = if !g.stated {
-            format!("no goal: measured regression limit (--check fails above {:.3})", g.check_limit())
+            format!(
+                "no goal: measured regression limit (--check fails above {:.3})",
+                g.check_limit()
+            )
         } else if g.met() {
             "met".to_string()
         } else {

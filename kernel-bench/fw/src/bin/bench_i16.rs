@@ -108,7 +108,12 @@ fn main() -> ! {
         blobs::I16IN_784X100_OM,
         &mut rng,
     );
-    layer("i16in-64x64", blobs::I16IN_64X64, blobs::I16IN_64X64_OM, &mut rng);
+    layer(
+        "i16in-64x64",
+        blobs::I16IN_64X64,
+        blobs::I16IN_64X64_OM,
+        &mut rng,
+    );
     hprintln!("kb end");
     debug::exit(if t.failed == 0 {
         debug::EXIT_SUCCESS
