@@ -626,7 +626,9 @@ fn run_layer(layer: &LayerDesc<'_>, src: &[u8], dst: &mut [u8], wide: bool) -> Q
 #[cfg(test)]
 mod tests {
     use super::*;
-    use kinglet_builder::sample::{tiny_f32, tiny_int16_input, tiny_int8};
+    #[cfg(feature = "int16-input")]
+    use kinglet_builder::sample::tiny_int16_input;
+    use kinglet_builder::sample::{tiny_f32, tiny_int8};
 
     fn trace_int8(model: &Model<'_>, input: Input<'_>) -> (Prediction, Vec<Vec<i8>>) {
         let mut scratch = vec![0u8; model.scratch_bytes()];
