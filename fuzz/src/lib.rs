@@ -5,7 +5,7 @@ pub mod convert;
 pub mod mutate;
 pub mod oracle;
 
-use kinglet_builder::sample::tiny_f32;
+use kinglet_builder::sample::{tiny_f32, tiny_int16_input};
 use kinglet_builder::Activation;
 use kinglet_builder::{le, OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 use kinglet_runtime::unstable::wire::format::{OutputKind, Precision};
@@ -59,20 +59,83 @@ pub fn tiny_int8() -> OwnedModel {
     }
 }
 
-/// Base model `i` (wrapping): the real blobs first, then the two synthetic ones (the second is
-/// `kinglet_builder::sample::tiny_f32`, a 2 → 3 → 1 f32 sigmoid model).
+/// Base model `i` (wrapping): the real blobs first, then the three synthetic ones (the second is
+/// `kinglet_builder::sample::tiny_f32`, a 2 → 3 → 1 f32 sigmoid model; the third
+/// `kinglet_builder::sample::tiny_int16_input`, a 3 → 4 → 2 int8 model whose input tensor is
+/// int16, format version 7).
 pub fn base(i: usize) -> OwnedModel {
-    let n = BASE_BLOBS.len() + 2;
-    let k = i % n;
+    let k = i % BASES;
     match BASE_BLOBS.get(k) {
         Some(blob) => match kinglet_runtime::Model::parse(blob) {
             Ok(m) => OwnedModel::from_desc(m.desc()),
             Err(e) => panic!("base blob {k} no longer parses: {e}"),
         },
         None if k == BASE_BLOBS.len() => tiny_int8(),
-        None => tiny_f32(),
+        None if k == BASE_BLOBS.len() + 1 => tiny_f32(),
+        None => tiny_int16_input(),
     }
 }
 
 /// Number of base models.
-pub const BASES: usize = BASE_BLOBS.len() + 2;
+pub const BASES: usize = BASE_BLOBS.len() + 3;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use arbitrary::Unstructured;
+    use kinglet_runtime::unstable::wire::format::InputWidth;
+    use kinglet_runtime::Model;
+
+    /// Seeded bytes (xorshift32, Marsaglia 2003) for the mutations.
+    fn bytes(seed: u32, len: usize) -> Vec<u8> {
+        let mut s = seed.max(1);
+        (0..len)
+            .map(|_| {
+                s ^= s << 13;
+                s ^= s >> 17;
+                s ^= s << 5;
+                s as u8
+            })
+            .collect()
+    }
+
+    /// Format version 7 is reached: from the int16-input base and from the int8 ones (by the
+    /// width flip), mutated tables with an int16 input tensor are accepted and run the
+    /// oracle's extreme inputs.
+    #[test]
+    fn mutations_reach_accepted_int16_input_models() {
+        let (mut from_base, mut from_flip) = (0, 0);
+        for seed in 1..3000u32 {
+            let data = bytes(seed, 64);
+            let mut u = Unstructured::new(&data);
+            let start = (seed as usize) % BASES;
+            let mut m = base(start);
+            for _ in 0..(seed % 4) {
+                if mutate::mutate_once(&mut m, &mut u).is_err() {
+                    break;
+                }
+            }
+            let wide = m
+                .input_quant
+                .as_ref()
+                .is_some_and(|q| q.width == InputWidth::I16);
+            let blob = kinglet_builder::raw_blob(&m.as_desc(), m.planned_scratch());
+            let Ok(model) = Model::parse(&blob) else {
+                continue;
+            };
+            if wide {
+                oracle::run_extremes(&model);
+                if start == BASES - 1 {
+                    from_base += 1;
+                } else {
+                    from_flip += 1;
+                }
+            }
+        }
+        eprintln!(
+            "accepted int16-input tables: {from_base} from its base, {from_flip} by the flip"
+        );
+        assert!(from_base > 20, "{from_base} from the int16-input base");
+        assert!(from_flip >= 5, "{from_flip} by the width flip");
+    }
+}

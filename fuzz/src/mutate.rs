@@ -3,7 +3,7 @@
 //! bound, a multiplier at the edge of its range) so that validation is exercised rule by rule
 //! and accepted tables reach inference.
 use arbitrary::{Result, Unstructured};
-use kinglet_runtime::unstable::wire::format::{OutputKind, Precision, WeightLayout};
+use kinglet_runtime::unstable::wire::format::{InputWidth, OutputKind, Precision, WeightLayout};
 
 use kinglet_builder::{Activation, OwnedInput, OwnedLayer, OwnedModel, OwnedQuant};
 
@@ -178,8 +178,13 @@ pub fn reshape(m: &mut OwnedModel, k: Option<usize>, w: u32) {
 }
 
 /// Sets the bias of channel `c` of int8 layer `k` to `bound + delta`, where `bound` is the
-/// largest bias validation accepts for that row: `i32::MAX - 128 · Σ|w|`.
+/// largest bias validation accepts for that row: `i32::MAX - 128 · Σ|w|`, or
+/// `i32::MAX - 32768 · Σ|w|` on the first layer of a model with an int16 input (version 7).
 fn bias_at_bound(m: &mut OwnedModel, k: usize, c: usize, delta: i64, negative: bool) {
+    let reach = match &m.input_quant {
+        Some(q) if k == 0 => q.width.reach(),
+        _ => 128,
+    };
     let Some(l) = m.layers.get_mut(k) else { return };
     let inputs = l.inputs.max(1) as usize;
     let rows = l.bias.len() / 4;
@@ -192,7 +197,7 @@ fn bias_at_bound(m: &mut OwnedModel, k: usize, c: usize, delta: i64, negative: b
         .iter()
         .map(|&w| i64::from((w as i8).unsigned_abs()))
         .sum();
-    let b = (i64::from(i32::MAX) - 128 * sum + delta).clamp(0, i64::from(i32::MAX));
+    let b = (i64::from(i32::MAX) - reach * sum + delta).clamp(0, i64::from(i32::MAX));
     let b = if negative { -b } else { b } as i32;
     set_elem(&mut l.bias, c, b.to_le_bytes());
 }
@@ -200,7 +205,7 @@ fn bias_at_bound(m: &mut OwnedModel, k: usize, c: usize, delta: i64, negative: b
 /// Applies one mutation chosen by `u`.
 pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
     let nl = m.layers.len().max(1);
-    let op: u8 = u.int_in_range(0..=31)?;
+    let op: u8 = u.int_in_range(0..=33)?;
     match op {
         0 => {
             let w = u.int_in_range(0..=40)?;
@@ -265,6 +270,7 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
                     int_mult: (1i32 << 20).to_le_bytes().to_vec(),
                     int_add: 0i64.to_le_bytes().to_vec(),
                     int_shift: vec![20],
+                    width: InputWidth::I8,
                 })
             }
         }
@@ -365,6 +371,7 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
                     int_mult: (1i32 << 20).to_le_bytes().to_vec(),
                     int_add: 0i64.to_le_bytes().to_vec(),
                     int_shift: vec![20],
+                    width: InputWidth::I8,
                 });
             } else if !int8 {
                 m.input_quant = None;
@@ -401,6 +408,44 @@ pub fn mutate_once(m: &mut OwnedModel, u: &mut Unstructured<'_>) -> Result<()> {
             {
                 q.weight_scale.clear();
             }
+        }
+        // Version 7: flip the input tensor between int8 and int16. Mostly towards a table the
+        // reader can accept (an int16 input takes zero point 0; its first layer's weights must
+        // be int8, and its biases within the int16 bound, which `bias_at_bound` aims at), and
+        // sometimes not (a zero point left as it was; int4 weights stay int4).
+        32 => {
+            if let Some(q) = &mut m.input_quant {
+                q.width = match q.width {
+                    InputWidth::I8 => InputWidth::I16,
+                    InputWidth::I16 => InputWidth::I8,
+                };
+                if q.width == InputWidth::I16 && u.ratio(3, 4)? {
+                    q.zero_point = 0;
+                }
+            }
+            if u.ratio(1, 2)? {
+                if let Some(l) = m.layers.first_mut() {
+                    // Smaller first-layer weights, so an int16 input's bound holds more often.
+                    if l.quant.is_some() && l.layout != WeightLayout::Nibble4x4 {
+                        l.weights
+                            .iter_mut()
+                            .for_each(|b| *b = (*b as i8 / 16) as u8);
+                    }
+                }
+            }
+        }
+        // An int16 input's first layer at the extremes: every weight one value, every input
+        // saturated (the oracle's extreme inputs), a bias at the bound.
+        33 => {
+            if let Some(l) = m.layers.first_mut() {
+                let v: u8 = *u.choose(&[0x80, 0x7f, 0x01, 0xff])?;
+                if l.quant.is_some() && l.layout == WeightLayout::OutputMajor {
+                    l.weights.iter_mut().for_each(|b| *b = v);
+                }
+            }
+            let c = u.arbitrary()?;
+            let neg = u.arbitrary()?;
+            bias_at_bound(m, 0, c, u.int_in_range(-2..=2)?, neg);
         }
         _ => {}
     }

@@ -5,6 +5,8 @@
 //! kernels themselves run in the on-target self-check of `kernel-bench/`.
 use kinglet_builder::le;
 use kinglet_runtime::unstable::dense::int4;
+#[cfg(feature = "int16-input")]
+use kinglet_runtime::unstable::dense::wide;
 use kinglet_runtime::unstable::dense::{self, m0, portable, DenseF32, DenseI8};
 use kinglet_runtime::unstable::requant;
 use kinglet_runtime::unstable::requant::requantise_reference;
@@ -153,12 +155,107 @@ fn check_int4(c: &Int8Case) -> Result<(), TestCaseError> {
     Ok(())
 }
 
+/// int16 inputs: random over the whole range, or all -32768, or all 32767.
+#[cfg(feature = "int16-input")]
+fn int16s(len: usize) -> impl Strategy<Value = Vec<i16>> {
+    prop_oneof![
+        6 => proptest::collection::vec(any::<i16>(), len),
+        1 => Just(vec![i16::MIN; len]),
+        1 => Just(vec![i16::MAX; len]),
+    ]
+}
+
+/// A first layer of an int16-input model (format version 7): the int8 case's weights and
+/// parameters, int16 inputs.
+#[cfg(feature = "int16-input")]
+fn int16_input_case() -> impl Strategy<Value = (Int8Case, Vec<i16>)> {
+    int8_case().prop_flat_map(|c| {
+        let n = c.n;
+        (Just(c), int16s(n))
+    })
+}
+
+/// The naive first layer of an int16-input model: `bias + Σ w x` in i64 from the
+/// output-major weights, then the reference requantisation, row by row.
+#[cfg(feature = "int16-input")]
+fn naive_i16(c: &Int8Case, x: &[i16], bias: &[i32]) -> Vec<u8> {
+    (0..c.m)
+        .map(|o| {
+            let row = &c.w[o * c.n..(o + 1) * c.n];
+            let dot: i64 = row
+                .iter()
+                .zip(x)
+                .map(|(&w, &x)| i64::from(w) * i64::from(x))
+                .sum();
+            let acc = i32::try_from(i64::from(bias[o]) + dot).expect("the format's bound");
+            let lo = if c.relu { c.zp } else { -128 };
+            requantise_reference(acc, c.mult[o], c.shift[o], c.zp, lo, 127) as u8
+        })
+        .collect()
+}
+
+/// Both int16-input kernels (output-major and `Blocked4x4` at the case's alignment) against
+/// [`naive_i16`], with biases up to the format's bound for an int16 input,
+/// `|bias| + 32768·Σ|w| ≤ 2^31 - 1` (`FORMAT.md` §5 rule 14).
+#[cfg(feature = "int16-input")]
+fn check_int16_input(c: &Int8Case, x: &[i16]) -> Result<(), TestCaseError> {
+    let (n, m) = (c.n, c.m);
+    let bias: Vec<i32> = (0..m)
+        .map(|o| {
+            let s: i64 = c.w[o * n..(o + 1) * n]
+                .iter()
+                .map(|&v| i64::from(v).abs())
+                .sum();
+            let room = i64::from(i32::MAX) - 32_768 * s;
+            (c.bias_seed[o].rem_euclid(2 * room + 1) - room) as i32
+        })
+        .collect();
+    let want = naive_i16(c, x, &bias);
+    let (bias, mult, shift, om) = (
+        le::i32s(&bias),
+        le::i32s(&c.mult),
+        le::i8s(&c.shift),
+        le::i8s(&c.w),
+    );
+    let input: Vec<u8> = x.iter().flat_map(|v| v.to_le_bytes()).collect();
+    let mut field = vec![0u8; c.pad + layout::elements(n, m)];
+    prop_assert!(layout::block_i8(n, m, &c.w, &mut field[c.pad..]));
+    let base = DenseI8 {
+        inputs: n,
+        weights: &om,
+        bias: &bias,
+        multiplier: &mult,
+        shift: &shift,
+        zero_point: c.zp,
+        act_min: if c.relu { c.zp } else { -128 },
+        act_max: 127,
+        table: None,
+    };
+    let mut got = vec![0x55u8; m];
+    wide::dense_i16(&base, &input, &mut got);
+    prop_assert_eq!(&got, &want, "int16-input output-major, {}x{}", m, n);
+    let blocked = DenseI8 {
+        weights: &field,
+        ..base
+    };
+    let mut got = vec![0x55u8; m];
+    wide::dense_i16_blocked(&blocked, &input, &mut got);
+    prop_assert_eq!(&got, &want, "int16-input blocked, {}x{}", m, n);
+    Ok(())
+}
+
 proptest! {
     #![proptest_config(ProptestConfig::with_cases(400))]
 
     #[test]
     fn int4_kernels_agree_with_the_naive_reference(c in int4_case()) {
         check_int4(&c)?;
+    }
+
+    #[test]
+    #[cfg(feature = "int16-input")]
+    fn int16_input_kernels_agree_with_the_naive_reference((c, x) in int16_input_case()) {
+        check_int16_input(&c, &x)?;
     }
 
     #[test]
@@ -325,5 +422,35 @@ fn int4_widest_layer_at_the_extremes() {
             pad: 1,
         };
         check_int4(&c).expect("agree");
+    }
+}
+
+/// The int16-input kernels on a wide layer at the extremes (every weight −128 or 127, every
+/// input −32768 or 32767; 512 inputs keep `32768·Σ|w|` within the format's bound): the
+/// blocked kernel's excess-128 partial sums leave i32 on the way and wrap back, the result
+/// still equals the naive sum.
+#[test]
+#[cfg(feature = "int16-input")]
+fn int16_input_wide_layer_at_the_extremes() {
+    let n = 511;
+    for (w, x) in [
+        (-128i8, i16::MIN),
+        (127, i16::MIN),
+        (-128, i16::MAX),
+        (127, i16::MAX),
+    ] {
+        let c = Int8Case {
+            n,
+            m: 5,
+            w: vec![w; 5 * n],
+            x: vec![],
+            bias_seed: vec![0, 1, -1, i64::MAX, i64::MIN],
+            mult: vec![1 << 30; 5],
+            shift: vec![24; 5],
+            zp: 0,
+            relu: false,
+            pad: 2,
+        };
+        check_int16_input(&c, &vec![x; n]).expect("agree");
     }
 }

@@ -44,6 +44,23 @@ pub fn dense_i4(p: &DenseI8<'_>, x: &[u8], out: &mut [u8]) {
     }
 }
 
+/// Naive first layer of an int16-input model (`FORMAT.md` §3.6): `x` holds little-endian
+/// int16 inputs (two bytes each), the weights are output-major int8; then as [`dense_i8`].
+#[inline(never)]
+pub fn dense_i16(p: &DenseI8<'_>, x: &[u8], out: &mut [u8]) {
+    let n = p.inputs;
+    for o in 0..out.len() {
+        let mut acc = i32::from_le_bytes(word(p.bias, o));
+        for i in 0..n {
+            let v = i16::from_le_bytes([x[2 * i], x[2 * i + 1]]);
+            acc += i32::from(p.weights[o * n + i] as i8) * i32::from(v);
+        }
+        let m = i32::from_le_bytes(word(p.multiplier, o));
+        let s = p.shift[o] as i8;
+        out[o] = requantise_reference(acc, m, s, p.zero_point, p.act_min, p.act_max) as u8;
+    }
+}
+
 /// Naive f32 dense layer.
 #[inline(never)]
 pub fn dense_f32(n: usize, w: &[u8], bias: &[u8], relu: bool, x: &[u8], out: &mut [u8]) {

@@ -215,3 +215,91 @@ pub fn run(cases: u32, seed: u32) -> Tally {
     }
     t
 }
+
+/// One random case of the first-layer kernels of an int16-input model (`FORMAT.md` §3.6,
+/// `runtime/src/dense/wide.rs`): output-major and `Blocked4x4` (at a random alignment) against
+/// the naive sum, full-range int16 inputs (one case in 8 all −32768, one all 32767), biases up
+/// to the format's bound `|bias| + 32768 · Σ|w| ≤ 2^31 − 1`.
+fn int16_input_case(rng: &mut Rng) -> bool {
+    use kinglet_runtime::unstable::dense::wide;
+    let n = rng.range(1, MAX_IN as i32) as usize;
+    let m = rng.range(1, MAX_OUT as i32) as usize;
+    let (wmode, xmode) = (rng.next_u32() % 8, rng.next_u32() % 8);
+    let mut w = [0i8; MAX_OM];
+    let w = &mut w[..n * m];
+    for v in w.iter_mut() {
+        *v = rng.i8_byte(wmode) as i8;
+    }
+    let mut x = [0u8; 2 * MAX_IN];
+    for c in x[..2 * n].chunks_exact_mut(2) {
+        let v = match xmode {
+            0 => i16::MIN,
+            1 => i16::MAX,
+            _ => rng.next_u32() as i16,
+        };
+        c.copy_from_slice(&v.to_le_bytes());
+    }
+    let x = &x[..2 * n];
+    let om: &mut [u8] = &mut [0u8; MAX_OM][..n * m];
+    for (d, &s) in om.iter_mut().zip(w.iter()) {
+        *d = s as u8;
+    }
+    let pad = (rng.next_u32() % 4) as usize;
+    let mut field = Aligned([0u8; MAX_BL]);
+    let field = &mut field.0[..pad + layout::elements(n, m)];
+    if !layout::block_i8(n, m, w, &mut field[pad..]) {
+        return false;
+    }
+    let mut bias = [0u8; 4 * MAX_OUT];
+    let mut mult = [0u8; 4 * MAX_OUT];
+    let mut shift = [0u8; MAX_OUT];
+    for o in 0..m {
+        let sum: i64 = w[o * n..(o + 1) * n]
+            .iter()
+            .map(|&v| i64::from(v).abs())
+            .sum();
+        // 32768 · Σ|w| ≤ 32768 · 128 · 70 < 2^29: every row has room for a bias.
+        let room = (i64::from(i32::MAX) - 32_768 * sum).max(0) as u32;
+        let b = (u64::from(rng.next_u32()) % (2 * u64::from(room) + 1)) as i64 - i64::from(room);
+        bias[4 * o..4 * o + 4].copy_from_slice(&(b as i32).to_le_bytes());
+        let mul = (1u32 << 30) + (rng.next_u32() & 0x3FFF_FFFF);
+        mult[4 * o..4 * o + 4].copy_from_slice(&(mul as i32).to_le_bytes());
+    }
+    for s in shift[..m].iter_mut() {
+        *s = rng.range(-2, 31) as i8 as u8;
+    }
+    let zp = rng.next_u32() as u8 as i8;
+    let relu = rng.next_u32().is_multiple_of(2);
+    let base = DenseI8 {
+        inputs: n,
+        weights: om,
+        bias: &bias[..4 * m],
+        multiplier: &mult[..4 * m],
+        shift: &shift[..m],
+        zero_point: zp,
+        act_min: if relu { zp } else { -128 },
+        act_max: 127,
+        table: None,
+    };
+    let blocked = DenseI8 {
+        weights: field,
+        ..base
+    };
+    let mut reference = [0u8; MAX_OUT];
+    naive::dense_i16(&base, x, &mut reference[..m]);
+    let mut om_out = [0u8; MAX_OUT];
+    wide::dense_i16(&base, x, &mut om_out[..m]);
+    let mut bl_out = [0u8; MAX_OUT];
+    wide::dense_i16_blocked(&blocked, x, &mut bl_out[..m]);
+    om_out[..m] == reference[..m] && bl_out[..m] == reference[..m]
+}
+
+/// Runs `cases` random cases of the int16-input first-layer kernels.
+pub fn run_int16_input(cases: u32, seed: u32) -> Tally {
+    let mut rng = Rng::new(seed);
+    let mut t = Tally::default();
+    for _ in 0..cases {
+        t.record(int16_input_case(&mut rng));
+    }
+    t
+}

@@ -3,6 +3,7 @@
 use kinglet_builder::{
     Activation, OutputKind, OwnedInput, OwnedLayer, OwnedModel, OwnedQuant, Precision, WeightLayout,
 };
+use kinglet_runtime::unstable::wire::format::InputWidth;
 use kinglet_runtime::Model;
 
 /// xorshift32 (Marsaglia, 2003), as in the firmware.
@@ -147,7 +148,54 @@ pub fn synth(dir: &str) -> Result<(), String> {
         "i4_784x100.kgl",
         &int4_layer(784, 100, &mut Rng(0x4934_3834))?,
     )?;
+    // The int16-input first layer (format version 7), its own generator as well.
+    let mut rng = Rng(0x4931_3649);
+    for (n, m) in [(784, 100), (64, 64)] {
+        let (b, o) = int16_input_layer(n, m, &mut rng)?;
+        write(dir, &format!("i16in_{n}x{m}.kgl"), &b)?;
+        write(dir, &format!("i16in_{n}x{m}.om.kgl"), &o)?;
+    }
     Ok(())
+}
+
+/// One int8 layer `n → m` of a model whose input tensor is int16 (format version 7, `FORMAT.md`
+/// §3.6: symmetric, zero point 0), uniform scaler as the compact int8 layer blob: blocked blob
+/// (what the packer writes) and output-major twin. Weights uniform in [-127, 127] as
+/// [`int8_layer`] draws them; the format's bound `|bias| + 32768 · Σ|w| ≤ 2^31 − 1` holds with
+/// room for 784 inputs (Σ|w| is about 784 · 64).
+fn int16_input_layer(n: usize, m: usize, rng: &mut Rng) -> Result<Pair, String> {
+    let w: Vec<i8> = (0..n * m)
+        .map(|_| ((rng.next() % 255) as i32 - 127) as i8)
+        .collect();
+    let bias: Vec<i32> = (0..m).map(|_| (rng.next() % 8193) as i32 - 4096).collect();
+    let mult: Vec<i32> = (0..m)
+        .map(|_| (1 << 30) + (rng.next() & 0x3FFF_FFFF) as i32)
+        .collect();
+    // About ±64 at the output: accumulators have a spread of √n · 73 · 18,918 (the standard
+    // deviation of int16 values uniform over their range is 65,536 / √12).
+    let spread = (n as f64).sqrt() * 73.0 * 18_918.0 / 64.0;
+    let shift = vec![(spread.log2().ceil() as i32 - 1).clamp(0, 31) as i8; m];
+    let quant = OwnedQuant::new(&vec![0.01; m], &mult, &shift, 0.1, 0);
+    // The integer path of an input scale of 1/8192: `q = round(8192 x − 2048)`.
+    let mut input = OwnedInput::new(1.0 / 8192.0, 0, &[8192 << 16], &[-2048 << 16], &[16]);
+    input.width = InputWidth::I16;
+    let model = OwnedModel {
+        input_len: n as u32,
+        precision: Precision::Int8,
+        scaler: Some(scaler(1)),
+        input_quant: Some(input),
+        layers: vec![OwnedLayer::int8(
+            n as u32,
+            m as u32,
+            Activation::Linear,
+            &w,
+            &bias,
+            quant,
+        )],
+        output: OutputKind::Softmax,
+        labels: String::new(),
+    };
+    both_layouts(&model)
 }
 
 /// One int4 layer `n → m` (`FORMAT.md` §3.5, uniform scaler as the compact int8 layer blob):

@@ -392,6 +392,20 @@ fn measure(p: &Paths, m: &Machine, blobs: &Path, plugin: &Path) -> Result<Target
             .cases
             .extend(i4_run.cases.into_iter().filter(|c| c.name != "empty"));
     }
+    {
+        // The int16-input first layer and its self-check, a firmware of its own (see
+        // `fw/src/bin/bench_i16.rs`): its self-check counts in the target's totals.
+        let (log_text, counts) = counted(m, &bin, "bench_i16", plugin, &p.out)?;
+        for l in log_text.lines().filter(|l| l.starts_with("selfcheck:")) {
+            println!("{} {l}", m.name);
+        }
+        let run = bench::parse(&format!("{} bench_i16", m.name), &log_text, &counts)?;
+        bench.passed += run.passed;
+        bench.failed += run.failed;
+        bench
+            .cases
+            .extend(run.cases.into_iter().filter(|c| c.name != "empty"));
+    }
     if m.triple.starts_with("thumbv7em") {
         // The f32 whole-model cases, a firmware of their own (see `fw/src/bin/bench_f32.rs`).
         let (log_text, counts) = counted(m, &bin, "bench_f32", plugin, &p.out)?;

@@ -199,6 +199,19 @@ fn fit(
         }
         Weights::F32 => per_mac,
     };
+    // The first layer of an int16-input model: likewise, from the int16-input kernel's count
+    // on the same 784 → 100 shape (its own plain-Rust kernel, `runtime/src/dense/wide.rs`).
+    let per_mac_int16_input = match weights {
+        Weights::Int8 => {
+            let k = |name| {
+                t.bench
+                    .per_mac(name, "kernel")
+                    .ok_or(format!("{}: no {name} kernel count", t.name))
+            };
+            round2(per_mac + k("i16in-784x100")? - k("i8-784x100")?)
+        }
+        Weights::F32 => per_mac,
+    };
     let mut r = Rates {
         target,
         core,
@@ -206,6 +219,7 @@ fn fit(
         feed,
         per_mac,
         per_mac_int4,
+        per_mac_int16_input,
         per_row,
         per_partial_row,
         per_input,
