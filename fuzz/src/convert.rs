@@ -59,12 +59,26 @@ pub fn pack_and_run(model: &FloatModel, seed: &[u8]) {
         bias_correction: true,
         fold_scaler: FoldScaler::Try,
         sections: Sections::ALL,
-        weights: Default::default(),
+        ..RangeMethod::MinMax.into()
     };
     if let Ok(p) = pack_int8_with(model, &data, opts) {
         match Model::parse(&p.blob) {
             Ok(m) => oracle::run_extremes(&m),
             Err(e) => panic!("pack_int8_with wrote a blob the runtime rejects: {e}"),
+        }
+    }
+    // An int16 input tensor (format version 7) with widened layer ranges: its first layer's
+    // accumulator bound is the int16 one, which pack must prove or refuse.
+    let opts = Int8Options {
+        sections: Sections::ALL,
+        input: kinglet_runtime::unstable::wire::format::InputWidth::I16,
+        headroom: 2.0,
+        ..RangeMethod::MinMax.into()
+    };
+    if let Ok(p) = pack_int8_with(model, &data, opts) {
+        match Model::parse(&p.blob) {
+            Ok(m) => oracle::run_extremes(&m),
+            Err(e) => panic!("pack_int8_with (int16 input) wrote a blob the runtime rejects: {e}"),
         }
     }
 }

@@ -363,7 +363,7 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ScratchPlan, FormatError> {
     for (k, l) in d.layers.iter().enumerate() {
         // Only the first layer reads the input tensor.
         let input = if k == 0 {
-            d.input_width()
+            d.input_width_built()
         } else {
             InputWidth::I8
         };
@@ -392,7 +392,7 @@ pub(crate) fn check(d: &ModelDesc<'_>) -> Result<ScratchPlan, FormatError> {
         d.layers.iter().map(|l| l.outputs as usize),
         d.precision.accepted_bytes(),
     )
-    .with_input_width(input_len, d.input_width()))
+    .with_input_width(input_len, d.input_width_built()))
 }
 
 #[cfg(test)]

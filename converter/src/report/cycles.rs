@@ -23,7 +23,9 @@
 //! `per_mac` plus the difference between the int4 and the int8 kernel's instructions per MAC
 //! on the same 784 → 100 layer (the int4 kernels share the int8 ones' block loop and
 //! requantisation, so only the inner loop differs), and is checked against the whole digits
-//! model with int4 weights.
+//! model with int4 weights. `per_mac_int16_input` is found the same way from the int16-input
+//! first-layer kernel (`runtime/src/dense/wide.rs`) on 784 → 100, and costs the first layer of
+//! a blob with an int16 input tensor.
 use serde::Serialize;
 
 /// How far (relative) the estimate may be from a measured whole-model count: what the
@@ -79,8 +81,7 @@ pub struct Rates {
     /// Per multiply-accumulate of the padded weight matrix of the first layer of a model with
     /// an int16 input tensor (format version 7, `runtime/src/dense/wide.rs`): `per_mac` plus
     /// the difference between that kernel's and the int8 kernel's instructions per MAC on the
-    /// 784 → 100 layer, as `per_mac_int4`. Recorded by the harness; not used by the estimate
-    /// yet.
+    /// 784 → 100 layer, as `per_mac_int4`.
     pub per_mac_int16_input: f64,
     /// Per padded output row of a layer.
     pub per_row: f64,
@@ -143,9 +144,9 @@ pub const RATES: [Rates; 5] = [
         per_partial_row: 27.3,
         per_input: 9.33,
         per_layer: 288.46,
-        per_feature: 26.9,
-        per_class: 85.94,
-        fixed: 465.27,
+        per_feature: 26.88,
+        per_class: 87.03,
+        fixed: 392.79,
     },
     Rates {
         target: "Cortex-M4 (DSP)",
@@ -159,9 +160,9 @@ pub const RATES: [Rates; 5] = [
         per_partial_row: 27.3,
         per_input: 9.33,
         per_layer: 288.46,
-        per_feature: 80.17,
-        per_class: 87.75,
-        fixed: 463.76,
+        per_feature: 70.2,
+        per_class: 88.87,
+        fixed: 381.79,
     },
     Rates {
         target: "Cortex-M4F (FPU)",
@@ -175,9 +176,9 @@ pub const RATES: [Rates; 5] = [
         per_partial_row: 31.48,
         per_input: -3.45,
         per_layer: 165.67,
-        per_feature: 39.15,
-        per_class: 100.95,
-        fixed: 346.04,
+        per_feature: 39.16,
+        per_class: 101.14,
+        fixed: 340.9,
     },
     Rates {
         target: "Cortex-M0",
@@ -191,9 +192,9 @@ pub const RATES: [Rates; 5] = [
         per_partial_row: 33.02,
         per_input: 13.92,
         per_layer: 431.62,
-        per_feature: 783.25,
-        per_class: 2750.94,
-        fixed: 883.25,
+        per_feature: 783.2,
+        per_class: 2750.47,
+        fixed: 856.41,
     },
     Rates {
         target: "Cortex-M0",
@@ -207,9 +208,9 @@ pub const RATES: [Rates; 5] = [
         per_partial_row: 33.02,
         per_input: 13.92,
         per_layer: 431.62,
-        per_feature: 177.86,
-        per_class: 2758.14,
-        fixed: 988.61,
+        per_feature: 147.51,
+        per_class: 2756.19,
+        fixed: 949.38,
     },
 ];
 // kb-harness:end rates
@@ -252,6 +253,9 @@ pub struct Layer {
     pub outputs: usize,
     /// Whether its weights are int4 (`Nibble4x4`), which cost [`Rates::per_mac_int4`].
     pub int4: bool,
+    /// Whether it reads an int16 input tensor (the first layer of a format-version-7 blob),
+    /// which costs [`Rates::per_mac_int16_input`].
+    pub int16_input: bool,
 }
 
 impl Layer {
@@ -261,6 +265,7 @@ impl Layer {
             inputs,
             outputs,
             int4: false,
+            int16_input: false,
         }
     }
 }
@@ -279,7 +284,13 @@ pub fn instructions(r: &Rates, features: usize, layers: &[Layer]) -> f64 {
         .map(|l| {
             let (i, o) = (l.inputs, l.outputs);
             let partial = if i % 4 == 0 { 0.0 } else { pad4(o) };
-            let per_mac = if l.int4 { r.per_mac_int4 } else { r.per_mac };
+            let per_mac = if l.int4 {
+                r.per_mac_int4
+            } else if l.int16_input {
+                r.per_mac_int16_input
+            } else {
+                r.per_mac
+            };
             per_mac * pad4(i) * pad4(o)
                 + r.per_row * pad4(o)
                 + r.per_partial_row * partial

@@ -153,10 +153,14 @@ impl BlobReport {
                 model.input_len(),
                 &model
                     .layers()
-                    .map(|l| super::cycles::Layer {
+                    .enumerate()
+                    .map(|(k, l)| super::cycles::Layer {
                         inputs: l.desc.inputs as usize,
                         outputs: l.desc.outputs as usize,
                         int4: l.desc.layout == WeightLayout::Nibble4x4,
+                        int16_input: k == 0
+                            && d.input_width()
+                                == kinglet_runtime::unstable::wire::format::InputWidth::I16,
                     })
                     .collect::<Vec<_>>(),
                 None,

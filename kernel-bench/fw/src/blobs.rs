@@ -70,6 +70,7 @@ blob!(VIBRATION, "vibration.kgl");
 blob!(VIBRATION_OM, "vibration.om.kgl");
 blob!(DIGITS_F32, "digits_float.kgl");
 blob!(DIGITS_INT4, "digits_int4.kgl");
+blob!(DIGITS_INT16_INPUT, "digits_int16_input.kgl");
 blob!(VIBRATION_F32, "vibration_float.kgl");
 blob_unaligned!(I8_784X100_UNALIGNED, "i8_784x100.kgl");
 blob_unaligned!(I8_64X32_UNALIGNED, "i8_64x32.kgl");

@@ -227,7 +227,7 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
     let ex = p.root.join("examples");
     // The int8 blobs keep the integer input path: the benchmark and stack probes feed them
     // raw i16/u8 samples as well as f32 features.
-    let packs: [(&str, &[&str]); 5] = [
+    let packs: [(&str, &[&str]); 6] = [
         (
             "digits",
             &["--calibration", "digits/calibration.csv", "--integer-input"],
@@ -248,6 +248,19 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
                 "digits/calibration.csv",
                 "--weights",
                 "int4",
+            ],
+        ),
+        // An int16 input tensor (format version 7), f32 features only: the int16-input
+        // estimate's whole-model check.
+        (
+            "digits_int16_input",
+            &[
+                "--calibration",
+                "digits/calibration.csv",
+                "--input-tensor",
+                "int16",
+                "--headroom",
+                "2",
             ],
         ),
         ("digits_float", &["--float"]),
@@ -278,6 +291,7 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
         ("vibration", "vibration"),
         ("digits-f32", "digits_float"),
         ("digits-i4", "digits_int4"),
+        ("digits-i16in", "digits_int16_input"),
         ("vibration-f32", "vibration_float"),
         ("i8-784x100", "i8_784x100.whole"),
         ("i8-64x32", "i8_64x32"),
@@ -292,11 +306,15 @@ fn make_blobs(p: &Paths, blobs: &Path) -> Result<rates::Shapes, String> {
         let m = kinglet_runtime::Model::parse(&bytes).map_err(|e| format!("{file}: {e}"))?;
         let layers = m
             .layers()
-            .map(|l| rates::cycles::Layer {
+            .enumerate()
+            .map(|(k, l)| rates::cycles::Layer {
                 inputs: l.desc.inputs as usize,
                 outputs: l.desc.outputs as usize,
                 int4: l.desc.layout
                     == kinglet_runtime::unstable::wire::format::WeightLayout::Nibble4x4,
+                int16_input: k == 0
+                    && m.desc().input_width()
+                        == kinglet_runtime::unstable::wire::format::InputWidth::I16,
             })
             .collect();
         shapes.insert(

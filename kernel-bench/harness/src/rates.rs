@@ -30,6 +30,9 @@ pub const INT8_MODELS: [&str; 5] = ["digits", "vibration", "i8-784x100", "i8-64x
 /// The whole-model cases of int8 models with int4 weights (`bench_i4`), checked with the int8
 /// rates (not fitted to: `per_mac_int4` comes from the layer counts).
 pub const INT4_MODELS: [&str; 1] = ["digits-i4"];
+/// The whole-model cases of int8 models with an int16 input tensor (`bench_i16`), checked with
+/// the int8 rates (not fitted to: `per_mac_int16_input` comes from the layer counts).
+pub const INT16_INPUT_MODELS: [&str; 1] = ["digits-i16in"];
 /// The f32 whole-model cases (Cortex-M4F only; `f32-784x100` does not fit the M0).
 pub const F32_MODELS: [&str; 5] = [
     "digits-f32",
@@ -301,6 +304,7 @@ pub fn check(targets: &[Target], shapes: &Shapes, rates: &[Rates]) -> Result<Vec
         for (weights, models) in [
             (Weights::Int8, &INT8_MODELS[..]),
             (Weights::Int8, &INT4_MODELS[..]),
+            (Weights::Int8, &INT16_INPUT_MODELS[..]),
             (Weights::F32, &F32_MODELS[..]),
         ] {
             for m in models {

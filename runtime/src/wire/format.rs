@@ -349,7 +349,20 @@ impl ModelDesc<'_> {
     /// The input tensor's element type: int16 when the input quantisation says so, else one
     /// byte (int8) — an f32 model's input tensor is f32 ([`Precision::activation_bytes`]).
     pub fn input_width(&self) -> InputWidth {
-        self.input_quant.map_or(InputWidth::I8, |q| q.width)
+        self.input_quant
+            .as_ref()
+            .map_or(InputWidth::I8, |q| q.width)
+    }
+
+    /// [`ModelDesc::input_width`] as this build runs it: without the `int16-input` feature
+    /// always int8 (`Model::parse` has refused an int16 input), so that the int8-only runtime
+    /// compiles no int16 path.
+    pub(crate) fn input_width_built(&self) -> InputWidth {
+        if cfg!(feature = "int16-input") {
+            self.input_width()
+        } else {
+            InputWidth::I8
+        }
     }
 }
 

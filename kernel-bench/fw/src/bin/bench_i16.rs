@@ -10,11 +10,12 @@
 use core::hint::black_box;
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
-use kinglet_firmware_bench::{blobs, marker, naive, rng::Rng, selfcheck};
+use kinglet_firmware_bench::blobs::{self, Aligned};
+use kinglet_firmware_bench::{marker, naive, rng::Rng, selfcheck};
 use kinglet_runtime::unstable::dense::{self, wide, DenseI8};
 use kinglet_runtime::unstable::requant::activation_range;
 use kinglet_runtime::unstable::wire::format::LayerDesc;
-use kinglet_runtime::Model;
+use kinglet_runtime::{Input, Model};
 
 #[panic_handler]
 fn panic(info: &core::panic::PanicInfo<'_>) -> ! {
@@ -114,6 +115,7 @@ fn main() -> ! {
         blobs::I16IN_64X64_OM,
         &mut rng,
     );
+    digits_int16_input(&mut rng);
     hprintln!("kb end");
     debug::exit(if t.failed == 0 {
         debug::EXIT_SUCCESS
@@ -121,6 +123,39 @@ fn main() -> ! {
         debug::EXIT_FAILURE
     });
     park()
+}
+
+/// One whole inference of the digits example with an int16 input tensor, features drawn as
+/// `bench` draws the 64-wide models' (whole numbers 0 to 16): the whole-model check of
+/// `kinglet inspect`'s estimate for such a blob.
+#[inline(never)]
+fn digits_int16_input(rng: &mut Rng) {
+    let m = model(blobs::DIGITS_INT16_INPUT);
+    let mut features = [0f32; 64];
+    for f in features.iter_mut() {
+        *f = (rng.next_u32() % 17) as f32;
+    }
+    assert!(
+        m.input_len() == features.len(),
+        "digits int16 input: {} inputs",
+        m.input_len()
+    );
+    let mut scratch = Aligned([0u8; 512]);
+    let mut scores = [0f32; 10];
+    let macs: usize = m.layers().map(|l| l.macs()).sum();
+    let mut pred = None;
+    case("digits-i16in", "model-kernel", macs, || {
+        pred = Some(m.infer(
+            black_box(Input::F32(&features)),
+            &mut scratch.0,
+            &mut scores,
+        ));
+    });
+    assert!(
+        pred.is_some_and(|p| p.is_ok()),
+        "digits int16-input inference failed"
+    );
+    black_box(&scores);
 }
 
 /// Without a debugger attached the exit call returns; park the core.
