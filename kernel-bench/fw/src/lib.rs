@@ -3,6 +3,7 @@
 #![no_std]
 
 pub mod blobs;
+pub mod counted;
 pub mod marker;
 pub mod naive;
 pub mod rng;

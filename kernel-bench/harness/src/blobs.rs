@@ -56,17 +56,8 @@ type Pair = (Vec<u8>, Vec<u8>);
 /// the same weights, with a uniform one (a few bytes instead of 14 per feature: what the
 /// 784-wide layer cases run, which must fit the Cortex-M0's flash twice).
 fn int8_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Pair, Pair), String> {
-    let w: Vec<i8> = (0..n * m)
-        .map(|_| ((rng.next() % 255) as i32 - 127) as i8)
-        .collect();
-    let bias: Vec<i32> = (0..m).map(|_| (rng.next() % 8193) as i32 - 4096).collect();
-    let mult: Vec<i32> = (0..m)
-        .map(|_| (1 << 30) + (rng.next() & 0x3FFF_FFFF) as i32)
-        .collect();
-    // About ±64 at the output: accumulators have a spread of √n · 73 · 73.
-    let spread = (n as f64).sqrt() * 73.0 * 73.0 / 64.0;
-    let shift = vec![(spread.log2().ceil() as i32 - 1).clamp(0, 31) as i8; m];
-    let quant = OwnedQuant::new(&vec![0.01; m], &mult, &shift, 0.1, 0);
+    // Inputs uniform over int8: a standard deviation of about 73.
+    let (w, bias, quant) = random_int8_layer(n, m, 73.0, rng);
     let model = |features: usize| OwnedModel {
         input_len: n as u32,
         precision: Precision::Int8,
@@ -84,6 +75,32 @@ fn int8_layer(n: usize, m: usize, rng: &mut Rng) -> Result<(Pair, Pair), String>
         labels: String::new(),
     };
     Ok((both_layouts(&model(n))?, both_layouts(&model(1))?))
+}
+
+/// Random int8 weights (uniform in [-127, 127]), biases and multipliers of a layer `n → m`,
+/// drawn in that order, with the shift that brings its outputs to about ±64 for inputs of
+/// standard deviation `input_sd`: accumulators then spread by `√n · 73 · input_sd` (73 being
+/// the weights' standard deviation).
+fn random_int8_layer(
+    n: usize,
+    m: usize,
+    input_sd: f64,
+    rng: &mut Rng,
+) -> (Vec<i8>, Vec<i32>, OwnedQuant) {
+    let w: Vec<i8> = (0..n * m)
+        .map(|_| ((rng.next() % 255) as i32 - 127) as i8)
+        .collect();
+    let bias: Vec<i32> = (0..m).map(|_| (rng.next() % 8193) as i32 - 4096).collect();
+    let mult: Vec<i32> = (0..m)
+        .map(|_| (1 << 30) + (rng.next() & 0x3FFF_FFFF) as i32)
+        .collect();
+    let spread = (n as f64).sqrt() * 73.0 * input_sd / 64.0;
+    let shift = vec![(spread.log2().ceil() as i32 - 1).clamp(0, 31) as i8; m];
+    (
+        w,
+        bias,
+        OwnedQuant::new(&vec![0.01; m], &mult, &shift, 0.1, 0),
+    )
 }
 
 /// One f32 layer `n → m`: blocked blob and output-major twin.
@@ -164,18 +181,8 @@ pub fn synth(dir: &str) -> Result<(), String> {
 /// [`int8_layer`] draws them; the format's bound `|bias| + 32768 · Σ|w| ≤ 2^31 − 1` holds with
 /// room for 784 inputs (Σ|w| is about 784 · 64).
 fn int16_input_layer(n: usize, m: usize, rng: &mut Rng) -> Result<Pair, String> {
-    let w: Vec<i8> = (0..n * m)
-        .map(|_| ((rng.next() % 255) as i32 - 127) as i8)
-        .collect();
-    let bias: Vec<i32> = (0..m).map(|_| (rng.next() % 8193) as i32 - 4096).collect();
-    let mult: Vec<i32> = (0..m)
-        .map(|_| (1 << 30) + (rng.next() & 0x3FFF_FFFF) as i32)
-        .collect();
-    // About ±64 at the output: accumulators have a spread of √n · 73 · 18,918 (the standard
-    // deviation of int16 values uniform over their range is 65,536 / √12).
-    let spread = (n as f64).sqrt() * 73.0 * 18_918.0 / 64.0;
-    let shift = vec![(spread.log2().ceil() as i32 - 1).clamp(0, 31) as i8; m];
-    let quant = OwnedQuant::new(&vec![0.01; m], &mult, &shift, 0.1, 0);
+    // Inputs uniform over int16: a standard deviation of 65,536 / √12 ≈ 18,918.
+    let (w, bias, quant) = random_int8_layer(n, m, 18_918.0, rng);
     // The integer path of an input scale of 1/8192: `q = round(8192 x − 2048)`.
     let mut input = OwnedInput::new(1.0 / 8192.0, 0, &[8192 << 16], &[-2048 << 16], &[16]);
     input.width = InputWidth::I16;

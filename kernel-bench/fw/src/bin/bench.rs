@@ -8,49 +8,17 @@ use core::hint::black_box;
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
 use kinglet_firmware_bench::blobs::{self, Aligned};
-use kinglet_firmware_bench::{marker, naive, rng::Rng, selfcheck};
+use kinglet_firmware_bench::counted::{case, model, params, park};
+use kinglet_firmware_bench::{naive, rng::Rng, selfcheck};
 use kinglet_runtime::unstable::dense::{self, portable, DenseF32, DenseI8};
-use kinglet_runtime::unstable::requant::activation_range;
 use kinglet_runtime::unstable::wire::format::{LayerDesc, WeightLayout};
-use kinglet_runtime::{Input, Model};
+use kinglet_runtime::Input;
 
 #[panic_handler]
 fn panic(info: &core::panic::PanicInfo<'_>) -> ! {
     hprintln!("kb panic {}", info);
     debug::exit(debug::EXIT_FAILURE);
     park()
-}
-
-/// Runs `f` as one counted section named `name` (`macs` multiply-accumulates).
-#[inline(never)]
-fn case(name: &str, variant: &str, macs: usize, f: impl FnOnce()) {
-    hprintln!("kb case {} {} {}", name, variant, macs);
-    marker::start();
-    f();
-    marker::stop();
-}
-
-fn model(blob: &'static [u8]) -> Model<'static> {
-    match Model::parse(blob) {
-        Ok(m) => m,
-        Err(e) => panic!("blob rejected: {}", e),
-    }
-}
-
-fn params<'a>(l: &LayerDesc<'a>) -> DenseI8<'a> {
-    let q = l.quant.expect("int8 layer");
-    let (act_min, act_max) = activation_range(l.activation, q.output_zero_point);
-    DenseI8 {
-        inputs: l.inputs as usize,
-        weights: l.weights,
-        bias: l.bias,
-        multiplier: q.multiplier,
-        shift: q.shift,
-        zero_point: q.output_zero_point,
-        act_min,
-        act_max,
-        table: None,
-    }
 }
 
 /// The layer's kernel as the runtime picks it for its layout.
@@ -454,11 +422,4 @@ fn main() -> ! {
         debug::EXIT_FAILURE
     });
     park()
-}
-
-/// Without a debugger attached the exit call returns; park the core.
-fn park() -> ! {
-    loop {
-        cortex_m::asm::wfi();
-    }
 }

@@ -12,7 +12,8 @@ use core::hint::black_box;
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
 use kinglet_firmware_bench::blobs::{self, Aligned};
-use kinglet_firmware_bench::{marker, rng::Rng};
+use kinglet_firmware_bench::counted::{case, park};
+use kinglet_firmware_bench::rng::Rng;
 use kinglet_runtime::unstable::dense::{self, DenseF32};
 use kinglet_runtime::unstable::wire::format::{Activation, WeightLayout};
 use kinglet_runtime::{Input, Model};
@@ -22,15 +23,6 @@ fn panic(info: &core::panic::PanicInfo<'_>) -> ! {
     hprintln!("kb panic {}", info);
     debug::exit(debug::EXIT_FAILURE);
     park()
-}
-
-/// Runs `f` as one counted section named `name` (`macs` multiply-accumulates), as in `bench`.
-#[inline(never)]
-fn case(name: &str, variant: &str, macs: usize, f: impl FnOnce()) {
-    hprintln!("kb case {} {} {}", name, variant, macs);
-    marker::start();
-    f();
-    marker::stop();
 }
 
 /// `MODEL-L<k+1>` in `buf`.
@@ -101,11 +93,4 @@ fn main() -> ! {
     hprintln!("kb end");
     debug::exit(debug::EXIT_SUCCESS);
     park()
-}
-
-/// Without a debugger attached the exit call returns; park the core.
-fn park() -> ! {
-    loop {
-        cortex_m::asm::wfi();
-    }
 }

@@ -11,49 +11,16 @@ use core::hint::black_box;
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
 use kinglet_firmware_bench::blobs::{self, Aligned};
-use kinglet_firmware_bench::{marker, naive, rng::Rng, selfcheck};
-use kinglet_runtime::unstable::dense::{self, wide, DenseI8};
-use kinglet_runtime::unstable::requant::activation_range;
-use kinglet_runtime::unstable::wire::format::LayerDesc;
-use kinglet_runtime::{Input, Model};
+use kinglet_firmware_bench::counted::{case, model, params, park};
+use kinglet_firmware_bench::{naive, rng::Rng, selfcheck};
+use kinglet_runtime::unstable::dense::{self, wide};
+use kinglet_runtime::Input;
 
 #[panic_handler]
 fn panic(info: &core::panic::PanicInfo<'_>) -> ! {
     hprintln!("kb panic {}", info);
     debug::exit(debug::EXIT_FAILURE);
     park()
-}
-
-/// Runs `f` as one counted section named `name` (`macs` multiply-accumulates), as in `bench`.
-#[inline(never)]
-fn case(name: &str, variant: &str, macs: usize, f: impl FnOnce()) {
-    hprintln!("kb case {} {} {}", name, variant, macs);
-    marker::start();
-    f();
-    marker::stop();
-}
-
-fn model(blob: &'static [u8]) -> Model<'static> {
-    match Model::parse(blob) {
-        Ok(m) => m,
-        Err(e) => panic!("blob rejected: {}", e),
-    }
-}
-
-fn params<'a>(l: &LayerDesc<'a>) -> DenseI8<'a> {
-    let q = l.quant.expect("int8 layer");
-    let (act_min, act_max) = activation_range(l.activation, q.output_zero_point);
-    DenseI8 {
-        inputs: l.inputs as usize,
-        weights: l.weights,
-        bias: l.bias,
-        multiplier: q.multiplier,
-        shift: q.shift,
-        zero_point: q.output_zero_point,
-        act_min,
-        act_max,
-        table: None,
-    }
 }
 
 /// The cases of one int16-input layer: naive, output-major kernel, blocked kernel, each
@@ -156,11 +123,4 @@ fn digits_int16_input(rng: &mut Rng) {
         "digits int16-input inference failed"
     );
     black_box(&scores);
-}
-
-/// Without a debugger attached the exit call returns; park the core.
-fn park() -> ! {
-    loop {
-        cortex_m::asm::wfi();
-    }
 }

@@ -12,10 +12,9 @@ use core::hint::black_box;
 use cortex_m_rt::entry;
 use cortex_m_semihosting::{debug, hprintln};
 use kinglet_firmware_bench::blobs::{self, Aligned};
-use kinglet_firmware_bench::{marker, naive, rng::Rng};
-use kinglet_runtime::unstable::dense::{self, DenseI8};
-use kinglet_runtime::unstable::requant::activation_range;
-use kinglet_runtime::unstable::wire::format::LayerDesc;
+use kinglet_firmware_bench::counted::{case, params, park};
+use kinglet_firmware_bench::{naive, rng::Rng};
+use kinglet_runtime::unstable::dense::{self};
 use kinglet_runtime::{Input, Model};
 
 #[panic_handler]
@@ -23,31 +22,6 @@ fn panic(info: &core::panic::PanicInfo<'_>) -> ! {
     hprintln!("kb panic {}", info);
     debug::exit(debug::EXIT_FAILURE);
     park()
-}
-
-/// Runs `f` as one counted section named `name` (`macs` multiply-accumulates), as in `bench`.
-#[inline(never)]
-fn case(name: &str, variant: &str, macs: usize, f: impl FnOnce()) {
-    hprintln!("kb case {} {} {}", name, variant, macs);
-    marker::start();
-    f();
-    marker::stop();
-}
-
-fn params<'a>(l: &LayerDesc<'a>) -> DenseI8<'a> {
-    let q = l.quant.expect("int8 layer");
-    let (act_min, act_max) = activation_range(l.activation, q.output_zero_point);
-    DenseI8 {
-        inputs: l.inputs as usize,
-        weights: l.weights,
-        bias: l.bias,
-        multiplier: q.multiplier,
-        shift: q.shift,
-        zero_point: q.output_zero_point,
-        act_min,
-        act_max,
-        table: None,
-    }
 }
 
 #[entry]
@@ -119,11 +93,4 @@ fn digits_int4(rng: &mut Rng) {
         "digits int4 inference failed"
     );
     black_box(&scores);
-}
-
-/// Without a debugger attached the exit call returns; park the core.
-fn park() -> ! {
-    loop {
-        cortex_m::asm::wfi();
-    }
 }
