@@ -84,23 +84,15 @@ fn int8_case(rng: &mut Rng) -> bool {
             rng.range(-1, 12)
         } as i8 as u8;
     }
-    let zp = rng.next_u32() as u8 as i8;
-    let relu = rng.next_u32().is_multiple_of(2);
-    let base = DenseI8 {
-        inputs: n,
-        weights: om,
-        bias: &bias[..4 * m],
-        multiplier: &mult[..4 * m],
-        shift: &shift[..m],
-        zero_point: zp,
-        act_min: if relu { zp } else { -128 },
-        act_max: 127,
-        table: None,
-    };
-    let blocked = DenseI8 {
-        weights: field,
-        ..base
-    };
+    let (base, blocked) = case_params(
+        n,
+        om,
+        field,
+        &bias[..4 * m],
+        &mult[..4 * m],
+        &shift[..m],
+        rng,
+    );
     let mut reference = [0u8; MAX_OUT];
     portable::dense_i8(&base, &x[..n], &mut reference[..m]);
     let mut ok = true;
@@ -205,6 +197,39 @@ fn f32_case(rng: &mut Rng) -> bool {
 }
 
 /// Runs `cases` random int8 cases (and as many f32 ones on the FPU target).
+/// The layer of a case over output-major weights `om` and their blocked field `field`, with a
+/// random output zero point and, half the time, a ReLU clamp at it (drawn in that order).
+fn case_params<'a>(
+    n: usize,
+    om: &'a [u8],
+    field: &'a [u8],
+    bias: &'a [u8],
+    multiplier: &'a [u8],
+    shift: &'a [u8],
+    rng: &mut Rng,
+) -> (DenseI8<'a>, DenseI8<'a>) {
+    let zp = rng.next_u32() as u8 as i8;
+    let relu = rng.next_u32().is_multiple_of(2);
+    let base = DenseI8 {
+        inputs: n,
+        weights: om,
+        bias,
+        multiplier,
+        shift,
+        zero_point: zp,
+        act_min: if relu { zp } else { -128 },
+        act_max: 127,
+        table: None,
+    };
+    (
+        base,
+        DenseI8 {
+            weights: field,
+            ..base
+        },
+    )
+}
+
 pub fn run(cases: u32, seed: u32) -> Tally {
     let mut rng = Rng::new(seed);
     let mut t = Tally::default();
@@ -268,23 +293,15 @@ fn int16_input_case(rng: &mut Rng) -> bool {
     for s in shift[..m].iter_mut() {
         *s = rng.range(-2, 31) as i8 as u8;
     }
-    let zp = rng.next_u32() as u8 as i8;
-    let relu = rng.next_u32().is_multiple_of(2);
-    let base = DenseI8 {
-        inputs: n,
-        weights: om,
-        bias: &bias[..4 * m],
-        multiplier: &mult[..4 * m],
-        shift: &shift[..m],
-        zero_point: zp,
-        act_min: if relu { zp } else { -128 },
-        act_max: 127,
-        table: None,
-    };
-    let blocked = DenseI8 {
-        weights: field,
-        ..base
-    };
+    let (base, blocked) = case_params(
+        n,
+        om,
+        field,
+        &bias[..4 * m],
+        &mult[..4 * m],
+        &shift[..m],
+        rng,
+    );
     let mut reference = [0u8; MAX_OUT];
     naive::dense_i16(&base, x, &mut reference[..m]);
     let mut om_out = [0u8; MAX_OUT];
